@@ -1,0 +1,179 @@
+"""Write the demo workbook: one invented slope and one set of lab tests, checked with the
+slopescreen cell functions. Each formula has beside it the value slopescreen's Python gives,
+so a user can see at a glance that the spreadsheet agrees.
+
+    python excel_functions/make_demo_workbook.py [OUT.xlsx]
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+
+import slopescreen_udfs as udf  # noqa: E402
+from openpyxl import Workbook  # noqa: E402
+from openpyxl.styles import Font  # noqa: E402
+
+from slopescreen.cautions import CAUTIONS  # noqa: E402
+from slopescreen.labtests import read_lab_tests  # noqa: E402
+
+DEFAULT_OUT = HERE / "slopescreen_demo.xlsx"
+LAB_TESTS = HERE.parent / "demo_region" / "lab_tests.csv"
+
+# Invented hillside of the fictitious Quillbrook catchment (demo data only).
+SLOPE_INPUTS = [
+    ("slope_deg", 34.0, "slope angle, degrees"),
+    ("depth_m", 1.6, "vertical depth of slip plane, m"),
+    ("cohesion_kpa", 6.0, "effective cohesion c', kPa"),
+    ("friction_deg", 31.0, "effective friction angle phi', degrees"),
+    ("unit_weight_kn_m3", 18.5, "unit weight above water table, kN/m3"),
+    ("saturation", 0.7, "saturation ratio m = hw/z"),
+    ("saturated_unit_weight_kn_m3", 20.0, "unit weight below water table, kN/m3"),
+    ("root_cohesion_kpa", 2.0, "root cohesion, kPa"),
+]
+
+
+def _slope_sheet(wb: Workbook) -> None:
+    ws = wb.active
+    ws.title = "Slope"
+    ws.append(["input", "value", "meaning"])
+    for row in SLOPE_INPUTS:
+        ws.append(list(row))
+    v = {name: value for name, value, _ in SLOPE_INPUTS}
+    ws.append([])
+    ws.append(["result", "formula", "slopescreen Python value"])
+    soil = "B8,B9"  # saturated unit weight, root cohesion
+    results = [
+        (
+            "factor of safety",
+            f"=SS_FS(B2,B3,B4,B5,B6,B7,{soil})",
+            udf.SS_FS(*[v[k] for k, _, _ in SLOPE_INPUTS]),
+        ),
+        (
+            "critical saturation",
+            f"=SS_CRIT_SATURATION(B2,B3,B4,B5,B6,,{soil})",
+            udf.SS_CRIT_SATURATION(34.0, 1.6, 6.0, 31.0, 18.5, None, 20.0, 2.0),
+        ),
+        (
+            "critical depth, m",
+            f"=SS_CRIT_DEPTH(B2,B4,B5,B6,B7,,{soil})",
+            udf.SS_CRIT_DEPTH(34.0, 6.0, 31.0, 18.5, 0.7, None, 20.0, 2.0),
+        ),
+        (
+            "critical slope, deg",
+            f"=SS_CRIT_SLOPE(B3,B4,B5,B6,B7,,{soil})",
+            udf.SS_CRIT_SLOPE(1.6, 6.0, 31.0, 18.5, 0.7, None, 20.0, 2.0),
+        ),
+        (
+            "cohesion for FS 1.3, kPa",
+            f"=SS_REQ_COHESION(B2,B3,B5,B6,B7,1.3,{soil})",
+            udf.SS_REQ_COHESION(34.0, 1.6, 31.0, 18.5, 0.7, 1.3, 20.0, 2.0),
+        ),
+    ]
+    for label, formula, expected in results:
+        ws.append([label, formula, expected])
+    ws.column_dimensions["A"].width = 30
+    ws.column_dimensions["C"].width = 40
+
+
+def _lab_sheet(wb: Workbook) -> None:
+    ws = wb.create_sheet("LabTests")
+    tests = read_lab_tests(LAB_TESTS)
+    cols = tests.columns
+    ws.append(
+        [
+            "specimen",
+            "sigma3_kpa",
+            "sigma1_kpa",
+            "pore_pressure_kpa",
+            "sigma3_eff_kpa",
+            "sigma1_eff_kpa",
+        ]
+    )
+    n = len(tests.labels)
+    for i, label in enumerate(tests.labels):
+        r = i + 2
+        ws.append(
+            [
+                label,
+                float(cols["sigma3_kpa"][i]),
+                float(cols["sigma1_kpa"][i]),
+                float(cols["pore_pressure_kpa"][i]),
+                f"=SS_EFF_STRESS(B{r},D{r})",
+                f"=SS_EFF_STRESS(C{r},D{r})",
+            ]
+        )
+    last = n + 1
+    ws.append([])
+    top = last + 2
+    ws.cell(top, 1, "envelope fit (spills 7 x 2)").font = Font(bold=True)
+    ws.cell(top + 1, 1, f"=SS_ENVELOPE(B2:B{last},C2:C{last},D2:D{last})")
+    expected = udf.SS_ENVELOPE(
+        [[x] for x in cols["sigma3_kpa"]],
+        [[x] for x in cols["sigma1_kpa"]],
+        [[x] for x in cols["pore_pressure_kpa"]],
+    )
+    ws.cell(top, 4, "slopescreen Python value").font = Font(bold=True)
+    for j, (name, value) in enumerate(expected):
+        ws.cell(top + 1 + j, 4, name)
+        ws.cell(top + 1 + j, 5, value)
+    friction_cell = f"B{top + 2}"
+    below = top + 9
+    ws.cell(below, 1, "per test").font = Font(bold=True)
+    ws.append(
+        [
+            "specimen",
+            "Mohr centre, kPa",
+            "Mohr radius, kPa",
+            "failure plane, deg",
+            "sigma'_f, kPa",
+            "tau_f, kPa",
+        ]
+    )
+    for i in range(n):
+        r = i + 2
+        ws.append(
+            [
+                f"=A{r}",
+                f"=SS_MOHR_CENTRE(F{r},E{r})",
+                f"=SS_MOHR_RADIUS(F{r},E{r})",
+                f"=SS_PLANE_ANGLE({friction_cell})",
+                f"=SS_PLANE_STRESSES(F{r},E{r},{friction_cell})",
+            ]
+        )
+    ws.column_dimensions["A"].width = 28
+
+
+def _notes_sheet(wb: Workbook) -> None:
+    ws = wb.create_sheet("Read me")
+    ws.append(
+        [
+            "slopescreen demo workbook: invented data for the fictitious Quillbrook "
+            "catchment; not a real site."
+        ]
+    )
+    ws.append(
+        ["The formulas need the slopescreen cell functions loaded (see excel_functions/README.md)."]
+    )
+    for line in CAUTIONS:
+        ws.append([f"CAUTION: {line}"])
+    ws.column_dimensions["A"].width = 120
+
+
+def write_workbook(out: Path = DEFAULT_OUT) -> Path:
+    wb = Workbook()
+    _slope_sheet(wb)
+    _lab_sheet(wb)
+    _notes_sheet(wb)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = out.with_name(f".{out.name}.tmp")
+    wb.save(tmp)
+    tmp.replace(out)
+    return out
+
+
+if __name__ == "__main__":
+    print(write_workbook(Path(sys.argv[1]) if len(sys.argv) > 1 else DEFAULT_OUT))

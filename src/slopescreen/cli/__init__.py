@@ -1,0 +1,1 @@
+"""The ``slopescreen`` shell: one module per command, shared options in options.py."""

@@ -1,0 +1,116 @@
+"""``slopescreen demo``: run the invented demo region end to end.
+
+Checks one invented hillside with strength fitted from the demo lab tests, and writes the
+Mohr-circle figure and a JSON record of the results under --out.
+
+Example::
+
+    slopescreen demo --out demo_output
+"""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+from typing import Any
+
+from slopescreen.errors import InputError
+
+
+def add_to(sub: Any) -> None:
+    parser = sub.add_parser(
+        "demo",
+        help="run the invented demo region end to end",
+        description=__doc__,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument(
+        "--region",
+        type=Path,
+        default=None,
+        help="demo region folder (default: ./demo_region, else the one shipped "
+        "beside the source tree)",
+    )
+    parser.add_argument(
+        "--out", type=Path, default=Path("demo_output"), help="output folder (default: demo_output)"
+    )
+    parser.set_defaults(run=run)
+
+
+def find_region(region: Path | None) -> Path:
+    candidates = (
+        [region]
+        if region is not None
+        else [Path.cwd() / "demo_region", Path(__file__).resolve().parents[3] / "demo_region"]
+    )
+    for folder in candidates:
+        if (folder / "hillside_slope.toml").is_file():
+            return folder
+    shown = region if region is not None else candidates[0]
+    raise InputError(
+        f"{shown}: demo region not found (needs hillside_slope.toml); "
+        "run from the project folder or pass --region DIR"
+    )
+
+
+def read_slope_file(path: Path) -> dict[str, Any]:
+    import tomllib
+
+    from slopescreen.cli.options import SLOPE_OPTIONS
+
+    try:
+        data = tomllib.loads(path.read_text(encoding="utf-8"))
+    except (OSError, tomllib.TOMLDecodeError) as exc:
+        raise InputError(f"{path}: cannot read slope file ({exc})") from None
+    allowed = {dest: default for _, dest, _, default in SLOPE_OPTIONS}
+    unknown = sorted(set(data) - set(allowed) - {"name"})
+    if unknown:
+        raise InputError(f"{path}: unknown key {unknown[0]!r}; allowed: {', '.join(allowed)}")
+    kwargs: dict[str, Any] = {}
+    for key, default in allowed.items():
+        value = data.get(key, default)
+        if value is None:
+            raise InputError(f"{path}: missing key {key!r}")
+        if not isinstance(value, int | float) or isinstance(value, bool):
+            raise InputError(f"{path}: key {key!r} must be a number, got {value!r}")
+        kwargs[key] = float(value)
+    if kwargs["saturated_unit_weight_kn_m3"] != kwargs["saturated_unit_weight_kn_m3"]:
+        kwargs["saturated_unit_weight_kn_m3"] = None
+    kwargs["name"] = str(data.get("name", path.stem))
+    return kwargs
+
+
+def run(args: argparse.Namespace) -> int:
+    from slopescreen.cautions import CAUTIONS
+    from slopescreen.cli import cmd_envelope, cmd_slope
+    from slopescreen.cli.options import dump_json, finite_or_none
+    from slopescreen.outputs import write_text
+
+    region = find_region(args.region)
+    out = args.out
+    tests_path = region / "lab_tests.csv"
+    tests, fit = cmd_envelope.fit_file(tests_path, out / "mohr_circles.png")
+    print(cmd_envelope.format_text(tests_path, tests, fit).split("\n\n")[0])
+    print(f"  figure written: {out / 'mohr_circles.png'}\n")
+
+    slope = read_slope_file(region / "hillside_slope.toml")
+    name = slope.pop("name")
+    slope["cohesion_kpa"] = max(fit.cohesion_kpa, 0.0)
+    slope["friction_deg"] = fit.friction_deg
+    result = cmd_slope.check_slope(slope)
+    print(f"{name} (strength from the envelope fit above)")
+    print(cmd_slope.format_text(slope, result))
+    record = {
+        "slope": name,
+        "inputs": slope,
+        "envelope": {
+            k: finite_or_none(v) if isinstance(v, float) else v
+            for k, v in fit.as_dict().items()
+            if k != "covariance"
+        },
+        "results": {k: finite_or_none(v) for k, v in result.items() if k != "stresses_kpa"},
+        "cautions": list(CAUTIONS),
+    }
+    write_text(out / "hillside_check.json", dump_json(record) + "\n")
+    print(f"\nresults written: {out / 'hillside_check.json'}")
+    return 0

@@ -1,0 +1,115 @@
+"""``slopescreen envelope``: fit c', phi' to lab tests and draw the Mohr circles.
+
+TESTS.csv holds either triaxial results (columns sigma3_kpa and sigma1_kpa or deviator_kpa,
+optional pore_pressure_kpa and specimen) or direct-shear results (normal_kpa, shear_kpa),
+all in kPa at failure.
+
+Example::
+
+    slopescreen envelope demo_region/lab_tests.csv --plot mohr.png
+"""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+from typing import Any
+
+from slopescreen.cli.options import add_json_option, dump_json
+
+
+def add_to(sub: Any) -> None:
+    parser = sub.add_parser(
+        "envelope",
+        help="fit a Mohr-Coulomb envelope to lab tests",
+        description=__doc__,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("tests", type=Path, metavar="TESTS.csv", help="lab-test CSV file")
+    parser.add_argument(
+        "--plot",
+        type=Path,
+        metavar="PNG",
+        help="write a Mohr-circle figure (triaxial) or envelope plot here",
+    )
+    add_json_option(parser)
+    parser.set_defaults(run=run)
+
+
+def fit_file(path: Path, plot: Path | None = None):
+    """Read, fit and (optionally) plot one lab-test file."""
+    from slopescreen.envelope import fit_direct_shear, fit_envelope
+    from slopescreen.labtests import read_lab_tests
+
+    tests = read_lab_tests(path)
+    cols = tests.columns
+    if tests.kind == "triaxial":
+        u = cols.get("pore_pressure_kpa")
+        fit = fit_envelope(cols["sigma3_kpa"], cols["sigma1_kpa"], u)
+    else:
+        fit = fit_direct_shear(cols["normal_kpa"], cols["shear_kpa"])
+    if plot is not None:
+        if tests.kind == "triaxial":
+            from slopescreen.mohr_plot import plot_mohr_circles
+
+            u = cols.get("pore_pressure_kpa", 0.0)
+            plot_mohr_circles(
+                cols["sigma3_kpa"] - u,
+                cols["sigma1_kpa"] - u,
+                fit,
+                plot,
+                tests.labels,
+                title=f"Mohr circles at failure: {path.name}",
+            )
+        else:
+            from slopescreen.mohr_plot import plot_direct_shear
+
+            plot_direct_shear(
+                cols["normal_kpa"],
+                cols["shear_kpa"],
+                fit,
+                plot,
+                title=f"Direct-shear envelope: {path.name}",
+            )
+    return tests, fit
+
+
+def format_text(path: Path, tests: Any, fit: Any) -> str:
+    from slopescreen.cautions import caution_block
+
+    lines = [
+        f"slopescreen envelope fit: {path} ({fit.n} {tests.kind.replace('_', ' ')} tests, "
+        f"{fit.method})",
+        f"  cohesion c'        {fit.cohesion_kpa:8.2f} kPa   "
+        f"(standard error {fit.cohesion_se_kpa:.2f})",
+        f"  friction phi'      {fit.friction_deg:8.2f} deg   "
+        f"(standard error {fit.friction_se_deg:.2f})",
+        f"  r2                 {fit.r2:8.4f}",
+    ]
+    lines += [f"  WARNING: {w}" for w in fit.warnings]
+    lines += ["", caution_block()]
+    return "\n".join(lines)
+
+
+def run(args: argparse.Namespace) -> int:
+    import math
+
+    from slopescreen.cautions import CAUTIONS
+
+    tests, fit = fit_file(args.tests, args.plot)
+    if args.json:
+        payload = fit.as_dict()
+        for key in ("cohesion_se_kpa", "friction_se_deg"):
+            payload[key] = payload[key] if math.isfinite(payload[key]) else None
+        payload["covariance"] = [
+            [v if math.isfinite(v) else None for v in row] for row in payload["covariance"]
+        ]
+        payload["kind"] = tests.kind
+        payload["file"] = str(args.tests)
+        payload["cautions"] = list(CAUTIONS)
+        print(dump_json(payload))
+    else:
+        print(format_text(args.tests, tests, fit))
+        if args.plot is not None:
+            print(f"  figure written: {args.plot}")
+    return 0

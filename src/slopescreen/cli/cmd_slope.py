@@ -1,0 +1,115 @@
+"""``slopescreen slope``: factor of safety of one infinite slope and its inverse values.
+
+Example::
+
+    slopescreen slope --slope-deg 32 --depth-m 1.5 --cohesion-kpa 4 --friction-deg 33 \\
+        --unit-weight 18.5 --saturated-unit-weight 20 --saturation 0.6
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+from typing import Any
+
+from slopescreen.cli.options import (
+    add_json_option,
+    add_slope_options,
+    dump_json,
+    finite_or_none,
+    slope_kwargs,
+)
+
+
+def add_to(sub: Any) -> None:
+    parser = sub.add_parser(
+        "slope",
+        help="check one slope (FS, critical values, stresses)",
+        description=__doc__,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    add_slope_options(parser)
+    add_json_option(parser)
+    parser.set_defaults(run=run)
+
+
+def check_slope(kwargs: dict[str, Any]) -> dict[str, Any]:
+    """All single-slope results for the given core keyword arguments."""
+    from slopescreen import inverse, stability
+
+    kw = dict(kwargs)
+    target = kw.pop("target_fs")
+    slope, depth = kw.pop("slope_deg"), kw.pop("depth_m")
+    cohesion, friction = kw.pop("cohesion_kpa"), kw.pop("friction_deg")
+    gamma, m = kw.pop("unit_weight_kn_m3"), kw.pop("saturation")
+    root = kw.pop("root_cohesion_kpa")
+    common = dict(kw, root_cohesion_kpa=root)
+    fs = stability.factor_of_safety(slope, depth, cohesion, friction, gamma, m, **common)
+    stresses = stability.slip_plane_stresses(slope, depth, gamma, m, **kw)
+    return {
+        "factor_of_safety": fs,
+        "critical_saturation": inverse.critical_saturation(
+            slope, depth, cohesion, friction, gamma, target_fs=target, **common
+        ),
+        "critical_depth_m": inverse.critical_depth(
+            slope, cohesion, friction, gamma, m, target_fs=target, **common
+        ),
+        "critical_slope_deg": inverse.critical_slope_deg(
+            depth, cohesion, friction, gamma, m, target_fs=target, **common
+        ),
+        "required_cohesion_kpa": inverse.required_cohesion_kpa(
+            slope, depth, friction, gamma, m, target_fs=target, **common
+        ),
+        "stresses_kpa": stresses._asdict(),
+    }
+
+
+def _describe(name: str, value: float, target: float) -> str:
+    if math.isfinite(value):
+        return f"{value:.3f}"
+    if name == "factor_of_safety":
+        return "no driving stress (flat ground): does not fail"
+    return f"none (no value brings FS to {target:g})"
+
+
+def format_text(kwargs: dict[str, Any], result: dict[str, Any]) -> str:
+    from slopescreen.cautions import caution_block
+
+    target = kwargs["target_fs"]
+    fs = result["factor_of_safety"]
+    verdict = "below target" if fs < target else "at or above target"
+    lines = [
+        "slopescreen single-slope check (infinite slope, slope-parallel seepage)",
+        f"  slope {kwargs['slope_deg']:.4g} deg, vertical depth {kwargs['depth_m']:.4g} m, "
+        f"c' {kwargs['cohesion_kpa']:.4g} kPa, phi' {kwargs['friction_deg']:.4g} deg, "
+        f"saturation m {kwargs['saturation']:g}",
+        f"  factor of safety           {_describe('factor_of_safety', fs, target)}  "
+        f"({verdict} {target:g})",
+        f"  critical saturation m      {_describe('m', result['critical_saturation'], target)}"
+        "   (<0: below target even dry; >1: holds even saturated)",
+        f"  critical depth (m)         {_describe('z', result['critical_depth_m'], target)}",
+        f"  critical slope (deg)       {_describe('b', result['critical_slope_deg'], target)}",
+        f"  required cohesion (kPa)    {_describe('c', result['required_cohesion_kpa'], target)}"
+        "   (<=0: none needed)",
+        "  stresses on the slip plane (kPa): "
+        + ", ".join(f"{k.replace('_kpa', '')} {v:.2f}" for k, v in result["stresses_kpa"].items()),
+        "",
+        caution_block(),
+    ]
+    return "\n".join(lines)
+
+
+def run(args: argparse.Namespace) -> int:
+    from slopescreen.cautions import CAUTIONS
+
+    kwargs = slope_kwargs(args)
+    result = check_slope(kwargs)
+    if args.json:
+        payload = {k: finite_or_none(v) for k, v in result.items() if k != "stresses_kpa"}
+        payload["stresses_kpa"] = {k: finite_or_none(v) for k, v in result["stresses_kpa"].items()}
+        payload["inputs"] = kwargs
+        payload["cautions"] = list(CAUTIONS)
+        print(dump_json(payload))
+    else:
+        print(format_text(kwargs, result))
+    return 0

@@ -1,0 +1,69 @@
+"""Options shared by several commands and their conversion to core keyword arguments."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+from typing import Any
+
+# (option, core keyword, help, default); None default = required
+SLOPE_OPTIONS: tuple[tuple[str, str, str, float | None], ...] = (
+    ("--slope-deg", "slope_deg", "slope angle, degrees [0, 90)", None),
+    ("--depth-m", "depth_m", "VERTICAL depth of the slip plane, m (>= 0)", None),
+    ("--cohesion-kpa", "cohesion_kpa", "effective cohesion c', kPa (>= 0)", None),
+    ("--friction-deg", "friction_deg", "effective friction angle phi', degrees [0, 90)", None),
+    ("--unit-weight", "unit_weight_kn_m3", "soil unit weight above the water table, kN/m3", None),
+    ("--saturation", "saturation", "saturation ratio m = h_w / z, [0, 1] (default 0)", 0.0),
+    (
+        "--saturated-unit-weight",
+        "saturated_unit_weight_kn_m3",
+        "unit weight below the water table, kN/m3 (default: --unit-weight)",
+        math.nan,
+    ),
+    ("--root-cohesion-kpa", "root_cohesion_kpa", "apparent root cohesion, kPa (default 0)", 0.0),
+    ("--surcharge-kpa", "surcharge_kpa", "vertical surcharge, kPa (default 0)", 0.0),
+    (
+        "--seismic-coefficient",
+        "seismic_coefficient",
+        "horizontal pseudo-static coefficient k_h, [0, 1) (default 0)",
+        0.0,
+    ),
+    ("--water-unit-weight", "water_unit_weight_kn_m3", "unit weight of water, kN/m3", 9.81),
+    ("--target-fs", "target_fs", "target factor of safety for the inverse values (default 1)", 1.0),
+)
+
+
+def add_slope_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("slope and soil")
+    for option, dest, help_text, default in SLOPE_OPTIONS:
+        group.add_argument(
+            option,
+            dest=dest,
+            type=float,
+            required=default is None,
+            default=default,
+            help=help_text,
+            metavar="X",
+        )
+
+
+def slope_kwargs(args: argparse.Namespace) -> dict[str, Any]:
+    """Core keyword arguments from parsed options (NaN saturated weight = not given)."""
+    out = {dest: getattr(args, dest) for _, dest, _, _ in SLOPE_OPTIONS}
+    if math.isnan(out["saturated_unit_weight_kn_m3"]):
+        out["saturated_unit_weight_kn_m3"] = None
+    return out
+
+
+def add_json_option(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--json", action="store_true", help="print one JSON object instead of text")
+
+
+def finite_or_none(value: float) -> float | None:
+    """JSON has no NaN or infinity: such values become null."""
+    return float(value) if math.isfinite(value) else None
+
+
+def dump_json(obj: object) -> str:
+    return json.dumps(obj, indent=2, allow_nan=False)

@@ -1,0 +1,196 @@
+"""The shell: results, JSON, figures, and one-line errors with exit code 2."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from slopescreen import critical_saturation, factor_of_safety, fit_envelope
+from slopescreen.cli.main import main
+
+ROOT = Path(__file__).resolve().parents[1]
+SLOPE = [
+    "slope",
+    "--slope-deg",
+    "34",
+    "--depth-m",
+    "1.6",
+    "--cohesion-kpa",
+    "6",
+    "--friction-deg",
+    "31",
+    "--unit-weight",
+    "18.5",
+    "--saturated-unit-weight",
+    "20",
+    "--saturation",
+    "0.7",
+]
+
+
+def test_slope_json_matches_core(capsys):
+    assert main([*SLOPE, "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    kw = dict(saturated_unit_weight_kn_m3=20.0)
+    assert out["factor_of_safety"] == pytest.approx(
+        factor_of_safety(34.0, 1.6, 6.0, 31.0, 18.5, 0.7, **kw)
+    )
+    assert out["critical_saturation"] == pytest.approx(
+        critical_saturation(34.0, 1.6, 6.0, 31.0, 18.5, **kw)
+    )
+    assert set(out) >= {
+        "critical_depth_m",
+        "critical_slope_deg",
+        "required_cohesion_kpa",
+        "stresses_kpa",
+        "cautions",
+    }
+
+
+def test_slope_text_shows_cautions(capsys):
+    assert main(SLOPE) == 0
+    text = capsys.readouterr().out
+    assert "factor of safety" in text
+    assert "Screening level only" in text and "licensed geotechnical practice" in text
+
+
+def test_slope_no_solution_is_null_in_json(capsys):
+    args = [
+        "slope",
+        "--slope-deg",
+        "0",
+        "--depth-m",
+        "1",
+        "--cohesion-kpa",
+        "5",
+        "--friction-deg",
+        "30",
+        "--unit-weight",
+        "18",
+        "--json",
+    ]
+    assert main(args) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["factor_of_safety"] is None  # flat ground: no driving stress
+
+
+def _write(tmp_path, text, name="tests.csv"):
+    path = tmp_path / name
+    path.write_text(text)
+    return path
+
+
+def test_envelope_json_and_plot(tmp_path, capsys):
+    csv = _write(
+        tmp_path,
+        "specimen,sigma3_kpa,deviator_kpa,pore_pressure_kpa\n"
+        "A,100,180,40\nB,200,300,90\nC,300,420,130\n",
+    )
+    png = tmp_path / "m.png"
+    assert main(["envelope", str(csv), "--json", "--plot", str(png)]) == 0
+    out = json.loads(capsys.readouterr().out)
+    ref = fit_envelope([100.0, 200.0, 300.0], [280.0, 500.0, 720.0], [40.0, 90.0, 130.0])
+    assert out["cohesion_kpa"] == pytest.approx(ref.cohesion_kpa)
+    assert out["friction_deg"] == pytest.approx(ref.friction_deg)
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_envelope_direct_shear(tmp_path, capsys):
+    csv = _write(tmp_path, "normal_kpa,shear_kpa\n50,40\n100,69\n150,98\n")
+    assert main(["envelope", str(csv), "--plot", str(tmp_path / "d.png")]) == 0
+    assert "direct shear" in capsys.readouterr().out
+    assert (tmp_path / "d.png").stat().st_size > 1000
+
+
+@pytest.mark.parametrize(
+    "text, fragment",
+    [
+        ("sigma3_kpa,pore_pressure_kpa\n100,10\n200,20\n", "sigma1_kpa or deviator_kpa"),
+        ("sigma3_kpa,sigma1_kpa\n100,abc\n200,500\n", "line 2, column sigma1_kpa: 'abc' is not"),
+        ("sigma3_kpa,sigma1_kpa\n-100,300\n200,500\n", "line 2, column sigma3_kpa: -100 kPa"),
+        ("sigma3_kpa,sigma1_kpa\n100,300\n", "at least 2 tests"),
+        ("a,b\n1,2\n", "header must name sigma3_kpa"),
+    ],
+)
+def test_envelope_bad_files(tmp_path, capsys, text, fragment):
+    csv = _write(tmp_path, text)
+    assert main(["envelope", str(csv)]) == 2
+    err = capsys.readouterr().err
+    assert fragment in err and str(csv) in err
+    assert err.count("\n") == 1
+
+
+def test_missing_file(tmp_path, capsys):
+    assert main(["envelope", str(tmp_path / "nope.csv")]) == 2
+    assert "nope.csv: cannot read" in capsys.readouterr().err
+
+
+def test_bad_options_give_one_line(capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(["slope", "--slope-deg", "abc"])
+    assert exc.value.code == 2
+    assert capsys.readouterr().err.count("\n") == 1
+    with pytest.raises(SystemExit) as exc:
+        main([*SLOPE, "--bogus", "1"])
+    assert exc.value.code == 2
+
+
+def test_out_of_range_value_names_option(capsys):
+    args = [*SLOPE]
+    args[args.index("--saturation") + 1] = "1.5"
+    assert main(args) == 2
+    assert "saturation must be in [0, 1], got 1.5" in capsys.readouterr().err
+
+
+def test_console_script_no_traceback():
+    # The installed entry point, as a user runs it.
+    proc = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "slopescreen.cli.main",
+            "slope",
+            "--slope-deg",
+            "95",
+            "--depth-m",
+            "1",
+            "--cohesion-kpa",
+            "1",
+            "--friction-deg",
+            "30",
+            "--unit-weight",
+            "18",
+        ],
+        capture_output=True,
+        text=True,
+        check=False,
+    )
+    assert proc.returncode == 2
+    assert "Traceback" not in proc.stderr
+    assert proc.stderr.strip() == (
+        "slopescreen slope: error: slope_deg must be in [0, 90) degrees, got 95"
+    )
+
+
+def test_demo_runs_end_to_end(tmp_path, capsys):
+    out = tmp_path / "demo"
+    assert main(["demo", "--region", str(ROOT / "demo_region"), "--out", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "Screening level only" in text
+    record = json.loads((out / "hillside_check.json").read_text())
+    assert record["results"]["factor_of_safety"] > 0.0
+    assert (out / "mohr_circles.png").stat().st_size > 1000
+
+
+def test_failed_plot_keeps_previous_figure(tmp_path, capsys):
+    csv = _write(tmp_path, "sigma3_kpa,sigma1_kpa\n100,300\n200,520\n300,760\n")
+    png = tmp_path / "m.png"
+    png.write_bytes(b"previous figure")
+    bad = _write(tmp_path, "sigma3_kpa,sigma1_kpa\n100,300\n200,x\n", "bad.csv")
+    assert main(["envelope", str(bad), "--plot", str(png)]) == 2
+    assert png.read_bytes() == b"previous figure"
+    assert main(["envelope", str(csv), "--plot", str(png)]) == 0
+    assert png.read_bytes()[:4] == b"\x89PNG"
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]

@@ -1,0 +1,150 @@
+"""Inverse solutions: plug back, published values, brute-force scans for the first crossing."""
+
+import numpy as np
+import pytest
+
+from slopescreen import (
+    critical_depth,
+    critical_saturation,
+    critical_slope_deg,
+    factor_of_safety,
+    required_cohesion_kpa,
+)
+
+
+def test_das_example_depth_for_fs_two():
+    # Das, Principles of Geotechnical Engineering, infinite-slope example part (b), from
+    # memory: the thickness H giving Fs = 2 for gamma = 15.7, c' = 9.6, phi' = 15, beta = 25
+    # is printed as H = 1.12 m.
+    assert round(critical_depth(25.0, 9.6, 15.0, 15.7, target_fs=2.0), 2) == 1.12
+
+
+def test_critical_saturation_plugs_back():
+    kw = dict(
+        saturated_unit_weight_kn_m3=20.5,
+        root_cohesion_kpa=1.0,
+        surcharge_kpa=2.0,
+        seismic_coefficient=0.05,
+    )
+    m = critical_saturation(33.0, 1.8, 3.0, 32.0, 18.0, target_fs=1.1, **kw)
+    assert 0.0 < m < 1.0
+    assert factor_of_safety(33.0, 1.8, 3.0, 32.0, 18.0, m, **kw) == pytest.approx(1.1, rel=1e-10)
+
+
+def test_critical_saturation_raw_outside_unit_interval():
+    # Fails even when dry: below 0. Holds even when saturated: above 1.
+    assert critical_saturation(45.0, 2.0, 0.0, 30.0, 18.0) < 0.0
+    assert critical_saturation(15.0, 2.0, 0.0, 35.0, 18.0) > 1.0
+
+
+def test_critical_saturation_nan_when_independent_of_water():
+    # phi' = 0 with gamma_sat = gamma: FS does not depend on m.
+    assert np.isnan(critical_saturation(30.0, 2.0, 10.0, 0.0, 18.0))
+
+
+def test_critical_depth_plugs_back_and_nan_cases():
+    z = critical_depth(38.0, 5.0, 30.0, 18.5, 0.8, saturated_unit_weight_kn_m3=20.0)
+    fs = factor_of_safety(38.0, z, 5.0, 30.0, 18.5, 0.8, saturated_unit_weight_kn_m3=20.0)
+    assert fs == pytest.approx(1.0, rel=1e-10)
+    # Cohesionless and stable: no depth brings FS to 1.
+    assert np.isnan(critical_depth(20.0, 0.0, 35.0, 18.0))
+    # Cohesive soil whose cohesionless limit stays above the target: never reaches it.
+    assert np.isnan(critical_depth(20.0, 5.0, 35.0, 18.0))
+
+
+def test_required_cohesion_plugs_back():
+    c = required_cohesion_kpa(
+        40.0,
+        1.2,
+        28.0,
+        19.0,
+        0.6,
+        saturated_unit_weight_kn_m3=20.0,
+        target_fs=1.3,
+        root_cohesion_kpa=1.5,
+    )
+    assert c > 0.0
+    fs = factor_of_safety(
+        40.0, 1.2, c, 28.0, 19.0, 0.6, saturated_unit_weight_kn_m3=20.0, root_cohesion_kpa=1.5
+    )
+    assert fs == pytest.approx(1.3, rel=1e-10)
+    assert required_cohesion_kpa(15.0, 1.0, 35.0, 18.0) < 0.0  # friction alone suffices
+    assert np.isnan(required_cohesion_kpa(0.0, 1.0, 35.0, 18.0))
+
+
+def _first_crossing_by_scan(target, **kw):
+    """Independent brute force: FS on a 0.001-degree grid, first angle with FS <= target."""
+    beta = np.arange(0.0, 90.0, 0.001)
+    fs = factor_of_safety(beta, **kw)
+    below = np.nonzero(fs <= target)[0]
+    return np.nan if below.size == 0 else beta[below[0]]
+
+
+@pytest.mark.parametrize(
+    "kw, target",
+    [
+        (dict(depth_m=1.5, cohesion_kpa=4.0, friction_deg=30.0, unit_weight_kn_m3=18.0), 1.0),
+        (
+            dict(
+                depth_m=2.0,
+                cohesion_kpa=8.0,
+                friction_deg=25.0,
+                unit_weight_kn_m3=19.0,
+                saturation=1.0,
+                saturated_unit_weight_kn_m3=20.0,
+            ),
+            1.2,
+        ),
+        (
+            dict(
+                depth_m=1.0,
+                cohesion_kpa=3.0,
+                friction_deg=33.0,
+                unit_weight_kn_m3=18.0,
+                seismic_coefficient=0.2,
+            ),
+            1.0,
+        ),
+        (
+            dict(
+                depth_m=0.5,
+                cohesion_kpa=3.0,
+                friction_deg=20.0,
+                unit_weight_kn_m3=18.0,
+                saturation=1.0,
+                saturated_unit_weight_kn_m3=20.0,
+                seismic_coefficient=0.4,
+            ),
+            1.0,
+        ),
+    ],
+)
+def test_critical_slope_is_first_crossing(kw, target):
+    beta = critical_slope_deg(target_fs=target, **kw)
+    assert factor_of_safety(beta, **kw) == pytest.approx(target, rel=1e-8)
+    assert beta == pytest.approx(_first_crossing_by_scan(target, **kw), abs=2e-3)
+
+
+def test_critical_slope_none_when_minimum_stays_above_target():
+    # Strong cohesion on a shallow plane: the FS minimum over beta stays above 1.
+    kw = dict(depth_m=0.5, cohesion_kpa=20.0, friction_deg=30.0, unit_weight_kn_m3=18.0)
+    assert np.isnan(critical_slope_deg(**kw))
+    assert np.isnan(_first_crossing_by_scan(1.0, **kw))
+
+
+def test_critical_slope_zero_when_flat_ground_already_fails():
+    kw = dict(
+        depth_m=2.0,
+        cohesion_kpa=0.0,
+        friction_deg=10.0,
+        unit_weight_kn_m3=18.0,
+        seismic_coefficient=0.3,
+    )
+    assert critical_slope_deg(**kw) == 0.0
+
+
+def test_critical_slope_cohesionless_is_friction_angle():
+    # Dry cohesionless: FS = tan(phi)/tan(beta) = 1 at beta = phi (textbook special case).
+    assert critical_slope_deg(1.0, 0.0, np.array([25.0, 35.0]), 18.0) == pytest.approx(
+        [25.0, 35.0], rel=1e-10
+    )
