@@ -221,6 +221,7 @@ def ratio_or_inf(resisting: ArrayLike, driving: ArrayLike) -> np.ndarray:
         np.asarray(resisting, float), np.asarray(driving, float)
     )
     out = np.full(resisting.shape, np.inf)
-    np.divide(resisting, driving, out=out, where=driving > 0.0)
+    with np.errstate(over="ignore"):  # a vanishing driving stress overflows to +inf: correct
+        np.divide(resisting, driving, out=out, where=driving > 0.0)
     out[(driving <= 0.0) & (resisting <= 0.0)] = np.nan
     return out
