@@ -1,7 +1,9 @@
 """``slopescreen demo``: run the invented demo region end to end.
 
-Checks one invented hillside with strength fitted from the demo lab tests, and writes the
-Mohr-circle figure and a JSON record of the results under --out.
+1. Fits c', phi' to the demo lab tests and draws the Mohr circles.
+2. Checks one invented hillside with that strength.
+3. Runs every scenario of the regional scenario file: terrain, factor-of-safety maps,
+   hazard zones, area tables, report.html and manifest.json, all under --out.
 
 Example::
 
@@ -11,6 +13,7 @@ Example::
 from __future__ import annotations
 
 import argparse
+import sys
 from pathlib import Path
 from typing import Any
 
@@ -44,12 +47,14 @@ def find_region(region: Path | None) -> Path:
         else [Path.cwd() / "demo_region", Path(__file__).resolve().parents[3] / "demo_region"]
     )
     for folder in candidates:
-        if (folder / "hillside_slope.toml").is_file():
+        if (folder / "hillside_slope.toml").is_file() and (
+            folder / "quillbrook_scenarios.toml"
+        ).is_file():
             return folder
     shown = region if region is not None else candidates[0]
     raise InputError(
-        f"{shown}: demo region not found (needs hillside_slope.toml); "
-        "run from the project folder or pass --region DIR"
+        f"{shown}: demo region not found (needs hillside_slope.toml and "
+        "quillbrook_scenarios.toml); run from the project folder or pass --region DIR"
     )
 
 
@@ -81,7 +86,7 @@ def read_slope_file(path: Path) -> dict[str, Any]:
 
 
 def run(args: argparse.Namespace) -> int:
-    from slopescreen.cautions import CAUTIONS
+    from slopescreen.cautions import CAUTIONS, caution_block
     from slopescreen.cli import cmd_envelope, cmd_slope
     from slopescreen.cli.options import dump_json, finite_or_none
     from slopescreen.outputs import write_text
@@ -112,5 +117,13 @@ def run(args: argparse.Namespace) -> int:
         "cautions": list(CAUTIONS),
     }
     write_text(out / "hillside_check.json", dump_json(record) + "\n")
-    print(f"\nresults written: {out / 'hillside_check.json'}")
+    print(f"\nresults written: {out / 'hillside_check.json'}\n")
+
+    from slopescreen.maps.engine import run as run_region
+
+    scenarios = region / "quillbrook_scenarios.toml"
+    print(f"regional run: {scenarios}")
+    run_region(scenarios, out, progress=sys.stderr.isatty())
+    print(f"\nopen {out / 'report.html'} in a browser for the maps and tables.\n")
+    print(caution_block())
     return 0

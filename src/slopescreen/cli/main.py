@@ -6,10 +6,10 @@ import argparse
 import sys
 from collections.abc import Sequence
 
-from slopescreen.cli import cmd_demo, cmd_envelope, cmd_slope
+from slopescreen.cli import cmd_check, cmd_demo, cmd_envelope, cmd_run, cmd_slope
 from slopescreen.errors import InputError
 
-COMMANDS = (cmd_slope, cmd_envelope, cmd_demo)
+COMMANDS = (cmd_slope, cmd_envelope, cmd_run, cmd_check, cmd_demo)
 EXIT_USER_ERROR = 2
 
 

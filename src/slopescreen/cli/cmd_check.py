@@ -1,0 +1,64 @@
+"""``slopescreen check``: validate every input of a scenario file and print what would run.
+
+Reads the DEM, the soil polygons and parameters and any saturation rasters, checks every
+field and range, reports coverage, and lists the scenarios and outputs, without computing.
+
+Example::
+
+    slopescreen check demo_region/quillbrook_scenarios.toml
+"""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+from typing import Any
+
+
+def add_to(sub: Any) -> None:
+    parser = sub.add_parser(
+        "check",
+        help="validate a scenario file and its inputs without computing",
+        description=__doc__,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("scenarios", type=Path, metavar="SCENARIOS.toml")
+    parser.set_defaults(run=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    from slopescreen.hazard import class_names
+    from slopescreen.maps.config import load_config
+    from slopescreen.maps.engine import prepare
+
+    cfg = load_config(args.scenarios)
+    inputs = prepare(cfg)
+    grid, soils = inputs.grid, inputs.soils
+    print(f"scenario file {cfg.path}: valid")
+    print(
+        f"  DEM {cfg.region.dem.name}: {grid.width} x {grid.height} cells, "
+        f"{grid.crs.to_string()}, {grid.spacing_note}"
+    )
+    print(
+        f"  soil units ({len(soils.keys)}): {', '.join(soils.keys)}; "
+        f"{1 - soils.unmapped_share:.1%} of DEM data cells covered"
+    )
+    for w in soils.warnings:
+        print(f"  WARNING: {w}")
+    print(f"  hazard classes: {'; '.join(class_names(cfg.fs_breaks))}")
+    print("  would run:")
+    for sc in cfg.scenarios:
+        extra = f", seismic k_h {sc.seismic_coefficient:g}" if sc.seismic_coefficient else ""
+        over = f", overrides for {', '.join(sc.soil_overrides)}" if sc.soil_overrides else ""
+        print(f"    {sc.name}: {sc.wetness}{extra}{over}")
+    wanted = [
+        "fs.tif",
+        "saturation.tif",
+        "critical_recharge_mm_day.tif",
+        "hazard_class.tif",
+        "summary.csv",
+    ]
+    wanted += ["hazard_zones.gpkg"] * cfg.hazard_zones + ["map.png"] * cfg.quicklook_map
+    print(f"  per scenario: {', '.join(wanted)}")
+    print(f"  across scenarios: {'report.html, ' if cfg.report else ''}manifest.json")
+    return 0

@@ -1,0 +1,57 @@
+"""``slopescreen run``: every scenario of a scenario file, end to end.
+
+Writes, under --out: terrain/ (slope, specific catchment area, soil units, hillshade),
+one folder per scenario (fs.tif, saturation.tif, critical_recharge_mm_day.tif,
+hazard_class.tif, hazard_zones.gpkg, summary.csv, map.png), report.html and manifest.json.
+Terrain is computed once per DEM and cached by content hash (default: OUT/.cache).
+
+Example::
+
+    slopescreen run demo_region/quillbrook_scenarios.toml --out quillbrook_maps
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+from typing import Any
+
+
+def add_to(sub: Any) -> None:
+    parser = sub.add_parser(
+        "run",
+        help="run every scenario of a scenario file (maps, zones, tables, report)",
+        description=__doc__,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("scenarios", type=Path, metavar="SCENARIOS.toml")
+    parser.add_argument(
+        "--out",
+        type=Path,
+        default=None,
+        help="output folder (default: <scenario file name>_output)",
+    )
+    parser.add_argument("--only", nargs="+", metavar="NAME", help="run only these scenarios")
+    parser.add_argument(
+        "--cache", type=Path, default=None, help="terrain cache folder (default: OUT/.cache)"
+    )
+    parser.add_argument("--quiet", action="store_true", help="no progress bars")
+    parser.set_defaults(run=run)
+
+
+def default_out(scenarios: Path) -> Path:
+    return Path(f"{scenarios.stem}_output")
+
+
+def run(args: argparse.Namespace) -> int:
+    from slopescreen.cautions import caution_block
+    from slopescreen.maps.engine import run as run_engine
+
+    out = args.out or default_out(args.scenarios)
+    print(caution_block())
+    run_engine(
+        args.scenarios, out, args.only, args.cache, progress=not args.quiet and sys.stderr.isatty()
+    )
+    print(caution_block())
+    return 0

@@ -1,0 +1,301 @@
+"""The scenario file (TOML): schema, validation and line numbers for errors.
+
+Example (paths are relative to the scenario file)::
+
+    [region]
+    name = "Quillbrook catchment"
+    dem = "quillbrook_dem.tif"
+    dem_elevation_unit = "m"          # "m" or "ft"
+    soil_units = "soil_units.gpkg"
+    soil_unit_field = "unit"
+    soil_table = "soil_parameters.csv"   # optional; else parameters are polygon fields
+
+    [hazard]
+    fs_breaks = [1.0, 1.3, 1.5]
+    min_zone_area_m2 = 500.0
+
+    [outputs]
+    fs_cap = 10.0
+    hazard_zones = true
+    quicklook_map = true
+    report = true
+
+    [[scenario]]
+    name = "wet_season"
+    recharge_mm_day = 40.0            # or saturation = 0.5, or saturation_raster = "m.tif"
+    seismic_coefficient = 0.0
+    [scenario.soil.COL]               # optional per-unit overrides
+    root_cohesion_kpa = 0.0
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from slopescreen._checks import checked
+from slopescreen.errors import InputError
+from slopescreen.hazard import DEFAULT_FS_BREAKS, check_breaks
+
+SOIL_FIELDS: dict[str, tuple[float, float, bool]] = {
+    # field: (low, high, required)
+    "cohesion_kpa": (0.0, 1000.0, True),
+    "friction_deg": (0.0, 70.0, True),
+    "unit_weight_kn_m3": (5.0, 30.0, True),
+    "depth_m": (0.05, 50.0, True),
+    "saturated_unit_weight_kn_m3": (9.81, 30.0, False),
+    "root_cohesion_kpa": (0.0, 200.0, False),
+    "hydraulic_conductivity_m_s": (1e-12, 1.0, False),
+    "transmissivity_m2_day": (1e-9, 1e5, False),
+}
+HYDRAULIC_FIELDS = ("hydraulic_conductivity_m_s", "transmissivity_m2_day")
+WETNESS_KEYS = ("saturation", "saturation_raster", "recharge_mm_day")
+_NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,63}$")
+
+
+@dataclass(frozen=True)
+class Region:
+    name: str
+    dem: Path
+    dem_elevation_unit: str
+    soil_units: Path
+    soil_unit_field: str
+    soil_table: Path | None
+    soil_layer: str | None
+
+
+@dataclass(frozen=True)
+class Scenario:
+    name: str
+    description: str
+    saturation: float | None
+    saturation_raster: Path | None
+    recharge_mm_day: float | None
+    seismic_coefficient: float
+    soil_overrides: dict[str, dict[str, float]] = field(default_factory=dict)
+
+    @property
+    def wetness(self) -> str:
+        """A one-line description of how wetness is set."""
+        if self.recharge_mm_day is not None:
+            return f"steady recharge {self.recharge_mm_day:g} mm/day"
+        if self.saturation_raster is not None:
+            return f"saturation raster {self.saturation_raster.name}"
+        return f"uniform saturation m = {self.saturation:g}"
+
+
+@dataclass(frozen=True)
+class Config:
+    path: Path
+    text: str
+    region: Region
+    fs_breaks: tuple[float, ...]
+    min_zone_area_m2: float
+    fs_cap: float
+    hazard_zones: bool
+    quicklook_map: bool
+    report: bool
+    scenarios: tuple[Scenario, ...]
+
+
+class _Lines:
+    """Where each key stands in the file: (table path, key) -> line number."""
+
+    def __init__(self, text: str) -> None:
+        self.where: dict[tuple[str, str], int] = {}
+        table, scenario_count = "", 0
+        for number, raw in enumerate(text.splitlines(), start=1):
+            line = raw.split("#", 1)[0].strip()
+            if line.startswith("[[") and line.endswith("]]"):
+                name = line[2:-2].strip()
+                if name == "scenario":
+                    scenario_count += 1
+                    table = f"scenario#{scenario_count}"
+                else:
+                    table = name
+                self.where.setdefault((table, ""), number)
+            elif line.startswith("[") and line.endswith("]"):
+                name = line[1:-1].strip()
+                if name.startswith("scenario.") and scenario_count:
+                    name = f"scenario#{scenario_count}" + name[len("scenario") :]
+                table = name
+                self.where.setdefault((table, ""), number)
+            elif "=" in line:
+                key = line.split("=", 1)[0].strip().strip('"')
+                self.where.setdefault((table, key), number)
+
+    def line(self, table: str, key: str = "") -> str:
+        number = self.where.get((table, key)) or self.where.get((table, ""))
+        return f"line {number}" if number else "(no line)"
+
+
+class _Reader:
+    def __init__(self, path: Path, text: str) -> None:
+        self.path = path
+        self.lines = _Lines(text)
+
+    def fail(self, table: str, key: str, message: str) -> InputError:
+        where = f"[{table.split('#')[0]}]" if table else "top level"
+        label = f"{where} {key}".strip() if key else where
+        return InputError(f"{self.path}: {self.lines.line(table, key)}: {label}: {message}")
+
+    def known(self, table: str, data: dict[str, Any], allowed: set[str]) -> None:
+        for key in data:
+            if key not in allowed:
+                raise self.fail(table, key, f"unknown key; allowed: {', '.join(sorted(allowed))}")
+
+    def number(
+        self,
+        table: str,
+        data: dict[str, Any],
+        key: str,
+        low: float,
+        high: float,
+        default: float | None = None,
+    ) -> float | None:
+        if key not in data:
+            return default
+        value = data[key]
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            raise self.fail(table, key, f"must be a number in [{low:g}, {high:g}], got {value!r}")
+        try:
+            return float(checked(key, value, low, high))
+        except InputError as exc:
+            raise self.fail(table, key, str(exc)) from None
+
+    def text(self, table: str, data: dict[str, Any], key: str, default: str | None = None) -> str:
+        value = data.get(key, default)
+        if value is None:
+            raise self.fail(table, key, "missing (required)")
+        if not isinstance(value, str) or not value.strip():
+            raise self.fail(table, key, f"must be a non-empty text, got {value!r}")
+        return value
+
+    def flag(self, table: str, data: dict[str, Any], key: str, default: bool) -> bool:
+        value = data.get(key, default)
+        if not isinstance(value, bool):
+            raise self.fail(table, key, f"must be true or false, got {value!r}")
+        return value
+
+    def file(self, table: str, data: dict[str, Any], key: str) -> Path:
+        path = (self.path.parent / self.text(table, data, key)).resolve()
+        if not path.exists():
+            raise self.fail(table, key, f"file not found: {path}")
+        return path
+
+
+def load_config(path: str | Path) -> Config:
+    """Read and validate a scenario file; raise InputError with file, line and key."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise InputError(f"{path}: cannot read scenario file ({exc.strerror})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{path}: not valid TOML: {exc}") from None
+    r = _Reader(path, text)
+    r.known("", data, {"region", "hazard", "outputs", "scenario"})
+
+    reg = data.get("region")
+    if not isinstance(reg, dict):
+        raise r.fail("region", "", "a [region] table is required")
+    r.known(
+        "region",
+        reg,
+        {
+            "name",
+            "dem",
+            "dem_elevation_unit",
+            "soil_units",
+            "soil_unit_field",
+            "soil_table",
+            "soil_layer",
+        },
+    )
+    unit = r.text("region", reg, "dem_elevation_unit", "m")
+    if unit not in ("m", "ft"):
+        raise r.fail("region", "dem_elevation_unit", f'must be "m" or "ft", got {unit!r}')
+    region = Region(
+        name=r.text("region", reg, "name", path.stem),
+        dem=r.file("region", reg, "dem"),
+        dem_elevation_unit=unit,
+        soil_units=r.file("region", reg, "soil_units"),
+        soil_unit_field=r.text("region", reg, "soil_unit_field", "unit"),
+        soil_table=r.file("region", reg, "soil_table") if "soil_table" in reg else None,
+        soil_layer=r.text("region", reg, "soil_layer") if "soil_layer" in reg else None,
+    )
+
+    haz = data.get("hazard", {})
+    r.known("hazard", haz, {"fs_breaks", "min_zone_area_m2"})
+    try:
+        breaks = tuple(float(b) for b in check_breaks(haz.get("fs_breaks", DEFAULT_FS_BREAKS)))
+    except (InputError, TypeError, ValueError) as exc:
+        raise r.fail("hazard", "fs_breaks", str(exc)) from None
+    min_zone = r.number("hazard", haz, "min_zone_area_m2", 0.0, 1e9, 0.0)
+
+    out = data.get("outputs", {})
+    r.known("outputs", out, {"fs_cap", "hazard_zones", "quicklook_map", "report"})
+    fs_cap = r.number("outputs", out, "fs_cap", 1.5, 1e6, 10.0)
+
+    raw_scenarios = data.get("scenario")
+    if not isinstance(raw_scenarios, list) or not raw_scenarios:
+        raise r.fail("", "scenario", "at least one [[scenario]] table is required")
+    scenarios: list[Scenario] = []
+    for i, sc in enumerate(raw_scenarios, start=1):
+        scenarios.append(_scenario(r, f"scenario#{i}", sc, {s.name for s in scenarios}))
+    return Config(
+        path=path.resolve(),
+        text=text,
+        region=region,
+        fs_breaks=breaks,
+        min_zone_area_m2=float(min_zone),
+        fs_cap=float(fs_cap),
+        hazard_zones=r.flag("outputs", out, "hazard_zones", True),
+        quicklook_map=r.flag("outputs", out, "quicklook_map", True),
+        report=r.flag("outputs", out, "report", True),
+        scenarios=tuple(scenarios),
+    )
+
+
+def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Scenario:
+    r.known(table, sc, {"name", "description", *WETNESS_KEYS, "seismic_coefficient", "soil"})
+    name = r.text(table, sc, "name")
+    if not _NAME.match(name):
+        raise r.fail(
+            table, "name", f"{name!r}: use 1-64 letters, digits, _ . - (it names a folder)"
+        )
+    if name in taken:
+        raise r.fail(table, "name", f"duplicate scenario name {name!r}")
+    given = [k for k in WETNESS_KEYS if k in sc]
+    if len(given) != 1:
+        raise r.fail(
+            table,
+            given[1] if len(given) > 1 else "name",
+            f"scenario {name!r} must set exactly one of {', '.join(WETNESS_KEYS)}",
+        )
+    overrides: dict[str, dict[str, float]] = {}
+    soil = sc.get("soil", {})
+    if not isinstance(soil, dict):
+        raise r.fail(table, "soil", "must be a table of soil units")
+    for unit, fields in soil.items():
+        sub = f"{table}.soil.{unit}"
+        if not isinstance(fields, dict):
+            raise r.fail(sub, "", f"soil override for unit {unit!r} must be a table")
+        r.known(sub, fields, set(SOIL_FIELDS))
+        overrides[str(unit)] = {k: r.number(sub, fields, k, *SOIL_FIELDS[k][:2]) for k in fields}  # type: ignore[misc]
+    return Scenario(
+        name=name,
+        description=str(sc.get("description", "")),
+        saturation=r.number(table, sc, "saturation", 0.0, 1.0),
+        saturation_raster=r.file(table, sc, "saturation_raster")
+        if "saturation_raster" in sc
+        else None,
+        recharge_mm_day=r.number(table, sc, "recharge_mm_day", 0.0, 10000.0),
+        seismic_coefficient=float(r.number(table, sc, "seismic_coefficient", 0.0, 0.99, 0.0)),
+        soil_overrides=overrides,
+    )

@@ -1,0 +1,121 @@
+"""Reading the DEM and measuring its cells in metres (rasterio, pyproj)."""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from slopescreen.errors import InputError
+
+FEET_TO_M = 0.3048
+
+
+@dataclass(frozen=True)
+class Grid:
+    """The DEM's grid: every output shares it."""
+
+    path: Path
+    width: int
+    height: int
+    transform: object  # affine.Affine
+    crs: object  # rasterio.crs.CRS
+    dx_rows_m: np.ndarray  # east-west spacing per row, m
+    dy_m: float  # north-south spacing, m
+    geographic: bool
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        return (self.height, self.width)
+
+    @property
+    def cell_area_rows_m2(self) -> np.ndarray:
+        return self.dx_rows_m * self.dy_m
+
+    @property
+    def spacing_note(self) -> str:
+        if self.geographic:
+            return (
+                "geographic CRS: cells measured in metres row by row on the ellipsoid "
+                "(no resampling); slope and flow use the true metric spacing of each row"
+            )
+        return f"projected CRS, cells {self.dx_rows_m[0]:g} m x {self.dy_m:g} m"
+
+
+def file_sha256(path: Path, chunk: int = 1 << 22) -> str:
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        while block := handle.read(chunk):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def _metric_spacing(transform: object, crs: object, height: int) -> tuple[np.ndarray, float, bool]:
+    from pyproj import Geod
+
+    a, e = transform.a, transform.e  # type: ignore[attr-defined]
+    if crs.is_geographic:  # type: ignore[attr-defined]
+        geod = Geod(**_ellipsoid(crs))
+        lat_centre = transform.f + e * (np.arange(height) + 0.5)  # type: ignore[attr-defined]
+        lon0 = transform.c  # type: ignore[attr-defined]
+        lat_clipped = np.clip(lat_centre, -89.9, 89.9)
+        _, _, dx = geod.inv(
+            np.full(height, lon0), lat_clipped, np.full(height, lon0 + abs(a)), lat_clipped
+        )
+        mid = float(np.clip(lat_centre[height // 2], -89.9, 89.9))
+        _, _, dy = geod.inv(lon0, mid - abs(e) / 2, lon0, mid + abs(e) / 2)
+        return np.asarray(dx, dtype=np.float64), float(dy), True
+    factor = crs.linear_units_factor[1]  # type: ignore[attr-defined]
+    return np.full(height, abs(a) * factor), float(abs(e) * factor), False
+
+
+def _ellipsoid(crs: object) -> dict[str, float]:
+    from pyproj import CRS
+
+    ell = CRS.from_user_input(crs.to_wkt()).ellipsoid  # type: ignore[attr-defined]
+    return {"a": ell.semi_major_metre, "b": ell.semi_minor_metre}
+
+
+def read_dem(path: Path, elevation_unit: str = "m") -> tuple[Grid, np.ndarray]:
+    """The DEM as float64 metres (NaN = no data) and its grid; InputError for bad rasters."""
+    import rasterio
+
+    try:
+        src = rasterio.open(path)
+    except rasterio.errors.RasterioIOError as exc:
+        raise InputError(f"{path}: cannot read DEM ({exc})") from None
+    with src:
+        if src.count != 1:
+            raise InputError(f"{path}: DEM must have one band, found {src.count}")
+        if src.crs is None:
+            raise InputError(
+                f"{path}: DEM has no coordinate reference system; assign one "
+                "(projected in metres, or geographic)"
+            )
+        t = src.transform
+        if t.b != 0.0 or t.d != 0.0 or t.e >= 0.0:
+            raise InputError(f"{path}: DEM must be north-up without rotation")
+        if src.width < 3 or src.height < 3:
+            raise InputError(
+                f"{path}: DEM must be at least 3 x 3 cells, got {src.width} x {src.height}"
+            )
+        z = src.read(1, masked=True).astype(np.float64).filled(np.nan)
+        dx_rows, dy, geographic = _metric_spacing(t, src.crs, src.height)
+        grid = Grid(
+            path=Path(path),
+            width=src.width,
+            height=src.height,
+            transform=t,
+            crs=src.crs,
+            dx_rows_m=dx_rows,
+            dy_m=dy,
+            geographic=geographic,
+        )
+    z[~np.isfinite(z)] = np.nan
+    if elevation_unit == "ft":
+        z *= FEET_TO_M
+    if np.isnan(z).all():
+        raise InputError(f"{path}: DEM holds no data cells")
+    return grid, z

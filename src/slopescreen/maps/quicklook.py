@@ -1,0 +1,138 @@
+"""Quick-look map (PNG): hazard classes over a hillshade, with legend, scale bar, north
+arrow, CRS and scenario name. Colours are sampled from matplotlib's perceptually uniform
+'plasma' colour map."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+
+from slopescreen.cautions import CAUTIONS
+from slopescreen.maps.grid import Grid
+from slopescreen.outputs import replacing
+
+COLOUR_MAP = "plasma"
+
+
+def class_colours(n_classes: int) -> list[tuple[int, ...]]:
+    """RGBA 0-255 per class, least stable first (dark) to most stable (light)."""
+    from matplotlib import colormaps
+
+    rgba = colormaps[COLOUR_MAP](np.linspace(0.05, 0.95, n_classes))
+    return [tuple(int(v) for v in row) for row in np.round(rgba * 255.0)]
+
+
+def colour_table(n_classes: int) -> dict[int, tuple[int, int, int, int]]:
+    """GeoTIFF colour table: 0 (no data) transparent, then the class colours."""
+    table = {0: (0, 0, 0, 0)}
+    table.update({i: c for i, c in enumerate(class_colours(n_classes), start=1)})
+    return table
+
+
+def _nice_length(target: float) -> float:
+    power = 10 ** math.floor(math.log10(target))
+    return max(m * power for m in (1, 2, 5) if m * power <= target)
+
+
+def draw_map(
+    target: Path,
+    grid: Grid,
+    hillshade: np.ndarray,
+    hazard: np.ndarray,
+    class_names: list[str],
+    title: str,
+    subtitle: str,
+) -> Path:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from matplotlib.colors import ListedColormap
+    from matplotlib.patches import Patch
+
+    step = max(1, math.ceil(max(grid.height, grid.width) / 1600))
+    t = grid.transform
+    extent = (t.c, t.c + t.a * grid.width, t.f + t.e * grid.height, t.f)
+    n = len(class_names)
+    colours = np.array(class_colours(n)) / 255.0
+    # metres per CRS unit east-west (middle row) and north-south
+    mx = float(grid.dx_rows_m[grid.height // 2]) / abs(t.a)
+    my = grid.dy_m / abs(t.e)
+    height_over_width = (grid.height * grid.dy_m) / (grid.width * mx * abs(t.a))
+    fig_w = 9.0
+    fig_h = min(max(fig_w * height_over_width * 0.8 + 1.8, 5.0), 14.0)
+    fig, ax = plt.subplots(figsize=(fig_w, fig_h), dpi=120)
+    ax.imshow(
+        np.ma.masked_equal(hillshade[::step, ::step], 0),
+        cmap="gray",
+        extent=extent,
+        interpolation="nearest",
+        vmin=0,
+        vmax=255,
+    )
+    ax.imshow(
+        np.ma.masked_equal(hazard[::step, ::step], 0),
+        cmap=ListedColormap(colours),
+        vmin=0.5,
+        vmax=n + 0.5,
+        alpha=0.6,
+        extent=extent,
+        interpolation="nearest",
+    )
+    ax.set_aspect(my / mx)  # equal metres both ways (degrees of longitude shrink with latitude)
+    handles = [
+        Patch(facecolor=colours[i], edgecolor="0.3", label=name)
+        for i, name in enumerate(class_names)
+    ]
+    ax.legend(
+        handles=handles,
+        loc="lower left",
+        fontsize=7,
+        title="factor of safety",
+        title_fontsize=7,
+        framealpha=0.85,
+    )
+    span_x, span_y = extent[1] - extent[0], extent[3] - extent[2]
+    bar_m = _nice_length(span_x * mx / 5.0)
+    x0, y0 = extent[0] + 0.62 * span_x, extent[2] + 0.04 * span_y
+    ax.plot([x0, x0 + bar_m / mx], [y0, y0], color="black", lw=3, solid_capstyle="butt")
+    label = f"{bar_m / 1000:g} km" if bar_m >= 1000 else f"{bar_m:g} m"
+    ax.text(
+        x0 + bar_m / mx / 2,
+        y0 + 0.015 * span_y,
+        label,
+        ha="center",
+        va="bottom",
+        fontsize=8,
+        bbox={"facecolor": "white", "alpha": 0.7, "edgecolor": "none"},
+    )
+    ax.annotate(
+        "N",
+        xy=(0.95, 0.95),
+        xytext=(0.95, 0.84),
+        xycoords="axes fraction",
+        ha="center",
+        va="center",
+        fontsize=11,
+        fontweight="bold",
+        arrowprops={"arrowstyle": "-|>", "color": "black", "lw": 1.5},
+    )
+    ax.set_title(f"{title}\n{subtitle}", fontsize=10)
+    ax.set_xlabel(f"CRS: {grid.crs.to_string()}", fontsize=7)  # type: ignore[attr-defined]
+    ax.tick_params(labelsize=6)
+    ax.ticklabel_format(useOffset=False, style="plain")
+    fig.text(
+        0.01,
+        0.005,
+        "CAUTION: " + " ".join(CAUTIONS[:1] + CAUTIONS[2:]),
+        fontsize=6,
+        color="0.25",
+        wrap=True,
+    )
+    fig.tight_layout(rect=(0, 0.03, 1, 1))
+    with replacing(target) as tmp:
+        fig.savefig(tmp, format="png")
+    plt.close(fig)
+    return target

@@ -1,0 +1,122 @@
+"""Writing rasters: tiled, compressed Cloud Optimized GeoTIFFs, written whole or not at all.
+
+Blocks are written to a tiled GeoTIFF beside the target, which is then copied to a COG and
+renamed over the target, so an interrupted run leaves any previous file whole.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterator
+from pathlib import Path
+
+import numpy as np
+
+from slopescreen.maps.grid import Grid
+
+BLOCK = 512
+
+
+def windows(grid: Grid, rows_per_block: int = 2048) -> Iterator[tuple[slice, slice]]:
+    """Row bands of the grid, a whole number of tiles high."""
+    for top in range(0, grid.height, rows_per_block):
+        yield slice(top, min(top + rows_per_block, grid.height)), slice(0, grid.width)
+
+
+class RasterSink:
+    """One output raster: ``write(rows, cols, block)`` then ``close()`` (or ``discard()``)."""
+
+    def __init__(
+        self,
+        target: Path,
+        grid: Grid,
+        dtype: str,
+        nodata: float | int,
+        tags: dict[str, str] | None = None,
+        colormap: dict | None = None,
+        resampling: str = "average",
+    ) -> None:
+        import rasterio
+
+        self.target = Path(target)
+        self.target.parent.mkdir(parents=True, exist_ok=True)
+        self.tmp = self.target.with_name(f".{self.target.stem}.part.tif")
+        self.resampling = resampling
+        self.dataset = rasterio.open(
+            self.tmp,
+            "w",
+            driver="GTiff",
+            width=grid.width,
+            height=grid.height,
+            count=1,
+            dtype=dtype,
+            crs=grid.crs,
+            transform=grid.transform,
+            nodata=nodata,
+            tiled=True,
+            blockxsize=BLOCK,
+            blockysize=BLOCK,
+            compress="deflate",
+            BIGTIFF="IF_SAFER",
+        )
+        if tags:
+            self.dataset.update_tags(**tags)
+        if colormap:
+            self.dataset.write_colormap(1, colormap)
+
+    def write(self, rows: slice, cols: slice, block: np.ndarray) -> None:
+        from rasterio.windows import Window
+
+        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+        self.dataset.write(block, 1, window=window)
+
+    def close(self) -> Path:
+        import rasterio.shutil
+
+        self.dataset.close()
+        final_tmp = self.target.with_name(f".{self.target.stem}.cog.tif")
+        try:
+            rasterio.shutil.copy(
+                self.tmp,
+                final_tmp,
+                driver="COG",
+                compress="DEFLATE",
+                BLOCKSIZE=BLOCK,
+                OVERVIEW_RESAMPLING=self.resampling.upper(),
+                BIGTIFF="IF_SAFER",
+            )
+            os.replace(final_tmp, self.target)
+        finally:
+            for leftover in (self.tmp, final_tmp):
+                if leftover.exists():
+                    leftover.unlink()
+        return self.target
+
+    def discard(self) -> None:
+        if not self.dataset.closed:
+            self.dataset.close()
+        if self.tmp.exists():
+            self.tmp.unlink()
+
+
+def write_raster(
+    target: Path, grid: Grid, array: np.ndarray, nodata: float | int, **kwargs: object
+) -> Path:
+    """Write a whole array through a RasterSink."""
+    sink = RasterSink(target, grid, str(array.dtype), nodata, **kwargs)  # type: ignore[arg-type]
+    try:
+        for rows, cols in windows(grid):
+            sink.write(rows, cols, array[rows, cols])
+    except BaseException:
+        sink.discard()
+        raise
+    return sink.close()
+
+
+def read_block(path: Path, rows: slice, cols: slice) -> np.ndarray:
+    import rasterio
+    from rasterio.windows import Window
+
+    with rasterio.open(path) as src:
+        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+        return src.read(1, window=window)

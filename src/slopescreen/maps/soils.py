@@ -1,0 +1,219 @@
+"""Soil units: polygons (geopandas) and their parameters, rasterized onto the DEM grid."""
+
+from __future__ import annotations
+
+import csv
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from slopescreen.errors import InputError
+from slopescreen.maps.config import HYDRAULIC_FIELDS, SOIL_FIELDS, Region
+from slopescreen.maps.grid import Grid
+
+
+@dataclass
+class SoilUnits:
+    """Units numbered 1..N in key order; code 0 is 'no unit'."""
+
+    keys: list[str]
+    parameters: dict[str, np.ndarray]  # field -> values by code (index 0 = NaN)
+    codes: np.ndarray  # uint16 raster on the DEM grid
+    unmapped_share: float  # share of DEM data cells without a unit
+    warnings: list[str] = field(default_factory=list)
+    sources: dict[str, str] = field(default_factory=dict)
+
+    def lookup(self, name: str, codes: np.ndarray) -> np.ndarray:
+        return self.parameters[name][codes]
+
+    def with_overrides(self, overrides: dict[str, dict[str, float]], where: str) -> SoilUnits:
+        """A copy with per-unit parameter overrides applied (unknown units are errors)."""
+        params = {k: v.copy() for k, v in self.parameters.items()}
+        for unit, fields in overrides.items():
+            if unit not in self.keys:
+                raise InputError(
+                    f"{where}: soil override for unknown unit {unit!r}; units: "
+                    f"{', '.join(self.keys)}"
+                )
+            code = self.keys.index(unit) + 1
+            for name, value in fields.items():
+                params[name][code] = value
+                if name in HYDRAULIC_FIELDS:  # one hydraulic property replaces the other
+                    other = next(h for h in HYDRAULIC_FIELDS if h != name)
+                    params[other][code] = np.nan
+        return SoilUnits(
+            self.keys, params, self.codes, self.unmapped_share, self.warnings, self.sources
+        )
+
+
+def _to_float(source: str, unit: str, name: str, value: Any) -> float:
+    if value is None or (isinstance(value, str) and not value.strip()):
+        return math.nan
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise InputError(
+            f"{source}: unit {unit!r}, field {name}: {value!r} is not a number"
+        ) from None
+    return number
+
+
+def _check_unit(source: str, unit: str, values: dict[str, float]) -> None:
+    for name, (low, high, required) in SOIL_FIELDS.items():
+        v = values.get(name, math.nan)
+        if math.isnan(v):
+            if required:
+                raise InputError(
+                    f"{source}: unit {unit!r}, field {name}: missing; required, "
+                    f"allowed range [{low:g}, {high:g}]"
+                )
+            continue
+        if not low <= v <= high:
+            raise InputError(
+                f"{source}: unit {unit!r}, field {name}: {v:g} is outside the "
+                f"allowed range [{low:g}, {high:g}]"
+            )
+    if all(math.isnan(values.get(h, math.nan)) for h in HYDRAULIC_FIELDS):
+        raise InputError(
+            f"{source}: unit {unit!r}: needs hydraulic_conductivity_m_s or transmissivity_m2_day"
+        )
+    sat = values.get("saturated_unit_weight_kn_m3", math.nan)
+    if not math.isnan(sat) and sat < values["unit_weight_kn_m3"]:
+        raise InputError(
+            f"{source}: unit {unit!r}, field saturated_unit_weight_kn_m3: {sat:g} "
+            f"is below unit_weight_kn_m3 ({values['unit_weight_kn_m3']:g})"
+        )
+
+
+def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except OSError as exc:
+        raise InputError(f"{path}: cannot read soil table ({exc.strerror})") from None
+    rows = list(
+        csv.DictReader(
+            line for line in text.splitlines() if line.strip() and not line.lstrip().startswith("#")
+        )
+    )
+    if not rows or key_field not in rows[0]:
+        raise InputError(f"{path}: soil table needs a column {key_field!r} (soil_unit_field)")
+    unknown = sorted(set(rows[0]) - set(SOIL_FIELDS) - {key_field, "name", "description"})
+    if unknown:
+        raise InputError(
+            f"{path}: unknown column {unknown[0]!r}; allowed: "
+            f"{', '.join([key_field, 'name', 'description', *SOIL_FIELDS])}"
+        )
+    table: dict[str, dict[str, Any]] = {}
+    for row in rows:
+        key = str(row[key_field]).strip()
+        if key in table:
+            raise InputError(f"{path}: unit {key!r} appears twice in the soil table")
+        table[key] = row
+    return table
+
+
+def read_polygons(region: Region) -> Any:
+    import geopandas as gpd
+
+    kwargs = {"layer": region.soil_layer} if region.soil_layer else {}
+    try:
+        frame = gpd.read_file(region.soil_units, **kwargs)
+    except Exception as exc:  # any reader failure is a problem with the user file
+        first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        raise InputError(f"{region.soil_units}: cannot read soil polygons ({first})") from None
+    if region.soil_unit_field not in frame.columns:
+        raise InputError(
+            f"{region.soil_units}: no field {region.soil_unit_field!r} "
+            f"(soil_unit_field); fields: {', '.join(map(str, frame.columns))}"
+        )
+    if frame.crs is None:
+        raise InputError(f"{region.soil_units}: soil polygons have no coordinate reference system")
+    frame = frame[frame.geometry.notna() & ~frame.geometry.is_empty]
+    if frame.empty:
+        raise InputError(f"{region.soil_units}: no polygons")
+    frame[region.soil_unit_field] = frame[region.soil_unit_field].astype(str).str.strip()
+    return frame
+
+
+def load_soils(region: Region, grid: Grid, valid: np.ndarray) -> SoilUnits:
+    """Read, validate, reproject and rasterize the soil units onto ``grid``."""
+    from rasterio import features
+    from shapely.geometry import box
+
+    frame = read_polygons(region)
+    key = region.soil_unit_field
+    keys = sorted(frame[key].unique())
+    if region.soil_table is not None:
+        table = _table_from_csv(region.soil_table, key)
+        source = str(region.soil_table)
+        missing = [k for k in keys if k not in table]
+        if missing:
+            raise InputError(
+                f"{source}: unit {missing[0]!r} from {region.soil_units.name} has "
+                "no row in the soil table"
+            )
+        records = {k: table[k] for k in keys}
+    else:
+        source = str(region.soil_units)
+        records = {}
+        for k in keys:
+            rows = frame[frame[key] == k]
+            first = rows.iloc[0]
+            for name in SOIL_FIELDS:
+                if name in rows.columns and rows[name].nunique(dropna=False) > 1:
+                    raise InputError(
+                        f"{source}: unit {k!r}, field {name}: polygons of one unit "
+                        "disagree; give one value per unit"
+                    )
+            records[k] = {name: first[name] for name in SOIL_FIELDS if name in rows.columns}
+    params = {name: np.full(len(keys) + 1, np.nan) for name in SOIL_FIELDS}
+    for code, k in enumerate(keys, start=1):
+        values = {name: _to_float(source, k, name, records[k].get(name)) for name in SOIL_FIELDS}
+        _check_unit(source, k, values)
+        for name, v in values.items():
+            params[name][code] = v
+    sat = params["saturated_unit_weight_kn_m3"]
+    sat[1:] = np.where(
+        np.isnan(sat[1:]), np.maximum(params["unit_weight_kn_m3"][1:], 9.81), sat[1:]
+    )
+    params["root_cohesion_kpa"][1:] = np.nan_to_num(params["root_cohesion_kpa"][1:])
+
+    frame = frame.to_crs(grid.crs)
+    t = grid.transform
+    dem_box = box(t.c, t.f + t.e * grid.height, t.c + t.a * grid.width, t.f)
+    inside = frame.intersects(dem_box)
+    warnings: list[str] = []
+    if not inside.any():
+        raise InputError(
+            f"{region.soil_units}: no soil polygon overlaps the DEM "
+            f"{grid.path.name} (after reprojection to the DEM's CRS)"
+        )
+    outside = sorted(set(frame.loc[~inside, key]) - set(frame.loc[inside, key]))
+    if outside:
+        warnings.append(f"soil units entirely outside the DEM: {', '.join(outside)}")
+    lookup = {k: i for i, k in enumerate(keys, start=1)}
+    shapes = (
+        (geom, lookup[k])
+        for geom, k in zip(frame.geometry[inside], frame.loc[inside, key], strict=True)
+    )
+    codes = features.rasterize(shapes, out_shape=grid.shape, transform=t, fill=0, dtype="uint16")
+    codes[~valid] = 0
+    data_cells = int(valid.sum())
+    unmapped = int((valid & (codes == 0)).sum())
+    share = unmapped / data_cells if data_cells else 0.0
+    if unmapped:
+        warnings.append(
+            f"{share:.1%} of the DEM's data cells ({unmapped} cells) lie in no soil "
+            "unit and are left unmapped"
+        )
+    return SoilUnits(
+        keys,
+        params,
+        codes,
+        share,
+        warnings,
+        {"polygons": str(region.soil_units), "parameters": source},
+    )

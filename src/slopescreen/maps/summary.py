@@ -1,0 +1,57 @@
+"""Area tables: hectares and shares of each hazard class per soil unit and in total."""
+
+from __future__ import annotations
+
+import csv
+import io
+from pathlib import Path
+
+import numpy as np
+
+from slopescreen.outputs import write_text
+
+M2_PER_HA = 10_000.0
+
+
+def add_areas(
+    table: np.ndarray, codes: np.ndarray, classes: np.ndarray, cell_area_rows_m2: np.ndarray
+) -> None:
+    """Add each cell's area to table[unit code, class] (block by block)."""
+    area = np.broadcast_to(cell_area_rows_m2.reshape(-1, 1), codes.shape)
+    np.add.at(table, (codes.ravel(), classes.ravel()), area.ravel())
+
+
+def summary_rows(
+    table: np.ndarray, unit_keys: list[str], class_names: list[str], scenario: str
+) -> list[dict[str, object]]:
+    """Rows per soil unit and class, then totals; classes >= 1 only (0 is no data)."""
+    mapped = table[1:, 1:]
+    total_mapped = float(mapped.sum())
+    rows: list[dict[str, object]] = []
+    units = [(key, mapped[i]) for i, key in enumerate(unit_keys)] + [("ALL", mapped.sum(axis=0))]
+    for key, areas in units:
+        unit_total = float(areas.sum())
+        for cls, name in enumerate(class_names, start=1):
+            a = float(areas[cls - 1])
+            rows.append(
+                {
+                    "scenario": scenario,
+                    "soil_unit": key,
+                    "hazard_class": cls,
+                    "class_name": name,
+                    "area_ha": round(a / M2_PER_HA, 4),
+                    "percent_of_unit": round(100.0 * a / unit_total, 3) if unit_total else 0.0,
+                    "percent_of_mapped_area": round(100.0 * a / total_mapped, 3)
+                    if total_mapped
+                    else 0.0,
+                }
+            )
+    return rows
+
+
+def write_summary(rows: list[dict[str, object]], target: Path) -> Path:
+    buffer = io.StringIO()
+    writer = csv.DictWriter(buffer, fieldnames=list(rows[0]), lineterminator="\n")
+    writer.writeheader()
+    writer.writerows(rows)
+    return write_text(target, buffer.getvalue())

@@ -1,0 +1,237 @@
+"""The map engine end to end on the demo region: outputs, grids, areas and per-cell values.
+
+Expected values are recomputed here from the input files with the core functions (which
+are checked against outside references in test_stability.py and friends) and from an
+independent reading of the soil table with the csv module.
+"""
+
+import csv
+import json
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pytest
+import rasterio
+
+from slopescreen import factor_of_safety
+from slopescreen.cli.main import main
+from slopescreen.hydrology import steady_state_saturation
+from slopescreen.maps.engine import run
+
+ROOT = Path(__file__).resolve().parents[1]
+REGION = ROOT / "demo_region"
+SCENARIOS = REGION / "quillbrook_scenarios.toml"
+PER_SCENARIO = ("fs.tif", "saturation.tif", "critical_recharge_mm_day.tif", "hazard_class.tif")
+NAMES = ("dry_season", "wet_season", "fully_saturated", "wet_season_logged")
+
+
+@pytest.fixture(scope="module")
+def demo_out(tmp_path_factory):
+    out = tmp_path_factory.mktemp("quillbrook")
+    lines = []
+    run(SCENARIOS, out, progress=False, echo=lines.append)
+    return out, lines
+
+
+def _soil_table():
+    with open(REGION / "soil_parameters.csv") as handle:
+        rows = [r for r in csv.DictReader(line for line in handle if not line.startswith("#"))]
+    return {
+        r["unit"]: {k: float(v) for k, v in r.items() if k not in ("unit", "name")} for r in rows
+    }
+
+
+def _read(path):
+    with rasterio.open(path) as src:
+        return src.read(1), src.profile, src.tags(), src.tags(ns="IMAGE_STRUCTURE")
+
+
+def test_every_output_exists_opens_and_shares_the_dem_grid(demo_out):
+    out, _ = demo_out
+    with rasterio.open(REGION / "quillbrook_dem.tif") as dem:
+        crs, transform, shape = dem.crs, dem.transform, dem.shape
+    rasters = [
+        out / "terrain" / n
+        for n in (
+            "slope_deg.tif",
+            "specific_catchment_area_m.tif",
+            "soil_unit.tif",
+            "hillshade.tif",
+        )
+    ]
+    rasters += [out / s / n for s in NAMES for n in PER_SCENARIO]
+    for path in rasters:
+        with rasterio.open(path) as src:
+            assert (src.crs, src.transform, src.shape) == (crs, transform, shape), path
+            assert src.profile["tiled"] and src.profile["compress"] == "deflate"
+            assert src.tags(ns="IMAGE_STRUCTURE").get("LAYOUT") == "COG", path
+            assert src.nodata is not None
+    for s in NAMES:
+        zones = gpd.read_file(out / s / "hazard_zones.gpkg")
+        assert zones.crs == crs
+        assert (out / s / "map.png").read_bytes()[:4] == b"\x89PNG"
+        assert (out / s / "summary.csv").stat().st_size > 0
+    report = (out / "report.html").read_text()
+    assert all(s in report for s in NAMES)
+    assert "Screening level only" in report and "licensed geotechnical practice" in report
+    manifest = json.loads((out / "manifest.json").read_text())
+    assert set(manifest["inputs_sha256"]) >= {"dem", "soil_units", "soil_table", "scenario_file"}
+    assert manifest["timings_s"] and manifest["outputs"]
+
+
+def test_summary_areas_add_up_to_mapped_area(demo_out):
+    out, _ = demo_out
+    for s in NAMES:
+        classes, profile, _, _ = _read(out / s / "hazard_class.tif")
+        cell_ha = abs(profile["transform"].a * profile["transform"].e) / 10_000.0
+        mapped_ha = float((classes > 0).sum()) * cell_ha
+        with open(out / s / "summary.csv") as handle:
+            rows = list(csv.DictReader(handle))
+        total = sum(float(r["area_ha"]) for r in rows if r["soil_unit"] == "ALL")
+        per_unit = sum(float(r["area_ha"]) for r in rows if r["soil_unit"] != "ALL")
+        assert total == pytest.approx(mapped_ha, rel=1e-6)
+        assert per_unit == pytest.approx(mapped_ha, rel=1e-6)
+        for cls in (1, 2, 3, 4):
+            class_ha = float((classes == cls).sum()) * cell_ha
+            row = next(r for r in rows if r["soil_unit"] == "ALL" and int(r["hazard_class"]) == cls)
+            assert float(row["area_ha"]) == pytest.approx(class_ha, abs=1e-3)
+        assert sum(
+            float(r["percent_of_mapped_area"]) for r in rows if r["soil_unit"] == "ALL"
+        ) == pytest.approx(100.0, abs=0.01)
+
+
+@pytest.mark.parametrize("scenario", ["dry_season", "wet_season", "wet_season_logged"])
+def test_fs_raster_matches_core_at_sampled_cells(demo_out, scenario):
+    out, _ = demo_out
+    fs, _, tags, _ = _read(out / scenario / "fs.tif")
+    slope, *_ = _read(out / "terrain" / "slope_deg.tif")
+    sca, *_ = _read(out / "terrain" / "specific_catchment_area_m.tif")
+    units, _, unit_tags, _ = _read(out / "terrain" / "soil_unit.tif")
+    table = _soil_table()
+    cap = float(tags["fs_cap"])
+    rng = np.random.default_rng(1)
+    rows, cols = np.nonzero(fs != -9999.0)
+    pick = rng.choice(rows.size, 300, replace=False)
+    for r, c in zip(rows[pick], cols[pick], strict=True):
+        p = dict(table[unit_tags[f"unit_{units[r, c]}"]])
+        if scenario == "wet_season_logged" and unit_tags[f"unit_{units[r, c]}"] in ("SLP", "COL"):
+            p["root_cohesion_kpa"] = 0.0
+        beta = float(slope[r, c])
+        if scenario == "dry_season":
+            m = 0.1
+        else:  # steady recharge 10 mm/day, T = K z cos(beta) (Montgomery & Dietrich 1994)
+            t = p["hydraulic_conductivity_m_s"] * 86400.0 * p["depth_m"] * np.cos(np.radians(beta))
+            m = min(1.0, 0.010 * float(sca[r, c]) / (t * np.sin(np.radians(beta))))
+            assert m == pytest.approx(
+                float(steady_state_saturation(10.0, float(sca[r, c]), beta, t)), rel=1e-9
+            )
+        expected = factor_of_safety(
+            beta,
+            p["depth_m"],
+            p["cohesion_kpa"],
+            p["friction_deg"],
+            p["unit_weight_kn_m3"],
+            m,
+            saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"],
+            root_cohesion_kpa=p["root_cohesion_kpa"],
+        )
+        assert fs[r, c] == pytest.approx(min(expected, cap), rel=2e-6)
+
+
+def test_critical_recharge_brings_fs_to_one(demo_out):
+    out, _ = demo_out
+    rc, _, tags, _ = _read(out / "wet_season" / "critical_recharge_mm_day.tif")
+    assert tags["code_fails_when_dry"] == "-1" and tags["code_holds_when_saturated"] == "-2"
+    slope, *_ = _read(out / "terrain" / "slope_deg.tif")
+    sca, *_ = _read(out / "terrain" / "specific_catchment_area_m.tif")
+    units, _, unit_tags, _ = _read(out / "terrain" / "soil_unit.tif")
+    fs_dry, *_ = _read(out / "dry_season" / "fs.tif")
+    table = _soil_table()
+    rows, cols = np.nonzero(rc > 0.0)
+    assert rows.size > 100
+    assert ((rc == -1) | (rc == -2) | (rc >= 0) | (rc == -9999)).all()
+    for r, c in list(zip(rows, cols, strict=True))[:: max(1, rows.size // 200)]:
+        p = table[unit_tags[f"unit_{units[r, c]}"]]
+        beta = float(slope[r, c])
+        t = p["hydraulic_conductivity_m_s"] * 86400.0 * p["depth_m"] * np.cos(np.radians(beta))
+        m = float(steady_state_saturation(float(rc[r, c]), float(sca[r, c]), beta, t))
+        fs = factor_of_safety(
+            beta,
+            p["depth_m"],
+            p["cohesion_kpa"],
+            p["friction_deg"],
+            p["unit_weight_kn_m3"],
+            m,
+            saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"],
+            root_cohesion_kpa=p["root_cohesion_kpa"],
+        )
+        assert fs == pytest.approx(1.0, abs=1e-4)
+    # cells coded "fails even when dry" are below 1 in a nearly dry scenario too
+    assert (fs_dry[rc == -1] < 1.0).all()
+
+
+def test_hazard_classes_colour_table_and_names(demo_out):
+    out, _ = demo_out
+    with rasterio.open(out / "wet_season" / "hazard_class.tif") as src:
+        cmap = src.colormap(1)
+        tags = src.tags()
+        data = src.read(1)
+    assert cmap[0][3] == 0 and all(cmap[i][3] == 255 for i in (1, 2, 3, 4))
+    assert tags["class_1"].startswith("failing") and "FS < 1" in tags["class_1"]
+    assert set(np.unique(data)) <= {0, 1, 2, 3, 4}
+    fs, *_ = _read(out / "wet_season" / "fs.tif")
+    # common practice breaks 1.0 / 1.3 / 1.5
+    assert (fs[data == 1] < 1.0).all() and (fs[data == 4] >= 1.5).all()
+    assert ((fs[data == 2] >= 1.0) & (fs[data == 2] < 1.3)).all()
+
+
+def test_zones_hold_the_two_least_stable_classes(demo_out):
+    out, _ = demo_out
+    zones = gpd.read_file(out / "wet_season" / "hazard_zones.gpkg")
+    assert len(zones) > 0
+    assert set(zones["hazard_class"]) <= {1, 2}
+    assert (zones["area_m2"] >= 500.0).all()
+    assert np.allclose(zones["area_m2"], zones.geometry.area, rtol=1e-9)
+    assert set(zones["soil_unit"]) <= set(_soil_table())
+    with open(out / "wet_season" / "summary.csv") as handle:
+        rows = list(csv.DictReader(handle))
+    for cls in (1, 2):
+        class_m2 = 10_000 * next(
+            float(r["area_ha"])
+            for r in rows
+            if r["soil_unit"] == "ALL" and int(r["hazard_class"]) == cls
+        )
+        zone_m2 = zones.loc[zones["hazard_class"] == cls, "area_m2"].sum()
+        assert 0.5 * class_m2 < zone_m2 <= class_m2 + 1e-6
+
+
+def test_rerun_reuses_terrain_and_reproduces_outputs(demo_out):
+    out, lines = demo_out
+    assert any("terrain: computed" in line for line in lines)
+    first = json.loads((out / "manifest.json").read_text())
+    again = []
+    run(SCENARIOS, out, only=["wet_season"], progress=False, echo=again.append)
+    second = json.loads((out / "manifest.json").read_text())
+    assert second["terrain"]["reused"] is True
+    assert any("reused from cache" in line for line in again)
+    for name in (*PER_SCENARIO, "summary.csv", "hazard_zones.gpkg"):
+        key = f"wet_season/{name}"
+        assert second["outputs"][key] == first["outputs"][key], key
+
+
+def test_check_and_run_commands(tmp_path, capsys):
+    assert main(["check", str(SCENARIOS)]) == 0
+    text = capsys.readouterr().out
+    assert "valid" in text and all(s in text for s in NAMES)
+    assert not (tmp_path / "x").exists()
+    assert (
+        main(
+            ["run", str(SCENARIOS), "--out", str(tmp_path / "x"), "--only", "dry_season", "--quiet"]
+        )
+        == 0
+    )
+    text = capsys.readouterr().out
+    assert "Screening level only" in text
+    assert (tmp_path / "x" / "dry_season" / "fs.tif").exists()
+    assert not (tmp_path / "x" / "wet_season").exists()

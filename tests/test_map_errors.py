@@ -1,0 +1,287 @@
+"""Bad inputs to the map engine: one line naming file and field, exit code 2, and nothing
+already written is damaged. Uses a small region made here (invented data)."""
+
+import json
+import os
+
+import geopandas as gpd
+import numpy as np
+import pytest
+import rasterio
+from rasterio.transform import from_origin
+from shapely.geometry import box
+
+from slopescreen.cli.main import main
+from slopescreen.maps import engine
+
+PARAMS = {
+    "cohesion_kpa": 2.0,
+    "friction_deg": 30.0,
+    "unit_weight_kn_m3": 18.0,
+    "depth_m": 1.5,
+    "hydraulic_conductivity_m_s": 1e-5,
+}
+
+
+def _dem(path, crs="EPSG:32633", rows=40, cols=50, origin=(500000.0, 5000400.0), cell=10.0):
+    y, x = np.mgrid[0:rows, 0:cols].astype(float)
+    z = 300.0 - 6.0 * np.abs(x - cols / 2) - 2.0 * y
+    kwargs = {"crs": crs} if crs else {}
+    with rasterio.open(
+        path,
+        "w",
+        driver="GTiff",
+        width=cols,
+        height=rows,
+        count=1,
+        dtype="float32",
+        transform=from_origin(*origin, cell, cell),
+        nodata=-9999.0,
+        **kwargs,
+    ) as dst:
+        dst.write(z.astype(np.float32), 1)
+    return path
+
+
+def _polygons(
+    path, bounds=(500000.0, 5000000.0, 500500.0, 5000400.0), crs="EPSG:32633", **overrides
+):
+    x0, y0, x1, y1 = bounds
+    xm = (x0 + x1) / 2
+    rows = [dict(PARAMS, unit="A", **overrides), dict(PARAMS, unit="B", cohesion_kpa=5.0)]
+    frame = gpd.GeoDataFrame(rows, geometry=[box(x0, y0, xm, y1), box(xm, y0, x1, y1)], crs=crs)
+    frame.to_file(path, driver="GeoJSON")
+    return path
+
+
+SCENARIO_TEXT = """[region]
+name = "test region"
+dem = "dem.tif"
+soil_units = "soils.geojson"
+soil_unit_field = "unit"
+
+[hazard]
+min_zone_area_m2 = 0.0
+
+[[scenario]]
+name = "wet"
+recharge_mm_day = 40.0
+
+[[scenario]]
+name = "dry"
+saturation = 0.0
+"""
+
+
+@pytest.fixture
+def region(tmp_path):
+    _dem(tmp_path / "dem.tif")
+    _polygons(tmp_path / "soils.geojson")
+    toml = tmp_path / "scenarios.toml"
+    toml.write_text(SCENARIO_TEXT)
+    return tmp_path, toml
+
+
+def _fails(capsys, toml, *fragments, command="check"):
+    code = main(
+        [command, str(toml), "--out", str(toml.parent / "out")]
+        if command == "run"
+        else [command, str(toml)]
+    )
+    err = capsys.readouterr().err
+    assert code == 2, err
+    assert err.count("\n") == 1, err
+    assert "Traceback" not in err
+    for fragment in fragments:
+        assert fragment in err, err
+    return err
+
+
+def test_small_region_runs(region, capsys):
+    folder, toml = region
+    assert main(["run", str(toml), "--out", str(folder / "out"), "--quiet"]) == 0
+    with rasterio.open(folder / "out" / "wet" / "fs.tif") as src:
+        assert src.shape == (40, 50)
+
+
+def test_missing_dem(region, capsys):
+    folder, toml = region
+    os.remove(folder / "dem.tif")
+    _fails(capsys, toml, "scenarios.toml: line 3: [region] dem: file not found")
+
+
+def test_dem_without_crs(region, capsys):
+    folder, toml = region
+    _dem(folder / "dem.tif", crs=None)
+    _fails(capsys, toml, "dem.tif: DEM has no coordinate reference system")
+
+
+def test_polygons_miss_the_dem(region, capsys):
+    folder, toml = region
+    _polygons(folder / "soils.geojson", bounds=(600000.0, 5100000.0, 600500.0, 5100400.0))
+    _fails(capsys, toml, "soils.geojson: no soil polygon overlaps the DEM")
+
+
+def test_missing_soil_parameter(region, capsys):
+    folder, toml = region
+    frame = gpd.read_file(folder / "soils.geojson").drop(columns=["friction_deg"])
+    frame.to_file(folder / "soils.geojson", driver="GeoJSON")
+    _fails(
+        capsys,
+        toml,
+        "soils.geojson: unit 'A', field friction_deg: missing",
+        "allowed range [0, 70]",
+    )
+
+
+def test_out_of_range_soil_parameter(region, capsys):
+    folder, toml = region
+    _polygons(folder / "soils.geojson", cohesion_kpa=-5.0)
+    _fails(capsys, toml, "unit 'A', field cohesion_kpa: -5 is outside the allowed range")
+
+
+def test_unknown_key_names_the_line(region, capsys):
+    _folder, toml = region
+    toml.write_text(SCENARIO_TEXT.replace("recharge_mm_day = 40.0", "rechrage_mm_day = 40.0"))
+    _fails(capsys, toml, "line 12: [scenario] rechrage_mm_day: unknown key")
+
+
+def test_duplicate_scenario_name(region, capsys):
+    _folder, toml = region
+    toml.write_text(SCENARIO_TEXT.replace('name = "dry"', 'name = "wet"'))
+    _fails(capsys, toml, "line 15: [scenario] name: duplicate scenario name 'wet'")
+
+
+def test_out_of_range_scenario_value(region, capsys):
+    _folder, toml = region
+    toml.write_text(SCENARIO_TEXT.replace("saturation = 0.0", "saturation = 1.5"))
+    _fails(capsys, toml, "line 16: [scenario] saturation: saturation must be in [0, 1]")
+
+
+def test_soil_table_missing_unit(region, capsys):
+    folder, toml = region
+    (folder / "table.csv").write_text(
+        "unit,cohesion_kpa,friction_deg,unit_weight_kn_m3,"
+        "depth_m,hydraulic_conductivity_m_s\nA,1,30,18,1,1e-5\n"
+    )
+    toml.write_text(
+        SCENARIO_TEXT.replace(
+            'soil_unit_field = "unit"', 'soil_unit_field = "unit"\nsoil_table = "table.csv"'
+        )
+    )
+    _fails(capsys, toml, "table.csv: unit 'B' from soils.geojson has no row in the soil table")
+
+
+def test_bad_saturation_raster_keeps_previous_outputs(region, capsys):
+    folder, toml = region
+    out = folder / "out"
+    assert main(["run", str(toml), "--out", str(out), "--quiet"]) == 0
+    before = (out / "dry" / "fs.tif").read_bytes()
+    with rasterio.open(folder / "dem.tif") as src:
+        profile = src.profile
+    with rasterio.open(folder / "m.tif", "w", **profile) as dst:
+        dst.write(np.full((1, 40, 50), 1.7, np.float32))
+    toml.write_text(SCENARIO_TEXT.replace("saturation = 0.0", 'saturation_raster = "m.tif"'))
+    _fails(capsys, toml, "m.tif: saturation values must be in [0, 1], found 1.7", command="run")
+    assert (out / "dry" / "fs.tif").read_bytes() == before
+    assert not [p for p in out.rglob(".*") if p.is_file() and ".cache" not in p.parts]
+
+
+def test_interrupted_run_leaves_previous_outputs_whole(region, capsys, monkeypatch):
+    folder, toml = region
+    out = folder / "out"
+    assert main(["run", str(toml), "--out", str(out), "--quiet"]) == 0
+    before = {p: p.read_bytes() for p in out.rglob("*") if p.is_file()}
+    manifest = (out / "manifest.json").read_text()
+
+    calls = {"n": 0}
+    real = engine._cells
+
+    def interrupted(*args, **kwargs):  # Ctrl-C in the second scenario's first block
+        calls["n"] += 1
+        if calls["n"] == 2:
+            raise KeyboardInterrupt
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(engine, "_cells", interrupted)
+    assert main(["run", str(toml), "--out", str(out), "--quiet"]) == 130
+    assert calls["n"] == 2
+    after = {p: p.read_bytes() for p in out.rglob("*") if p.is_file()}
+    assert after == before  # first scenario rewritten identically, second untouched
+    assert (out / "manifest.json").read_text() == manifest
+    assert json.loads(manifest)["outputs"]
+    leftovers = [
+        p
+        for p in out.rglob("*")
+        if p.name.startswith(".") and p.is_file() and ".cache" not in p.parts
+    ]
+    assert leftovers == []
+
+
+def test_geographic_dem_with_projected_polygons(tmp_path, capsys):
+    # DEM in degrees, soil polygons in UTM: reprojected onto the DEM grid, areas in m2.
+    _dem(tmp_path / "dem.tif", crs="EPSG:4326", origin=(15.0, 45.004), cell=0.0001)
+    from pyproj import Transformer
+
+    to_utm = Transformer.from_crs("EPSG:4326", "EPSG:32633", always_xy=True)
+    x0, y0 = to_utm.transform(14.999, 44.999)
+    x1, y1 = to_utm.transform(15.006, 45.005)
+    _polygons(tmp_path / "soils.geojson", bounds=(x0, y0, x1, y1))
+    toml = tmp_path / "scenarios.toml"
+    toml.write_text(SCENARIO_TEXT)
+    assert main(["run", str(toml), "--out", str(tmp_path / "out"), "--quiet"]) == 0
+    with rasterio.open(tmp_path / "out" / "wet" / "fs.tif") as src:
+        assert src.crs.is_geographic
+    report = (tmp_path / "out" / "report.html").read_text()
+    assert "geographic CRS" in report
+    rows = (tmp_path / "out" / "wet" / "summary.csv").read_text().splitlines()
+    total_ha = sum(float(r.split(",")[4]) for r in rows[1:] if r.split(",")[1] == "ALL")
+    # 38 x 48 interior cells of about 7.87 m x 11.1 m at 45 N (pyproj geodesic scale)
+    assert total_ha == pytest.approx(38 * 48 * 7.87 * 11.1 / 10_000, rel=0.02)
+
+
+def test_coverage_warnings(tmp_path, capsys):
+    # Polygons cover the western 60% of the DEM; unit C lies far outside it.
+    _dem(tmp_path / "dem.tif")
+    rows = [dict(PARAMS, unit="A"), dict(PARAMS, unit="C")]
+    frame = gpd.GeoDataFrame(
+        rows,
+        geometry=[
+            box(500000.0, 5000000.0, 500300.0, 5000400.0),
+            box(700000.0, 5000000.0, 700100.0, 5000100.0),
+        ],
+        crs="EPSG:32633",
+    )
+    frame.to_file(tmp_path / "soils.geojson", driver="GeoJSON")
+    toml = tmp_path / "scenarios.toml"
+    toml.write_text(SCENARIO_TEXT)
+    assert main(["check", str(toml)]) == 0
+    text = capsys.readouterr().out
+    assert "soil units entirely outside the DEM: C" in text
+    assert "40.0% of the DEM's data cells (800 cells) lie in no soil unit" in text
+
+
+def test_dem_nodata_propagates(tmp_path, capsys):
+    _dem(tmp_path / "dem.tif")
+    with rasterio.open(tmp_path / "dem.tif", "r+") as dst:
+        z = dst.read(1)
+        z[20, 20] = -9999.0
+        dst.write(z, 1)
+    _polygons(tmp_path / "soils.geojson")
+    toml = tmp_path / "scenarios.toml"
+    toml.write_text(SCENARIO_TEXT)
+    assert main(["run", str(toml), "--out", str(tmp_path / "out"), "--quiet"]) == 0
+    with rasterio.open(tmp_path / "out" / "dry" / "fs.tif") as src:
+        fs = src.read(1, masked=True)
+    assert fs.mask[19:22, 19:22].all()  # the hole and the cells whose slope needs it
+    assert fs.mask[0].all() and fs.mask[:, -1].all()  # edges
+    assert not fs.mask[10, 10]
+
+
+def test_unreadable_dem_and_polygons(region, capsys):
+    folder, toml = region
+    (folder / "dem.tif").write_text("not a raster")
+    _fails(capsys, toml, "dem.tif: cannot read DEM")
+    _dem(folder / "dem.tif")
+    (folder / "soils.geojson").write_text("{ broken")
+    _fails(capsys, toml, "soils.geojson: cannot read soil polygons")
