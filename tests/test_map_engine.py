@@ -42,6 +42,20 @@ def _soil_table():
     }
 
 
+def _fs(p, beta, m):
+    """The core factor of safety for one soil-table row."""
+    return factor_of_safety(
+        beta,
+        p["depth_m"],
+        p["cohesion_kpa"],
+        p["friction_deg"],
+        p["unit_weight_kn_m3"],
+        m,
+        saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"],
+        root_cohesion_kpa=p["root_cohesion_kpa"],
+    )
+
+
 def _read(path):
     with rasterio.open(path) as src:
         return src.read(1), src.profile, src.tags(), src.tags(ns="IMAGE_STRUCTURE")
@@ -126,16 +140,7 @@ def test_fs_raster_matches_core_at_sampled_cells(demo_out, scenario):
             assert m == pytest.approx(
                 float(steady_state_saturation(10.0, float(sca[r, c]), beta, t)), rel=1e-9
             )
-        expected = factor_of_safety(
-            beta,
-            p["depth_m"],
-            p["cohesion_kpa"],
-            p["friction_deg"],
-            p["unit_weight_kn_m3"],
-            m,
-            saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"],
-            root_cohesion_kpa=p["root_cohesion_kpa"],
-        )
+        expected = _fs(p, beta, m)
         assert fs[r, c] == pytest.approx(min(expected, cap), rel=2e-6)
 
 
@@ -156,16 +161,7 @@ def test_critical_recharge_brings_fs_to_one(demo_out):
         beta = float(slope[r, c])
         t = p["hydraulic_conductivity_m_s"] * 86400.0 * p["depth_m"] * np.cos(np.radians(beta))
         m = float(steady_state_saturation(float(rc[r, c]), float(sca[r, c]), beta, t))
-        fs = factor_of_safety(
-            beta,
-            p["depth_m"],
-            p["cohesion_kpa"],
-            p["friction_deg"],
-            p["unit_weight_kn_m3"],
-            m,
-            saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"],
-            root_cohesion_kpa=p["root_cohesion_kpa"],
-        )
+        fs = _fs(p, beta, m)
         assert fs == pytest.approx(1.0, abs=1e-4)
     # cells coded "fails even when dry" are below 1 in a nearly dry scenario too
     assert (fs_dry[rc == -1] < 1.0).all()

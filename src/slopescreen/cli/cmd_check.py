@@ -14,16 +14,14 @@ import argparse
 from pathlib import Path
 from typing import Any
 
+from slopescreen.cli.options import command_parser
+
 
 def add_to(sub: Any) -> None:
-    parser = sub.add_parser(
-        "check",
-        help="validate a scenario file and its inputs without computing",
-        description=__doc__,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
+    parser = command_parser(
+        sub, "check", "validate a scenario file and its inputs without computing", __doc__, run
     )
     parser.add_argument("scenarios", type=Path, metavar="SCENARIOS.toml")
-    parser.set_defaults(run=run)
 
 
 def run(args: argparse.Namespace) -> int:

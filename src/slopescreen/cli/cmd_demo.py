@@ -17,16 +17,12 @@ import sys
 from pathlib import Path
 from typing import Any
 
+from slopescreen.cli.options import command_parser
 from slopescreen.errors import InputError
 
 
 def add_to(sub: Any) -> None:
-    parser = sub.add_parser(
-        "demo",
-        help="run the invented demo region end to end",
-        description=__doc__,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
+    parser = command_parser(sub, "demo", "run the invented demo region end to end", __doc__, run)
     parser.add_argument(
         "--region",
         type=Path,
@@ -37,7 +33,6 @@ def add_to(sub: Any) -> None:
     parser.add_argument(
         "--out", type=Path, default=Path("demo_output"), help="output folder (default: demo_output)"
     )
-    parser.set_defaults(run=run)
 
 
 def find_region(region: Path | None) -> Path:

@@ -15,15 +15,12 @@ import argparse
 from pathlib import Path
 from typing import Any
 
-from slopescreen.cli.options import add_json_option, dump_json
+from slopescreen.cli.options import add_json_option, command_parser, dump_json
 
 
 def add_to(sub: Any) -> None:
-    parser = sub.add_parser(
-        "envelope",
-        help="fit a Mohr-Coulomb envelope to lab tests",
-        description=__doc__,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
+    parser = command_parser(
+        sub, "envelope", "fit a Mohr-Coulomb envelope to lab tests", __doc__, run
     )
     parser.add_argument("tests", type=Path, metavar="TESTS.csv", help="lab-test CSV file")
     parser.add_argument(
@@ -33,7 +30,6 @@ def add_to(sub: Any) -> None:
         help="write a Mohr-circle figure (triaxial) or envelope plot here",
     )
     add_json_option(parser)
-    parser.set_defaults(run=run)
 
 
 def fit_file(path: Path, plot: Path | None = None):

@@ -17,13 +17,16 @@ import sys
 from pathlib import Path
 from typing import Any
 
+from slopescreen.cli.options import command_parser
+
 
 def add_to(sub: Any) -> None:
-    parser = sub.add_parser(
+    parser = command_parser(
+        sub,
         "run",
-        help="run every scenario of a scenario file (maps, zones, tables, report)",
-        description=__doc__,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
+        "run every scenario of a scenario file (maps, zones, tables, report)",
+        __doc__,
+        run,
     )
     parser.add_argument("scenarios", type=Path, metavar="SCENARIOS.toml")
     parser.add_argument(
@@ -37,7 +40,6 @@ def add_to(sub: Any) -> None:
         "--cache", type=Path, default=None, help="terrain cache folder (default: OUT/.cache)"
     )
     parser.add_argument("--quiet", action="store_true", help="no progress bars")
-    parser.set_defaults(run=run)
 
 
 def default_out(scenarios: Path) -> Path:

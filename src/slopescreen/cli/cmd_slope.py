@@ -15,6 +15,7 @@ from typing import Any
 from slopescreen.cli.options import (
     add_json_option,
     add_slope_options,
+    command_parser,
     dump_json,
     finite_or_none,
     slope_kwargs,
@@ -22,15 +23,11 @@ from slopescreen.cli.options import (
 
 
 def add_to(sub: Any) -> None:
-    parser = sub.add_parser(
-        "slope",
-        help="check one slope (FS, critical values, stresses)",
-        description=__doc__,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
+    parser = command_parser(
+        sub, "slope", "check one slope (FS, critical values, stresses)", __doc__, run
     )
     add_slope_options(parser)
     add_json_option(parser)
-    parser.set_defaults(run=run)
 
 
 def check_slope(kwargs: dict[str, Any]) -> dict[str, Any]:

@@ -34,6 +34,17 @@ SLOPE_OPTIONS: tuple[tuple[str, str, str, float | None], ...] = (
 )
 
 
+def command_parser(
+    sub: Any, name: str, help_text: str, doc: str | None, run: Any
+) -> argparse.ArgumentParser:
+    """A sub-command whose --help is the command module's docstring, with its example."""
+    parser = sub.add_parser(
+        name, help=help_text, description=doc, formatter_class=argparse.RawDescriptionHelpFormatter
+    )
+    parser.set_defaults(run=run)
+    return parser
+
+
 def add_slope_options(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("slope and soil")
     for option, dest, help_text, default in SLOPE_OPTIONS:
