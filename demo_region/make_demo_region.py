@@ -26,14 +26,114 @@ SIZE, CELL = 450, 10.0
 ORIGIN = (402_000.0, 6_305_000.0)  # UTM 25S, open ocean: no real terrain here
 CRS = "EPSG:32725"
 
-# unit, name, cohesion_kpa, friction_deg, unit_weight, saturated_unit_weight, depth_m,
-# root_cohesion_kpa, hydraulic_conductivity_m_s
+COLUMNS = [
+    "unit",
+    "name",
+    "cohesion_kpa",
+    "friction_deg",
+    "unit_weight_kn_m3",
+    "saturated_unit_weight_kn_m3",
+    "depth_m",
+    "root_cohesion_kpa",
+    "hydraulic_conductivity_m_s",
+    "diffusivity_m2_s",
+    "cohesion_kpa_sd",
+    "friction_deg_sd",
+    "depth_m_cov",
+    "c_phi_correlation",
+    "strength_lab_tests",
+]
+# Spreads (standard deviations, coefficients of variation) are typical of such soils, from
+# memory (coefficients of variation of c' 20-50% and of tan phi' 5-15% as summarised by
+# Phoon & Kulhawy 1999); hollow colluvium takes its strength and its uncertainty from the
+# envelope fitted to lab_tests.csv. Diffusivities are illustrative values of the order
+# Iverson (2000) discusses for colluvial soils (1e-5 to 1e-4 m2/s, from memory).
 UNITS = [
-    ("ALV", "valley-floor alluvium", 0.0, 30.0, 18.0, 20.0, 3.0, 0.0, 1e-4),
-    ("COL", "hollow colluvium", 2.0, 31.0, 18.0, 19.5, 2.0, 2.0, 2e-5),
-    ("SLP", "weathered siltstone slope soil", 4.0, 32.0, 18.5, 20.0, 1.2, 4.0, 1e-5),
-    ("TIL", "compact till of the lower slopes", 8.0, 34.0, 20.0, 21.5, 1.5, 1.0, 1e-6),
-    ("RDG", "thin ridge-top residual soil", 6.0, 35.0, 18.5, 20.0, 0.6, 3.0, 5e-5),
+    (
+        "ALV",
+        "valley-floor alluvium",
+        0.0,
+        30.0,
+        18.0,
+        20.0,
+        3.0,
+        0.0,
+        1e-4,
+        1e-4,
+        "",
+        2.0,
+        "",
+        "",
+        "",
+    ),
+    (
+        "COL",
+        "hollow colluvium",
+        "",
+        "",
+        18.0,
+        19.5,
+        2.0,
+        2.0,
+        2e-5,
+        5e-5,
+        "",
+        "",
+        0.25,
+        "",
+        "lab_tests.csv",
+    ),
+    (
+        "SLP",
+        "weathered siltstone slope soil",
+        4.0,
+        32.0,
+        18.5,
+        20.0,
+        1.2,
+        4.0,
+        1e-5,
+        3e-5,
+        1.5,
+        2.0,
+        0.25,
+        -0.3,
+        "",
+    ),
+    (
+        "TIL",
+        "compact till of the lower slopes",
+        8.0,
+        34.0,
+        20.0,
+        21.5,
+        1.5,
+        1.0,
+        1e-6,
+        1e-5,
+        3.0,
+        2.0,
+        0.15,
+        -0.3,
+        "",
+    ),
+    (
+        "RDG",
+        "thin ridge-top residual soil",
+        6.0,
+        35.0,
+        18.5,
+        20.0,
+        0.6,
+        3.0,
+        5e-5,
+        1e-4,
+        2.0,
+        2.0,
+        0.3,
+        "",
+        "",
+    ),
 ]
 
 
@@ -123,12 +223,15 @@ def main() -> None:
     codes = unit_map(z, hollow, dist)
     geoms, keys, names = [], [], []
     for geom, value in features.shapes(codes, transform=transform, connectivity=4):
-        unit = UNITS[int(value) - 1]
+        unit = UNITS[int(value) - 1]  # (key, name, ...)
         geoms.append(shape(geom).simplify(2.0))
         keys.append(unit[0])
         names.append(unit[1])
     frame = gpd.GeoDataFrame({"unit": keys, "name": names}, geometry=geoms, crs=CRS)
     frame = frame.dissolve(by="unit", as_index=False)
+    from pyogrio import set_gdal_config_options
+
+    set_gdal_config_options({"OGR_CURRENT_DATE": "2000-01-01T00:00:00.000Z"})  # same bytes
     target = HERE / "soil_units.gpkg"
     if target.exists():
         target.unlink()
@@ -139,19 +242,7 @@ def main() -> None:
             "# Invented soil parameters for the fictitious Quillbrook catchment "
             "(typical handbook values, not measurements)\n"
         )
-        writer.writerow(
-            [
-                "unit",
-                "name",
-                "cohesion_kpa",
-                "friction_deg",
-                "unit_weight_kn_m3",
-                "saturated_unit_weight_kn_m3",
-                "depth_m",
-                "root_cohesion_kpa",
-                "hydraulic_conductivity_m_s",
-            ]
-        )
+        writer.writerow(COLUMNS)
         writer.writerows(UNITS)
 
 

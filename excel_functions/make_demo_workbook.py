@@ -147,6 +147,60 @@ def _lab_sheet(wb: Workbook) -> None:
     ws.column_dimensions["A"].width = 28
 
 
+def _reliability_sheet(wb: Workbook) -> None:
+    ws = wb.create_sheet("Reliability")
+    ws.append(["input", "value", "meaning"])
+    rows = [
+        ("slope_deg", 34.0, "slope angle, degrees"),
+        ("depth_m", 1.6, "vertical depth of slip plane, m"),
+        ("cohesion_kpa", 6.0, "mean c', kPa"),
+        ("cohesion_sd_kpa", 2.0, "standard deviation of c', kPa"),
+        ("friction_deg", 31.0, "mean phi', degrees"),
+        ("friction_sd_deg", 2.0, "standard deviation of phi', degrees"),
+        ("unit_weight_kn_m3", 18.5, "unit weight, kN/m3"),
+        ("saturation", 0.7, "saturation ratio m"),
+        ("c_phi_correlation", -0.3, "correlation of c' and phi'"),
+        ("method", "taylor", "taylor or monte_carlo"),
+        ("water_table_depth_m", 1.0, "storm: initial water-table depth, m"),
+        ("rain_mm_h", 20.0, "storm: rain intensity, mm/h"),
+        ("duration_h", 12.0, "storm: duration, h"),
+        ("hydraulic_conductivity_m_s", 2e-5, "storm: saturated K, m/s"),
+        ("diffusivity_m2_s", 5e-5, "storm: hydraulic diffusivity D0, m2/s"),
+    ]
+    for row in rows:
+        ws.append(list(row))
+    v = {name: value for name, value, _ in rows}
+    ws.append([])
+    ws.append(["result", "formula", "slopescreen Python value"])
+    pf_args = "B2,B3,B4,B5,B6,B7,B8,B9,B10,B11"
+    results = [
+        (
+            "probability FS < 1",
+            f"=SS_PF({pf_args})",
+            udf.SS_PF(34.0, 1.6, 6.0, 2.0, 31.0, 2.0, 18.5, 0.7, -0.3, "taylor"),
+        ),
+        (
+            "reliability index",
+            f"=SS_BETA({pf_args})",
+            udf.SS_BETA(34.0, 1.6, 6.0, 2.0, 31.0, 2.0, 18.5, 0.7, -0.3, "taylor"),
+        ),
+        (
+            "pressure head at 1.6 m, end of storm",
+            "=SS_STORM_HEAD(B3,B14,B2,B12,B13,B14,B15,B16)",
+            udf.SS_STORM_HEAD(1.6, 12.0, 34.0, v["water_table_depth_m"], 20.0, 12.0, 2e-5, 5e-5),
+        ),
+        (
+            "FS at 1.6 m, end of storm",
+            "=SS_STORM_FS(B3,B14,B2,B4,B6,B8,B12,B13,B14,B15,B16)",
+            udf.SS_STORM_FS(1.6, 12.0, 34.0, 6.0, 31.0, 18.5, 1.0, 20.0, 12.0, 2e-5, 5e-5),
+        ),
+    ]
+    for label, formula, expected in results:
+        ws.append([label, formula, expected])
+    ws.column_dimensions["A"].width = 36
+    ws.column_dimensions["C"].width = 40
+
+
 def _notes_sheet(wb: Workbook) -> None:
     ws = wb.create_sheet("Read me")
     ws.append(
@@ -167,6 +221,7 @@ def write_workbook(out: Path = DEFAULT_OUT) -> Path:
     wb = Workbook()
     _slope_sheet(wb)
     _lab_sheet(wb)
+    _reliability_sheet(wb)
     _notes_sheet(wb)
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = out.with_name(f".{out.name}.tmp")

@@ -466,3 +466,278 @@ def SS_DIRECT_SHEAR(normal_kpa, shear_kpa):
         {"normal_kpa": (normal_kpa, _REQUIRED), "shear_kpa": (shear_kpa, _REQUIRED)},
         _fit_table,
     )
+
+
+# --- probability of failure and design storms -----------------------------------------------
+
+
+def _text(name: str, cell: Any, default: str, allowed: tuple[str, ...]) -> str:
+    if _is_empty(cell):
+        return default
+    value = str(cell[0][0] if isinstance(cell, list) else cell).strip().lower()
+    if value not in allowed:
+        raise core.InputError(f"{name}: {value!r}; allowed: {', '.join(allowed)}")
+    return value
+
+
+def _reliability(
+    field: str,
+    slope_deg,
+    depth_m,
+    cohesion_kpa,
+    cohesion_sd_kpa,
+    friction_deg,
+    friction_sd_deg,
+    unit_weight_kn_m3,
+    saturation,
+    c_phi_correlation,
+    method,
+    samples,
+    random_state,
+    saturated_unit_weight_kn_m3,
+    root_cohesion_kpa,
+) -> Any:
+    from slopescreen.reliability import Spread, slope_reliability
+
+    try:
+        cells = {
+            "slope_deg": (slope_deg, _REQUIRED),
+            "depth_m": (depth_m, _REQUIRED),
+            "cohesion_kpa": (cohesion_kpa, _REQUIRED),
+            "cohesion_sd_kpa": (cohesion_sd_kpa, _REQUIRED),
+            "friction_deg": (friction_deg, _REQUIRED),
+            "friction_sd_deg": (friction_sd_deg, _REQUIRED),
+            "unit_weight_kn_m3": (unit_weight_kn_m3, _REQUIRED),
+            "saturation": (saturation, 0.0),
+            "c_phi_correlation": (c_phi_correlation, 0.0),
+            "samples": (samples, 1000.0),
+            "random_state": (random_state, 0.0),
+            "saturated_unit_weight_kn_m3": (saturated_unit_weight_kn_m3, None),
+            "root_cohesion_kpa": (root_cohesion_kpa, 0.0),
+        }
+        v = {name: _value(name, cell, default) for name, (cell, default) in cells.items()}
+        how = _text("method", method, "taylor", ("taylor", "monte_carlo"))
+        values = {
+            "slope_deg": v["slope_deg"],
+            "depth_m": v["depth_m"],
+            "unit_weight_kn_m3": v["unit_weight_kn_m3"],
+            "saturation": v["saturation"],
+            "saturated_unit_weight_kn_m3": v["saturated_unit_weight_kn_m3"],
+            "root_cohesion_kpa": v["root_cohesion_kpa"],
+            "cohesion_kpa": Spread.normal(v["cohesion_kpa"], v["cohesion_sd_kpa"]),
+            "friction_deg": Spread.normal(v["friction_deg"], v["friction_sd_deg"]),
+        }
+        result = slope_reliability(
+            values,
+            {("cohesion_kpa", "friction_deg"): v["c_phi_correlation"]},
+            method=how,
+            samples=int(v["samples"]),
+            random_state=int(v["random_state"]),
+        )
+        return _to_cells(getattr(result, field))
+    except ValueError as exc:
+        return _error(exc)
+
+
+_PF_ARGS = (
+    "slope_deg",
+    "depth_m",
+    "cohesion_kpa",
+    "cohesion_sd_kpa",
+    "friction_deg",
+    "friction_sd_deg",
+    "unit_weight_kn_m3",
+    "saturation",
+    "c_phi_correlation",
+    "samples",
+    "random_state",
+    "saturated_unit_weight_kn_m3",
+    "root_cohesion_kpa",
+)
+
+
+@xw.func
+@_ranges(*_PF_ARGS)
+def SS_PF(
+    slope_deg,
+    depth_m,
+    cohesion_kpa,
+    cohesion_sd_kpa,
+    friction_deg,
+    friction_sd_deg,
+    unit_weight_kn_m3,
+    saturation=None,
+    c_phi_correlation=None,
+    method=None,
+    samples=None,
+    random_state=None,
+    saturated_unit_weight_kn_m3=None,
+    root_cohesion_kpa=None,
+):
+    """Probability that FS < 1 with normal c' and phi' (method "taylor" or "monte_carlo")."""
+    return _reliability(
+        "probability_of_failure",
+        slope_deg,
+        depth_m,
+        cohesion_kpa,
+        cohesion_sd_kpa,
+        friction_deg,
+        friction_sd_deg,
+        unit_weight_kn_m3,
+        saturation,
+        c_phi_correlation,
+        method,
+        samples,
+        random_state,
+        saturated_unit_weight_kn_m3,
+        root_cohesion_kpa,
+    )
+
+
+@xw.func
+@_ranges(*_PF_ARGS)
+def SS_BETA(
+    slope_deg,
+    depth_m,
+    cohesion_kpa,
+    cohesion_sd_kpa,
+    friction_deg,
+    friction_sd_deg,
+    unit_weight_kn_m3,
+    saturation=None,
+    c_phi_correlation=None,
+    method=None,
+    samples=None,
+    random_state=None,
+    saturated_unit_weight_kn_m3=None,
+    root_cohesion_kpa=None,
+):
+    """Reliability index beta for the same inputs as SS_PF."""
+    return _reliability(
+        "reliability_index",
+        slope_deg,
+        depth_m,
+        cohesion_kpa,
+        cohesion_sd_kpa,
+        friction_deg,
+        friction_sd_deg,
+        unit_weight_kn_m3,
+        saturation,
+        c_phi_correlation,
+        method,
+        samples,
+        random_state,
+        saturated_unit_weight_kn_m3,
+        root_cohesion_kpa,
+    )
+
+
+def _storm_cells(
+    slope_deg,
+    water_table_depth_m,
+    rain_mm_h,
+    duration_h,
+    hydraulic_conductivity_m_s,
+    diffusivity_m2_s,
+) -> dict[str, tuple[Any, Any]]:
+    return {
+        "slope_deg": (slope_deg, _REQUIRED),
+        "water_table_depth_m": (water_table_depth_m, _REQUIRED),
+        "rain_mm_h": (rain_mm_h, _REQUIRED),
+        "duration_h": (duration_h, _REQUIRED),
+        "hydraulic_conductivity_m_s": (hydraulic_conductivity_m_s, _REQUIRED),
+        "diffusivity_m2_s": (diffusivity_m2_s, _REQUIRED),
+    }
+
+
+_STORM_ARGS = (
+    "slope_deg",
+    "water_table_depth_m",
+    "rain_mm_h",
+    "duration_h",
+    "hydraulic_conductivity_m_s",
+    "diffusivity_m2_s",
+)
+
+
+@xw.func
+@_ranges("depth_m", "time_h", *_STORM_ARGS)
+def SS_STORM_HEAD(
+    depth_m,
+    time_h,
+    slope_deg,
+    water_table_depth_m,
+    rain_mm_h,
+    duration_h,
+    hydraulic_conductivity_m_s,
+    diffusivity_m2_s,
+):
+    """Pressure head (m) at vertical depth and time of a storm (Iverson 2000 linear solution)."""
+    from slopescreen.storm import pressure_head_m
+
+    return _call(
+        pressure_head_m,
+        {
+            "depth_m": (depth_m, _REQUIRED),
+            "time_h": (time_h, _REQUIRED),
+            **_storm_cells(
+                slope_deg,
+                water_table_depth_m,
+                rain_mm_h,
+                duration_h,
+                hydraulic_conductivity_m_s,
+                diffusivity_m2_s,
+            ),
+        },
+    )
+
+
+@xw.func
+@_ranges(
+    "depth_m",
+    "time_h",
+    "cohesion_kpa",
+    "friction_deg",
+    "unit_weight_kn_m3",
+    *_STORM_ARGS,
+    "saturated_unit_weight_kn_m3",
+    "root_cohesion_kpa",
+)
+def SS_STORM_FS(
+    depth_m,
+    time_h,
+    slope_deg,
+    cohesion_kpa,
+    friction_deg,
+    unit_weight_kn_m3,
+    water_table_depth_m,
+    rain_mm_h,
+    duration_h,
+    hydraulic_conductivity_m_s,
+    diffusivity_m2_s,
+    saturated_unit_weight_kn_m3=None,
+    root_cohesion_kpa=None,
+):
+    """Factor of safety at vertical depth and time of a storm (Iverson 2000)."""
+    from slopescreen.storm import storm_factor_of_safety
+
+    return _call(
+        storm_factor_of_safety,
+        {
+            "depth_m": (depth_m, _REQUIRED),
+            "time_h": (time_h, _REQUIRED),
+            "cohesion_kpa": (cohesion_kpa, _REQUIRED),
+            "friction_deg": (friction_deg, _REQUIRED),
+            "unit_weight_kn_m3": (unit_weight_kn_m3, _REQUIRED),
+            "saturated_unit_weight_kn_m3": (saturated_unit_weight_kn_m3, None),
+            "root_cohesion_kpa": (root_cohesion_kpa, 0.0),
+            **_storm_cells(
+                slope_deg,
+                water_table_depth_m,
+                rain_mm_h,
+                duration_h,
+                hydraulic_conductivity_m_s,
+                diffusivity_m2_s,
+            ),
+        },
+    )

@@ -3,7 +3,18 @@
 import subprocess
 import sys
 
-HEAVY = ("rasterio", "geopandas", "matplotlib", "scipy", "pandas", "xlwings", "shapely", "pyproj")
+HEAVY = (
+    "rasterio",
+    "geopandas",
+    "matplotlib",
+    "scipy",
+    "pandas",
+    "xlwings",
+    "shapely",
+    "pyproj",
+    "numba",
+    "tqdm",
+)
 
 
 def test_core_pulls_in_no_heavy_packages():

@@ -128,15 +128,16 @@ def test_demo_workbook_formulas_agree_with_python(tmp_path):
 
     path = make_demo_workbook.write_workbook(tmp_path / "demo.xlsx")
     wb = load_workbook(path)
-    slope = wb["Slope"]
-    values = _evaluate(slope)
-    checked = 0
-    for row in range(1, slope.max_row + 1):
-        formula = slope.cell(row, 2).value
-        if isinstance(formula, str) and formula.startswith("=SS_"):
-            assert values[(row, 2)] == pytest.approx(slope.cell(row, 3).value, rel=1e-12)
-            checked += 1
-    assert checked == 5
+    for sheet, count in (("Slope", 5), ("Reliability", 4)):
+        ws = wb[sheet]
+        values = _evaluate(ws)
+        checked = 0
+        for row in range(1, ws.max_row + 1):
+            formula = ws.cell(row, 2).value
+            if isinstance(formula, str) and formula.startswith("=SS_"):
+                assert values[(row, 2)] == pytest.approx(ws.cell(row, 3).value, rel=1e-12)
+                checked += 1
+        assert checked == count, sheet
     lab = wb["LabTests"]
     values = _evaluate(lab)
     fit_row = next(
@@ -149,3 +150,60 @@ def test_demo_workbook_formulas_agree_with_python(tmp_path):
         assert got == (pytest.approx(expected) if isinstance(expected, float) else expected)
     errors = [v for v in values.values() if isinstance(v, str) and v.startswith("#SLOPESCREEN")]
     assert errors == []
+
+
+def test_probability_functions_match_core():
+    from slopescreen.reliability import Spread, slope_reliability
+
+    ref = slope_reliability(
+        {
+            "slope_deg": 35.0,
+            "depth_m": 2.0,
+            "unit_weight_kn_m3": 19.0,
+            "saturation": 0.5,
+            "cohesion_kpa": Spread.normal(7.0, 1.5),
+            "friction_deg": Spread.normal(31.0, 2.0),
+        },
+        {("cohesion_kpa", "friction_deg"): -0.4},
+    )
+    assert udf.SS_PF(35.0, 2.0, 7.0, 1.5, 31.0, 2.0, 19.0, 0.5, -0.4) == pytest.approx(
+        ref.probability_of_failure
+    )
+    assert udf.SS_BETA(35.0, 2.0, 7.0, 1.5, 31.0, 2.0, 19.0, 0.5, -0.4, "taylor") == pytest.approx(
+        ref.reliability_index
+    )
+    mc = udf.SS_PF(35.0, 2.0, 7.0, 1.5, 31.0, 2.0, 19.0, 0.5, -0.4, "monte_carlo", 20000, 5)
+    assert abs(mc - ref.probability_of_failure) < 0.02
+    assert udf.SS_PF(35.0, 2.0, 7.0, -1.0, 31.0, 2.0, 19.0).startswith("#SLOPESCREEN: sd")
+    assert "allowed: taylor, monte_carlo" in udf.SS_PF(
+        35.0, 2.0, 7.0, 1.5, 31.0, 2.0, 19.0, None, None, "guess"
+    )
+
+
+def test_storm_functions_match_core():
+    from slopescreen.storm import pressure_head_m, storm_factor_of_safety
+
+    storm = dict(
+        slope_deg=30.0,
+        water_table_depth_m=0.5,
+        rain_mm_h=10.0,
+        duration_h=2.0,
+        hydraulic_conductivity_m_s=1e-5,
+        diffusivity_m2_s=1e-4,
+    )
+    assert udf.SS_STORM_HEAD(1.0, 3.0, *storm.values()) == pytest.approx(
+        pressure_head_m(1.0, 3.0, **storm)
+    )
+    column = udf.SS_STORM_FS([[0.5], [1.0]], 6.0, 30.0, 2.0, 33.0, 19.0, 0.5, 10.0, 2.0, 1e-5, 1e-4)
+    ref = storm_factor_of_safety(
+        np.array([0.5, 1.0]),
+        6.0,
+        cohesion_kpa=2.0,
+        friction_deg=33.0,
+        unit_weight_kn_m3=19.0,
+        **storm,
+    )
+    assert np.allclose(np.array(column, dtype=float).ravel(), ref)
+    assert "rain_mm_h must be in [0, 1000]" in udf.SS_STORM_HEAD(
+        1.0, 1.0, 30.0, 0.5, -3.0, 2.0, 1e-5, 1e-4
+    )

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 import rasterio
 
-from slopescreen import factor_of_safety
+from slopescreen import factor_of_safety, fit_envelope
 from slopescreen.cli.main import main
 from slopescreen.hydrology import steady_state_saturation
 from slopescreen.maps.engine import run
@@ -23,7 +23,9 @@ ROOT = Path(__file__).resolve().parents[1]
 REGION = ROOT / "demo_region"
 SCENARIOS = REGION / "quillbrook_scenarios.toml"
 PER_SCENARIO = ("fs.tif", "saturation.tif", "critical_recharge_mm_day.tif", "hazard_class.tif")
-NAMES = ("dry_season", "wet_season", "fully_saturated", "wet_season_logged")
+NAMES = ("dry_season", "wet_season", "fully_saturated", "wet_season_logged", "design_storm")
+PROBABILITY = ("probability_of_failure.tif", "reliability_index.tif")
+STORM = ("storm_fs_later.tif", "storm_failure_depth_m.tif", "storm_time_to_failure_h.tif")
 
 
 @pytest.fixture(scope="module")
@@ -35,11 +37,32 @@ def demo_out(tmp_path_factory):
 
 
 def _soil_table():
+    """The demo soil table read with the csv module; lab-tested units get the envelope fit."""
     with open(REGION / "soil_parameters.csv") as handle:
-        rows = [r for r in csv.DictReader(line for line in handle if not line.startswith("#"))]
-    return {
-        r["unit"]: {k: float(v) for k, v in r.items() if k not in ("unit", "name")} for r in rows
-    }
+        rows = list(csv.DictReader(line for line in handle if not line.startswith("#")))
+    table = {}
+    for r in rows:
+        values = {
+            k: float(v)
+            for k, v in r.items()
+            if k not in ("unit", "name", "strength_lab_tests") and v not in ("", None)
+        }
+        if r["strength_lab_tests"]:
+            with open(REGION / r["strength_lab_tests"]) as handle:
+                tests = list(csv.DictReader(x for x in handle if not x.startswith("#")))
+            s3 = np.array([float(t["sigma3_kpa"]) for t in tests])
+            s1 = s3 + np.array([float(t["deviator_kpa"]) for t in tests])
+            u = np.array([float(t["pore_pressure_kpa"]) for t in tests])
+            fit = fit_envelope(s3, s1, u)
+            values["cohesion_kpa"] = fit.cohesion_kpa
+            values["friction_deg"] = fit.friction_deg
+            values["cohesion_kpa_sd"] = fit.cohesion_se_kpa
+            values["friction_deg_sd"] = fit.friction_se_deg
+            values["c_phi_correlation"] = fit.covariance[0, 1] / (
+                fit.cohesion_se_kpa * fit.friction_se_deg
+            )
+        table[r["unit"]] = values
+    return table
 
 
 def _fs(p, beta, m):
@@ -74,7 +97,8 @@ def test_every_output_exists_opens_and_shares_the_dem_grid(demo_out):
             "hillshade.tif",
         )
     ]
-    rasters += [out / s / n for s in NAMES for n in PER_SCENARIO]
+    rasters += [out / s / n for s in NAMES for n in PER_SCENARIO + PROBABILITY]
+    rasters += [out / "design_storm" / n for n in STORM]
     for path in rasters:
         with rasterio.open(path) as src:
             assert (src.crs, src.transform, src.shape) == (crs, transform, shape), path
@@ -102,6 +126,7 @@ def test_summary_areas_add_up_to_mapped_area(demo_out):
         mapped_ha = float((classes > 0).sum()) * cell_ha
         with open(out / s / "summary.csv") as handle:
             rows = list(csv.DictReader(handle))
+        rows = [r for r in rows if r["measure"] == "factor_of_safety"]
         total = sum(float(r["area_ha"]) for r in rows if r["soil_unit"] == "ALL")
         per_unit = sum(float(r["area_ha"]) for r in rows if r["soil_unit"] != "ALL")
         assert total == pytest.approx(mapped_ha, rel=1e-6)
@@ -231,3 +256,86 @@ def test_check_and_run_commands(tmp_path, capsys):
     assert "Screening level only" in text
     assert (tmp_path / "x" / "dry_season" / "fs.tif").exists()
     assert not (tmp_path / "x" / "wet_season").exists()
+
+
+def _taylor_probability(p, beta, sca):
+    """Duncan (2000) Taylor-series method written out: FS at the means and at mean +- sd
+    of each uncertain input, normal FS, P = Phi(-(F - 1)/sigma_F) (scipy's normal CDF)."""
+    from scipy import stats
+
+    spreads = {
+        "cohesion_kpa": p.get("cohesion_kpa_sd"),
+        "friction_deg": p.get("friction_deg_sd"),
+        "depth_m": p["depth_m"] * p["depth_m_cov"] if "depth_m_cov" in p else None,
+    }
+    spreads = {k: v for k, v in spreads.items() if v}
+
+    def fs(**change):
+        q = dict(p, **change)
+        t = q["hydraulic_conductivity_m_s"] * 86400 * q["depth_m"] * np.cos(np.radians(beta))
+        m = min(1.0, 0.010 * sca / (t * np.sin(np.radians(beta))))
+        return _fs(q, beta, m)
+
+    half = {k: (fs(**{k: p[k] + sd}) - fs(**{k: p[k] - sd})) / 2 for k, sd in spreads.items()}
+    var = sum(h * h for h in half.values())
+    if "cohesion_kpa" in half and "friction_deg" in half:
+        var += 2 * p.get("c_phi_correlation", 0.0) * half["cohesion_kpa"] * half["friction_deg"]
+    return stats.norm.cdf(-(fs() - 1.0) / np.sqrt(var))
+
+
+def test_probability_raster_matches_taylor_series_by_hand(demo_out):
+    out, _ = demo_out
+    pf, _, tags, _ = _read(out / "wet_season" / "probability_of_failure.tif")
+    assert tags["method"] == "taylor"
+    slope, *_ = _read(out / "terrain" / "slope_deg.tif")
+    sca, *_ = _read(out / "terrain" / "specific_catchment_area_m.tif")
+    units, _, unit_tags, _ = _read(out / "terrain" / "soil_unit.tif")
+    table = _soil_table()
+    rng = np.random.default_rng(2)
+    rows, cols = np.nonzero(pf != -9999.0)
+    for i in rng.choice(rows.size, 150, replace=False):
+        r, c = rows[i], cols[i]
+        p = table[unit_tags[f"unit_{units[r, c]}"]]
+        expected = _taylor_probability(p, float(slope[r, c]), float(sca[r, c]))
+        assert pf[r, c] == pytest.approx(expected, abs=2e-6)
+    with open(out / "wet_season" / "summary.csv") as handle:
+        rows_pf = [r for r in csv.DictReader(handle) if r["measure"] == "probability_of_failure"]
+    assert rows_pf and sum(float(r["area_ha"]) for r in rows_pf if r["soil_unit"] == "ALL") > 0
+    assert "Probability of failure by scenario" in (out / "report.html").read_text()
+
+
+def test_storm_rasters_match_core_at_sampled_cells(demo_out):
+    from slopescreen.storm import storm_factor_of_safety
+
+    out, _ = demo_out
+    fs, *_ = _read(out / "design_storm" / "fs.tif")
+    t_fail, _, tags, _ = _read(out / "design_storm" / "storm_time_to_failure_h.tif")
+    assert tags["code_no_failure"].startswith("-1")
+    slope, *_ = _read(out / "terrain" / "slope_deg.tif")
+    units, _, unit_tags, _ = _read(out / "terrain" / "soil_unit.tif")
+    table = _soil_table()
+    rng = np.random.default_rng(3)
+    rows, cols = np.nonzero(fs != -9999.0)
+    for i in rng.choice(rows.size, 100, replace=False):
+        r, c = rows[i], cols[i]
+        p = table[unit_tags[f"unit_{units[r, c]}"]]
+        planes = p["depth_m"] * np.arange(1, 11) / 10.0
+        at_end = storm_factor_of_safety(
+            planes,
+            12.0,
+            slope_deg=float(slope[r, c]),
+            cohesion_kpa=p["cohesion_kpa"],
+            friction_deg=p["friction_deg"],
+            unit_weight_kn_m3=p["unit_weight_kn_m3"],
+            saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"],
+            root_cohesion_kpa=p["root_cohesion_kpa"],
+            water_table_depth_m=1.0,
+            rain_mm_h=20.0,
+            duration_h=12.0,
+            hydraulic_conductivity_m_s=p["hydraulic_conductivity_m_s"],
+            diffusivity_m2_s=p["diffusivity_m2_s"],
+        )
+        assert fs[r, c] == pytest.approx(min(float(np.min(at_end)), 10.0), rel=2e-6)
+        if fs[r, c] < 1.0:
+            assert 0.0 <= t_fail[r, c] <= 12.0
+    assert ((t_fail == -1) | (t_fail >= 0) | (t_fail == -9999)).all()

@@ -1,6 +1,7 @@
 """Bad inputs to the map engine: one line naming file and field, exit code 2, and nothing
 already written is damaged. Uses a small region made here (invented data)."""
 
+import csv
 import json
 import os
 
@@ -12,7 +13,7 @@ from rasterio.transform import from_origin
 from shapely.geometry import box
 
 from slopescreen.cli.main import main
-from slopescreen.maps import engine
+from slopescreen.maps import scenario_run
 
 PARAMS = {
     "cohesion_kpa": 2.0,
@@ -195,7 +196,7 @@ def test_interrupted_run_leaves_previous_outputs_whole(region, capsys, monkeypat
     manifest = (out / "manifest.json").read_text()
 
     calls = {"n": 0}
-    real = engine._cells
+    real = scenario_run.cell_results
 
     def interrupted(*args, **kwargs):  # Ctrl-C in the second scenario's first block
         calls["n"] += 1
@@ -203,7 +204,7 @@ def test_interrupted_run_leaves_previous_outputs_whole(region, capsys, monkeypat
             raise KeyboardInterrupt
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(engine, "_cells", interrupted)
+    monkeypatch.setattr(scenario_run, "cell_results", interrupted)
     assert main(["run", str(toml), "--out", str(out), "--quiet"]) == 130
     assert calls["n"] == 2
     after = {p: p.read_bytes() for p in out.rglob("*") if p.is_file()}
@@ -234,8 +235,9 @@ def test_geographic_dem_with_projected_polygons(tmp_path, capsys):
         assert src.crs.is_geographic
     report = (tmp_path / "out" / "report.html").read_text()
     assert "geographic CRS" in report
-    rows = (tmp_path / "out" / "wet" / "summary.csv").read_text().splitlines()
-    total_ha = sum(float(r.split(",")[4]) for r in rows[1:] if r.split(",")[1] == "ALL")
+    with open(tmp_path / "out" / "wet" / "summary.csv") as handle:
+        rows = list(csv.DictReader(handle))
+    total_ha = sum(float(r["area_ha"]) for r in rows if r["soil_unit"] == "ALL")
     # 38 x 48 interior cells of about 7.87 m x 11.1 m at 45 N (pyproj geodesic scale)
     assert total_ha == pytest.approx(38 * 48 * 7.87 * 11.1 / 10_000, rel=0.02)
 
@@ -285,3 +287,69 @@ def test_unreadable_dem_and_polygons(region, capsys):
     _dem(folder / "dem.tif")
     (folder / "soils.geojson").write_text("{ broken")
     _fails(capsys, toml, "soils.geojson: cannot read soil polygons")
+
+
+def test_storm_and_reliability_errors(region, capsys):
+    folder, toml = region
+    storm = SCENARIO_TEXT.replace(
+        "saturation = 0.0", "[scenario.storm]\nrain_mm_h = 10.0\nduration_h = 6.0\n"
+    )
+    toml.write_text(storm)
+    _fails(capsys, toml, "[scenario.storm]: storm needs initial_water_table_depth_m")
+    toml.write_text(
+        storm.replace(
+            "duration_h = 6.0", "duration_h = 6.0\ninitial_water_table_depth_m = 1.0\nlater_h = 2.0"
+        )
+    )
+    _fails(capsys, toml, "later_h: must not be before the end of the storm (6 h)")
+    toml.write_text(
+        storm.replace("duration_h = 6.0", "duration_h = 6.0\ninitial_water_table_depth_m = 1.0")
+    )
+    _fails(
+        capsys,
+        toml,
+        "storm scenario 'dry' needs diffusivity_m2_s (or "
+        "moisture_capacity_per_m) for soil unit 'A'",
+        command="run",
+    )
+    toml.write_text(
+        SCENARIO_TEXT.replace("[[scenario]]", '[reliability]\nmethod = "guess"\n\n[[scenario]]', 1)
+    )
+    _fails(capsys, toml, "[reliability] method: must be one of taylor, monte_carlo")
+
+
+def test_spread_errors(region, capsys):
+    folder, toml = region
+    _polygons(folder / "soils.geojson", cohesion_kpa_sd=-1.0)
+    _fails(capsys, toml, "unit 'A', field cohesion_kpa spread: sd must be in [0, inf]")
+    _polygons(folder / "soils.geojson", cohesion_kpa_sd=1.0, c_phi_correlation=-0.5)
+    _fails(capsys, toml, "unit 'A', field c_phi_correlation: needs spreads for both")
+    _polygons(
+        folder / "soils.geojson", cohesion_kpa_sd=1.0, friction_deg_sd=2.0, c_phi_correlation=-1.5
+    )
+    _fails(capsys, toml, "c_phi_correlation: -1.5 is outside the allowed range [-1, 1]")
+
+
+def test_monte_carlo_maps_are_reproducible(region, capsys):
+    # Same random_state, same probability map, bit for bit; a different one differs a little.
+    folder, toml = region
+    _polygons(
+        folder / "soils.geojson", cohesion_kpa_sd=1.0, friction_deg_sd=3.0, c_phi_correlation=-0.3
+    )
+    text = SCENARIO_TEXT.replace(
+        "[[scenario]]",
+        '[reliability]\nmethod = "monte_carlo"\nsamples = 400\nrandom_state = 3\n\n[[scenario]]',
+        1,
+    )
+    toml.write_text(text)
+    maps = []
+    for out, state in (("a", 3), ("b", 3), ("c", 4)):
+        toml.write_text(text.replace("random_state = 3", f"random_state = {state}"))
+        assert main(["run", str(toml), "--out", str(folder / out), "--quiet"]) == 0
+        with rasterio.open(folder / out / "dry" / "probability_of_failure.tif") as src:
+            assert src.tags()["method"] == "monte_carlo"
+            maps.append(src.read(1, masked=True))
+    assert np.array_equal(maps[0], maps[1])
+    assert not np.array_equal(maps[0], maps[2])
+    assert np.ma.max(np.abs(maps[0] - maps[2])) < 0.15
+    assert 0.0 <= maps[0].min() and maps[0].max() <= 1.0

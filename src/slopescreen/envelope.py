@@ -46,6 +46,28 @@ class EnvelopeFit:
     method: str
     warnings: tuple[str, ...] = field(default=())
 
+    def strength_spreads(self) -> tuple[object, object, float]:
+        """(cohesion Spread, friction Spread, correlation): normal distributions from the fit.
+
+        They describe the uncertainty of the fitted mean strength (estimation error), not
+        the spatial variability of the soil; with two tests there is none to give.
+        """
+        from slopescreen.errors import InputError
+        from slopescreen.reliability import Spread
+
+        if not np.isfinite(self.cohesion_se_kpa):
+            raise InputError(
+                "the envelope fit has no standard errors (two tests): at least "
+                "three are needed for a strength distribution"
+            )
+        denominator = self.cohesion_se_kpa * self.friction_se_deg
+        rho = float(self.covariance[0, 1] / denominator) if denominator > 0 else 0.0
+        return (
+            Spread.normal(self.cohesion_kpa, self.cohesion_se_kpa),
+            Spread.normal(self.friction_deg, self.friction_se_deg),
+            float(np.clip(rho, -1.0, 1.0)),
+        )
+
     def as_dict(self) -> dict[str, object]:
         """Plain-Python view for JSON output."""
         return {

@@ -56,3 +56,25 @@ def classify(factor_of_safety: ArrayLike, breaks: ArrayLike = DEFAULT_FS_BREAKS)
     out = (np.searchsorted(b, fs, side="right") + 1).astype(np.uint8)
     out[np.isnan(fs)] = 0
     return out
+
+
+# probability-of-failure classes, most likely to fail first (our own names)
+PF_BREAKS: tuple[float, ...] = (0.01, 0.1, 0.5)
+PF_CLASS_NAMES: tuple[str, ...] = (
+    "expected (P >= 50%)",
+    "likely (10% <= P < 50%)",
+    "possible (1% <= P < 10%)",
+    "remote (P < 1%)",
+)
+
+
+def classify_probability(probability: ArrayLike) -> np.ndarray:
+    """uint8 class of a probability of failure: 1 = P >= 0.5 ... 4 = P < 0.01; 0 for NaN.
+
+    >>> classify_probability([0.7, 0.5, 0.2, 0.05, 0.001, float("nan")]).tolist()
+    [1, 1, 2, 3, 4, 0]
+    """
+    p = np.asarray(probability, dtype=float)
+    out = (len(PF_BREAKS) + 1 - np.searchsorted(PF_BREAKS, p, side="right")).astype(np.uint8)
+    out[np.isnan(p)] = 0
+    return out

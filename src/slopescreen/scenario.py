@@ -1,11 +1,17 @@
 """Per-cell screening of one scenario: wetness, factor of safety, critical recharge, class.
 
-The map engine calls :func:`evaluate_cells` block by block with 1-D arrays of the cells
-that have data; it is numpy-only and broadcasts, so it also serves single slopes.
+The map engine calls these block by block with 1-D arrays of the cells that have data; they
+are numpy-only and broadcast, so they also serve single slopes.
+
+Wetness is one of: a saturation ratio (uniform or per cell); steady recharge with
+m = min(1, R (a/b) / (T sin beta)) (see :mod:`slopescreen.hydrology`), T from
+``transmissivity_m2_day`` where given, else T = K z cos(beta); or a design storm (see
+:mod:`slopescreen.storm`), for which FS is the minimum over depth at the end of the storm.
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from typing import NamedTuple
 
 import numpy as np
@@ -19,9 +25,23 @@ from slopescreen.hydrology import (
 )
 from slopescreen.inverse import critical_saturation
 from slopescreen.stability import factor_of_safety
+from slopescreen.storm import storm_summary
 
 FAILS_WHEN_DRY = -1.0  # critical-recharge code: FS < 1 with no water at all
 HOLDS_WHEN_SATURATED = -2.0  # critical-recharge code: FS >= 1 even with m = 1
+
+
+@dataclass(frozen=True)
+class Storm:
+    """A design storm: uniform rain for a duration, judged at its end and at a later time."""
+
+    rain_mm_h: float
+    duration_h: float
+    later_h: float
+    water_table_depth_m: float  # initial, vertical
+    long_term_infiltration_m_s: float = 0.0
+    depth_steps: int = 10  # planes scanned from z/10 down to the soil base
+    time_steps: int = 24  # time-to-failure resolution: later_h / time_steps
 
 
 class CellResults(NamedTuple):
@@ -29,71 +49,6 @@ class CellResults(NamedTuple):
     factor_of_safety: np.ndarray
     critical_recharge_mm_day: np.ndarray
     hazard_class: np.ndarray
-
-
-def evaluate_cells(
-    slope_deg: ArrayLike,
-    specific_catchment_area_m: ArrayLike,
-    *,
-    cohesion_kpa: ArrayLike,
-    friction_deg: ArrayLike,
-    unit_weight_kn_m3: ArrayLike,
-    depth_m: ArrayLike,
-    saturated_unit_weight_kn_m3: ArrayLike,
-    root_cohesion_kpa: ArrayLike = 0.0,
-    hydraulic_conductivity_m_s: ArrayLike = np.nan,
-    transmissivity_m2_day: ArrayLike = np.nan,
-    saturation: ArrayLike | None = None,
-    recharge_mm_day: float | None = None,
-    seismic_coefficient: float = 0.0,
-    fs_breaks: ArrayLike = DEFAULT_FS_BREAKS,
-) -> CellResults:
-    """Screen cells for one scenario.
-
-    Wetness is either ``saturation`` (uniform or per cell) or steady ``recharge_mm_day``
-    with m = min(1, R (a/b) / (T sin beta)) (see :mod:`slopescreen.hydrology`). T comes from
-    ``transmissivity_m2_day`` where given, else T = K z cos(beta).
-
-    The critical recharge is the steady recharge that brings FS to 1, in mm/day, or the
-    code -1 (fails even when dry) or -2 (holds even when saturated).
-    """
-    slope = np.asarray(slope_deg, dtype=float)
-    sca = np.asarray(specific_catchment_area_m, dtype=float)
-    soil = dict(
-        cohesion_kpa=cohesion_kpa,
-        friction_deg=friction_deg,
-        unit_weight_kn_m3=unit_weight_kn_m3,
-        saturated_unit_weight_kn_m3=saturated_unit_weight_kn_m3,
-        root_cohesion_kpa=root_cohesion_kpa,
-        seismic_coefficient=seismic_coefficient,
-    )
-    t_given = np.asarray(transmissivity_m2_day, dtype=float)
-    k = np.asarray(hydraulic_conductivity_m_s, dtype=float)
-    t = np.where(
-        np.isnan(t_given),
-        np.asarray(transmissivity_m2_day_from(k, depth_m, slope)),
-        t_given,
-    )
-    if recharge_mm_day is not None:
-        m = np.asarray(steady_state_saturation(recharge_mm_day, sca, slope, t), dtype=float)
-    elif saturation is not None:
-        m = np.broadcast_to(np.asarray(saturation, dtype=float), slope.shape)
-    else:
-        raise ValueError("give saturation or recharge_mm_day")
-
-    def fs_at(m_value: ArrayLike) -> np.ndarray:
-        return np.asarray(factor_of_safety(slope, depth_m, saturation=m_value, **soil))
-
-    fs = fs_at(m)
-    fs_dry, fs_wet = fs_at(0.0), fs_at(1.0)
-    m_crit = np.asarray(critical_saturation(slope, depth_m, target_fs=1.0, **soil))
-    with np.errstate(all="ignore"):
-        recharge = np.asarray(
-            recharge_for_saturation_mm_day(np.nan_to_num(m_crit), sca, slope, t), dtype=float
-        )
-    recharge = np.where(fs_dry < 1.0, FAILS_WHEN_DRY, recharge)
-    recharge = np.where((fs_dry >= 1.0) & (fs_wet >= 1.0), HOLDS_WHEN_SATURATED, recharge)
-    return CellResults(m, fs, recharge, classify(fs, fs_breaks))
 
 
 def transmissivity_m2_day_from(
@@ -104,3 +59,138 @@ def transmissivity_m2_day_from(
     safe_k = np.where(np.isfinite(k) & (k > 0.0), k, 1.0)
     t = np.asarray(transmissivity_m2_day(safe_k, depth_m, slope_deg), dtype=float)
     return np.where(np.isfinite(k) & (k > 0.0), t, np.nan)
+
+
+def _transmissivity(
+    k: ArrayLike, t: ArrayLike, depth_m: ArrayLike, slope: np.ndarray
+) -> np.ndarray:
+    t_given = np.asarray(t, dtype=float)
+    return np.where(np.isnan(t_given), transmissivity_m2_day_from(k, depth_m, slope), t_given)
+
+
+def scenario_fs(
+    slope_deg: ArrayLike,
+    specific_catchment_area_m: ArrayLike,
+    *,
+    cohesion_kpa: ArrayLike,
+    friction_deg: ArrayLike,
+    unit_weight_kn_m3: ArrayLike,
+    depth_m: ArrayLike,
+    saturated_unit_weight_kn_m3: ArrayLike | None = None,
+    root_cohesion_kpa: ArrayLike = 0.0,
+    hydraulic_conductivity_m_s: ArrayLike = np.nan,
+    transmissivity_m2_day: ArrayLike = np.nan,
+    diffusivity_m2_s: ArrayLike = np.nan,
+    saturation: ArrayLike | None = None,
+    recharge_mm_day: float | None = None,
+    storm: Storm | None = None,
+    seismic_coefficient: float = 0.0,
+) -> tuple[np.ndarray, np.ndarray]:
+    """(FS, saturation m) of cells under one scenario's wetness; see the module docstring.
+
+    For a storm, FS is the minimum over depth at the end of the storm and m the equivalent
+    saturation max(psi, 0) / (z cos^2 beta) on the basal plane then.
+    """
+    slope = np.asarray(slope_deg, dtype=float)
+    soil = dict(
+        cohesion_kpa=cohesion_kpa,
+        friction_deg=friction_deg,
+        unit_weight_kn_m3=unit_weight_kn_m3,
+        saturated_unit_weight_kn_m3=saturated_unit_weight_kn_m3,
+        root_cohesion_kpa=root_cohesion_kpa,
+    )
+    if storm is not None:
+        from slopescreen.storm import pressure_head_m
+
+        hydro = dict(
+            slope_deg=slope,
+            water_table_depth_m=storm.water_table_depth_m,
+            rain_mm_h=storm.rain_mm_h,
+            hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
+            diffusivity_m2_s=diffusivity_m2_s,
+            long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
+        )
+        res = storm_summary(
+            soil_depth_m=depth_m,
+            later_h=storm.duration_h,
+            duration_h=storm.duration_h,
+            depth_steps=storm.depth_steps,
+            time_steps=1,
+            **hydro,
+            **soil,
+        )
+        psi = np.asarray(
+            pressure_head_m(depth_m, storm.duration_h, duration_h=storm.duration_h, **hydro)
+        )
+        m = np.clip(
+            np.maximum(psi, 0.0) / (np.asarray(depth_m) * np.cos(np.radians(slope)) ** 2), 0.0, 1.0
+        )
+        return res.end_min_fs, np.broadcast_to(m, np.shape(res.end_min_fs))
+    if recharge_mm_day is not None:
+        t = _transmissivity(hydraulic_conductivity_m_s, transmissivity_m2_day, depth_m, slope)
+        m = np.asarray(
+            steady_state_saturation(recharge_mm_day, specific_catchment_area_m, slope, t),
+            dtype=float,
+        )
+    elif saturation is not None:
+        m = np.asarray(saturation, dtype=float)
+    else:
+        raise ValueError("give saturation, recharge_mm_day or storm")
+    fs = np.asarray(
+        factor_of_safety(
+            slope, depth_m, saturation=m, seismic_coefficient=seismic_coefficient, **soil
+        )
+    )
+    return fs, np.broadcast_to(m, fs.shape)
+
+
+def evaluate_cells(
+    slope_deg: ArrayLike,
+    specific_catchment_area_m: ArrayLike,
+    *,
+    fs_breaks: ArrayLike = DEFAULT_FS_BREAKS,
+    **kwargs: object,
+) -> CellResults:
+    """Screen cells for one scenario: saturation, FS, critical recharge and hazard class.
+
+    Keyword arguments as :func:`scenario_fs`. The critical recharge is the steady recharge
+    that brings FS to 1, in mm/day, or the code -1 (fails even when dry) or -2 (holds even
+    when saturated); it does not depend on the scenario's wetness.
+    """
+    slope = np.asarray(slope_deg, dtype=float)
+    fs, m = scenario_fs(slope, specific_catchment_area_m, **kwargs)  # type: ignore[arg-type]
+    soil = {
+        k: kwargs[k]
+        for k in (
+            "cohesion_kpa",
+            "friction_deg",
+            "unit_weight_kn_m3",
+            "saturated_unit_weight_kn_m3",
+            "root_cohesion_kpa",
+        )
+        if k in kwargs
+    }
+    soil["seismic_coefficient"] = kwargs.get("seismic_coefficient", 0.0)
+    depth = kwargs["depth_m"]
+
+    def fs_at(m_value: float) -> np.ndarray:
+        return np.asarray(factor_of_safety(slope, depth, saturation=m_value, **soil))
+
+    fs_dry, fs_wet = fs_at(0.0), fs_at(1.0)
+    m_crit = np.asarray(critical_saturation(slope, depth, target_fs=1.0, **soil))
+    t = _transmissivity(
+        kwargs.get("hydraulic_conductivity_m_s", np.nan),
+        kwargs.get("transmissivity_m2_day", np.nan),
+        depth,
+        slope,
+    )
+    with np.errstate(all="ignore"):
+        recharge = np.asarray(
+            recharge_for_saturation_mm_day(
+                np.nan_to_num(m_crit), specific_catchment_area_m, slope, t
+            ),
+            dtype=float,
+        )
+    recharge = np.where(fs_dry < 1.0, FAILS_WHEN_DRY, recharge)
+    recharge = np.where((fs_dry >= 1.0) & (fs_wet >= 1.0), HOLDS_WHEN_SATURATED, recharge)
+    return CellResults(m, fs, recharge, classify(fs, fs_breaks))

@@ -50,9 +50,30 @@ SOIL_FIELDS: dict[str, tuple[float, float, bool]] = {
     "root_cohesion_kpa": (0.0, 200.0, False),
     "hydraulic_conductivity_m_s": (1e-12, 1.0, False),
     "transmissivity_m2_day": (1e-9, 1e5, False),
+    "diffusivity_m2_s": (1e-9, 1.0, False),
+    "moisture_capacity_per_m": (1e-6, 10.0, False),
 }
 HYDRAULIC_FIELDS = ("hydraulic_conductivity_m_s", "transmissivity_m2_day")
-WETNESS_KEYS = ("saturation", "saturation_raster", "recharge_mm_day")
+# fields that may carry a spread for probability of failure
+UNCERTAIN_FIELDS = (
+    "cohesion_kpa",
+    "friction_deg",
+    "unit_weight_kn_m3",
+    "depth_m",
+    "root_cohesion_kpa",
+    "hydraulic_conductivity_m_s",
+    "transmissivity_m2_day",
+)
+SPREAD_SUFFIXES = ("_sd", "_cov", "_low", "_mode", "_high", "_distribution")
+WETNESS_KEYS = ("saturation", "saturation_raster", "recharge_mm_day", "storm")
+STORM_KEYS: dict[str, tuple[float, float]] = {
+    "rain_mm_h": (0.0, 1000.0),
+    "duration_h": (0.01, 1000.0),
+    "later_h": (0.0, 10000.0),
+    "initial_water_table_depth_m": (0.0, 100.0),
+    "long_term_infiltration_mm_day": (0.0, 1000.0),
+}
+RELIABILITY_METHODS = ("taylor", "monte_carlo")
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,63}$")
 
 
@@ -68,6 +89,23 @@ class Region:
 
 
 @dataclass(frozen=True)
+class StormSpec:
+    rain_mm_h: float
+    duration_h: float
+    later_h: float  # when to look again, hours after the storm began (>= duration)
+    initial_water_table_depth_m: float
+    long_term_infiltration_mm_day: float = 0.0
+
+
+@dataclass(frozen=True)
+class ReliabilitySpec:
+    method: str = "taylor"
+    samples: int = 1000
+    random_state: int = 0
+    fs_distribution: str = "normal"
+
+
+@dataclass(frozen=True)
 class Scenario:
     name: str
     description: str
@@ -76,10 +114,18 @@ class Scenario:
     recharge_mm_day: float | None
     seismic_coefficient: float
     soil_overrides: dict[str, dict[str, float]] = field(default_factory=dict)
+    storm: StormSpec | None = None
 
     @property
     def wetness(self) -> str:
         """A one-line description of how wetness is set."""
+        if self.storm is not None:
+            st = self.storm
+            return (
+                f"design storm {st.rain_mm_h:g} mm/h for {st.duration_h:g} h, water table "
+                f"initially {st.initial_water_table_depth_m:g} m deep; FS at the storm's "
+                f"end and at {st.later_h:g} h"
+            )
         if self.recharge_mm_day is not None:
             return f"steady recharge {self.recharge_mm_day:g} mm/day"
         if self.saturation_raster is not None:
@@ -99,6 +145,7 @@ class Config:
     quicklook_map: bool
     report: bool
     scenarios: tuple[Scenario, ...]
+    reliability: ReliabilitySpec = ReliabilitySpec()
 
 
 class _Lines:
@@ -138,7 +185,7 @@ class _Reader:
         self.lines = _Lines(text)
 
     def fail(self, table: str, key: str, message: str) -> InputError:
-        where = f"[{table.split('#')[0]}]" if table else "top level"
+        where = f"[{re.sub(r'#[0-9]+', '', table)}]" if table else "top level"
         label = f"{where} {key}".strip() if key else where
         return InputError(f"{self.path}: {self.lines.line(table, key)}: {label}: {message}")
 
@@ -188,7 +235,27 @@ class _Reader:
 
 
 def load_config(path: str | Path) -> Config:
-    """Read and validate a scenario file; raise InputError with file, line and key."""
+    """Read and validate a scenario file; raise InputError with file, line and key.
+
+    Storms (instead of another wetness key)::
+
+        [[scenario]]
+        name = "design_storm"
+        [scenario.storm]
+        rain_mm_h = 20.0
+        duration_h = 12.0
+        later_h = 24.0                     # look again this long after the start
+        initial_water_table_depth_m = 1.0
+        long_term_infiltration_mm_day = 0.0
+
+    Probability of failure (used where the soil table gives spreads)::
+
+        [reliability]
+        method = "taylor"                  # or "monte_carlo"
+        samples = 1000
+        random_state = 1                   # same number, same samples
+        fs_distribution = "normal"         # or "lognormal" (Taylor method)
+    """
     path = Path(path)
     try:
         text = path.read_text(encoding="utf-8")
@@ -199,7 +266,7 @@ def load_config(path: str | Path) -> Config:
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"{path}: not valid TOML: {exc}") from None
     r = _Reader(path, text)
-    r.known("", data, {"region", "hazard", "outputs", "scenario"})
+    r.known("", data, {"region", "hazard", "outputs", "reliability", "scenario"})
 
     reg = data.get("region")
     if not isinstance(reg, dict):
@@ -242,6 +309,27 @@ def load_config(path: str | Path) -> Config:
     r.known("outputs", out, {"fs_cap", "hazard_zones", "quicklook_map", "report"})
     fs_cap = r.number("outputs", out, "fs_cap", 1.5, 1e6, 10.0)
 
+    rel = data.get("reliability", {})
+    r.known("reliability", rel, {"method", "samples", "random_state", "fs_distribution"})
+    method = r.text("reliability", rel, "method", "taylor")
+    if method not in RELIABILITY_METHODS:
+        raise r.fail(
+            "reliability",
+            "method",
+            f"must be one of {', '.join(RELIABILITY_METHODS)}, got {method!r}",
+        )
+    fs_dist = r.text("reliability", rel, "fs_distribution", "normal")
+    if fs_dist not in ("normal", "lognormal"):
+        raise r.fail(
+            "reliability", "fs_distribution", f"must be normal or lognormal, got {fs_dist!r}"
+        )
+    reliability = ReliabilitySpec(
+        method=method,
+        samples=int(r.number("reliability", rel, "samples", 10, 1e7, 1000)),  # type: ignore
+        random_state=int(r.number("reliability", rel, "random_state", 0, 2**63 - 1, 0)),  # type: ignore
+        fs_distribution=fs_dist,
+    )
+
     raw_scenarios = data.get("scenario")
     if not isinstance(raw_scenarios, list) or not raw_scenarios:
         raise r.fail("", "scenario", "at least one [[scenario]] table is required")
@@ -259,6 +347,7 @@ def load_config(path: str | Path) -> Config:
         quicklook_map=r.flag("outputs", out, "quicklook_map", True),
         report=r.flag("outputs", out, "report", True),
         scenarios=tuple(scenarios),
+        reliability=reliability,
     )
 
 
@@ -288,7 +377,27 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
             raise r.fail(sub, "", f"soil override for unit {unit!r} must be a table")
         r.known(sub, fields, set(SOIL_FIELDS))
         overrides[str(unit)] = {k: r.number(sub, fields, k, *SOIL_FIELDS[k][:2]) for k in fields}  # type: ignore[misc]
+    storm = None
+    if "storm" in sc:
+        sub = f"{table}.storm"
+        raw = sc["storm"]
+        if not isinstance(raw, dict):
+            raise r.fail(table, "storm", "must be a table")
+        r.known(sub, raw, set(STORM_KEYS))
+        for key in ("rain_mm_h", "duration_h", "initial_water_table_depth_m"):
+            if key not in raw:
+                raise r.fail(sub, "", f"storm needs {key}")
+        values = {k: r.number(sub, raw, k, *STORM_KEYS[k]) for k in raw}
+        values.setdefault("later_h", values["duration_h"])
+        if values["later_h"] < values["duration_h"]:
+            raise r.fail(
+                sub,
+                "later_h",
+                f"must not be before the end of the storm ({values['duration_h']:g} h)",
+            )
+        storm = StormSpec(**values)  # type: ignore[arg-type]
     return Scenario(
+        storm=storm,
         name=name,
         description=str(sc.get("description", "")),
         saturation=r.number(table, sc, "saturation", 0.0, 1.0),

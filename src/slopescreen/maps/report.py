@@ -4,12 +4,13 @@ from __future__ import annotations
 
 import base64
 import html
-from dataclasses import dataclass
 from pathlib import Path
 
 from slopescreen.cautions import CAUTIONS
+from slopescreen.hazard import PF_CLASS_NAMES
 from slopescreen.maps.config import SOIL_FIELDS, Config
 from slopescreen.maps.grid import Grid
+from slopescreen.maps.scenario_run import ScenarioSummary
 from slopescreen.maps.soils import SoilUnits
 from slopescreen.outputs import write_text
 
@@ -21,17 +22,6 @@ th{background:#eee}td.l,th.l{text-align:left}
 .caution{border:2px solid #a33;background:#fbeeee;padding:0.6em 1em;margin:1em 0}
 .warn{color:#8a4b00}img{max-width:100%;border:1px solid #ccc}
 """
-
-
-@dataclass
-class ScenarioSummary:
-    name: str
-    wetness: str
-    seismic_coefficient: float
-    overrides: dict[str, dict[str, float]]
-    class_areas_ha: list[float]  # per class, all units
-    map_png: Path | None
-    warnings: list[str]
 
 
 def _e(x: object) -> str:
@@ -48,6 +38,18 @@ def _image(path: Path | None) -> str:
         return "<p>(no map requested)</p>"
     data = base64.b64encode(path.read_bytes()).decode("ascii")
     return f'<img alt="map {_e(path.parent.name)}" src="data:image/png;base64,{data}">'
+
+
+def _area_table(class_names: list[str], columns: list[tuple[str, list[float]]]) -> str:
+    head = "".join(f"<th>{_e(name)}</th>" for name, _ in columns)
+    rows = []
+    for i, name in enumerate(class_names):
+        cells = []
+        for _, areas in columns:
+            total = sum(areas) or 1.0
+            cells.append(f"<td>{areas[i]:,.2f} ha ({100 * areas[i] / total:.1f}%)</td>")
+        rows.append(f"<tr><th class='l'>{_e(name)}</th>{''.join(cells)}</tr>")
+    return f"<table><tr><th class='l'>class</th>{head}</tr>{''.join(rows)}</table>"
 
 
 def write_report(
@@ -69,20 +71,16 @@ def write_report(
         "specific catchment area.</p>",
         _cautions(),
     ]
-    # comparison table
-    head = "".join(f"<th>{_e(s.name)}</th>" for s in scenarios)
-    rows = []
-    for i, name in enumerate(class_names):
-        cells = []
-        for s in scenarios:
-            total = sum(s.class_areas_ha) or 1.0
-            a = s.class_areas_ha[i]
-            cells.append(f"<td>{a:,.2f} ha ({100 * a / total:.1f}%)</td>")
-        rows.append(f"<tr><th class='l'>{_e(name)}</th>{''.join(cells)}</tr>")
-    parts.append(
-        "<h2>Hazard-class areas by scenario</h2>"
-        f"<table><tr><th class='l'>class</th>{head}</tr>{''.join(rows)}</table>"
-    )
+    parts.append("<h2>Hazard-class areas by scenario</h2>")
+    parts.append(_area_table(class_names, [(s.name, s.class_areas_ha) for s in scenarios]))
+    with_pf = [(s.name, s.probability_areas_ha) for s in scenarios if s.probability_areas_ha]
+    if with_pf:
+        parts.append(
+            "<h2>Probability of failure by scenario</h2><p>P(FS &lt; 1) from the spreads of "
+            f"the soil parameters, method: {_e(cfg.reliability.method.replace('_', ' '))} "
+            "(storm scenarios: Taylor series). Areas of the units that have spreads.</p>"
+        )
+        parts.append(_area_table(list(PF_CLASS_NAMES), with_pf))
     # scenarios
     parts.append(
         "<h2>Scenarios</h2><table><tr><th class='l'>name</th><th class='l'>wetness</th>"
@@ -134,7 +132,11 @@ def write_report(
         "Priority-Flood+epsilon (Barnes et al. 2014) so every cell drains; flow directions by "
         "D-infinity (Tarboton 1997); specific catchment area = contributing area / contour "
         "width. Steady-state wetness m = min(1, R a/b / (T sin beta)), T = K z cos beta "
-        "(Beven &amp; Kirkby 1979; O'Loughlin 1986; Montgomery &amp; Dietrich 1994).</p>"
+        "(Beven &amp; Kirkby 1979; O'Loughlin 1986; Montgomery &amp; Dietrich 1994). "
+        "Design storms: pressure head by the linearised infiltration solution of Iverson "
+        "(2000), capped at the hydrostatic value with the water table at the surface, FS the "
+        "minimum over ten planes down to the soil base; suction is neglected. Probability of "
+        "failure: Taylor series (Duncan 2000) or Monte Carlo.</p>"
     )
     warnings = soils.warnings + [w for s in scenarios for w in s.warnings]
     parts.append("<h2>Coverage and warnings</h2>")
@@ -144,6 +146,10 @@ def write_report(
         else "<p>All DEM data cells lie in a soil unit; no warnings.</p>"
     )
     for s in scenarios:
-        parts.append(f"<h2>Scenario {_e(s.name)}</h2><p>{_e(s.wetness)}</p>{_image(s.map_png)}")
+        files = ", ".join(f"<code>{_e(f)}</code>" for f in s.outputs)
+        parts.append(
+            f"<h2>Scenario {_e(s.name)}</h2><p>{_e(s.wetness)}</p>"
+            f"<p>Rasters: {files}</p>{_image(s.map_png)}"
+        )
     parts.append(_cautions() + "</body></html>\n")
     return write_text(target, "\n".join(parts))

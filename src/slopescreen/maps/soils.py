@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import dataclasses
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -11,8 +12,24 @@ from typing import Any
 import numpy as np
 
 from slopescreen.errors import InputError
-from slopescreen.maps.config import HYDRAULIC_FIELDS, SOIL_FIELDS, Region
+from slopescreen.maps.config import (
+    HYDRAULIC_FIELDS,
+    SOIL_FIELDS,
+    SPREAD_SUFFIXES,
+    UNCERTAIN_FIELDS,
+    Region,
+)
 from slopescreen.maps.grid import Grid
+from slopescreen.reliability import Spread, spread
+
+EXTRA_COLUMNS = ("c_phi_correlation", "strength_lab_tests")
+ALL_COLUMNS = (
+    "name",
+    "description",
+    *SOIL_FIELDS,
+    *(f + s for f in UNCERTAIN_FIELDS for s in SPREAD_SUFFIXES),
+    *EXTRA_COLUMNS,
+)
 
 
 @dataclass
@@ -25,6 +42,22 @@ class SoilUnits:
     unmapped_share: float  # share of DEM data cells without a unit
     warnings: list[str] = field(default_factory=list)
     sources: dict[str, str] = field(default_factory=dict)
+    spreads: dict[int, dict[str, Spread]] = field(default_factory=dict)  # by unit code
+    correlations: dict[int, float] = field(default_factory=dict)  # c'-phi' by unit code
+
+    def unit_spreads(self, code: int) -> dict[str, Spread]:
+        """The unit's spreads, centred on its current (possibly overridden) means."""
+        out = {}
+        for name, sp in self.spreads.get(code, {}).items():
+            shift = float(self.parameters[name][code]) - float(sp.mean)
+            out[name] = dataclasses.replace(
+                sp,
+                mean=sp.mean + shift,
+                low=sp.low + shift,
+                mode=sp.mode + shift,
+                high=sp.high + shift,
+            )
+        return out
 
     def lookup(self, name: str, codes: np.ndarray) -> np.ndarray:
         return self.parameters[name][codes]
@@ -44,9 +77,7 @@ class SoilUnits:
                 if name in HYDRAULIC_FIELDS:  # one hydraulic property replaces the other
                     other = next(h for h in HYDRAULIC_FIELDS if h != name)
                     params[other][code] = np.nan
-        return SoilUnits(
-            self.keys, params, self.codes, self.unmapped_share, self.warnings, self.sources
-        )
+        return dataclasses.replace(self, parameters=params)
 
 
 def _to_float(source: str, unit: str, name: str, value: Any) -> float:
@@ -88,6 +119,69 @@ def _check_unit(source: str, unit: str, values: dict[str, float]) -> None:
         )
 
 
+def _unit_spreads(
+    source: str, unit: str, record: dict[str, Any], values: dict[str, float]
+) -> tuple[dict[str, Spread], float]:
+    """Spreads of one unit from its columns (and a lab-test envelope fit, which also sets the
+    unit's cohesion and friction means); ``values`` is updated with those means."""
+    spreads: dict[str, Spread] = {}
+    rho = 0.0
+    lab = record.get("strength_lab_tests")
+    if isinstance(lab, str) and lab.strip():
+        from slopescreen.cli.cmd_envelope import fit_file
+
+        path = (Path(source).parent / lab.strip()).resolve()
+        try:
+            _, fit = fit_file(path)
+            c, phi, rho = fit.strength_spreads()
+        except InputError as exc:
+            raise InputError(f"{source}: unit {unit!r}, field strength_lab_tests: {exc}") from None
+        values["cohesion_kpa"] = max(float(c.mean), 0.0)
+        values["friction_deg"] = float(phi.mean)
+        spreads["cohesion_kpa"] = dataclasses.replace(c, mean=np.asarray(values["cohesion_kpa"]))
+        spreads["friction_deg"] = phi
+    for name in UNCERTAIN_FIELDS:
+        raw = {suffix[1:]: record.get(name + suffix) for suffix in SPREAD_SUFFIXES}
+        given = {
+            k: v
+            for k, v in raw.items()
+            if k != "distribution" and not math.isnan(_to_float(source, unit, name + "_" + k, v))
+        }
+        if not given:
+            continue
+        kind = str(raw.get("distribution") or "").strip() or (
+            "triangular" if "mode" in given else "uniform" if "low" in given else "normal"
+        )
+        numbers = {k: _to_float(source, unit, name + "_" + k, v) for k, v in given.items()}
+        if kind in ("normal", "lognormal"):
+            numbers["mean"] = values.get(name, math.nan)
+            if math.isnan(numbers["mean"]):
+                raise InputError(
+                    f"{source}: unit {unit!r}, field {name}: a spread needs the "
+                    "mean value in the field itself"
+                )
+        try:
+            spreads[name] = spread(kind, **numbers)
+        except InputError as exc:
+            raise InputError(f"{source}: unit {unit!r}, field {name} spread: {exc}") from None
+        if math.isnan(values.get(name, math.nan)):
+            values[name] = float(spreads[name].mean)
+    corr = _to_float(source, unit, "c_phi_correlation", record.get("c_phi_correlation"))
+    if not math.isnan(corr):
+        if not -1.0 <= corr <= 1.0:
+            raise InputError(
+                f"{source}: unit {unit!r}, field c_phi_correlation: {corr:g} is "
+                "outside the allowed range [-1, 1]"
+            )
+        if not {"cohesion_kpa", "friction_deg"} <= set(spreads):
+            raise InputError(
+                f"{source}: unit {unit!r}, field c_phi_correlation: needs spreads "
+                "for both cohesion_kpa and friction_deg"
+            )
+        rho = corr
+    return spreads, rho
+
+
 def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
     try:
         text = path.read_text(encoding="utf-8-sig")
@@ -100,11 +194,11 @@ def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
     )
     if not rows or key_field not in rows[0]:
         raise InputError(f"{path}: soil table needs a column {key_field!r} (soil_unit_field)")
-    unknown = sorted(set(rows[0]) - set(SOIL_FIELDS) - {key_field, "name", "description"})
+    unknown = sorted(set(rows[0]) - set(ALL_COLUMNS) - {key_field})
     if unknown:
         raise InputError(
             f"{path}: unknown column {unknown[0]!r}; allowed: "
-            f"{', '.join([key_field, 'name', 'description', *SOIL_FIELDS])}"
+            f"{', '.join([key_field, *ALL_COLUMNS])}"
         )
     table: dict[str, dict[str, Any]] = {}
     for row in rows:
@@ -162,19 +256,30 @@ def load_soils(region: Region, grid: Grid, valid: np.ndarray) -> SoilUnits:
         for k in keys:
             rows = frame[frame[key] == k]
             first = rows.iloc[0]
-            for name in SOIL_FIELDS:
+            for name in ALL_COLUMNS:
                 if name in rows.columns and rows[name].nunique(dropna=False) > 1:
                     raise InputError(
                         f"{source}: unit {k!r}, field {name}: polygons of one unit "
                         "disagree; give one value per unit"
                     )
-            records[k] = {name: first[name] for name in SOIL_FIELDS if name in rows.columns}
+            records[k] = {name: first[name] for name in ALL_COLUMNS if name in rows.columns}
     params = {name: np.full(len(keys) + 1, np.nan) for name in SOIL_FIELDS}
+    spreads: dict[int, dict[str, Spread]] = {}
+    correlations: dict[int, float] = {}
     for code, k in enumerate(keys, start=1):
         values = {name: _to_float(source, k, name, records[k].get(name)) for name in SOIL_FIELDS}
+        unit_spreads, rho = _unit_spreads(source, k, records[k], values)
         _check_unit(source, k, values)
         for name, v in values.items():
             params[name][code] = v
+        if unit_spreads:
+            spreads[code] = unit_spreads
+            correlations[code] = rho
+    # hydraulic diffusivity D0 = K / C0 where only the moisture capacity C0 is given
+    derived = params["hydraulic_conductivity_m_s"] / params["moisture_capacity_per_m"]
+    params["diffusivity_m2_s"] = np.where(
+        np.isnan(params["diffusivity_m2_s"]), derived, params["diffusivity_m2_s"]
+    )
     sat = params["saturated_unit_weight_kn_m3"]
     sat[1:] = np.where(
         np.isnan(sat[1:]), np.maximum(params["unit_weight_kn_m3"][1:], 9.81), sat[1:]
@@ -216,4 +321,6 @@ def load_soils(region: Region, grid: Grid, valid: np.ndarray) -> SoilUnits:
         share,
         warnings,
         {"polygons": str(region.soil_units), "parameters": source},
+        spreads,
+        correlations,
     )

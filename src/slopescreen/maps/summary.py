@@ -22,7 +22,11 @@ def add_areas(
 
 
 def summary_rows(
-    table: np.ndarray, unit_keys: list[str], class_names: list[str], scenario: str
+    table: np.ndarray,
+    unit_keys: list[str],
+    class_names: list[str],
+    scenario: str,
+    measure: str = "factor_of_safety",
 ) -> list[dict[str, object]]:
     """Rows per soil unit and class, then totals; classes >= 1 only (0 is no data)."""
     mapped = table[1:, 1:]
@@ -36,6 +40,7 @@ def summary_rows(
             rows.append(
                 {
                     "scenario": scenario,
+                    "measure": measure,
                     "soil_unit": key,
                     "hazard_class": cls,
                     "class_name": name,
