@@ -290,7 +290,7 @@ def test_unreadable_dem_and_polygons(region, capsys):
 
 
 def test_storm_and_reliability_errors(region, capsys):
-    folder, toml = region
+    _folder, toml = region
     storm = SCENARIO_TEXT.replace(
         "saturation = 0.0", "[scenario.storm]\nrain_mm_h = 10.0\nduration_h = 6.0\n"
     )
