@@ -30,7 +30,7 @@ Kramer, S.L. (1996). *Geotechnical Earthquake Engineering*, Prentice Hall, sec. 
 
 from __future__ import annotations
 
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -96,14 +96,51 @@ def _column(
     return _Column(np.radians(slope), depth, m, gamma, gamma_sat, q, k_h, gamma_w)
 
 
+def slip_plane_terms(
+    cos_b: ArrayLike,
+    sin_b: ArrayLike,
+    depth_m: ArrayLike,
+    unit_weight: ArrayLike,
+    saturated_unit_weight: ArrayLike,
+    saturation: ArrayLike,
+    surcharge_kpa: ArrayLike,
+    seismic: ArrayLike,
+    water_unit_weight: ArrayLike,
+) -> tuple[Any, Any, Any]:
+    """(sigma, u, tau_d) on the slip plane: the module's equations in plain arithmetic.
+
+    Written with operators only so that one source serves numpy arrays here and compiled
+    scalar kernels in the map engine (numba).
+    """
+    load = (unit_weight * (1.0 - saturation) + saturated_unit_weight * saturation) * depth_m
+    load = load + surcharge_kpa
+    sigma = load * cos_b * (cos_b - seismic * sin_b)
+    tau = load * cos_b * (sin_b + seismic * cos_b)
+    u = water_unit_weight * saturation * depth_m * cos_b * cos_b
+    return sigma, u, tau
+
+
+def resisting_stress(
+    cohesion_total: ArrayLike, tan_friction: ArrayLike, sigma: ArrayLike, u: ArrayLike
+) -> Any:
+    """c' + c_root + max(sigma - u, 0) tan(phi'), in plain arithmetic (see slip_plane_terms)."""
+    effective = sigma - u
+    return cohesion_total + 0.5 * (effective + abs(effective)) * tan_friction
+
+
 def _stresses_unclipped(col: _Column) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """sigma, u, sigma - u (not clipped) and tau_d for a validated column."""
-    load = col.unit_weight * (1.0 - col.saturation) * col.depth_m
-    load = load + col.saturated_unit_weight * col.saturation * col.depth_m + col.surcharge_kpa
-    cos_b, sin_b = np.cos(col.beta), np.sin(col.beta)
-    sigma = load * cos_b * (cos_b - col.seismic * sin_b)
-    tau = load * cos_b * (sin_b + col.seismic * cos_b)
-    u = col.water_unit_weight * col.saturation * col.depth_m * cos_b**2
+    sigma, u, tau = slip_plane_terms(
+        np.cos(col.beta),
+        np.sin(col.beta),
+        col.depth_m,
+        col.unit_weight,
+        col.saturated_unit_weight,
+        col.saturation,
+        col.surcharge_kpa,
+        col.seismic,
+        col.water_unit_weight,
+    )
     return sigma, u, sigma - u, tau
 
 
@@ -210,8 +247,8 @@ def factor_of_safety(
     c = checked("cohesion_kpa", cohesion_kpa, 0.0)
     c_root = checked("root_cohesion_kpa", root_cohesion_kpa, 0.0)
     phi = checked("friction_deg", friction_deg, 0.0, 90.0, high_open=True)
-    _, _, sigma_eff, tau = _stresses_unclipped(col)
-    resisting = c + c_root + np.maximum(sigma_eff, 0.0) * np.tan(np.radians(phi))
+    sigma, u, _, tau = _stresses_unclipped(col)
+    resisting = resisting_stress(c + c_root, np.tan(np.radians(phi)), sigma, u)
     return as_result(ratio_or_inf(resisting, tau))
 
 
