@@ -196,15 +196,15 @@ def test_interrupted_run_leaves_previous_outputs_whole(region, capsys, monkeypat
     manifest = (out / "manifest.json").read_text()
 
     calls = {"n": 0}
-    real = scenario_run.cell_results
+    real = scenario_run.compute_tile
 
-    def interrupted(*args, **kwargs):  # Ctrl-C in the second scenario's first block
+    def interrupted(*args, **kwargs):  # Ctrl-C in the second scenario's first tile
         calls["n"] += 1
         if calls["n"] == 2:
             raise KeyboardInterrupt
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(scenario_run, "cell_results", interrupted)
+    monkeypatch.setattr(scenario_run, "compute_tile", interrupted)
     assert main(["run", str(toml), "--out", str(out), "--quiet"]) == 130
     assert calls["n"] == 2
     after = {p: p.read_bytes() for p in out.rglob("*") if p.is_file()}

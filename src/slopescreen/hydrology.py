@@ -46,6 +46,14 @@ def transmissivity_m2_day(
     return as_result(k * SECONDS_PER_DAY * z * np.cos(beta))
 
 
+def wetness_ratio(
+    recharge_m_day: ArrayLike, sca_m: ArrayLike, sin_b: ArrayLike, transmissivity_m2_day: ArrayLike
+) -> ArrayLike:
+    """R (a/b) / (T sin beta) in plain arithmetic (unclipped; the caller caps it at 1 and
+    handles T sin beta = 0). One source for numpy arrays and the map engine's kernels."""
+    return recharge_m_day * sca_m / (transmissivity_m2_day * sin_b)
+
+
 def steady_state_saturation(
     recharge_mm_day: ArrayLike,
     specific_catchment_area_m: ArrayLike,
@@ -68,10 +76,11 @@ def steady_state_saturation(
     sca = checked("specific_catchment_area_m", specific_catchment_area_m, 0.0, low_open=True)
     beta = np.radians(checked("slope_deg", slope_deg, 0.0, 90.0, high_open=True))
     t = checked("transmissivity_m2_day", transmissivity_m2_day, 0.0, low_open=True)
-    capacity = t * np.sin(beta)
-    inflow = r * sca
+    sin_b = np.sin(beta)
     with np.errstate(divide="ignore", invalid="ignore"):
-        m = np.where(capacity > 0.0, inflow / capacity, np.where(inflow > 0.0, 1.0, 0.0))
+        m = np.where(
+            t * sin_b > 0.0, wetness_ratio(r, sca, sin_b, t), np.where(r * sca > 0.0, 1.0, 0.0)
+        )
     return as_result(np.minimum(m, 1.0))
 
 

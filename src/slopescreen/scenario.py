@@ -144,6 +144,47 @@ def scenario_fs(
     return fs, np.broadcast_to(m, fs.shape)
 
 
+def critical_recharge_mm_day(
+    slope_deg: ArrayLike,
+    specific_catchment_area_m: ArrayLike,
+    *,
+    cohesion_kpa: ArrayLike,
+    friction_deg: ArrayLike,
+    unit_weight_kn_m3: ArrayLike,
+    depth_m: ArrayLike,
+    saturated_unit_weight_kn_m3: ArrayLike | None = None,
+    root_cohesion_kpa: ArrayLike = 0.0,
+    hydraulic_conductivity_m_s: ArrayLike = np.nan,
+    transmissivity_m2_day: ArrayLike = np.nan,
+    seismic_coefficient: float = 0.0,
+    **_ignored: object,
+) -> np.ndarray:
+    """Steady recharge (mm/day) that brings FS to 1, or the codes -1 (fails even when dry)
+    and -2 (holds even when saturated). It does not depend on a scenario's wetness."""
+    slope = np.asarray(slope_deg, dtype=float)
+    soil = dict(
+        cohesion_kpa=cohesion_kpa,
+        friction_deg=friction_deg,
+        unit_weight_kn_m3=unit_weight_kn_m3,
+        saturated_unit_weight_kn_m3=saturated_unit_weight_kn_m3,
+        root_cohesion_kpa=root_cohesion_kpa,
+        seismic_coefficient=seismic_coefficient,
+    )
+    fs_dry = np.asarray(factor_of_safety(slope, depth_m, saturation=0.0, **soil))
+    fs_wet = np.asarray(factor_of_safety(slope, depth_m, saturation=1.0, **soil))
+    m_crit = np.asarray(critical_saturation(slope, depth_m, target_fs=1.0, **soil))
+    t = _transmissivity(hydraulic_conductivity_m_s, transmissivity_m2_day, depth_m, slope)
+    with np.errstate(all="ignore"):
+        recharge = np.asarray(
+            recharge_for_saturation_mm_day(
+                np.nan_to_num(m_crit), specific_catchment_area_m, slope, t
+            ),
+            dtype=float,
+        )
+    recharge = np.where(fs_dry < 1.0, FAILS_WHEN_DRY, recharge)
+    return np.where((fs_dry >= 1.0) & (fs_wet >= 1.0), HOLDS_WHEN_SATURATED, recharge)
+
+
 def evaluate_cells(
     slope_deg: ArrayLike,
     specific_catchment_area_m: ArrayLike,
@@ -153,44 +194,8 @@ def evaluate_cells(
 ) -> CellResults:
     """Screen cells for one scenario: saturation, FS, critical recharge and hazard class.
 
-    Keyword arguments as :func:`scenario_fs`. The critical recharge is the steady recharge
-    that brings FS to 1, in mm/day, or the code -1 (fails even when dry) or -2 (holds even
-    when saturated); it does not depend on the scenario's wetness.
+    Keyword arguments as :func:`scenario_fs`; see :func:`critical_recharge_mm_day`.
     """
-    slope = np.asarray(slope_deg, dtype=float)
-    fs, m = scenario_fs(slope, specific_catchment_area_m, **kwargs)  # type: ignore[arg-type]
-    soil = {
-        k: kwargs[k]
-        for k in (
-            "cohesion_kpa",
-            "friction_deg",
-            "unit_weight_kn_m3",
-            "saturated_unit_weight_kn_m3",
-            "root_cohesion_kpa",
-        )
-        if k in kwargs
-    }
-    soil["seismic_coefficient"] = kwargs.get("seismic_coefficient", 0.0)
-    depth = kwargs["depth_m"]
-
-    def fs_at(m_value: float) -> np.ndarray:
-        return np.asarray(factor_of_safety(slope, depth, saturation=m_value, **soil))
-
-    fs_dry, fs_wet = fs_at(0.0), fs_at(1.0)
-    m_crit = np.asarray(critical_saturation(slope, depth, target_fs=1.0, **soil))
-    t = _transmissivity(
-        kwargs.get("hydraulic_conductivity_m_s", np.nan),
-        kwargs.get("transmissivity_m2_day", np.nan),
-        depth,
-        slope,
-    )
-    with np.errstate(all="ignore"):
-        recharge = np.asarray(
-            recharge_for_saturation_mm_day(
-                np.nan_to_num(m_crit), specific_catchment_area_m, slope, t
-            ),
-            dtype=float,
-        )
-    recharge = np.where(fs_dry < 1.0, FAILS_WHEN_DRY, recharge)
-    recharge = np.where((fs_dry >= 1.0) & (fs_wet >= 1.0), HOLDS_WHEN_SATURATED, recharge)
+    fs, m = scenario_fs(slope_deg, specific_catchment_area_m, **kwargs)  # type: ignore[arg-type]
+    recharge = critical_recharge_mm_day(slope_deg, specific_catchment_area_m, **kwargs)  # type: ignore[arg-type]
     return CellResults(m, fs, recharge, classify(fs, fs_breaks))

@@ -39,6 +39,20 @@ def add_to(sub: Any) -> None:
     parser.add_argument(
         "--cache", type=Path, default=None, help="terrain cache folder (default: OUT/.cache)"
     )
+    parser.add_argument(
+        "--workers",
+        type=int,
+        default=0,
+        metavar="N",
+        help="run the scenario tiles on a local dask cluster of N worker "
+        "processes (default: in this process)",
+    )
+    parser.add_argument(
+        "--scheduler",
+        metavar="ADDRESS",
+        help="send the scenario tiles to an existing dask scheduler, e.g. "
+        "tcp://10.0.0.5:8786 (workers must see the same file paths)",
+    )
     parser.add_argument("--quiet", action="store_true", help="no progress bars")
 
 

@@ -5,7 +5,8 @@ from __future__ import annotations
 import json
 import platform
 import time
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -16,10 +17,10 @@ from slopescreen.cautions import CAUTIONS
 from slopescreen.errors import InputError
 from slopescreen.hazard import class_names as hazard_class_names
 from slopescreen.maps.config import Config, Scenario, load_config
-from slopescreen.maps.grid import Grid, file_sha256, read_dem
-from slopescreen.maps.rasters import write_raster
+from slopescreen.maps.grid import Grid, file_sha256, read_elevations, read_grid
+from slopescreen.maps.rasters import RasterSink
 from slopescreen.maps.report import write_report
-from slopescreen.maps.scenario_run import ScenarioSummary, run_scenario
+from slopescreen.maps.scenario_run import Runner, ScenarioSummary, run_scenario, serial_runner
 from slopescreen.maps.soils import SoilUnits, load_soils
 from slopescreen.maps.terrain_cache import (
     cache_key,
@@ -61,19 +62,47 @@ def select_scenarios(cfg: Config, only: Sequence[str] | None) -> list[Scenario]:
 class Inputs:
     cfg: Config
     grid: Grid
-    elevation_m: np.ndarray
     soils: SoilUnits
     hashes: dict[str, str]
 
 
-def prepare(cfg: Config) -> Inputs:
-    """Read and validate every input (shared by ``run`` and ``check``)."""
-    grid, z = read_dem(cfg.region.dem, cfg.region.dem_elevation_unit)
-    soils = load_soils(cfg.region, grid, np.isfinite(z))
+def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
+    """Read and validate every input (shared by ``run`` and ``check``), tile by tile.
+
+    With ``codes_target`` the rasterized soil units are written there as a GeoTIFF.
+    """
+    grid = read_grid(cfg.region.dem)
+
+    def valid_tile(rows: slice, cols: slice) -> np.ndarray:
+        return np.isfinite(read_elevations(cfg.region.dem, "m", rows, cols))
+
+    soils = load_soils(cfg.region, grid, valid_tile)
+    if codes_target is not None:
+        tags = {f"unit_{i}": k for i, k in enumerate(soils.keys, start=1)}
+        sink = RasterSink(
+            codes_target,
+            grid,
+            "uint16",
+            0,
+            resampling="nearest",
+            tags=tags
+            | {
+                "slopescreen_version": __version__,
+                "description": "soil unit code; unit_N names code N",
+            },
+        )
+        try:
+            soils.measure_coverage(grid, valid_tile, sink)
+        except BaseException:
+            sink.discard()
+            raise
+        sink.close()
+    if soils.data_cells == 0:
+        raise InputError(f"{cfg.region.dem}: DEM holds no data cells")
     for sc in cfg.scenarios:
         soils.with_overrides(sc.soil_overrides, f"{cfg.path}: scenario {sc.name}")
         if sc.saturation_raster is not None:
-            open_saturation(sc.saturation_raster, grid).close()
+            open_saturation(sc.saturation_raster, grid).close()  # type: ignore[attr-defined]
     hashes = {
         "scenario_file": file_sha256(cfg.path),
         "dem": file_sha256(cfg.region.dem),
@@ -84,7 +113,7 @@ def prepare(cfg: Config) -> Inputs:
     for sc in cfg.scenarios:
         if sc.saturation_raster is not None:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)
-    return Inputs(cfg, grid, z, soils, hashes)
+    return Inputs(cfg, grid, soils, hashes)
 
 
 def open_saturation(path: Path, grid: Grid) -> object:
@@ -121,13 +150,22 @@ def run(
     cache_dir: Path | None = None,
     progress: bool = True,
     echo: Echo = print,
+    workers: int = 0,
+    scheduler: str | None = None,
 ) -> Path:
-    """Run the scenarios; return the path of manifest.json."""
+    """Run the scenarios; return the path of manifest.json.
+
+    ``workers`` > 0 runs the scenario tiles on a local dask.distributed cluster of that many
+    worker processes; ``scheduler`` sends them to an existing cluster at that address
+    (workers must see the same files at the same paths). The outputs are the same bytes
+    either way.
+    """
     timings = Timings()
     started = time.perf_counter()
     cfg = load_config(config_path)
     chosen = select_scenarios(cfg, only)
-    inputs = prepare(cfg)
+    terrain_dir = out / "terrain"
+    inputs = prepare(cfg, codes_target=terrain_dir / "soil_unit.tif")
     timings.add("read and check inputs", started)
     grid, soils = inputs.grid, inputs.soils
     echo(f"region {cfg.region.name}: {grid.width} x {grid.height} cells, {grid.spacing_note}")
@@ -137,53 +175,41 @@ def run(
     started = time.perf_counter()
     key = cache_key(inputs.hashes["dem"], cfg.region.dem_elevation_unit)
     cache = cache_dir if cache_dir is not None else out / ".cache"
-    folder, reused = terrain_products(grid, inputs.elevation_m, key, cache, __version__)
-    terrain_dir = out / "terrain"
+    folder, reused = terrain_products(grid, cfg.region.dem_elevation_unit, key, cache, __version__)
     for name in ("slope_deg.tif", "specific_catchment_area_m.tif", "hillshade.tif"):
         copy_file(folder / name, terrain_dir / name)
-    unit_tags = {f"unit_{i}": k for i, k in enumerate(soils.keys, start=1)}
-    write_raster(
-        terrain_dir / "soil_unit.tif",
-        grid,
-        soils.codes,
-        0,
-        resampling="nearest",
-        tags=unit_tags
-        | {
-            "slopescreen_version": __version__,
-            "description": "soil unit code; unit_N names code N",
-        },
-    )
     timings.add("terrain (cached)" if reused else "terrain", started)
     echo(f"terrain: {'reused from cache' if reused else 'computed'} ({folder})")
-    del inputs.elevation_m
 
     names = hazard_class_names(cfg.fs_breaks)
     summaries: list[ScenarioSummary] = []
-    all_rows: list[dict[str, object]] = []
-    for sc in chosen:
-        started = time.perf_counter()
-        summary, rows = run_scenario(
-            cfg,
-            sc,
-            grid,
-            soils,
-            terrain_dir,
-            out / sc.name,
-            names,
-            lambda items, total, label: _progress(items, total, label, progress),
-        )
-        summaries.append(summary)
-        all_rows += rows
-        timings.add(f"scenario {sc.name}", started)
-        mapped = sum(summary.class_areas_ha)
-        worst = summary.class_areas_ha[0]
-        echo(
-            f"scenario {sc.name}: {summary.wetness}; {worst:,.1f} ha of {mapped:,.1f} ha mapped "
-            f"in class 1 ({names[0]}) -> {out / sc.name}"
-        )
-        for w in summary.warnings:
-            echo(f"WARNING: {w}")
+    with _runner(workers, scheduler, echo) as (runner, numba_threads):
+        for sc in chosen:
+            started = time.perf_counter()
+            summary, _ = run_scenario(
+                cfg,
+                sc,
+                grid,
+                soils,
+                terrain_dir,
+                folder,
+                key,
+                out / sc.name,
+                names,
+                lambda items, total, label: _progress(items, total, label, progress),
+                runner,
+                numba_threads,
+            )
+            summaries.append(summary)
+            timings.add(f"scenario {sc.name}", started)
+            mapped = sum(summary.class_areas_ha)
+            worst = summary.class_areas_ha[0]
+            echo(
+                f"scenario {sc.name}: {summary.wetness}; {worst:,.1f} ha of {mapped:,.1f} ha "
+                f"mapped in class 1 ({names[0]}) -> {out / sc.name}"
+            )
+            for w in summary.warnings:
+                echo(f"WARNING: {w}")
 
     started = time.perf_counter()
     if cfg.report:
@@ -193,6 +219,18 @@ def run(
     target = write_text(out / "manifest.json", json.dumps(manifest, indent=2) + "\n")
     echo(f"report: {out / 'report.html'}; manifest: {target}")
     return target
+
+
+@contextmanager
+def _runner(workers: int, scheduler: str | None, echo: Echo) -> Iterator[tuple[Runner, int]]:
+    """(runner, numba threads per task): serial here, or on a dask.distributed cluster."""
+    if not workers and not scheduler:
+        yield serial_runner, 0
+        return
+    from slopescreen.maps.distributed import dask_runner
+
+    with dask_runner(workers, scheduler, echo) as runner:
+        yield runner, 1
 
 
 def _manifest(

@@ -78,8 +78,8 @@ def _ellipsoid(crs: object) -> dict[str, float]:
     return {"a": ell.semi_major_metre, "b": ell.semi_minor_metre}
 
 
-def read_dem(path: Path, elevation_unit: str = "m") -> tuple[Grid, np.ndarray]:
-    """The DEM as float64 metres (NaN = no data) and its grid; InputError for bad rasters."""
+def read_grid(path: Path) -> Grid:
+    """The DEM's grid (no elevations read); InputError for rasters we cannot use."""
     import rasterio
 
     try:
@@ -101,9 +101,8 @@ def read_dem(path: Path, elevation_unit: str = "m") -> tuple[Grid, np.ndarray]:
             raise InputError(
                 f"{path}: DEM must be at least 3 x 3 cells, got {src.width} x {src.height}"
             )
-        z = src.read(1, masked=True).astype(np.float64).filled(np.nan)
         dx_rows, dy, geographic = _metric_spacing(t, src.crs, src.height)
-        grid = Grid(
+        return Grid(
             path=Path(path),
             width=src.width,
             height=src.height,
@@ -113,9 +112,30 @@ def read_dem(path: Path, elevation_unit: str = "m") -> tuple[Grid, np.ndarray]:
             dy_m=dy,
             geographic=geographic,
         )
+
+
+def read_elevations(
+    path: Path, elevation_unit: str = "m", rows: slice | None = None, cols: slice | None = None
+) -> np.ndarray:
+    """Elevations in metres as float64, NaN for no data; a window when rows/cols are given."""
+    import rasterio
+    from rasterio.windows import Window
+
+    with rasterio.open(path) as src:
+        window = None
+        if rows is not None and cols is not None:
+            window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+        z = src.read(1, masked=True, window=window).astype(np.float64).filled(np.nan)
     z[~np.isfinite(z)] = np.nan
     if elevation_unit == "ft":
         z *= FEET_TO_M
+    return z
+
+
+def read_dem(path: Path, elevation_unit: str = "m") -> tuple[Grid, np.ndarray]:
+    """The DEM's grid and all its elevations (metres, NaN = no data)."""
+    grid = read_grid(path)
+    z = read_elevations(path, elevation_unit)
     if np.isnan(z).all():
         raise InputError(f"{path}: DEM holds no data cells")
     return grid, z

@@ -1,9 +1,11 @@
 """Compiled per-cell kernels for the map engine (numba).
 
 The physics is not written again here: the kernels compile the core's own arithmetic
-(:func:`slopescreen.stability.slip_plane_terms`, :func:`slopescreen.stability.resisting_stress`) into one fused pass per cell, run on all
-cores. Inputs are validated by the map engine before they get here (soil table ranges,
-terrain), as the core functions would.
+(:func:`slopescreen.stability.slip_plane_terms`, :func:`slopescreen.stability.resisting_stress`,
+:func:`slopescreen.hydrology.wetness_ratio`) into one fused pass per cell, run on all cores.
+Inputs are validated before they get here (soil-table ranges by the engine, terrain by
+construction). Slopes come in as tan(beta), stored with the terrain, so no trigonometry is
+left per cell: cos = 1 / sqrt(1 + tan^2), sin = tan cos.
 """
 
 from __future__ import annotations
@@ -13,67 +15,104 @@ import math
 import numba
 import numpy as np
 
+from slopescreen.hydrology import wetness_ratio
 from slopescreen.stability import resisting_stress, slip_plane_terms
 
 _terms = numba.njit(inline="always")(slip_plane_terms)
 _resisting = numba.njit(inline="always")(resisting_stress)
+_ratio = numba.njit(inline="always")(wetness_ratio)
 
-_SIGNATURES = ["f8(f8, f8, f8, f8, f8, f8, f8, f8, f8)"]
+
+@numba.njit(inline="always")
+def _fs(tan_b, depth, c_total, tan_phi, gamma, gamma_sat, m, seismic, gamma_w):
+    cos_b = 1.0 / math.sqrt(1.0 + tan_b * tan_b)
+    sigma, u, tau = _terms(cos_b, tan_b * cos_b, depth, gamma, gamma_sat, m, 0.0, seismic, gamma_w)
+    resisting = _resisting(c_total, tan_phi, sigma, u)
+    if tau > 0.0:
+        return resisting / tau
+    return math.inf if resisting > 0.0 else math.nan
 
 
-@numba.vectorize(_SIGNATURES, target="parallel", cache=True)
+@numba.vectorize(["f8(f8, f8, f8, f8, f8, f8, f8, f8, f8)"], target="parallel", cache=True)
 def fs_ufunc(
-    slope_deg,
+    tan_slope,
     depth_m,
     cohesion_total_kpa,
-    friction_deg,
-    unit_weight,  # noqa: ANN001, ANN201
+    tan_friction,
+    unit_weight,
     saturated_unit_weight,
     saturation,
     seismic,
     water_unit_weight,
 ):
     """Factor of safety per cell, as :func:`slopescreen.stability.factor_of_safety` (no
-    surcharge): +inf with no driving stress, NaN with neither driving nor resisting."""
-    beta = math.radians(slope_deg)
-    cos_b, sin_b = math.cos(beta), math.sin(beta)
-    sigma, u, tau = _terms(
-        cos_b,
-        sin_b,
-        depth_m,
-        unit_weight,
-        saturated_unit_weight,
-        saturation,
-        0.0,
-        seismic,
-        water_unit_weight,
-    )
-    resisting = _resisting(cohesion_total_kpa, math.tan(math.radians(friction_deg)), sigma, u)
-    if tau > 0.0:
-        return resisting / tau
-    return math.inf if resisting > 0.0 else math.nan
-
-
-def fs_cells(
-    slope_deg: np.ndarray,
-    depth_m: np.ndarray,
-    cohesion_total_kpa: np.ndarray,
-    friction_deg: np.ndarray,
-    unit_weight: np.ndarray,
-    saturated_unit_weight: np.ndarray,
-    saturation: np.ndarray,
-    seismic: float,
-    water_unit_weight: float = 9.81,
-) -> np.ndarray:
-    """FS for cells (broadcasting like numpy)."""
-    return fs_ufunc(
-        slope_deg,
+    surcharge), broadcasting like a numpy ufunc."""
+    return _fs(
+        tan_slope,
         depth_m,
         cohesion_total_kpa,
-        friction_deg,
+        tan_friction,
         unit_weight,
         saturated_unit_weight,
         saturation,
         seismic,
         water_unit_weight,
     )
+
+
+@numba.njit(parallel=True, cache=True)
+def fs_by_unit(
+    tan_slope,
+    codes,
+    saturation,
+    depth,
+    c_total,
+    tan_phi,
+    gamma,
+    gamma_sat,
+    seismic,
+    gamma_w,
+    out,
+):
+    """FS per cell with the soil parameters looked up by unit code (tables indexed by code)."""
+    for i in numba.prange(tan_slope.size):
+        j = codes[i]
+        out[i] = _fs(
+            np.float64(tan_slope[i]),
+            depth[j],
+            c_total[j],
+            tan_phi[j],
+            gamma[j],
+            gamma_sat[j],
+            np.float64(saturation[i]),
+            seismic,
+            gamma_w,
+        )
+
+
+@numba.njit(parallel=True, cache=True)
+def steady_saturation_by_unit(
+    recharge_mm_day,
+    tan_slope,
+    sca,
+    codes,
+    depth,
+    conductivity,
+    transmissivity,
+    out,
+):
+    """Steady-state m = min(1, R (a/b) / (T sin beta)), T from the unit's transmissivity
+    where given, else K z cos(beta); flat cells saturate when R > 0."""
+    r = recharge_mm_day / 1000.0
+    for i in numba.prange(tan_slope.size):
+        j = codes[i]
+        tb = np.float64(tan_slope[i])
+        cos_b = 1.0 / math.sqrt(1.0 + tb * tb)
+        t = transmissivity[j]
+        if math.isnan(t):
+            t = conductivity[j] * 86400.0 * depth[j] * cos_b
+        if t * tb * cos_b > 0.0:
+            m = _ratio(r, np.float64(sca[i]), tb * cos_b, t)
+            out[i] = m if m < 1.0 else 1.0
+        else:
+            out[i] = 1.0 if r * sca[i] > 0.0 else 0.0

@@ -36,11 +36,21 @@ def _nice_length(target: float) -> float:
     return max(m * power for m in (1, 2, 5) if m * power <= target)
 
 
+def _decimated(path: Path, step: int) -> np.ndarray:
+    """The raster read at 1/step resolution (nearest; from its overviews where present)."""
+    import rasterio
+    from rasterio.enums import Resampling
+
+    with rasterio.open(path) as src:
+        shape = (max(1, src.height // step), max(1, src.width // step))
+        return src.read(1, out_shape=shape, resampling=Resampling.nearest)
+
+
 def draw_map(
     target: Path,
     grid: Grid,
-    hillshade: np.ndarray,
-    hazard: np.ndarray,
+    hillshade_path: Path,
+    hazard_path: Path,
     class_names: list[str],
     title: str,
     subtitle: str,
@@ -65,7 +75,7 @@ def draw_map(
     fig_h = min(max(fig_w * height_over_width * 0.8 + 1.8, 5.0), 14.0)
     fig, ax = plt.subplots(figsize=(fig_w, fig_h), dpi=120)
     ax.imshow(
-        np.ma.masked_equal(hillshade[::step, ::step], 0),
+        np.ma.masked_equal(_decimated(hillshade_path, step), 0),
         cmap="gray",
         extent=extent,
         interpolation="nearest",
@@ -73,7 +83,7 @@ def draw_map(
         vmax=255,
     )
     ax.imshow(
-        np.ma.masked_equal(hazard[::step, ::step], 0),
+        np.ma.masked_equal(_decimated(hazard_path, step), 0),
         cmap=ListedColormap(colours),
         vmin=0.5,
         vmax=n + 0.5,

@@ -17,10 +17,19 @@ from slopescreen.maps.grid import Grid
 BLOCK = 512
 
 
-def windows(grid: Grid, rows_per_block: int = 2048) -> Iterator[tuple[slice, slice]]:
-    """Row bands of the grid, a whole number of tiles high."""
-    for top in range(0, grid.height, rows_per_block):
-        yield slice(top, min(top + rows_per_block, grid.height)), slice(0, grid.width)
+TILE = 2048  # cells per side of a work tile (a whole number of storage blocks)
+
+
+def windows(grid: Grid, size: int | None = None) -> Iterator[tuple[slice, slice]]:
+    """Square work tiles of the grid (default ``TILE`` cells a side), row by row: every
+    per-cell step works tile by tile, so its memory does not grow with the region."""
+    size = size or TILE
+    for top in range(0, grid.height, size):
+        for left in range(0, grid.width, size):
+            yield (
+                slice(top, min(top + size, grid.height)),
+                slice(left, min(left + size, grid.width)),
+            )
 
 
 class RasterSink:

@@ -1,29 +1,35 @@
-"""One scenario over the grid, block by block: rasters, area tables, zones and map."""
+"""One scenario over the grid, tile by tile: rasters, area tables, zones and map.
+
+Every tile is computed by :func:`compute_tile` from files on disk and a small picklable
+:class:`TileJob`, so the same function runs in this process or on dask workers; results are
+written and summed in tile order, so a distributed run gives the same bytes as a serial one.
+"""
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 from functools import partial
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
 from slopescreen import __version__
 from slopescreen.errors import InputError
-from slopescreen.hazard import PF_CLASS_NAMES, classify_probability
-from slopescreen.maps.config import Config, Scenario
+from slopescreen.hazard import PF_CLASS_NAMES, classify, classify_probability
+from slopescreen.maps.config import Config, ReliabilitySpec, Scenario
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.rasters import RasterSink, read_block, windows
 from slopescreen.maps.soils import SoilUnits
 from slopescreen.maps.summary import add_areas, summary_rows, write_summary
 from slopescreen.maps.terrain_cache import NODATA_F32
-from slopescreen.reliability import reliability_fosm, reliability_monte_carlo
+from slopescreen.reliability import Spread, reliability_fosm, reliability_monte_carlo
 from slopescreen.scenario import (
     FAILS_WHEN_DRY,
     HOLDS_WHEN_SATURATED,
     Storm,
-    evaluate_cells,
+    critical_recharge_mm_day,
     scenario_fs,
 )
 from slopescreen.storm import storm_summary
@@ -42,6 +48,7 @@ CORE_FIELDS = (
 )
 BETA_CAP = 10.0  # reliability index stored within +-10 (P_f 0 or 1 gives +-inf)
 NO_FAILURE_CODE = -1.0  # time-to-failure code: FS stays >= 1 up to the later time
+Runner = Callable[[Callable[..., dict], list[tuple]], Iterator[dict]]
 
 
 @dataclass
@@ -57,6 +64,27 @@ class ScenarioSummary:
     outputs: list[str] = field(default_factory=list)
 
 
+@dataclass(frozen=True)
+class TileJob:
+    """What a tile computation needs; small and picklable (no arrays of the grid)."""
+
+    grid: Grid
+    scenario: Scenario
+    tables: dict[str, np.ndarray]  # soil parameters by unit code, overrides applied
+    spreads: dict[int, dict[str, Spread]]
+    correlations: dict[int, float]
+    slope_deg: Path
+    slope_tan: Path
+    sca: Path
+    codes: Path
+    recharge_cache: Path | None  # critical recharge already computed for these soils
+    fs_breaks: tuple[float, ...]
+    fs_cap: float
+    reliability: ReliabilitySpec
+    n_units: int
+    numba_threads: int = 0  # 0: numba's default (all cores)
+
+
 def core_storm(sc: Scenario) -> Storm | None:
     if sc.storm is None:
         return None
@@ -68,16 +96,6 @@ def core_storm(sc: Scenario) -> Storm | None:
         water_table_depth_m=st.initial_water_table_depth_m,
         long_term_infiltration_m_s=st.long_term_infiltration_mm_day / 1000 / 86400,
     )
-
-
-def _wetness(sc: Scenario, block: dict[str, np.ndarray]) -> dict[str, object]:
-    if sc.storm is not None:
-        return {"storm": core_storm(sc)}
-    if sc.recharge_mm_day is not None:
-        return {"recharge_mm_day": sc.recharge_mm_day}
-    if sc.saturation_raster is not None:
-        return {"saturation": block["saturation"]}
-    return {"saturation": sc.saturation}
 
 
 def _check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
@@ -92,28 +110,139 @@ def _check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
                 )
 
 
-def cell_results(
-    block: dict[str, np.ndarray], units: SoilUnits, sc: Scenario, breaks: tuple[float, ...]
-) -> dict[str, np.ndarray]:
-    """Every per-cell output of the scenario for the cells of one block."""
-    codes = block["codes"]
-    params = {name: units.lookup(name, codes) for name in CORE_FIELDS}
-    res = evaluate_cells(
-        block["slope"],
-        block["sca"],
-        seismic_coefficient=sc.seismic_coefficient,
-        fs_breaks=breaks,
-        **params,
-        **_wetness(sc, block),
+def _saturation_window(job: TileJob, rows: slice, cols: slice) -> np.ndarray:
+    from rasterio.windows import Window
+
+    from slopescreen.maps.engine import open_saturation
+
+    vrt = open_saturation(job.scenario.saturation_raster, job.grid)  # type: ignore[arg-type]
+    try:
+        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+        return vrt.read(1, window=window).astype(np.float64)  # type: ignore[attr-defined]
+    finally:
+        vrt.close()  # type: ignore[attr-defined]
+
+
+def _fs_fast(seismic: float, tan_slope: np.ndarray, saturation: Any, **p: Any) -> np.ndarray:
+    """FS of cells by the compiled kernel (parameters may be arrays of samples)."""
+    from slopescreen.maps.kernels import fs_ufunc
+
+    tan_phi = np.tan(np.radians(np.asarray(p["friction_deg"], float)))
+    gamma = np.asarray(p["unit_weight_kn_m3"], float)
+    gamma_sat = p.get("saturated_unit_weight_kn_m3")
+    return fs_ufunc(
+        tan_slope,
+        p["depth_m"],
+        np.asarray(p["cohesion_kpa"], float) + np.asarray(p.get("root_cohesion_kpa", 0.0), float),
+        tan_phi,
+        gamma,
+        gamma if gamma_sat is None else gamma_sat,
+        saturation,
+        seismic,
+        9.81,
     )
-    out = {
-        "fs": res.factor_of_safety,
-        "saturation": res.saturation,
-        "recharge": res.critical_recharge_mm_day,
-        "hazard": res.hazard_class,
-    }
-    storm = core_storm(sc)
-    if storm is not None:
+
+
+def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) -> np.ndarray:
+    """FS of a unit's cells for the reliability methods (samples broadcast over cells)."""
+    if sc.storm is not None:
+        return scenario_fs(
+            p.pop("slope_deg"),
+            p.pop("specific_catchment_area_m"),
+            storm=core_storm(sc),
+            seismic_coefficient=sc.seismic_coefficient,
+            **p,
+        )[0]
+    slope = p.pop("slope_deg")
+    sca = p.pop("specific_catchment_area_m")
+    if sc.recharge_mm_day is not None:
+        from slopescreen.hydrology import steady_state_saturation
+        from slopescreen.scenario import _transmissivity
+
+        t = _transmissivity(
+            p.get("hydraulic_conductivity_m_s", np.nan),
+            p.get("transmissivity_m2_day", np.nan),
+            p["depth_m"],
+            slope,
+        )
+        m = steady_state_saturation(sc.recharge_mm_day, sca, slope, t)
+    else:
+        m = block["saturation"]
+    return _fs_fast(sc.seismic_coefficient, block["tan"], m, **p)
+
+
+def probability(job: TileJob, block: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+    """(P_f, reliability index) for a tile's cells; NaN for units without spreads."""
+    sc, rel = job.scenario, job.reliability
+    codes = block["codes"]
+    pf = np.full(codes.shape, np.nan)
+    beta = np.full(codes.shape, np.nan)
+    method = "taylor" if sc.storm is not None else rel.method
+    for code in np.unique(codes):
+        spreads = job.spreads.get(int(code))
+        if not spreads:
+            continue
+        sel = codes == code
+        sub = {k: v[sel] for k, v in block.items()}
+        values: dict[str, object] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
+        values.update(spreads)
+        values["slope_deg"] = sub["slope"]
+        values["specific_catchment_area_m"] = sub["sca"]
+        fs_of = partial(_fs_for_probability, sc, sub)
+        rho = job.correlations.get(int(code), 0.0)
+        corr = {("cohesion_kpa", "friction_deg"): rho} if rho else {}
+        if method == "monte_carlo":
+            res = reliability_monte_carlo(
+                fs_of, values, corr, samples=rel.samples, random_state=rel.random_state
+            )
+        else:
+            res = reliability_fosm(fs_of, values, corr, fs_distribution=rel.fs_distribution)
+        pf[sel] = res.probability_of_failure
+        beta[sel] = np.clip(res.reliability_index, -BETA_CAP, BETA_CAP)
+    return pf, beta
+
+
+def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
+    """Every per-cell output of one scenario on one tile, with its area tables."""
+    from slopescreen.maps.kernels import fs_by_unit, steady_saturation_by_unit
+
+    if job.numba_threads:
+        import numba
+
+        numba.set_num_threads(job.numba_threads)
+    sc = job.scenario
+    tan = read_block(job.slope_tan, rows, cols)
+    sca = read_block(job.sca, rows, cols)
+    codes = read_block(job.codes, rows, cols)
+    valid = (codes > 0) & (tan != NODATA_F32) & (sca != NODATA_F32)
+    out: dict[str, Any] = {"rows": rows, "cols": cols, "missing_wetness": 0}
+    m_grid = None
+    if sc.saturation_raster is not None:
+        m_grid = _saturation_window(job, rows, cols)
+        out["missing_wetness"] = int((valid & ~np.isfinite(m_grid)).sum())
+        valid &= np.isfinite(m_grid)
+    c = codes[valid]
+    block = {"tan": tan[valid], "sca": sca[valid], "codes": c}
+    t = job.tables
+    n = c.size
+    values: dict[str, np.ndarray] = {}
+    if sc.storm is not None or job.spreads or job.recharge_cache is None:
+        block["slope"] = read_block(job.slope_deg, rows, cols)[valid].astype(np.float64)
+    params = (
+        {name: t[name][c] for name in CORE_FIELDS}
+        if (sc.storm is not None or job.recharge_cache is None)
+        else {}
+    )
+    if sc.storm is not None:
+        storm = core_storm(sc)
+        assert storm is not None
+        fs, m = scenario_fs(
+            block["slope"],
+            block["sca"],
+            storm=storm,
+            seismic_coefficient=sc.seismic_coefficient,
+            **params,
+        )
         summary = storm_summary(
             soil_depth_m=params["depth_m"],
             later_h=storm.later_h,
@@ -137,55 +266,93 @@ def cell_results(
                 )
             },
         )
-        out["storm_fs_later"] = summary.later_min_fs
-        out["storm_failure_depth"] = summary.end_critical_depth_m
-        out["storm_time_to_failure"] = np.where(
+        values["storm_fs_later"] = np.minimum(summary.later_min_fs, job.fs_cap)
+        values["storm_failure_depth"] = summary.end_critical_depth_m
+        values["storm_time_to_failure"] = np.where(
             np.isnan(summary.time_to_failure_h), NO_FAILURE_CODE, summary.time_to_failure_h
         )
+    else:
+        m = np.empty(n)
+        if sc.recharge_mm_day is not None:
+            steady_saturation_by_unit(
+                float(sc.recharge_mm_day),
+                block["tan"],
+                block["sca"],
+                c,
+                t["depth_m"],
+                t["hydraulic_conductivity_m_s"],
+                t["transmissivity_m2_day"],
+                m,
+            )
+        elif m_grid is not None:
+            m = m_grid[valid]
+            bad = (m < 0.0) | (m > 1.0)
+            if bad.any():
+                raise InputError(
+                    f"{sc.saturation_raster}: saturation values must be in [0, 1], "
+                    f"found {float(m[bad][0]):g}"
+                )
+        else:
+            m[:] = sc.saturation
+        fs = np.empty(n)
+        fs_by_unit(
+            block["tan"],
+            c,
+            m,
+            t["depth_m"],
+            t["cohesion_kpa"] + t["root_cohesion_kpa"],
+            np.tan(np.radians(t["friction_deg"])),
+            t["unit_weight_kn_m3"],
+            t["saturated_unit_weight_kn_m3"],
+            float(sc.seismic_coefficient),
+            9.81,
+            fs,
+        )
+    block["saturation"] = np.broadcast_to(m, (n,))
+    values["hazard"] = classify(fs, job.fs_breaks)
+    values["fs"] = np.minimum(fs, job.fs_cap)
+    values["saturation"] = block["saturation"]
+    if job.recharge_cache is None:
+        values["recharge"] = critical_recharge_mm_day(
+            block["slope"], block["sca"], seismic_coefficient=sc.seismic_coefficient, **params
+        )
+    if job.spreads:
+        values["probability"], values["reliability"] = probability(job, block)
+    shape = codes.shape
+    for name, v in values.items():
+        full = (
+            np.zeros(shape, np.uint8)
+            if name == "hazard"
+            else np.full(shape, NODATA_F32, np.float32)
+        )
+        full[valid] = v if name == "hazard" else np.nan_to_num(v, nan=NODATA_F32)
+        out[name] = full
+    cell_area = job.grid.cell_area_rows_m2[rows]
+    table = np.zeros((job.n_units + 1, len(job.fs_breaks) + 2))
+    add_areas(table, codes * valid, out["hazard"], cell_area)
+    out["table"] = table
+    if job.spreads:
+        pf_table = np.zeros((job.n_units + 1, len(PF_CLASS_NAMES) + 1))
+        pf_classes = np.zeros(shape, np.uint8)
+        pf_classes[valid] = classify_probability(values["probability"])
+        add_areas(pf_table, codes * valid, pf_classes, cell_area)
+        out["pf_table"] = pf_table
     return out
 
 
-def _fs_only(seismic: float, wetness: dict[str, object], **params: object) -> np.ndarray:
-    return scenario_fs(seismic_coefficient=seismic, **wetness, **params)[0]  # type: ignore
-
-
-def probability(
-    block: dict[str, np.ndarray], units: SoilUnits, sc: Scenario, cfg: Config
-) -> tuple[np.ndarray, np.ndarray]:
-    """(P_f, reliability index) for the block's cells; NaN for units without spreads."""
-    codes = block["codes"]
-    pf = np.full(codes.shape, np.nan)
-    beta = np.full(codes.shape, np.nan)
-    rel = cfg.reliability
-    method = "taylor" if sc.storm is not None else rel.method
-    for code in np.unique(codes):
-        spreads = units.unit_spreads(int(code))
-        if not spreads:
-            continue
-        sel = codes == code
-        sub = {k: v[sel] for k, v in block.items()}
-        values: dict[str, object] = {
-            name: float(units.parameters[name][code]) for name in CORE_FIELDS
-        }
-        values.update(spreads)
-        values["slope_deg"] = sub["slope"]
-        values["specific_catchment_area_m"] = sub["sca"]
-        fs_of = partial(_fs_only, sc.seismic_coefficient, _wetness(sc, sub))
-        rho = units.correlations.get(int(code), 0.0)
-        corr = {("cohesion_kpa", "friction_deg"): rho} if rho else {}
-        if method == "monte_carlo":
-            res = reliability_monte_carlo(
-                fs_of, values, corr, samples=rel.samples, random_state=rel.random_state
-            )
-        else:
-            res = reliability_fosm(fs_of, values, corr, fs_distribution=rel.fs_distribution)
-        pf[sel] = res.probability_of_failure
-        beta[sel] = np.clip(res.reliability_index, -BETA_CAP, BETA_CAP)
-    return pf, beta
+def serial_runner(fn: Callable[..., dict], jobs: list[tuple]) -> Iterator[dict]:
+    for args in jobs:
+        yield fn(*args)
 
 
 def _sinks(
-    cfg: Config, sc: Scenario, grid: Grid, out: Path, names: list[str], with_probability: bool
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    out: Path,
+    names: list[str],
+    with_probability: bool,
+    with_recharge: bool,
 ) -> dict[str, RasterSink]:
     from slopescreen.maps.quicklook import colour_table
 
@@ -209,12 +376,6 @@ def _sinks(
             **({"fs_when": "minimum over depth at the end of the storm"} if sc.storm else {}),
         ),
         "saturation": f32("saturation.tif", units="saturation ratio m = h_w / z"),
-        "recharge": f32(
-            "critical_recharge_mm_day.tif",
-            units="mm/day of steady recharge bringing FS to 1",
-            code_fails_when_dry=f"{FAILS_WHEN_DRY:g}",
-            code_holds_when_saturated=f"{HOLDS_WHEN_SATURATED:g}",
-        ),
         "hazard": RasterSink(
             out / "hazard_class.tif",
             grid,
@@ -227,6 +388,8 @@ def _sinks(
             | {"class_0": "no data"},
         ),
     }
+    if with_recharge:
+        sinks["recharge"] = f32("critical_recharge_mm_day.tif", **recharge_tags(sc))
     if sc.storm is not None:
         sinks["storm_fs_later"] = f32(
             "storm_fs_later.tif",
@@ -256,102 +419,97 @@ def _sinks(
     return sinks
 
 
+def recharge_tags(sc: Scenario) -> dict[str, str]:
+    return {
+        "slopescreen_version": __version__,
+        "seismic_coefficient": f"{sc.seismic_coefficient:g}",
+        "units": "mm/day of steady recharge bringing FS to 1",
+        "code_fails_when_dry": f"{FAILS_WHEN_DRY:g}",
+        "code_holds_when_saturated": f"{HOLDS_WHEN_SATURATED:g}",
+    }
+
+
+def recharge_key(units: SoilUnits, sc: Scenario, terrain_key: str) -> str:
+    """Content key of a critical-recharge raster: terrain, soil tables and seismic load."""
+    import hashlib
+
+    digest = hashlib.sha256(terrain_key.encode())
+    for name in CORE_FIELDS:
+        digest.update(name.encode())
+        digest.update(np.ascontiguousarray(units.parameters[name]).tobytes())
+    digest.update(repr(float(sc.seismic_coefficient)).encode())
+    return digest.hexdigest()[:24]
+
+
 def run_scenario(
     cfg: Config,
     sc: Scenario,
     grid: Grid,
     soils: SoilUnits,
     terrain_dir: Path,
+    terrain_cache: Path,
+    terrain_key: str,
     out: Path,
     names: list[str],
     progress: Callable[[Iterable, int, str], Iterable],
+    runner: Runner = serial_runner,
+    numba_threads: int = 0,
 ) -> tuple[ScenarioSummary, list[dict[str, object]]]:
     from slopescreen.maps.quicklook import draw_map
+    from slopescreen.maps.terrain_cache import copy_file
     from slopescreen.maps.zones import hazard_zones, write_zones
 
     where = f"{cfg.path}: scenario {sc.name}"
     units = soils.with_overrides(sc.soil_overrides, where)
     _check_storm_soils(units, sc, where)
+    recharge_file = terrain_cache / f"critical_recharge-{recharge_key(units, sc, terrain_key)}.tif"
+    cached = recharge_file.exists()
+    job = TileJob(
+        grid=grid,
+        scenario=sc,
+        tables=units.parameters,
+        spreads=units.spreads,
+        correlations=units.correlations,
+        slope_deg=terrain_dir / "slope_deg.tif",
+        slope_tan=terrain_cache / "slope_tan.tif",
+        sca=terrain_dir / "specific_catchment_area_m.tif",
+        codes=terrain_dir / "soil_unit.tif",
+        recharge_cache=recharge_file if cached else None,
+        fs_breaks=cfg.fs_breaks,
+        fs_cap=cfg.fs_cap,
+        reliability=cfg.reliability,
+        n_units=len(units.keys),
+        numba_threads=numba_threads,
+    )
     with_probability = bool(units.spreads)
-    sinks = _sinks(cfg, sc, grid, out, names, with_probability)
-    table = np.zeros((len(units.keys) + 1, len(names) + 1))
-    pf_table = np.zeros((len(units.keys) + 1, len(PF_CLASS_NAMES) + 1))
-    warnings: list[str] = []
-    saturation_src = None
-    if sc.saturation_raster is not None:
-        from slopescreen.maps.engine import open_saturation
-
-        saturation_src = open_saturation(sc.saturation_raster, grid)
-    hazard_full = np.zeros(grid.shape, np.uint8) if cfg.hazard_zones or cfg.quicklook_map else None
-    missing_wetness = 0
+    sinks = _sinks(cfg, sc, grid, out, names, with_probability, not cached)
+    tables, pf_tables = [], []
+    missing = 0
     try:
-        blocks = list(windows(grid))
-        for rows, cols in progress(blocks, len(blocks), sc.name):
-            slope = read_block(terrain_dir / "slope_deg.tif", rows, cols).astype(np.float64)
-            sca = read_block(terrain_dir / "specific_catchment_area_m.tif", rows, cols)
-            codes = units.codes[rows, cols]
-            valid = (codes > 0) & (slope != NODATA_F32) & (sca != NODATA_F32)
-            m = None
-            if saturation_src is not None:
-                from rasterio.windows import Window
-
-                window = Window(0, rows.start, grid.width, rows.stop - rows.start)
-                m = saturation_src.read(1, window=window).astype(np.float64)  # type: ignore
-                missing_wetness += int((valid & ~np.isfinite(m)).sum())
-                valid &= np.isfinite(m)
-            block = {
-                "slope": slope[valid],
-                "sca": sca[valid].astype(np.float64),
-                "codes": codes[valid],
-            }
-            if m is not None:
-                block["saturation"] = m[valid]
-                bad = (block["saturation"] < 0.0) | (block["saturation"] > 1.0)
-                if bad.any():
-                    raise InputError(
-                        f"{sc.saturation_raster}: saturation values must be in "
-                        f"[0, 1], found {float(block['saturation'][bad][0]):g}"
-                    )
-            values = cell_results(block, units, sc, cfg.fs_breaks)
-            values["fs"] = np.minimum(values["fs"], cfg.fs_cap)
-            if "storm_fs_later" in values:
-                values["storm_fs_later"] = np.minimum(values["storm_fs_later"], cfg.fs_cap)
-            if with_probability:
-                values["probability"], values["reliability"] = probability(block, units, sc, cfg)
+        tiles = [(job, rows, cols) for rows, cols in windows(grid)]
+        results = runner(compute_tile, tiles)
+        for res in progress(results, len(tiles), sc.name):
             for name, sink in sinks.items():
-                full = (
-                    np.zeros(codes.shape, np.uint8)
-                    if name == "hazard"
-                    else np.full(codes.shape, NODATA_F32, np.float32)
-                )
-                full[valid] = (
-                    np.nan_to_num(values[name], nan=NODATA_F32)
-                    if name != "hazard"
-                    else values[name]
-                )
-                sink.write(rows, cols, full)
-            cell_area = grid.cell_area_rows_m2[rows]
-            classes = np.zeros(codes.shape, np.uint8)
-            classes[valid] = values["hazard"]
-            add_areas(table, codes * valid, classes, cell_area)
+                sink.write(res["rows"], res["cols"], res[name])
+            tables.append(res["table"])
             if with_probability:
-                pf_classes = np.zeros(codes.shape, np.uint8)
-                pf_classes[valid] = classify_probability(values["probability"])
-                add_areas(pf_table, codes * valid, pf_classes, cell_area)
-            if hazard_full is not None:
-                hazard_full[rows, cols] = classes
+                pf_tables.append(res["pf_table"])
+            missing += res["missing_wetness"]
         for sink in sinks.values():
             sink.close()
     except BaseException:
         for sink in sinks.values():
             sink.discard()
         raise
-    finally:
-        if saturation_src is not None:
-            saturation_src.close()  # type: ignore[attr-defined]
-    if missing_wetness:
+    if cached:
+        copy_file(recharge_file, out / "critical_recharge_mm_day.tif")
+    else:
+        copy_file(out / "critical_recharge_mm_day.tif", recharge_file)
+    table = np.sum(tables, axis=0)  # in tile order: the same sums whatever ran the tiles
+    warnings: list[str] = []
+    if missing:
         warnings.append(
-            f"scenario {sc.name}: {missing_wetness} cells have no value in "
+            f"scenario {sc.name}: {missing} cells have no value in "
             f"{sc.saturation_raster.name} and are left unmapped"
         )  # type: ignore
     if with_probability:
@@ -369,31 +527,36 @@ def run_scenario(
     rows_out = summary_rows(table, units.keys, names, sc.name, "factor_of_safety")
     pf_areas = None
     if with_probability:
+        pf_table = np.sum(pf_tables, axis=0)
         rows_out += summary_rows(
             pf_table, units.keys, list(PF_CLASS_NAMES), sc.name, "probability_of_failure"
         )
         pf_areas = [float(a) / 10_000.0 for a in pf_table[1:, 1:].sum(axis=0)]
     write_summary(rows_out, out / "summary.csv")
-    if cfg.hazard_zones and hazard_full is not None:
+    if cfg.hazard_zones:
         zones = hazard_zones(
-            hazard_full, units.codes, grid, units.keys, names, cfg.min_zone_area_m2, sc.name
+            out / "hazard_class.tif",
+            job.codes,
+            grid,
+            units.keys,
+            names,
+            cfg.min_zone_area_m2,
+            sc.name,
         )
         write_zones(zones, out / "hazard_zones.gpkg")
     map_png = None
-    if cfg.quicklook_map and hazard_full is not None:
-        shade = read_block(
-            terrain_dir / "hillshade.tif", slice(0, grid.height), slice(0, grid.width)
-        )
+    if cfg.quicklook_map:
         map_png = draw_map(
             out / "map.png",
             grid,
-            shade,
-            hazard_full,
+            terrain_dir / "hillshade.tif",
+            out / "hazard_class.tif",
             names,
             f"{cfg.region.name}: factor-of-safety classes",
             f"scenario {sc.name} ({sc.wetness})",
         )
     areas = [float(a) / 10_000.0 for a in table[1:, 1:].sum(axis=0)]
+    outputs = sorted({s.target.name for s in sinks.values()} | {"critical_recharge_mm_day.tif"})
     return ScenarioSummary(
         sc.name,
         sc.wetness,
@@ -403,5 +566,5 @@ def run_scenario(
         map_png,
         warnings,
         pf_areas,
-        sorted(s.target.name for s in sinks.values()),
+        outputs,
     ), rows_out

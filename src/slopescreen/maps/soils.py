@@ -38,12 +38,13 @@ class SoilUnits:
 
     keys: list[str]
     parameters: dict[str, np.ndarray]  # field -> values by code (index 0 = NaN)
-    codes: np.ndarray  # uint16 raster on the DEM grid
+    polygons: Any  # GeoDataFrame of "code" and geometry, in the DEM's CRS
     unmapped_share: float  # share of DEM data cells without a unit
     warnings: list[str] = field(default_factory=list)
     sources: dict[str, str] = field(default_factory=dict)
     spreads: dict[int, dict[str, Spread]] = field(default_factory=dict)  # by unit code
     correlations: dict[int, float] = field(default_factory=dict)  # c'-phi' by unit code
+    data_cells: int = 0  # DEM cells with data
 
     def unit_spreads(self, code: int) -> dict[str, Spread]:
         """The unit's spreads, centred on its current (possibly overridden) means."""
@@ -61,6 +62,51 @@ class SoilUnits:
 
     def lookup(self, name: str, codes: np.ndarray) -> np.ndarray:
         return self.parameters[name][codes]
+
+    def rasterize(self, grid: Grid, rows: slice, cols: slice) -> np.ndarray:
+        """uint16 unit codes of one tile (0: no unit), from the polygons that touch it."""
+        from rasterio import features
+        from rasterio.windows import Window, transform
+        from shapely.geometry import box
+
+        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+        t = transform(window, grid.transform)
+        shape = (rows.stop - rows.start, cols.stop - cols.start)
+        x0, y1 = t.c, t.f
+        x1, y0 = t.c + t.a * shape[1], t.f + t.e * shape[0]
+        hits = self.polygons.sindex.query(box(x0, y0, x1, y1))
+        if len(hits) == 0:
+            return np.zeros(shape, np.uint16)
+        part = self.polygons.iloc[np.sort(hits)]
+        return features.rasterize(
+            zip(part.geometry, part["code"], strict=True),
+            out_shape=shape,
+            transform=t,
+            fill=0,
+            dtype="uint16",
+        )
+
+    def measure_coverage(self, grid: Grid, valid_tile: Any, sink: Any = None) -> None:
+        """Rasterize tile by tile (into ``sink`` when given) and report unmapped cells."""
+        from slopescreen.maps.rasters import windows
+
+        data_cells = unmapped = 0
+        for rows, cols in windows(grid):
+            codes = self.rasterize(grid, rows, cols)
+            valid = valid_tile(rows, cols)
+            codes[~valid] = 0
+            data_cells += int(valid.sum())
+            unmapped += int((valid & (codes == 0)).sum())
+            if sink is not None:
+                sink.write(rows, cols, codes)
+        self.data_cells = data_cells
+        self.unmapped_share = unmapped / data_cells if data_cells else 0.0
+        self.warnings = [w for w in self.warnings if "lie in no soil unit" not in w]
+        if unmapped:
+            self.warnings.append(
+                f"{self.unmapped_share:.1%} of the DEM's data cells "
+                f"({unmapped} cells) lie in no soil unit and are left unmapped"
+            )
 
     def with_overrides(self, overrides: dict[str, dict[str, float]], where: str) -> SoilUnits:
         """A copy with per-unit parameter overrides applied (unknown units are errors)."""
@@ -232,9 +278,11 @@ def read_polygons(region: Region) -> Any:
     return frame
 
 
-def load_soils(region: Region, grid: Grid, valid: np.ndarray) -> SoilUnits:
-    """Read, validate, reproject and rasterize the soil units onto ``grid``."""
-    from rasterio import features
+def load_soils(region: Region, grid: Grid, region_dem_valid: Any) -> SoilUnits:
+    """Read, validate and reproject the soil units; measure their coverage of ``grid``.
+
+    ``region_dem_valid(rows, cols)`` gives the DEM's data mask of a tile.
+    """
     from shapely.geometry import box
 
     frame = read_polygons(region)
@@ -299,28 +347,17 @@ def load_soils(region: Region, grid: Grid, valid: np.ndarray) -> SoilUnits:
     outside = sorted(set(frame.loc[~inside, key]) - set(frame.loc[inside, key]))
     if outside:
         warnings.append(f"soil units entirely outside the DEM: {', '.join(outside)}")
-    lookup = {k: i for i, k in enumerate(keys, start=1)}
-    shapes = (
-        (geom, lookup[k])
-        for geom, k in zip(frame.geometry[inside], frame.loc[inside, key], strict=True)
+    polygons = frame.loc[inside, [key, "geometry"]].copy()
+    polygons["code"] = [keys.index(k) + 1 for k in polygons[key]]
+    units = SoilUnits(
+        keys=keys,
+        parameters=params,
+        polygons=polygons[["code", "geometry"]].reset_index(drop=True),
+        unmapped_share=0.0,
+        warnings=warnings,
+        sources={"polygons": str(region.soil_units), "parameters": source},
+        spreads=spreads,
+        correlations=correlations,
     )
-    codes = features.rasterize(shapes, out_shape=grid.shape, transform=t, fill=0, dtype="uint16")
-    codes[~valid] = 0
-    data_cells = int(valid.sum())
-    unmapped = int((valid & (codes == 0)).sum())
-    share = unmapped / data_cells if data_cells else 0.0
-    if unmapped:
-        warnings.append(
-            f"{share:.1%} of the DEM's data cells ({unmapped} cells) lie in no soil "
-            "unit and are left unmapped"
-        )
-    return SoilUnits(
-        keys,
-        params,
-        codes,
-        share,
-        warnings,
-        {"polygons": str(region.soil_units), "parameters": source},
-        spreads,
-        correlations,
-    )
+    units.measure_coverage(grid, region_dem_valid)
+    return units

@@ -9,12 +9,13 @@ from pathlib import Path
 
 import numpy as np
 
-from slopescreen.maps.grid import Grid
-from slopescreen.maps.rasters import write_raster
+from slopescreen.maps.grid import Grid, read_elevations
+from slopescreen.maps import rasters
+from slopescreen.maps.rasters import RasterSink
 
-TERRAIN_VERSION = "1"  # bump when a terrain algorithm changes: old caches are not reused
+TERRAIN_VERSION = "2"  # bump when a terrain algorithm changes: old caches are not reused
 NODATA_F32 = -9999.0
-PRODUCTS = ("slope_deg.tif", "specific_catchment_area_m.tif", "hillshade.tif")
+PRODUCTS = ("slope_deg.tif", "slope_tan.tif", "specific_catchment_area_m.tif", "hillshade.tif")
 
 
 def cache_key(dem_sha256: str, elevation_unit: str) -> str:
@@ -25,10 +26,18 @@ def _f32(a: np.ndarray) -> np.ndarray:
     return np.where(np.isfinite(a), a, NODATA_F32).astype(np.float32)
 
 
+def _write_band(sink: RasterSink, rows: slice, width: int, band: np.ndarray) -> None:
+    for left in range(0, width, rasters.TILE):
+        cols = slice(left, min(left + rasters.TILE, width))
+        sink.write(rows, cols, band[:, cols])
+
+
 def terrain_products(
-    grid: Grid, elevation_m: np.ndarray, key: str, cache_dir: Path, version: str
+    grid: Grid, elevation_unit: str, key: str, cache_dir: Path, version: str
 ) -> tuple[Path, bool]:
-    """Folder holding slope, specific catchment area and hillshade COGs; (folder, reused)."""
+    """Folder holding slope (degrees and tangent), specific catchment area and hillshade;
+    returns (folder, reused). Slope and hillshade are computed in row bands; routing holds
+    the whole grid (see slopescreen.routing for its bytes per cell)."""
     from slopescreen import routing, terrain
 
     folder = cache_dir / f"terrain-{key}"
@@ -36,20 +45,58 @@ def terrain_products(
     if stamp.exists() and all((folder / p).exists() for p in PRODUCTS):
         return folder, True
     tags = {"slopescreen_version": version, "terrain_key": key}
-    slope = terrain.slope_deg(elevation_m, grid.dx_rows_m, grid.dy_m)
-    write_raster(
-        folder / "slope_deg.tif",
-        grid,
-        _f32(slope),
-        NODATA_F32,
-        tags=tags | {"units": "degrees", "method": "Horn (1981)"},
-    )
-    del slope
-    _, sca = routing.specific_catchment_area(elevation_m, grid.dx_rows_m, grid.dy_m)
-    write_raster(
+    z = read_elevations(grid.path, elevation_unit)
+    sinks = {
+        "slope": RasterSink(
+            folder / "slope_deg.tif",
+            grid,
+            "float32",
+            NODATA_F32,
+            tags=tags | {"units": "degrees", "method": "Horn (1981)"},
+        ),
+        "tan": RasterSink(
+            folder / "slope_tan.tif",
+            grid,
+            "float32",
+            NODATA_F32,
+            tags=tags | {"units": "tan(slope)", "method": "Horn (1981)"},
+        ),
+        "shade": RasterSink(
+            folder / "hillshade.tif",
+            grid,
+            "uint8",
+            0,
+            resampling="nearest",
+            tags=tags | {"azimuth_deg": "315", "altitude_deg": "45"},
+        ),
+    }
+    try:
+        for top in range(0, grid.height, rasters.TILE):
+            bottom = min(top + rasters.TILE, grid.height)
+            lo, hi = max(top - 1, 0), min(bottom + 1, grid.height)
+            band = z[lo:hi]
+            dx = grid.dx_rows_m[lo:hi]
+            gx, gy = terrain.horn_gradient(band, dx, grid.dy_m)
+            inner = slice(top - lo, top - lo + bottom - top)
+            tan_b = np.hypot(gx, gy)[inner]
+            rows = slice(top, bottom)
+            _write_band(sinks["tan"], rows, grid.width, _f32(tan_b))
+            _write_band(sinks["slope"], rows, grid.width, _f32(np.degrees(np.arctan(tan_b))))
+            _write_band(
+                sinks["shade"], rows, grid.width, terrain.hillshade(band, dx, grid.dy_m)[inner]
+            )
+        for sink in sinks.values():
+            sink.close()
+    except BaseException:
+        for sink in sinks.values():
+            sink.discard()
+        raise
+    _, sca = routing.specific_catchment_area(z, grid.dx_rows_m, grid.dy_m)
+    del z
+    sink = RasterSink(
         folder / "specific_catchment_area_m.tif",
         grid,
-        _f32(sca),
+        "float32",
         NODATA_F32,
         tags=tags
         | {
@@ -58,16 +105,14 @@ def terrain_products(
             "D-infinity routing (Tarboton 1997)",
         },
     )
-    del sca
-    shade = terrain.hillshade(elevation_m, grid.dx_rows_m, grid.dy_m)
-    write_raster(
-        folder / "hillshade.tif",
-        grid,
-        shade,
-        0,
-        tags=tags | {"azimuth_deg": "315", "altitude_deg": "45"},
-        resampling="nearest",
-    )
+    try:
+        for top in range(0, grid.height, rasters.TILE):
+            rows = slice(top, min(top + rasters.TILE, grid.height))
+            _write_band(sink, rows, grid.width, _f32(sca[rows]))
+    except BaseException:
+        sink.discard()
+        raise
+    sink.close()
     tmp = stamp.with_suffix(".part")
     tmp.write_text(json.dumps({"key": key, "dem": str(grid.path)}) + "\n")
     os.replace(tmp, stamp)

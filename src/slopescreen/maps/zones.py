@@ -1,4 +1,9 @@
-"""Hazard-zone polygons of the least stable classes (rasterio.features, geopandas)."""
+"""Hazard-zone polygons of the least stable classes (rasterio.features, geopandas).
+
+Polygons are traced tile by tile from the written rasters, so memory stays bounded; pieces
+that meet across a tile edge are merged afterwards (by class and soil unit), so the result
+does not depend on the tiling.
+"""
 
 from __future__ import annotations
 
@@ -7,56 +12,94 @@ from pathlib import Path
 import numpy as np
 
 from slopescreen.maps.grid import Grid
+from slopescreen.maps.rasters import read_block, windows
 from slopescreen.outputs import replacing
 
 ZONE_CLASSES = (1, 2)  # the two least stable classes
 _UNIT_SPAN = 65536
 
 
+def _tile_polygons(hazard: np.ndarray, codes: np.ndarray, transform: object) -> list[tuple]:
+    from rasterio import features
+    from shapely.geometry import shape
+
+    mask = np.isin(hazard, ZONE_CLASSES) & (codes > 0)
+    if not mask.any():
+        return []
+    label = (hazard.astype(np.int32) * _UNIT_SPAN + codes.astype(np.int32)) * mask
+    return [
+        (shape(geom), int(value) // _UNIT_SPAN, int(value) % _UNIT_SPAN)
+        for geom, value in features.shapes(label, mask=mask, transform=transform, connectivity=4)
+    ]
+
+
 def hazard_zones(
-    hazard: np.ndarray,
-    codes: np.ndarray,
+    hazard_path: Path,
+    codes_path: Path,
     grid: Grid,
     unit_keys: list[str],
     class_names: list[str],
     min_area_m2: float,
     scenario: str,
 ) -> object:
-    """GeoDataFrame of polygons of classes 1 and 2, one per class and soil unit.
-
-    Polygons smaller than ``min_area_m2`` (the minimum mapping unit) are dropped. Areas are
-    in m2, measured in a local UTM projection where the DEM is geographic.
-    """
+    """GeoDataFrame of polygons of classes 1 and 2, one per connected patch of a class in a
+    soil unit; patches under ``min_area_m2`` (the minimum mapping unit) are dropped. Areas in
+    m2, measured in a local UTM projection where the DEM is geographic."""
     import geopandas as gpd
-    from rasterio import features
-    from shapely.geometry import shape
+    import shapely
+    from rasterio.windows import Window, transform
 
-    mask = np.isin(hazard, ZONE_CLASSES) & (codes > 0)
-    label = (hazard.astype(np.int32) * _UNIT_SPAN + codes.astype(np.int32)) * mask
-    geoms, classes, units = [], [], []
-    for geom, value in features.shapes(label, mask=mask, transform=grid.transform, connectivity=4):
-        value = int(value)
-        geoms.append(shape(geom))
-        classes.append(value // _UNIT_SPAN)
-        units.append(unit_keys[value % _UNIT_SPAN - 1])
+    pieces: list[tuple] = []
+    edges = []
+    for rows, cols in windows(grid):
+        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+        t = transform(window, grid.transform)
+        found = _tile_polygons(
+            read_block(hazard_path, rows, cols), read_block(codes_path, rows, cols), t
+        )
+        pieces += found
+        x0, y0 = t.c, t.f
+        x1, y1 = t.c + t.a * (cols.stop - cols.start), t.f + t.e * (rows.stop - rows.start)
+        edges.append(shapely.box(min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1)).boundary)
     frame = gpd.GeoDataFrame(
-        {
-            "scenario": [scenario] * len(geoms),
-            "hazard_class": classes,
-            "class_name": [class_names[c - 1] for c in classes],
-            "soil_unit": units,
-        },
-        geometry=geoms,
+        {"hazard_class": [p[1] for p in pieces], "code": [p[2] for p in pieces]},
+        geometry=[p[0] for p in pieces],
         crs=grid.crs,
     )
+    if len(edges) > 1 and len(frame):
+        outer = shapely.box(*grid_bounds(grid)).boundary
+        inner_edges = shapely.difference(shapely.union_all(edges), outer)
+        on_edge = frame.intersects(inner_edges)
+        merged = frame[on_edge].dissolve(by=["hazard_class", "code"], as_index=False)
+        merged = merged.explode(index_parts=False)
+        frame = gpd.GeoDataFrame(
+            np.concatenate(
+                [
+                    frame[~on_edge][["hazard_class", "code"]].to_numpy(),
+                    merged[["hazard_class", "code"]].to_numpy(),
+                ]
+            ),
+            columns=["hazard_class", "code"],
+            geometry=list(frame[~on_edge].geometry) + list(merged.geometry),
+            crs=grid.crs,
+        )
+        frame = frame.sort_values(["hazard_class", "code"], kind="stable")
+    frame["scenario"] = scenario
+    frame["class_name"] = [class_names[int(c) - 1] for c in frame["hazard_class"]]
+    frame["soil_unit"] = [unit_keys[int(c) - 1] for c in frame["code"]]
     if grid.geographic and len(frame):
         area = frame.to_crs(frame.estimate_utm_crs()).area
     else:
-        area = frame.area * grid.crs.linear_units_factor[1] ** 2 if len(frame) else frame.area
+        area = frame.area * grid.crs.linear_units_factor[1] ** 2  # type: ignore[attr-defined]
     frame["area_m2"] = np.asarray(area, dtype=float)
     frame = frame[frame["area_m2"] >= min_area_m2].reset_index(drop=True)
     frame["hazard_class"] = frame["hazard_class"].astype("int32")
-    return frame
+    return frame[["scenario", "hazard_class", "class_name", "soil_unit", "area_m2", "geometry"]]
+
+
+def grid_bounds(grid: Grid) -> tuple[float, float, float, float]:
+    t = grid.transform
+    return (t.c, t.f + t.e * grid.height, t.c + t.a * grid.width, t.f)  # type: ignore
 
 
 def write_zones(frame: object, target: Path) -> Path:
