@@ -88,3 +88,14 @@ def test_tiling_does_not_change_the_rasters(tmp_path, monkeypatch):
     assert len(zones_one) == len(zones_many)
     assert zones_one["area_m2"].sum() == pytest.approx(zones_many["area_m2"].sum(), rel=1e-12)
     assert sorted(zones_one["area_m2"]) == pytest.approx(sorted(zones_many["area_m2"]))
+
+
+def test_unreachable_scheduler_is_one_line(tmp_path, capsys):
+    from slopescreen.cli.main import main
+
+    code = main(["run", str(SCENARIOS), "--out", str(tmp_path / "x"), "--only", "dry_season",
+                 "--scheduler", "tcp://127.0.0.1:9", "--quiet"])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert "--scheduler tcp://127.0.0.1:9: cannot reach the dask scheduler" in err
+    assert err.count("\n") == 1

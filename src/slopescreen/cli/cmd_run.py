@@ -64,10 +64,20 @@ def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import caution_block
     from slopescreen.maps.engine import run as run_engine
 
+    from slopescreen.errors import InputError
+
+    if not 0 <= args.workers <= 256:
+        raise InputError(f"--workers {args.workers}: must be 0 (no cluster) to 256")
     out = args.out or default_out(args.scenarios)
     print(caution_block())
     run_engine(
-        args.scenarios, out, args.only, args.cache, progress=not args.quiet and sys.stderr.isatty()
+        args.scenarios,
+        out,
+        args.only,
+        args.cache,
+        progress=not args.quiet and sys.stderr.isatty(),
+        workers=args.workers,
+        scheduler=args.scheduler,
     )
     print(caution_block())
     return 0

@@ -22,7 +22,7 @@ def dask_runner(
     cluster = None
     try:
         if scheduler:
-            client = Client(scheduler, timeout="20s")
+            client = Client(scheduler, timeout="10s")
         else:
             cluster = LocalCluster(
                 n_workers=workers,

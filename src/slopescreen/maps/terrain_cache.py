@@ -9,8 +9,8 @@ from pathlib import Path
 
 import numpy as np
 
-from slopescreen.maps.grid import Grid, read_elevations
 from slopescreen.maps import rasters
+from slopescreen.maps.grid import Grid, read_elevations
 from slopescreen.maps.rasters import RasterSink
 
 TERRAIN_VERSION = "2"  # bump when a terrain algorithm changes: old caches are not reused
