@@ -93,8 +93,19 @@ def test_tiling_does_not_change_the_rasters(tmp_path, monkeypatch):
 def test_unreachable_scheduler_is_one_line(tmp_path, capsys):
     from slopescreen.cli.main import main
 
-    code = main(["run", str(SCENARIOS), "--out", str(tmp_path / "x"), "--only", "dry_season",
-                 "--scheduler", "tcp://127.0.0.1:9", "--quiet"])
+    code = main(
+        [
+            "run",
+            str(SCENARIOS),
+            "--out",
+            str(tmp_path / "x"),
+            "--only",
+            "dry_season",
+            "--scheduler",
+            "tcp://127.0.0.1:9",
+            "--quiet",
+        ]
+    )
     err = capsys.readouterr().err
     assert code == 2
     assert "--scheduler tcp://127.0.0.1:9: cannot reach the dask scheduler" in err

@@ -36,7 +36,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit
+from numba import njit, prange
 
 # neighbour offsets, counter-clockwise from east: E, NE, N, NW, W, SW, S, SE
 _DR = np.array([0, -1, -1, -1, 0, 1, 1, 1], dtype=np.int64)
@@ -93,8 +93,8 @@ def _fill(dem, valid, epsilon):
     closed = ~valid
     n = rows * cols
     keys = np.empty(n, dtype=np.float64)
-    ids = np.empty(n, dtype=np.int64)
-    pit = np.empty(n, dtype=np.int64)
+    ids = np.empty(n, dtype=np.int32)
+    pit = np.empty(n, dtype=np.int32)
     size = 0
     for r in range(rows):
         for c in range(cols):
@@ -147,16 +147,17 @@ def fill_depressions(elevation_m: np.ndarray, *, epsilon: bool = True) -> np.nda
     return np.where(valid, _fill(np.where(valid, dem, 0.0), valid, epsilon), np.nan)
 
 
-@njit(cache=True)
+@njit(cache=True, parallel=True)
 def _dinf(filled, valid, dx_rows, dy):
     rows, cols = filled.shape
     n = rows * cols
-    recv1 = np.full(n, -1, dtype=np.int64)
-    recv2 = np.full(n, -1, dtype=np.int64)
-    share1 = np.zeros(n, dtype=np.float64)
-    width = np.empty(n, dtype=np.float64)
-    for r in range(rows):
+    recv1 = np.full(n, -1, dtype=np.int32)
+    recv2 = np.full(n, -1, dtype=np.int32)
+    share1 = np.zeros(n, dtype=np.float32)
+    width = np.empty(n, dtype=np.float32)
+    for r in prange(rows):
         dx = dx_rows[r]
+        diag = math.hypot(dx, dy)
         for c in range(cols):
             cell = r * cols + c
             width[cell] = 0.5 * (dx + dy)
@@ -164,10 +165,9 @@ def _dinf(filled, valid, dx_rows, dy):
                 continue
             e0 = filled[r, c]
             best = 0.0
-            best_k1 = -1
-            best_k2 = -1
-            best_p1 = 0.0
-            best_w = 0.0
+            best_f = -1
+            best_s1 = 0.0
+            best_s2 = 0.0
             for f in range(8):
                 k1 = _F1[f]
                 k2 = _F2[f]
@@ -184,39 +184,42 @@ def _dinf(filled, valid, dx_rows, dy):
                 d2 = dy if along_x else dx
                 s1 = (e0 - filled[r1, c1]) / d1
                 s2 = (filled[r1, c1] - filled[r2, c2]) / d2
-                rmax = math.atan2(d2, d1)
-                ang = math.atan2(s2, s1)
-                if ang < 0.0:
-                    ang = 0.0
+                # steepest descent within the facet (Tarboton 1997), angles only for the winner
+                if s2 <= 0.0:
                     s = s1
-                elif ang > rmax:
-                    ang = rmax
-                    s = (e0 - filled[r2, c2]) / math.hypot(d1, d2)
+                elif s2 * d1 >= s1 * d2:
+                    s = (e0 - filled[r2, c2]) / diag
                 else:
-                    s = math.hypot(s1, s2)
+                    s = math.sqrt(s1 * s1 + s2 * s2)
                 if s > best:
                     best = s
-                    best_k1 = k1
-                    best_k2 = k2
-                    best_p1 = (rmax - ang) / rmax
-                    # contour width: cell area over the mean step along the flow
-                    step = d1 * math.cos(ang) + (ang / rmax) * d2 * math.sin(ang)
-                    best_w = dx * dy / step
-            if best_k1 >= 0:
-                p1 = best_p1
-                if p1 > 1e-12:
-                    recv1[cell] = (r + _DR[best_k1]) * cols + c + _DC[best_k1]
-                    share1[cell] = p1
-                if p1 < 1.0 - 1e-12:
-                    target = (r + _DR[best_k2]) * cols + c + _DC[best_k2]
-                    if recv1[cell] < 0:
-                        recv1[cell] = target
-                        share1[cell] = 1.0
-                    else:
-                        recv2[cell] = target
-                else:
+                    best_f = f
+                    best_s1 = s1
+                    best_s2 = s2
+            if best_f >= 0:
+                k1 = _F1[best_f]
+                k2 = _F2[best_f]
+                along_x = _DR[k1] == 0
+                d1 = dx if along_x else dy
+                d2 = dy if along_x else dx
+                rmax = math.atan2(d2, d1)
+                ang = min(max(math.atan2(best_s2, best_s1), 0.0), rmax)
+                p1 = (rmax - ang) / rmax
+                to1 = (r + _DR[k1]) * cols + c + _DC[k1]
+                to2 = (r + _DR[k2]) * cols + c + _DC[k2]
+                if p1 >= 1.0 - 1e-12:
+                    recv1[cell] = to1
                     share1[cell] = 1.0
-                width[cell] = best_w
+                elif p1 <= 1e-12:
+                    recv1[cell] = to2
+                    share1[cell] = 1.0
+                else:
+                    recv1[cell] = to1
+                    recv2[cell] = to2
+                    share1[cell] = p1
+                # contour width: cell area over the mean step along the flow
+                step = d1 * math.cos(ang) + (ang / rmax) * d2 * math.sin(ang)
+                width[cell] = dx * dy / step
                 continue
             # D8 fallback: steepest strictly lower valid neighbour
             steepest = 0.0
@@ -245,7 +248,7 @@ def _accumulate(recv1, recv2, share1, own_area):
         if recv2[i] >= 0:
             indegree[recv2[i]] += 1
     area = own_area.copy()
-    queue = np.empty(n, dtype=np.int64)
+    queue = np.empty(n, dtype=np.int32)
     tail = 0
     for i in range(n):
         if indegree[i] == 0:

@@ -62,9 +62,8 @@ def default_out(scenarios: Path) -> Path:
 
 def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import caution_block
-    from slopescreen.maps.engine import run as run_engine
-
     from slopescreen.errors import InputError
+    from slopescreen.maps.engine import run as run_engine
 
     if not 0 <= args.workers <= 256:
         raise InputError(f"--workers {args.workers}: must be 0 (no cluster) to 256")
