@@ -8,7 +8,14 @@ import numpy as np
 def convergent_dem(n: int, cell_m: float = 5.0) -> np.ndarray:
     """Valleys draining south between winding ridges, with a little roughness: n x n cells,
     float32 metres (few closed depressions, like real convergent terrain)."""
-    y, x = np.mgrid[0:n, 0:n].astype(np.float32)
+    return convergent_rows(n, 0, n, cell_m)
+
+
+def convergent_rows(n: int, top: int, rows: int, cell_m: float = 5.0) -> np.ndarray:
+    """Rows top .. top+rows of :func:`convergent_dem` (to build large DEMs band by band)."""
+    y, x = np.meshgrid(
+        np.arange(top, top + rows, dtype=np.float32), np.arange(n, dtype=np.float32), indexing="ij"
+    )
     xm, ym = x * cell_m, y * cell_m
     wind = xm + 150.0 * np.sin(ym / 700.0)
     z = 0.06 * (n * cell_m - ym) + 90.0 * np.abs(np.sin(wind / 500.0)) ** 0.8

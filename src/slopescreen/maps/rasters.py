@@ -65,8 +65,7 @@ class RasterSink:
             tiled=True,
             blockxsize=BLOCK,
             blockysize=BLOCK,
-            compress="deflate",
-            BIGTIFF="IF_SAFER",
+            BIGTIFF="IF_SAFER",  # uncompressed: fast to write; the COG copy compresses
         )
         if tags:
             self.dataset.update_tags(**tags)
@@ -90,6 +89,8 @@ class RasterSink:
                 final_tmp,
                 driver="COG",
                 compress="DEFLATE",
+                LEVEL=1,  # fast deflate, readable by any GIS
+                NUM_THREADS="ALL_CPUS",
                 BLOCKSIZE=BLOCK,
                 OVERVIEW_RESAMPLING=self.resampling.upper(),
                 BIGTIFF="IF_SAFER",
