@@ -88,8 +88,9 @@ def _heap_pop(keys, ids, size):
 
 @njit(cache=True)
 def _fill(dem, valid, epsilon):
+    """Fill ``dem`` in place (each cell is read before it is raised) and return it."""
     rows, cols = dem.shape
-    filled = dem.copy()
+    filled = dem
     closed = ~valid
     n = rows * cols
     keys = np.empty(n, dtype=np.float64)
@@ -144,7 +145,9 @@ def fill_depressions(elevation_m: np.ndarray, *, epsilon: bool = True) -> np.nda
     """
     dem = np.ascontiguousarray(elevation_m, dtype=np.float64)
     valid = np.isfinite(dem)
-    return np.where(valid, _fill(np.where(valid, dem, 0.0), valid, epsilon), np.nan)
+    filled = _fill(np.where(valid, dem, 0.0), valid, epsilon)
+    filled[~valid] = np.nan
+    return filled
 
 
 @njit(cache=True, parallel=True)
@@ -239,15 +242,18 @@ def _dinf(filled, valid, dx_rows, dy):
 
 
 @njit(cache=True)
-def _accumulate(recv1, recv2, share1, own_area):
+def _accumulate(recv1, recv2, share1, valid, dx_rows, dy):
     n = recv1.size
+    cols = n // dx_rows.size
     indegree = np.zeros(n, dtype=np.int32)
     for i in range(n):
         if recv1[i] >= 0:
             indegree[recv1[i]] += 1
         if recv2[i] >= 0:
             indegree[recv2[i]] += 1
-    area = own_area.copy()
+    area = np.empty(n, dtype=np.float64)  # each cell's own area to start with
+    for i in range(n):
+        area[i] = dx_rows[i // cols] * dy if valid.flat[i] else 0.0
     queue = np.empty(n, dtype=np.int32)
     tail = 0
     for i in range(n):
@@ -277,7 +283,7 @@ def _accumulate(recv1, recv2, share1, own_area):
 
 
 def specific_catchment_area(
-    elevation_m: np.ndarray, dx_m: float | np.ndarray, dy_m: float
+    elevation_m: np.ndarray, dx_m: float | np.ndarray, dy_m: float, *, overwrite: bool = False
 ) -> tuple[np.ndarray, np.ndarray]:
     """Contributing area (m2) and specific catchment area a/b (m) by D-infinity.
 
@@ -286,19 +292,28 @@ def specific_catchment_area(
     elevation_m : 2-D DEM, NaN for no data.
     dx_m : east-west spacing, m: scalar or one value per row.
     dy_m : north-south spacing, m.
+    overwrite : fill ``elevation_m`` in place (a float64 array) to save a copy of the grid.
 
     Returns
     -------
-    (area_m2, sca_m), float64 arrays, NaN where there is no data.
+    (area_m2 float64, sca_m float32), NaN where there is no data.
     """
     dem = np.asarray(elevation_m, dtype=np.float64)
     rows, cols = dem.shape
     valid = np.isfinite(dem)
     dx_rows = np.ascontiguousarray(np.broadcast_to(np.asarray(dx_m, np.float64), (rows,)))
-    filled = fill_depressions(dem)
-    recv1, recv2, share1, width = _dinf(np.where(valid, filled, 0.0), valid, dx_rows, float(dy_m))
-    own = np.repeat(dx_rows * float(dy_m), cols)
-    own[~valid.ravel()] = 0.0
-    area = _accumulate(recv1, recv2, share1, own).reshape(rows, cols)
+    if overwrite and dem is elevation_m and dem.flags.c_contiguous:
+        dem[~valid] = 0.0
+        work = dem
+    else:
+        work = np.where(valid, dem, 0.0)
+    filled = _fill(work, valid, True)
+    del work
+    recv1, recv2, share1, width = _dinf(filled, valid, dx_rows, float(dy_m))
+    del filled
+    area = _accumulate(recv1, recv2, share1, valid, dx_rows, float(dy_m)).reshape(rows, cols)
+    del recv1, recv2, share1
     area[~valid] = np.nan
-    return area, area / width.reshape(rows, cols)
+    sca = area.astype(np.float32)
+    sca /= width.reshape(rows, cols)
+    return area, sca

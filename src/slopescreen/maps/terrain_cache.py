@@ -91,7 +91,7 @@ def terrain_products(
         for sink in sinks.values():
             sink.discard()
         raise
-    _, sca = routing.specific_catchment_area(z, grid.dx_rows_m, grid.dy_m)
+    _, sca = routing.specific_catchment_area(z, grid.dx_rows_m, grid.dy_m, overwrite=True)
     del z
     sink = RasterSink(
         folder / "specific_catchment_area_m.tif",
