@@ -18,9 +18,12 @@
    inclined plane in any direction gives a/b = the upslope flow-path length to the cell's
    lower edge (by continuity: the flux across a contour equals the upslope area).
 
-Memory: the float64 DEM copy, filled surface, heap keys, and float64 area with two int64
-receiver indices, two float64 shares and contour widths: about 80 bytes per cell while
-routing runs.
+Memory: the routing holds the whole grid. With the DEM filled in place it needs, at its
+peak, the float64 surface (8 bytes per cell), two masks (2), heap keys and indices and the
+pit queue (16) while filling; two int32 receivers, a float32 share and width (16) and the
+float64 area with an int32 in-degree and queue (16) while accumulating: about 45 bytes per
+cell (measured in tests/benchmarks/bench_routing.py). All work arrays come from an
+``allocate`` function, so grids larger than memory can use memory-mapped files.
 
 References
 ----------
@@ -34,6 +37,7 @@ areas in grid digital elevation models. Water Resources Research 33(2), 309-319.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numpy as np
 from numba import njit, prange
@@ -87,15 +91,14 @@ def _heap_pop(keys, ids, size):
 
 
 @njit(cache=True)
-def _fill(dem, valid, epsilon):
-    """Fill ``dem`` in place (each cell is read before it is raised) and return it."""
+def _fill(dem, valid, epsilon, closed, keys, ids, pit):
+    """Fill ``dem`` in place (each cell is read before it is raised) and return it; the
+    work arrays (closed: rows x cols, keys/ids/pit: one per cell) come from the caller."""
     rows, cols = dem.shape
     filled = dem
-    closed = ~valid
-    n = rows * cols
-    keys = np.empty(n, dtype=np.float64)
-    ids = np.empty(n, dtype=np.int32)
-    pit = np.empty(n, dtype=np.int32)
+    for r in range(rows):
+        for c in range(cols):
+            closed[r, c] = not valid[r, c]
     size = 0
     for r in range(rows):
         for c in range(cols):
@@ -145,25 +148,32 @@ def fill_depressions(elevation_m: np.ndarray, *, epsilon: bool = True) -> np.nda
     """
     dem = np.ascontiguousarray(elevation_m, dtype=np.float64)
     valid = np.isfinite(dem)
-    filled = _fill(np.where(valid, dem, 0.0), valid, epsilon)
+    n = dem.size
+    filled = _fill(
+        np.where(valid, dem, 0.0),
+        valid,
+        epsilon,
+        np.empty(dem.shape, np.bool_),
+        np.empty(n, np.float64),
+        np.empty(n, np.int32),
+        np.empty(n, np.int32),
+    )
     filled[~valid] = np.nan
     return filled
 
 
 @njit(cache=True, parallel=True)
-def _dinf(filled, valid, dx_rows, dy):
+def _dinf(filled, valid, dx_rows, dy, recv1, recv2, share1, width):
     rows, cols = filled.shape
-    n = rows * cols
-    recv1 = np.full(n, -1, dtype=np.int32)
-    recv2 = np.full(n, -1, dtype=np.int32)
-    share1 = np.zeros(n, dtype=np.float32)
-    width = np.empty(n, dtype=np.float32)
     for r in prange(rows):
         dx = dx_rows[r]
         diag = math.hypot(dx, dy)
         for c in range(cols):
             cell = r * cols + c
             width[cell] = 0.5 * (dx + dy)
+            recv1[cell] = -1
+            recv2[cell] = -1
+            share1[cell] = 0.0
             if not valid[r, c]:
                 continue
             e0 = filled[r, c]
@@ -242,19 +252,18 @@ def _dinf(filled, valid, dx_rows, dy):
 
 
 @njit(cache=True)
-def _accumulate(recv1, recv2, share1, valid, dx_rows, dy):
+def _accumulate(recv1, recv2, share1, valid, dx_rows, dy, indegree, area, queue):
     n = recv1.size
     cols = n // dx_rows.size
-    indegree = np.zeros(n, dtype=np.int32)
+    for i in range(n):
+        indegree[i] = 0
     for i in range(n):
         if recv1[i] >= 0:
             indegree[recv1[i]] += 1
         if recv2[i] >= 0:
             indegree[recv2[i]] += 1
-    area = np.empty(n, dtype=np.float64)  # each cell's own area to start with
-    for i in range(n):
+    for i in range(n):  # each cell's own area to start with
         area[i] = dx_rows[i // cols] * dy if valid.flat[i] else 0.0
-    queue = np.empty(n, dtype=np.int32)
     tail = 0
     for i in range(n):
         if indegree[i] == 0:
@@ -283,7 +292,12 @@ def _accumulate(recv1, recv2, share1, valid, dx_rows, dy):
 
 
 def specific_catchment_area(
-    elevation_m: np.ndarray, dx_m: float | np.ndarray, dy_m: float, *, overwrite: bool = False
+    elevation_m: np.ndarray,
+    dx_m: float | np.ndarray,
+    dy_m: float,
+    *,
+    overwrite: bool = False,
+    allocate: Callable[[tuple[int, ...], type], np.ndarray] | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Contributing area (m2) and specific catchment area a/b (m) by D-infinity.
 
@@ -293,27 +307,50 @@ def specific_catchment_area(
     dx_m : east-west spacing, m: scalar or one value per row.
     dy_m : north-south spacing, m.
     overwrite : fill ``elevation_m`` in place (a float64 array) to save a copy of the grid.
+    allocate : makes the work arrays, ``allocate(shape, dtype)``; default ``numpy.empty``.
+        Pass one that returns ``numpy.memmap`` arrays to route grids larger than memory.
 
     Returns
     -------
-    (area_m2 float64, sca_m float32), NaN where there is no data.
+    (area_m2 float64, sca_m float32), NaN where there is no data; both from ``allocate``.
     """
+    new = allocate or (lambda shape, dtype: np.empty(shape, dtype))
     dem = np.asarray(elevation_m, dtype=np.float64)
     rows, cols = dem.shape
-    valid = np.isfinite(dem)
+    n = rows * cols
+    valid = new((rows, cols), np.bool_)
+    np.isfinite(dem, out=valid)
     dx_rows = np.ascontiguousarray(np.broadcast_to(np.asarray(dx_m, np.float64), (rows,)))
     if overwrite and dem is elevation_m and dem.flags.c_contiguous:
-        dem[~valid] = 0.0
         work = dem
     else:
-        work = np.where(valid, dem, 0.0)
-    filled = _fill(work, valid, True)
-    del work
-    recv1, recv2, share1, width = _dinf(filled, valid, dx_rows, float(dy_m))
-    del filled
-    area = _accumulate(recv1, recv2, share1, valid, dx_rows, float(dy_m)).reshape(rows, cols)
+        work = new((rows, cols), np.float64)
+        work[...] = dem
+    np.copyto(work, 0.0, where=~valid)
+    closed = new((rows, cols), np.bool_)
+    filled = _fill(
+        work, valid, True, closed, new((n,), np.float64), new((n,), np.int32), new((n,), np.int32)
+    )
+    del closed
+    recv1, recv2 = new((n,), np.int32), new((n,), np.int32)
+    share1, width = new((n,), np.float32), new((n,), np.float32)
+    _dinf(filled, valid, dx_rows, float(dy_m), recv1, recv2, share1, width)
+    del filled, work
+    area = new((n,), np.float64)
+    _accumulate(
+        recv1,
+        recv2,
+        share1,
+        valid,
+        dx_rows,
+        float(dy_m),
+        new((n,), np.int32),
+        area,
+        new((n,), np.int32),
+    )
     del recv1, recv2, share1
-    area[~valid] = np.nan
-    sca = area.astype(np.float32)
-    sca /= width.reshape(rows, cols)
+    area = area.reshape(rows, cols)
+    np.copyto(area, np.nan, where=~valid)
+    sca = new((rows, cols), np.float32)
+    np.divide(area, width.reshape(rows, cols), out=sca, casting="same_kind")
     return area, sca

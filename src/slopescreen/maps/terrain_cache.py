@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import os
 import shutil
+import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -16,6 +17,41 @@ from slopescreen.maps.rasters import RasterSink
 TERRAIN_VERSION = "2"  # bump when a terrain algorithm changes: old caches are not reused
 NODATA_F32 = -9999.0
 PRODUCTS = ("slope_deg.tif", "slope_tan.tif", "specific_catchment_area_m.tif", "hillshade.tif")
+
+
+ROUTING_BYTES_PER_CELL = 56  # routing work arrays (about 45) and the float64 DEM (8), rounded up
+
+
+def memory_budget_bytes() -> int:
+    """Memory the terrain step may use: SLOPESCREEN_MEMORY_BUDGET_MB, else 60% of the memory
+    available now (Linux /proc/meminfo), else 8 GB."""
+    env = os.environ.get("SLOPESCREEN_MEMORY_BUDGET_MB")
+    if env:
+        return int(float(env) * 2**20)
+    try:
+        with open("/proc/meminfo") as handle:
+            for line in handle:
+                if line.startswith("MemAvailable:"):
+                    return int(0.6 * int(line.split()[1]) * 1024)
+    except OSError:
+        pass
+    return 8 * 2**30
+
+
+class _Scratch:
+    """Work arrays as memory-mapped files (deleted afterwards), for grids beyond memory."""
+
+    def __init__(self, folder: Path) -> None:
+        folder.mkdir(parents=True, exist_ok=True)
+        self.folder = Path(tempfile.mkdtemp(prefix=".routing-", dir=folder))
+        self.count = 0
+
+    def __call__(self, shape: tuple[int, ...], dtype: type) -> np.ndarray:
+        self.count += 1
+        return np.memmap(self.folder / f"a{self.count}.bin", dtype=dtype, mode="w+", shape=shape)
+
+    def close(self) -> None:
+        shutil.rmtree(self.folder, ignore_errors=True)
 
 
 def cache_key(dem_sha256: str, elevation_unit: str) -> str:
@@ -37,15 +73,41 @@ def terrain_products(
 ) -> tuple[Path, bool]:
     """Folder holding slope (degrees and tangent), specific catchment area and hillshade;
     returns (folder, reused). Slope and hillshade are computed in row bands; routing holds
-    the whole grid (see slopescreen.routing for its bytes per cell)."""
-    from slopescreen import routing, terrain
-
+    the whole grid (see slopescreen.routing for its bytes per cell), in memory-mapped work
+    files when the grid would not fit in the memory budget."""
     folder = cache_dir / f"terrain-{key}"
     stamp = folder / "terrain.json"
     if stamp.exists() and all((folder / p).exists() for p in PRODUCTS):
         return folder, True
     tags = {"slopescreen_version": version, "terrain_key": key}
-    z = read_elevations(grid.path, elevation_unit)
+    scratch = None
+    if grid.width * grid.height * ROUTING_BYTES_PER_CELL > memory_budget_bytes():
+        scratch = _Scratch(cache_dir)  # out of core: slower, but bounded by the budget
+    try:
+        return _compute(grid, elevation_unit, folder, stamp, key, tags, scratch), False
+    finally:
+        if scratch is not None:
+            scratch.close()
+
+
+def _compute(
+    grid: Grid,
+    elevation_unit: str,
+    folder: Path,
+    stamp: Path,
+    key: str,
+    tags: dict[str, str],
+    scratch: _Scratch | None,
+) -> Path:
+    from slopescreen import routing, terrain
+
+    if scratch is None:
+        z = read_elevations(grid.path, elevation_unit)
+    else:
+        z = scratch((grid.height, grid.width), np.float64)
+        for top in range(0, grid.height, rasters.TILE):
+            rows = slice(top, min(top + rasters.TILE, grid.height))
+            z[rows] = read_elevations(grid.path, elevation_unit, rows, slice(0, grid.width))
     sinks = {
         "slope": RasterSink(
             folder / "slope_deg.tif",
@@ -91,7 +153,9 @@ def terrain_products(
         for sink in sinks.values():
             sink.discard()
         raise
-    _, sca = routing.specific_catchment_area(z, grid.dx_rows_m, grid.dy_m, overwrite=True)
+    _, sca = routing.specific_catchment_area(
+        z, grid.dx_rows_m, grid.dy_m, overwrite=True, allocate=scratch
+    )
     del z
     sink = RasterSink(
         folder / "specific_catchment_area_m.tif",
@@ -114,9 +178,11 @@ def terrain_products(
         raise
     sink.close()
     tmp = stamp.with_suffix(".part")
-    tmp.write_text(json.dumps({"key": key, "dem": str(grid.path)}) + "\n")
+    tmp.write_text(
+        json.dumps({"key": key, "dem": str(grid.path), "out_of_core": scratch is not None}) + "\n"
+    )
     os.replace(tmp, stamp)
-    return folder, False
+    return folder
 
 
 def copy_file(source: Path, target: Path) -> Path:
