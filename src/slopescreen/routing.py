@@ -21,8 +21,9 @@
 Memory: the routing holds the whole grid. With the DEM filled in place it needs, at its
 peak, the float64 surface (8 bytes per cell), two masks (2), heap keys and indices and the
 pit queue (16) while filling; two int32 receivers, a float32 share and width (16) and the
-float64 area with an int32 in-degree and queue (16) while accumulating: about 45 bytes per
-cell (measured in tests/benchmarks/bench_routing.py). All work arrays come from an
+float64 area with an int32 in-degree and queue (16) while accumulating: about 35 bytes per
+cell at the peak, the DEM included (tests/benchmarks/bench_routing.py measures 25 bytes per
+cell above the float64 DEM). All work arrays come from an
 ``allocate`` function, so grids larger than memory can use memory-mapped files.
 
 References

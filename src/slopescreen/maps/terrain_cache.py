@@ -19,7 +19,7 @@ NODATA_F32 = -9999.0
 PRODUCTS = ("slope_deg.tif", "slope_tan.tif", "specific_catchment_area_m.tif", "hillshade.tif")
 
 
-ROUTING_BYTES_PER_CELL = 56  # routing work arrays (about 45) and the float64 DEM (8), rounded up
+ROUTING_BYTES_PER_CELL = 56  # routing peak (about 35 with the DEM) plus the tile work, rounded up
 
 
 def memory_budget_bytes() -> int:
