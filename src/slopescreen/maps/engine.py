@@ -18,7 +18,7 @@ from slopescreen.errors import InputError
 from slopescreen.hazard import class_names as hazard_class_names
 from slopescreen.maps.config import Config, Scenario, load_config
 from slopescreen.maps.grid import Grid, file_sha256, read_elevations, read_grid
-from slopescreen.maps.rasters import RasterSink
+from slopescreen.maps.rasters import RasterSink, all_or_nothing
 from slopescreen.maps.report import write_report
 from slopescreen.maps.scenario_run import Runner, ScenarioSummary, run_scenario, serial_runner
 from slopescreen.maps.soils import SoilUnits, load_soils
@@ -91,12 +91,8 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
                 "description": "soil unit code; unit_N names code N",
             },
         )
-        try:
+        with all_or_nothing(sink):
             soils.measure_coverage(grid, valid_tile, sink)
-        except BaseException:
-            sink.discard()
-            raise
-        sink.close()
     if soils.data_cells == 0:
         raise InputError(f"{cfg.region.dem}: DEM holds no data cells")
     for sc in cfg.scenarios:

@@ -6,6 +6,7 @@ renamed over the target, so an interrupted run leaves any previous file whole.
 
 from __future__ import annotations
 
+import contextlib
 import os
 from collections.abc import Iterator
 from pathlib import Path
@@ -109,18 +110,29 @@ class RasterSink:
             self.tmp.unlink()
 
 
+@contextlib.contextmanager
+def all_or_nothing(*sinks: RasterSink) -> Iterator[None]:
+    """Close every sink (publishing its file) if the block succeeds; discard all otherwise,
+    so an interrupted step leaves the previous files whole."""
+    try:
+        yield
+    except BaseException:
+        for sink in sinks:
+            sink.discard()
+        raise
+    for sink in sinks:
+        sink.close()
+
+
 def write_raster(
     target: Path, grid: Grid, array: np.ndarray, nodata: float | int, **kwargs: object
 ) -> Path:
     """Write a whole array through a RasterSink."""
     sink = RasterSink(target, grid, str(array.dtype), nodata, **kwargs)  # type: ignore[arg-type]
-    try:
+    with all_or_nothing(sink):
         for rows, cols in windows(grid):
             sink.write(rows, cols, array[rows, cols])
-    except BaseException:
-        sink.discard()
-        raise
-    return sink.close()
+    return sink.target
 
 
 def read_block(path: Path, rows: slice, cols: slice) -> np.ndarray:

@@ -20,7 +20,7 @@ from slopescreen.errors import InputError
 from slopescreen.hazard import PF_CLASS_NAMES, classify, classify_probability
 from slopescreen.maps.config import Config, ReliabilitySpec, Scenario
 from slopescreen.maps.grid import Grid
-from slopescreen.maps.rasters import RasterSink, read_block, windows
+from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_block, windows
 from slopescreen.maps.soils import SoilUnits
 from slopescreen.maps.summary import add_areas, summary_rows, write_summary
 from slopescreen.maps.terrain_cache import NODATA_F32
@@ -485,7 +485,7 @@ def run_scenario(
     sinks = _sinks(cfg, sc, grid, out, names, with_probability, not cached)
     tables, pf_tables = [], []
     missing = 0
-    try:
+    with all_or_nothing(*sinks.values()):
         tiles = [(job, rows, cols) for rows, cols in windows(grid)]
         results = runner(compute_tile, tiles)
         for res in progress(results, len(tiles), sc.name):
@@ -495,12 +495,6 @@ def run_scenario(
             if with_probability:
                 pf_tables.append(res["pf_table"])
             missing += res["missing_wetness"]
-        for sink in sinks.values():
-            sink.close()
-    except BaseException:
-        for sink in sinks.values():
-            sink.discard()
-        raise
     if cached:
         copy_file(recharge_file, out / "critical_recharge_mm_day.tif")
     else:

@@ -12,7 +12,7 @@ import numpy as np
 
 from slopescreen.maps import rasters
 from slopescreen.maps.grid import Grid, read_elevations
-from slopescreen.maps.rasters import RasterSink
+from slopescreen.maps.rasters import RasterSink, all_or_nothing
 
 TERRAIN_VERSION = "2"  # bump when a terrain algorithm changes: old caches are not reused
 NODATA_F32 = -9999.0
@@ -132,7 +132,7 @@ def _compute(
             tags=tags | {"azimuth_deg": "315", "altitude_deg": "45"},
         ),
     }
-    try:
+    with all_or_nothing(*sinks.values()):
         for top in range(0, grid.height, rasters.TILE):
             bottom = min(top + rasters.TILE, grid.height)
             lo, hi = max(top - 1, 0), min(bottom + 1, grid.height)
@@ -147,12 +147,6 @@ def _compute(
             _write_band(
                 sinks["shade"], rows, grid.width, terrain.hillshade(band, dx, grid.dy_m)[inner]
             )
-        for sink in sinks.values():
-            sink.close()
-    except BaseException:
-        for sink in sinks.values():
-            sink.discard()
-        raise
     _, sca = routing.specific_catchment_area(
         z, grid.dx_rows_m, grid.dy_m, overwrite=True, allocate=scratch
     )
@@ -169,14 +163,10 @@ def _compute(
             "D-infinity routing (Tarboton 1997)",
         },
     )
-    try:
+    with all_or_nothing(sink):
         for top in range(0, grid.height, rasters.TILE):
             rows = slice(top, min(top + rasters.TILE, grid.height))
             _write_band(sink, rows, grid.width, _f32(sca[rows]))
-    except BaseException:
-        sink.discard()
-        raise
-    sink.close()
     tmp = stamp.with_suffix(".part")
     tmp.write_text(
         json.dumps({"key": key, "dem": str(grid.path), "out_of_core": scratch is not None}) + "\n"
