@@ -50,6 +50,36 @@ def test_two_worker_cluster_matches_serial_byte_for_byte(tmp_path, monkeypatch):
     assert any(name.endswith("probability_of_failure.tif") for name in serial)
 
 
+def test_existing_scheduler_matches_serial(tmp_path, monkeypatch):
+    # --scheduler: an existing cluster (started here on loopback) gets the tiles.
+    distributed = pytest.importorskip("distributed")
+    monkeypatch.setattr(rasters, "TILE", 200)
+    cache = tmp_path / "cache"
+    run(
+        SCENARIOS,
+        tmp_path / "serial",
+        only=["dry_season"],
+        cache_dir=cache,
+        progress=False,
+        echo=lambda s: None,
+    )
+    with distributed.LocalCluster(
+        n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None, host="127.0.0.1"
+    ) as cluster:
+        lines = []
+        run(
+            SCENARIOS,
+            tmp_path / "remote",
+            only=["dry_season"],
+            cache_dir=cache,
+            progress=False,
+            echo=lines.append,
+            scheduler=cluster.scheduler_address,
+        )
+    assert any(cluster.scheduler_address in line for line in lines)
+    assert _outputs(tmp_path / "serial") == _outputs(tmp_path / "remote")
+
+
 def test_tiling_does_not_change_the_rasters(tmp_path, monkeypatch):
     cache = tmp_path / "cache"
     run(
