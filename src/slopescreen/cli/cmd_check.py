@@ -57,6 +57,17 @@ def run(args: argparse.Namespace) -> int:
         "summary.csv",
     ]
     wanted += ["hazard_zones.gpkg"] * cfg.hazard_zones + ["map.png"] * cfg.quicklook_map
+    if soils.spreads:
+        wanted += ["probability_of_failure.tif", "reliability_index.tif"]
+        print(
+            f"  probability of failure: {cfg.reliability.method.replace('_', ' ')} for units "
+            f"{', '.join(soils.keys[c - 1] for c in sorted(soils.spreads))}"
+        )
     print(f"  per scenario: {', '.join(wanted)}")
+    if any(sc.storm for sc in cfg.scenarios):
+        print(
+            "  storm scenarios also: storm_fs_later.tif, storm_failure_depth_m.tif, "
+            "storm_time_to_failure_h.tif"
+        )
     print(f"  across scenarios: {'report.html, ' if cfg.report else ''}manifest.json")
     return 0
