@@ -353,3 +353,39 @@ def test_monte_carlo_maps_are_reproducible(region, capsys):
     assert not np.array_equal(maps[0], maps[2])
     assert np.ma.max(np.abs(maps[0] - maps[2])) < 0.15
     assert 0.0 <= maps[0].min() and maps[0].max() <= 1.0
+
+
+def test_saturation_raster_on_another_grid(region, capsys):
+    # A coarser saturation raster in geographic coordinates is resampled onto the DEM grid;
+    # a uniform 0.5 must give the same FS as "saturation = 0.5" (bilinear of a constant).
+    folder, toml = region
+    from pyproj import Transformer
+
+    to_geo = Transformer.from_crs("EPSG:32633", "EPSG:4326", always_xy=True)
+    west, south = to_geo.transform(499900.0, 4999900.0)
+    east, north = to_geo.transform(500600.0, 5000500.0)
+    transform = from_origin(west, north, (east - west) / 20, (north - south) / 20)
+    with rasterio.open(
+        folder / "m.tif",
+        "w",
+        driver="GTiff",
+        width=20,
+        height=20,
+        count=1,
+        dtype="float32",
+        crs="EPSG:4326",
+        transform=transform,
+    ) as dst:
+        dst.write(np.full((1, 20, 20), 0.5, np.float32))
+    toml.write_text(
+        SCENARIO_TEXT.replace("saturation = 0.0", 'saturation_raster = "m.tif"')
+        + '\n[[scenario]]\nname = "half"\nsaturation = 0.5\n'
+    )
+    assert main(["run", str(toml), "--out", str(folder / "out"), "--quiet"]) == 0
+    with (
+        rasterio.open(folder / "out" / "dry" / "fs.tif") as a,
+        rasterio.open(folder / "out" / "half" / "fs.tif") as b,
+    ):
+        fs_raster, fs_uniform = a.read(1, masked=True), b.read(1, masked=True)
+    assert fs_raster.count() == fs_uniform.count() > 1000
+    assert np.ma.allclose(fs_raster, fs_uniform, rtol=1e-5)

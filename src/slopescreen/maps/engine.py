@@ -98,7 +98,7 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     for sc in cfg.scenarios:
         soils.with_overrides(sc.soil_overrides, f"{cfg.path}: scenario {sc.name}")
         if sc.saturation_raster is not None:
-            open_saturation(sc.saturation_raster, grid).close()  # type: ignore[attr-defined]
+            read_saturation(sc.saturation_raster, grid)
     hashes = {
         "scenario_file": file_sha256(cfg.path),
         "dem": file_sha256(cfg.region.dem),
@@ -112,31 +112,37 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     return Inputs(cfg, grid, soils, hashes)
 
 
-def open_saturation(path: Path, grid: Grid) -> object:
-    """The saturation raster resampled onto the DEM grid (bilinear), as a WarpedVRT."""
+def read_saturation(
+    path: Path, grid: Grid, rows: slice | None = None, cols: slice | None = None
+) -> np.ndarray:
+    """A window of the saturation raster resampled onto the DEM grid (bilinear, NaN where it
+    has no data); with no window, only checks that the raster can be used."""
     import rasterio
     from rasterio.enums import Resampling
     from rasterio.vrt import WarpedVRT
+    from rasterio.windows import Window
 
     try:
         src = rasterio.open(path)
     except rasterio.errors.RasterioIOError as exc:
         raise InputError(f"{path}: cannot read saturation raster ({exc})") from None
-    if src.crs is None:
-        src.close()
-        raise InputError(f"{path}: saturation raster has no coordinate reference system")
-    vrt = WarpedVRT(
-        src,
-        crs=grid.crs,
-        transform=grid.transform,
-        width=grid.width,
-        height=grid.height,
-        resampling=Resampling.bilinear,
-        nodata=np.nan,
-        dtype="float32",
-    )
-    vrt._slopescreen_source = src  # keep the source open as long as the VRT
-    return vrt
+    with src:
+        if src.crs is None:
+            raise InputError(f"{path}: saturation raster has no coordinate reference system")
+        with WarpedVRT(
+            src,
+            crs=grid.crs,
+            transform=grid.transform,
+            width=grid.width,
+            height=grid.height,
+            resampling=Resampling.bilinear,
+            nodata=np.nan,
+            dtype="float32",
+        ) as vrt:
+            if rows is None or cols is None:
+                return np.empty(0)
+            window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+            return vrt.read(1, window=window).astype(np.float64)
 
 
 def run(

@@ -110,19 +110,6 @@ def _check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
                 )
 
 
-def _saturation_window(job: TileJob, rows: slice, cols: slice) -> np.ndarray:
-    from rasterio.windows import Window
-
-    from slopescreen.maps.engine import open_saturation
-
-    vrt = open_saturation(job.scenario.saturation_raster, job.grid)  # type: ignore[arg-type]
-    try:
-        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
-        return vrt.read(1, window=window).astype(np.float64)  # type: ignore[attr-defined]
-    finally:
-        vrt.close()  # type: ignore[attr-defined]
-
-
 def _fs_fast(seismic: float, tan_slope: np.ndarray, saturation: Any, **p: Any) -> np.ndarray:
     """FS of cells by the compiled kernel (parameters may be arrays of samples)."""
     from slopescreen.maps.kernels import fs_ufunc
@@ -218,7 +205,9 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     out: dict[str, Any] = {"rows": rows, "cols": cols, "missing_wetness": 0}
     m_grid = None
     if sc.saturation_raster is not None:
-        m_grid = _saturation_window(job, rows, cols)
+        from slopescreen.maps.engine import read_saturation
+
+        m_grid = read_saturation(job.scenario.saturation_raster, job.grid, rows, cols)
         out["missing_wetness"] = int((valid & ~np.isfinite(m_grid)).sum())
         valid &= np.isfinite(m_grid)
     c = codes[valid]
