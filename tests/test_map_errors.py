@@ -389,3 +389,20 @@ def test_saturation_raster_on_another_grid(region, capsys):
         fs_raster, fs_uniform = a.read(1, masked=True), b.read(1, masked=True)
     assert fs_raster.count() == fs_uniform.count() > 1000
     assert np.ma.allclose(fs_raster, fs_uniform, rtol=1e-5)
+
+
+def test_override_moves_the_distribution(region, capsys):
+    # Overriding a unit's cohesion shifts its spread with it: the same probabilities as a
+    # soil table that had the new value from the start.
+    folder, toml = region
+    _polygons(folder / "soils.geojson", cohesion_kpa_sd=1.0, friction_deg_sd=2.0)
+    toml.write_text(SCENARIO_TEXT + "[scenario.soil.A]\ncohesion_kpa = 5.0\n")
+    assert main(["run", str(toml), "--out", str(folder / "override"), "--quiet"]) == 0
+    _polygons(folder / "soils.geojson", cohesion_kpa=5.0, cohesion_kpa_sd=1.0, friction_deg_sd=2.0)
+    toml.write_text(SCENARIO_TEXT)
+    assert main(["run", str(toml), "--out", str(folder / "table"), "--quiet"]) == 0
+    with (
+        rasterio.open(folder / "override" / "dry" / "probability_of_failure.tif") as a,
+        rasterio.open(folder / "table" / "dry" / "probability_of_failure.tif") as b,
+    ):
+        assert np.array_equal(a.read(1), b.read(1))

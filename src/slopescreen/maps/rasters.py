@@ -124,17 +124,6 @@ def all_or_nothing(*sinks: RasterSink) -> Iterator[None]:
         sink.close()
 
 
-def write_raster(
-    target: Path, grid: Grid, array: np.ndarray, nodata: float | int, **kwargs: object
-) -> Path:
-    """Write a whole array through a RasterSink."""
-    sink = RasterSink(target, grid, str(array.dtype), nodata, **kwargs)  # type: ignore[arg-type]
-    with all_or_nothing(sink):
-        for rows, cols in windows(grid):
-            sink.write(rows, cols, array[rows, cols])
-    return sink.target
-
-
 def read_block(path: Path, rows: slice, cols: slice) -> np.ndarray:
     import rasterio
     from rasterio.windows import Window

@@ -457,7 +457,7 @@ def run_scenario(
         grid=grid,
         scenario=sc,
         tables=units.parameters,
-        spreads=units.spreads,
+        spreads={code: units.unit_spreads(code) for code in units.spreads},
         correlations=units.correlations,
         slope_deg=terrain_dir / "slope_deg.tif",
         slope_tan=terrain_cache / "slope_tan.tif",

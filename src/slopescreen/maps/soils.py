@@ -60,9 +60,6 @@ class SoilUnits:
             )
         return out
 
-    def lookup(self, name: str, codes: np.ndarray) -> np.ndarray:
-        return self.parameters[name][codes]
-
     def rasterize(self, grid: Grid, rows: slice, cols: slice) -> np.ndarray:
         """uint16 unit codes of one tile (0: no unit), from the polygons that touch it."""
         from rasterio import features
