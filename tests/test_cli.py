@@ -194,3 +194,22 @@ def test_failed_plot_keeps_previous_figure(tmp_path, capsys):
     assert main(["envelope", str(csv), "--plot", str(png)]) == 0
     assert png.read_bytes()[:4] == b"\x89PNG"
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]
+
+
+def test_unwritable_output_folder_is_one_line(tmp_path, capsys):
+    blocker = tmp_path / "file"
+    blocker.write_text("not a folder")
+    code = main(
+        [
+            "run",
+            str(ROOT / "demo_region" / "quillbrook_scenarios.toml"),
+            "--out",
+            str(blocker / "out"),
+            "--only",
+            "dry_season",
+            "--quiet",
+        ]
+    )
+    err = capsys.readouterr().err
+    assert code == 2
+    assert err.count("\n") == 1 and "Not a directory" in err and "Traceback" not in err

@@ -46,6 +46,14 @@ def main(argv: Sequence[str] | None = None) -> int:
     except InputError as exc:
         sys.stderr.write(f"slopescreen {args.command}: error: {exc}\n")
         return EXIT_USER_ERROR
+    except OSError as exc:  # a path the user gave cannot be read or written
+        where = f": {exc.filename}" if getattr(exc, "filename", None) else ""
+        reason = exc.strerror or str(exc).splitlines()[0]
+        sys.stderr.write(
+            f"slopescreen {args.command}: error{where}: {reason}; finished "
+            "outputs are whole, others not written\n"
+        )
+        return EXIT_USER_ERROR
     except KeyboardInterrupt:
         sys.stderr.write(
             "slopescreen: interrupted; finished outputs are whole, others not written\n"
