@@ -406,3 +406,11 @@ def test_override_moves_the_distribution(region, capsys):
         rasterio.open(folder / "table" / "dry" / "probability_of_failure.tif") as b,
     ):
         assert np.array_equal(a.read(1), b.read(1))
+
+
+def test_dem_without_data_cells(region, capsys):
+    folder, toml = region
+    with rasterio.open(folder / "dem.tif", "r+") as dst:
+        dst.write(np.full((1, 40, 50), -9999.0, np.float32))
+    _fails(capsys, toml, "dem.tif: DEM holds no data cells", command="run")
+    assert not (folder / "out" / "terrain" / "soil_unit.tif").exists()

@@ -6,7 +6,7 @@ import json
 import platform
 import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
-from contextlib import contextmanager
+from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -20,7 +20,13 @@ from slopescreen.maps.config import Config, Scenario, load_config
 from slopescreen.maps.grid import Grid, file_sha256, read_elevations, read_grid
 from slopescreen.maps.rasters import RasterSink, all_or_nothing
 from slopescreen.maps.report import write_report
-from slopescreen.maps.scenario_run import Runner, ScenarioSummary, run_scenario, serial_runner
+from slopescreen.maps.scenario_run import (
+    Runner,
+    ScenarioSummary,
+    check_storm_soils,
+    run_scenario,
+    serial_runner,
+)
 from slopescreen.maps.soils import SoilUnits, load_soils
 from slopescreen.maps.terrain_cache import (
     cache_key,
@@ -76,7 +82,13 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     def valid_tile(rows: slice, cols: slice) -> np.ndarray:
         return np.isfinite(read_elevations(cfg.region.dem, "m", rows, cols))
 
-    soils = load_soils(cfg.region, grid, valid_tile)
+    soils = load_soils(cfg.region, grid)
+    for sc in cfg.scenarios:  # everything is checked before anything is written
+        where = f"{cfg.path}: scenario {sc.name}"
+        check_storm_soils(soils.with_overrides(sc.soil_overrides, where), sc, where)
+        if sc.saturation_raster is not None:
+            read_saturation(sc.saturation_raster, grid)
+    sink = None
     if codes_target is not None:
         tags = {f"unit_{i}": k for i, k in enumerate(soils.keys, start=1)}
         sink = RasterSink(
@@ -91,14 +103,10 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
                 "description": "soil unit code; unit_N names code N",
             },
         )
-        with all_or_nothing(sink):
-            soils.measure_coverage(grid, valid_tile, sink)
-    if soils.data_cells == 0:
-        raise InputError(f"{cfg.region.dem}: DEM holds no data cells")
-    for sc in cfg.scenarios:
-        soils.with_overrides(sc.soil_overrides, f"{cfg.path}: scenario {sc.name}")
-        if sc.saturation_raster is not None:
-            read_saturation(sc.saturation_raster, grid)
+    with all_or_nothing(sink) if sink is not None else nullcontext():
+        soils.measure_coverage(grid, valid_tile, sink)
+        if soils.data_cells == 0:
+            raise InputError(f"{cfg.region.dem}: DEM holds no data cells")
     hashes = {
         "scenario_file": file_sha256(cfg.path),
         "dem": file_sha256(cfg.region.dem),

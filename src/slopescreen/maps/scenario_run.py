@@ -98,7 +98,7 @@ def core_storm(sc: Scenario) -> Storm | None:
     )
 
 
-def _check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
+def check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
     if sc.storm is None:
         return
     for code, key in enumerate(units.keys, start=1):
@@ -450,7 +450,7 @@ def run_scenario(
 
     where = f"{cfg.path}: scenario {sc.name}"
     units = soils.with_overrides(sc.soil_overrides, where)
-    _check_storm_soils(units, sc, where)
+    check_storm_soils(units, sc, where)
     recharge_file = terrain_cache / f"critical_recharge-{recharge_key(units, sc, terrain_key)}.tif"
     cached = recharge_file.exists()
     job = TileJob(

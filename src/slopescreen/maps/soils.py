@@ -275,11 +275,9 @@ def read_polygons(region: Region) -> Any:
     return frame
 
 
-def load_soils(region: Region, grid: Grid, region_dem_valid: Any) -> SoilUnits:
-    """Read, validate and reproject the soil units; measure their coverage of ``grid``.
-
-    ``region_dem_valid(rows, cols)`` gives the DEM's data mask of a tile.
-    """
+def load_soils(region: Region, grid: Grid) -> SoilUnits:
+    """Read, validate and reproject the soil units onto ``grid``'s CRS (their coverage is
+    measured, tile by tile, by :meth:`SoilUnits.measure_coverage`)."""
     from shapely.geometry import box
 
     frame = read_polygons(region)
@@ -356,5 +354,4 @@ def load_soils(region: Region, grid: Grid, region_dem_valid: Any) -> SoilUnits:
         spreads=spreads,
         correlations=correlations,
     )
-    units.measure_coverage(grid, region_dem_valid)
     return units
