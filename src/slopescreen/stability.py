@@ -22,8 +22,9 @@ Skempton, A.W. & DeLory, F.A. (1957). Stability of natural slopes in London Clay
 Proc. 4th ICSMFE, London, 2, 378-381.
 Haefeli, R. (1948). The stability of slopes acted upon by parallel seepage.
 Proc. 2nd ICSMFE, Rotterdam, 1, 57-62.
-Hammond, C., Hall, D., Miller, S. & Swetik, P. (1992). Level I Stability Analysis (LISA).
-USDA Forest Service General Technical Report INT-285 (root cohesion, surcharge terms).
+Sidle, R.C. & Ochiai, H. (2006). *Landslides: Processes, Prediction, and Land Use*.
+American Geophysical Union, Water Resources Monograph 18 (root cohesion and surcharge
+terms of the infinite slope).
 Kramer, S.L. (1996). *Geotechnical Earthquake Engineering*, Prentice Hall, sec. 10.6
 (pseudo-static infinite slope).
 """
