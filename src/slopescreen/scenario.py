@@ -61,9 +61,11 @@ def transmissivity_m2_day_from(
     return np.where(np.isfinite(k) & (k > 0.0), t, np.nan)
 
 
-def _transmissivity(
+def cell_transmissivity_m2_day(
     k: ArrayLike, t: ArrayLike, depth_m: ArrayLike, slope: np.ndarray
 ) -> np.ndarray:
+    """T per cell: the given transmissivity ``t`` (m2/day) where it is a number, else
+    T = K z cos(beta) from the conductivity ``k`` (m/s)."""
     t_given = np.asarray(t, dtype=float)
     return np.where(np.isnan(t_given), transmissivity_m2_day_from(k, depth_m, slope), t_given)
 
@@ -127,7 +129,9 @@ def scenario_fs(
         )
         return res.end_min_fs, np.broadcast_to(m, np.shape(res.end_min_fs))
     if recharge_mm_day is not None:
-        t = _transmissivity(hydraulic_conductivity_m_s, transmissivity_m2_day, depth_m, slope)
+        t = cell_transmissivity_m2_day(
+            hydraulic_conductivity_m_s, transmissivity_m2_day, depth_m, slope
+        )
         m = np.asarray(
             steady_state_saturation(recharge_mm_day, specific_catchment_area_m, slope, t),
             dtype=float,
@@ -173,7 +177,9 @@ def critical_recharge_mm_day(
     fs_dry = np.asarray(factor_of_safety(slope, depth_m, saturation=0.0, **soil))
     fs_wet = np.asarray(factor_of_safety(slope, depth_m, saturation=1.0, **soil))
     m_crit = np.asarray(critical_saturation(slope, depth_m, target_fs=1.0, **soil))
-    t = _transmissivity(hydraulic_conductivity_m_s, transmissivity_m2_day, depth_m, slope)
+    t = cell_transmissivity_m2_day(
+        hydraulic_conductivity_m_s, transmissivity_m2_day, depth_m, slope
+    )
     with np.errstate(all="ignore"):
         recharge = np.asarray(
             recharge_for_saturation_mm_day(

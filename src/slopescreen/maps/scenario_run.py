@@ -144,9 +144,9 @@ def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) ->
     sca = p.pop("specific_catchment_area_m")
     if sc.recharge_mm_day is not None:
         from slopescreen.hydrology import steady_state_saturation
-        from slopescreen.scenario import _transmissivity
+        from slopescreen.scenario import cell_transmissivity_m2_day
 
-        t = _transmissivity(
+        t = cell_transmissivity_m2_day(
             p.get("hydraulic_conductivity_m_s", np.nan),
             p.get("transmissivity_m2_day", np.nan),
             p["depth_m"],
