@@ -25,7 +25,12 @@ from slopescreen.hydrology import (
 )
 from slopescreen.inverse import critical_saturation
 from slopescreen.stability import factor_of_safety
-from slopescreen.storm import storm_summary
+from slopescreen.storm import (
+    StormSummary,
+    equivalent_saturation,
+    pressure_head_m,
+    storm_summary,
+)
 
 FAILS_WHEN_DRY = -1.0  # critical-recharge code: FS < 1 with no water at all
 HOLDS_WHEN_SATURATED = -2.0  # critical-recharge code: FS >= 1 even with m = 1
@@ -70,6 +75,42 @@ def cell_transmissivity_m2_day(
     return np.where(np.isnan(t_given), transmissivity_m2_day_from(k, depth_m, slope), t_given)
 
 
+def storm_response(
+    slope_deg: ArrayLike,
+    storm: Storm,
+    *,
+    depth_m: ArrayLike,
+    hydraulic_conductivity_m_s: ArrayLike,
+    diffusivity_m2_s: ArrayLike,
+    end_only: bool = False,
+    **soil: ArrayLike | None,
+) -> tuple[StormSummary, np.ndarray]:
+    """The storm scan of :func:`slopescreen.storm.storm_summary` for cells, up to the storm's
+    ``later_h`` in its ``time_steps`` (or, with ``end_only``, just the end of the storm), and
+    the equivalent saturation on the basal plane at the end of the storm. ``soil``: cohesion,
+    friction, unit weights, root cohesion."""
+    hydro = dict(
+        slope_deg=slope_deg,
+        water_table_depth_m=storm.water_table_depth_m,
+        rain_mm_h=storm.rain_mm_h,
+        hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
+        diffusivity_m2_s=diffusivity_m2_s,
+        long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
+    )
+    res = storm_summary(
+        soil_depth_m=depth_m,
+        later_h=storm.duration_h if end_only else storm.later_h,
+        duration_h=storm.duration_h,
+        depth_steps=storm.depth_steps,
+        time_steps=1 if end_only else storm.time_steps,
+        **hydro,
+        **soil,
+    )
+    psi = pressure_head_m(depth_m, storm.duration_h, duration_h=storm.duration_h, **hydro)
+    m = equivalent_saturation(psi, depth_m, slope_deg)
+    return res, np.broadcast_to(m, np.shape(res.end_min_fs))
+
+
 def scenario_fs(
     slope_deg: ArrayLike,
     specific_catchment_area_m: ArrayLike,
@@ -102,32 +143,16 @@ def scenario_fs(
         root_cohesion_kpa=root_cohesion_kpa,
     )
     if storm is not None:
-        from slopescreen.storm import pressure_head_m
-
-        hydro = dict(
-            slope_deg=slope,
-            water_table_depth_m=storm.water_table_depth_m,
-            rain_mm_h=storm.rain_mm_h,
+        res, m = storm_response(
+            slope,
+            storm,
+            depth_m=depth_m,
             hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
             diffusivity_m2_s=diffusivity_m2_s,
-            long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
-        )
-        res = storm_summary(
-            soil_depth_m=depth_m,
-            later_h=storm.duration_h,
-            duration_h=storm.duration_h,
-            depth_steps=storm.depth_steps,
-            time_steps=1,
-            **hydro,
+            end_only=True,
             **soil,
         )
-        psi = np.asarray(
-            pressure_head_m(depth_m, storm.duration_h, duration_h=storm.duration_h, **hydro)
-        )
-        m = np.clip(
-            np.maximum(psi, 0.0) / (np.asarray(depth_m) * np.cos(np.radians(slope)) ** 2), 0.0, 1.0
-        )
-        return res.end_min_fs, np.broadcast_to(m, np.shape(res.end_min_fs))
+        return res.end_min_fs, m
     if recharge_mm_day is not None:
         t = cell_transmissivity_m2_day(
             hydraulic_conductivity_m_s, transmissivity_m2_day, depth_m, slope

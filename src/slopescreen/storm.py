@@ -126,6 +126,16 @@ def pressure_head_m(
     return as_result(np.minimum(psi, beta * z))
 
 
+def equivalent_saturation(
+    pressure_head_m: ArrayLike, depth_m: ArrayLike, slope_deg: ArrayLike
+) -> np.ndarray:
+    """m = max(psi, 0) / (Z cos^2 alpha), within [0, 1]: the slope-parallel water table that
+    gives pressure head psi on the plane at vertical depth Z (suction neglected)."""
+    cos2 = np.cos(np.radians(np.asarray(slope_deg, float))) ** 2
+    psi = np.maximum(np.asarray(pressure_head_m, float), 0.0)
+    return np.clip(psi / (np.asarray(depth_m, float) * cos2), 0.0, 1.0)
+
+
 def storm_factor_of_safety(
     depth_m: ArrayLike,
     time_h: ArrayLike,
@@ -169,8 +179,7 @@ def storm_factor_of_safety(
             long_term_infiltration_m_s=long_term_infiltration_m_s,
         )
     )
-    cos2 = np.cos(np.radians(np.asarray(slope_deg, float))) ** 2
-    m = np.clip(np.maximum(psi, 0.0) / (np.asarray(depth_m, float) * cos2), 0.0, 1.0)
+    m = equivalent_saturation(psi, depth_m, slope_deg)
     return factor_of_safety(
         slope_deg,
         depth_m,

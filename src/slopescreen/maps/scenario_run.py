@@ -31,8 +31,8 @@ from slopescreen.scenario import (
     Storm,
     critical_recharge_mm_day,
     scenario_fs,
+    storm_response,
 )
-from slopescreen.storm import storm_summary
 
 # soil parameters the core takes
 CORE_FIELDS = (
@@ -225,36 +225,12 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     if sc.storm is not None:
         storm = core_storm(sc)
         assert storm is not None
-        fs, m = scenario_fs(
+        summary, m = storm_response(
             block["slope"],
-            block["sca"],
-            storm=storm,
-            seismic_coefficient=sc.seismic_coefficient,
-            **params,
+            storm,
+            **{k: v for k, v in params.items() if k != "transmissivity_m2_day"},
         )
-        summary = storm_summary(
-            soil_depth_m=params["depth_m"],
-            later_h=storm.later_h,
-            duration_h=storm.duration_h,
-            depth_steps=storm.depth_steps,
-            time_steps=storm.time_steps,
-            slope_deg=block["slope"],
-            water_table_depth_m=storm.water_table_depth_m,
-            rain_mm_h=storm.rain_mm_h,
-            long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
-            **{
-                k: params[k]
-                for k in (
-                    "cohesion_kpa",
-                    "friction_deg",
-                    "unit_weight_kn_m3",
-                    "saturated_unit_weight_kn_m3",
-                    "root_cohesion_kpa",
-                    "hydraulic_conductivity_m_s",
-                    "diffusivity_m2_s",
-                )
-            },
-        )
+        fs = summary.end_min_fs
         values["storm_fs_later"] = np.minimum(summary.later_min_fs, job.fs_cap)
         values["storm_failure_depth"] = summary.end_critical_depth_m
         values["storm_time_to_failure"] = np.where(
