@@ -426,7 +426,6 @@ def run_scenario(
 
     where = f"{cfg.path}: scenario {sc.name}"
     units = soils.with_overrides(sc.soil_overrides, where)
-    check_storm_soils(units, sc, where)
     recharge_file = terrain_cache / f"critical_recharge-{recharge_key(units, sc, terrain_key)}.tif"
     cached = recharge_file.exists()
     job = TileJob(
