@@ -10,68 +10,11 @@ import numpy as np
 import pytest
 import rasterio
 from rasterio.transform import from_origin
+from region_files import PARAMS, SCENARIO_TEXT, _dem, _polygons
 from shapely.geometry import box
 
 from slopescreen.cli.main import main
-from slopescreen.maps import scenario_run
-
-PARAMS = {
-    "cohesion_kpa": 2.0,
-    "friction_deg": 30.0,
-    "unit_weight_kn_m3": 18.0,
-    "depth_m": 1.5,
-    "hydraulic_conductivity_m_s": 1e-5,
-}
-
-
-def _dem(path, crs="EPSG:32633", rows=40, cols=50, origin=(500000.0, 5000400.0), cell=10.0):
-    y, x = np.mgrid[0:rows, 0:cols].astype(float)
-    z = 300.0 - 6.0 * np.abs(x - cols / 2) - 2.0 * y
-    kwargs = {"crs": crs} if crs else {}
-    with rasterio.open(
-        path,
-        "w",
-        driver="GTiff",
-        width=cols,
-        height=rows,
-        count=1,
-        dtype="float32",
-        transform=from_origin(*origin, cell, cell),
-        nodata=-9999.0,
-        **kwargs,
-    ) as dst:
-        dst.write(z.astype(np.float32), 1)
-    return path
-
-
-def _polygons(
-    path, bounds=(500000.0, 5000000.0, 500500.0, 5000400.0), crs="EPSG:32633", **overrides
-):
-    x0, y0, x1, y1 = bounds
-    xm = (x0 + x1) / 2
-    rows = [dict(PARAMS, unit="A", **overrides), dict(PARAMS, unit="B", cohesion_kpa=5.0)]
-    frame = gpd.GeoDataFrame(rows, geometry=[box(x0, y0, xm, y1), box(xm, y0, x1, y1)], crs=crs)
-    frame.to_file(path, driver="GeoJSON")
-    return path
-
-
-SCENARIO_TEXT = """[region]
-name = "test region"
-dem = "dem.tif"
-soil_units = "soils.geojson"
-soil_unit_field = "unit"
-
-[hazard]
-min_zone_area_m2 = 0.0
-
-[[scenario]]
-name = "wet"
-recharge_mm_day = 40.0
-
-[[scenario]]
-name = "dry"
-saturation = 0.0
-"""
+from slopescreen.maps import scenario_run, scenario_tiles
 
 
 @pytest.fixture
@@ -185,7 +128,8 @@ def test_bad_saturation_raster_keeps_previous_outputs(region, capsys):
     toml.write_text(SCENARIO_TEXT.replace("saturation = 0.0", 'saturation_raster = "m.tif"'))
     _fails(capsys, toml, "m.tif: saturation values must be in [0, 1], found 1.7", command="run")
     assert (out / "dry" / "fs.tif").read_bytes() == before
-    assert not [p for p in out.rglob(".*") if p.is_file() and ".cache" not in p.parts]
+    leftovers = [p for p in out.rglob(".*") if ".cache" not in p.parts]
+    assert [p.name for p in leftovers] == [".slopescreen.lock"]
 
 
 def test_interrupted_run_leaves_previous_outputs_whole(region, capsys, monkeypatch):
@@ -193,10 +137,9 @@ def test_interrupted_run_leaves_previous_outputs_whole(region, capsys, monkeypat
     out = folder / "out"
     assert main(["run", str(toml), "--out", str(out), "--quiet"]) == 0
     before = {p: p.read_bytes() for p in out.rglob("*") if p.is_file()}
-    manifest = (out / "manifest.json").read_text()
 
     calls = {"n": 0}
-    real = scenario_run.compute_tile
+    real = scenario_tiles.compute_tile
 
     def interrupted(*args, **kwargs):  # Ctrl-C in the second scenario's first tile
         calls["n"] += 1
@@ -208,15 +151,15 @@ def test_interrupted_run_leaves_previous_outputs_whole(region, capsys, monkeypat
     assert main(["run", str(toml), "--out", str(out), "--quiet"]) == 130
     assert calls["n"] == 2
     after = {p: p.read_bytes() for p in out.rglob("*") if p.is_file()}
-    assert after == before  # first scenario rewritten identically, second untouched
-    assert (out / "manifest.json").read_text() == manifest
-    assert json.loads(manifest)["outputs"]
-    leftovers = [
-        p
-        for p in out.rglob("*")
-        if p.name.startswith(".") and p.is_file() and ".cache" not in p.parts
-    ]
-    assert leftovers == []
+    changed = {p for p in before if after.get(p) != before[p]}
+    # first scenario rewritten identically, second untouched; the folder says its state
+    assert {p.name for p in changed} == {"manifest.json", "report.html", ".slopescreen.lock"}
+    manifest = json.loads((out / "manifest.json").read_text())
+    assert manifest["complete"] is False
+    assert manifest["scenarios_finished"] == ["wet"] and manifest["scenarios_missing"] == ["dry"]
+    assert "run not finished" in (out / "report.html").read_text()
+    leftovers = [p for p in out.rglob(".*") if ".cache" not in p.parts]
+    assert [p.name for p in leftovers] == [".slopescreen.lock"]
 
 
 def test_geographic_dem_with_projected_polygons(tmp_path, capsys):

@@ -27,9 +27,9 @@ def test_memory_mapped_routing_matches_in_memory(tmp_path, monkeypatch):
     monkeypatch.setattr(terrain_cache._Scratch, "__call__", spy)
     run(SCENARIOS, tmp_path / "disk", only=["dry_season"], progress=False, echo=lambda s: None)
     assert len(made) >= 10  # every work array came from a memory-mapped file
-    stamp = next((tmp_path / "disk" / ".cache").glob("terrain-*/terrain.json"))
-    assert json.loads(stamp.read_text())["out_of_core"] is True
-    assert not list((tmp_path / "disk" / ".cache").glob(".routing-*"))  # work files removed
+    stamp = next((tmp_path / "disk" / ".cache").glob("terrain-*/entry.json"))
+    assert json.loads(stamp.read_text())["info"]["out_of_core"] is True
+    assert not list((tmp_path / "disk" / ".cache").glob(".slopescreen-tmp-*"))  # work removed
     for name in ("specific_catchment_area_m.tif", "slope_deg.tif"):
         with (
             rasterio.open(tmp_path / "ram" / "terrain" / name) as a,

@@ -8,27 +8,12 @@ import numpy as np
 import pytest
 import rasterio
 from rasterio.transform import from_origin
+from region_files import write_raster
 
 from slopescreen.maps.grid import read_dem
 from slopescreen.terrain import hillshade, slope_deg
 
-
-def _write(path, z, crs="EPSG:32633", transform=None, nodata=-9999.0):
-    transform = transform or from_origin(500000.0, 5000000.0, 10.0, 10.0)
-    with rasterio.open(
-        path,
-        "w",
-        driver="GTiff",
-        width=z.shape[1],
-        height=z.shape[0],
-        count=1,
-        dtype="float32",
-        crs=crs,
-        transform=transform,
-        nodata=nodata,
-    ) as dst:
-        dst.write(z.astype(np.float32), 1)
-    return path
+_write = write_raster
 
 
 def _rough_dem():

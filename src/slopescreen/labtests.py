@@ -20,6 +20,7 @@ from pathlib import Path
 import numpy as np
 
 from slopescreen.errors import InputError
+from slopescreen.textfiles import read_text
 
 
 @dataclass(frozen=True)
@@ -53,11 +54,11 @@ def _number(path: Path, line: int, column: str, text: str, *, allow_blank: bool)
 def read_lab_tests(path: str | Path) -> LabTests:
     """Read a triaxial or direct-shear CSV; raise InputError naming file, line and column."""
     path = Path(path)
+    text = read_text(path, "lab-test file")
     try:
-        text = path.read_text(encoding="utf-8-sig")
-    except OSError as exc:
-        raise InputError(f"{path}: cannot read lab-test file ({exc.strerror})") from None
-    rows = [r for r in csv.reader(text.splitlines())]
+        rows = list(csv.reader(text.splitlines()))
+    except csv.Error as exc:
+        raise InputError(f"{path}: lab-test file is not readable CSV ({exc})") from None
     numbered = [
         (i + 1, r)
         for i, r in enumerate(rows)
@@ -82,7 +83,7 @@ def read_lab_tests(path: str | Path) -> LabTests:
         raise InputError(
             f"{path}: line {header_line}: header must name sigma3_kpa with "
             "sigma1_kpa or deviator_kpa (triaxial), or normal_kpa and shear_kpa "
-            f"(direct shear); got {', '.join(names)}"
+            f"(direct shear); none of its {len(names)} columns is one of these"
         )
     values: dict[str, list[float]] = {c: [] for c in wanted + [c for c in optional if c in names]}
     labels: list[str] = []

@@ -57,10 +57,11 @@ def read_slope_file(path: Path) -> dict[str, Any]:
     import tomllib
 
     from slopescreen.cli.options import SLOPE_OPTIONS
+    from slopescreen.textfiles import read_text
 
     try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except (OSError, tomllib.TOMLDecodeError) as exc:
+        data = tomllib.loads(read_text(path, "slope file"))
+    except (tomllib.TOMLDecodeError, RecursionError) as exc:
         raise InputError(f"{path}: cannot read slope file ({exc})") from None
     allowed = {dest: default for _, dest, _, default in SLOPE_OPTIONS}
     unknown = sorted(set(data) - set(allowed) - {"name"})

@@ -3,7 +3,9 @@
 Writes, under --out: terrain/ (slope, specific catchment area, soil units, hillshade),
 one folder per scenario (fs.tif, saturation.tif, critical_recharge_mm_day.tif,
 hazard_class.tif, hazard_zones.gpkg, summary.csv, map.png), report.html and manifest.json.
-Terrain is computed once per DEM and cached by content hash (default: OUT/.cache).
+Terrain and critical recharge are cached by the content of their inputs and verified
+before use (default: OUT/.cache). One run at a time per --out folder; manifest.json says
+"complete": true only when every scenario and the report are done.
 
 Example::
 
@@ -77,6 +79,7 @@ def run(args: argparse.Namespace) -> int:
         progress=not args.quiet and sys.stderr.isatty(),
         workers=args.workers,
         scheduler=args.scheduler,
+        command=["slopescreen", *sys.argv[1:]],
     )
     print(caution_block())
     return 0

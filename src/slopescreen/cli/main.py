@@ -21,6 +21,11 @@ class _Parser(argparse.ArgumentParser):
         raise SystemExit(EXIT_USER_ERROR)
 
 
+def one_line(text: str) -> str:
+    """The message with control characters (a newline in a name, say) shown escaped."""
+    return "".join(ch if ch.isprintable() else repr(ch)[1:-1] for ch in text)
+
+
 def build_parser() -> argparse.ArgumentParser:
     from slopescreen import __version__
 
@@ -44,13 +49,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return int(args.run(args) or 0)
     except InputError as exc:
-        sys.stderr.write(f"slopescreen {args.command}: error: {exc}\n")
+        sys.stderr.write(f"slopescreen {args.command}: error: {one_line(str(exc))}\n")
         return EXIT_USER_ERROR
     except OSError as exc:  # a path the user gave cannot be read or written
         where = f": {exc.filename}" if getattr(exc, "filename", None) else ""
-        reason = exc.strerror or str(exc).splitlines()[0]
+        reason = exc.strerror or (str(exc).splitlines() or [type(exc).__name__])[0]
         sys.stderr.write(
-            f"slopescreen {args.command}: error{where}: {reason}; finished "
+            f"slopescreen {args.command}: error{one_line(where)}: {one_line(reason)}; finished "
             "outputs are whole, others not written\n"
         )
         return EXIT_USER_ERROR

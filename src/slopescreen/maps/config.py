@@ -39,6 +39,7 @@ from typing import Any
 from slopescreen._checks import checked
 from slopescreen.errors import InputError
 from slopescreen.hazard import DEFAULT_FS_BREAKS, check_breaks
+from slopescreen.textfiles import read_text
 
 SOIL_FIELDS: dict[str, tuple[float, float, bool]] = {
     # field: (low, high, required)
@@ -74,7 +75,9 @@ STORM_KEYS: dict[str, tuple[float, float]] = {
     "long_term_infiltration_mm_day": (0.0, 1000.0),
 }
 RELIABILITY_METHODS = ("taylor", "monte_carlo")
-_NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,63}$")
+_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
+# names the run gives to its own files and folders beside the scenario folders
+RESERVED_NAMES = frozenset({"terrain", "report.html", "manifest.json"})
 
 
 @dataclass(frozen=True)
@@ -148,6 +151,12 @@ class Config:
     reliability: ReliabilitySpec = ReliabilitySpec()
 
 
+def _shown(value: object, limit: int = 60) -> str:
+    """A value for an error line: its repr, cut short (a line, not a page)."""
+    text = repr(value)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
 class _Lines:
     """Where each key stands in the file: (table path, key) -> line number."""
 
@@ -187,6 +196,8 @@ class _Reader:
     def fail(self, table: str, key: str, message: str) -> InputError:
         where = f"[{re.sub(r'#[0-9]+', '', table)}]" if table else "top level"
         label = f"{where} {key}".strip() if key else where
+        if len(message) > 300:
+            message = message[:297] + "..."
         return InputError(f"{self.path}: {self.lines.line(table, key)}: {label}: {message}")
 
     def known(self, table: str, data: dict[str, Any], allowed: set[str]) -> None:
@@ -207,7 +218,9 @@ class _Reader:
             return default
         value = data[key]
         if isinstance(value, bool) or not isinstance(value, int | float):
-            raise self.fail(table, key, f"must be a number in [{low:g}, {high:g}], got {value!r}")
+            raise self.fail(
+                table, key, f"must be a number in [{low:g}, {high:g}], got {_shown(value)}"
+            )
         try:
             return float(checked(key, value, low, high))
         except InputError as exc:
@@ -218,13 +231,29 @@ class _Reader:
         if value is None:
             raise self.fail(table, key, "missing (required)")
         if not isinstance(value, str) or not value.strip():
-            raise self.fail(table, key, f"must be a non-empty text, got {value!r}")
+            raise self.fail(table, key, f"must be a non-empty text, got {_shown(value)}")
+        return value
+
+    def integer(
+        self, table: str, data: dict[str, Any], key: str, low: int, high: int, default: int
+    ) -> int:
+        value = data.get(key, default)
+        if isinstance(value, bool) or not isinstance(value, int) or not low <= value <= high:
+            raise self.fail(
+                table, key, f"must be a whole number in [{low}, {high}], got {_shown(value)}"
+            )
+        return value
+
+    def table(self, table: str, data: dict[str, Any], key: str) -> dict[str, Any]:
+        value = data.get(key, {})
+        if not isinstance(value, dict):
+            raise self.fail(table, key, f"must be a table ([{key}]), got {_shown(value)}")
         return value
 
     def flag(self, table: str, data: dict[str, Any], key: str, default: bool) -> bool:
         value = data.get(key, default)
         if not isinstance(value, bool):
-            raise self.fail(table, key, f"must be true or false, got {value!r}")
+            raise self.fail(table, key, f"must be true or false, got {_shown(value)}")
         return value
 
     def file(self, table: str, data: dict[str, Any], key: str) -> Path:
@@ -257,19 +286,18 @@ def load_config(path: str | Path) -> Config:
         fs_distribution = "normal"         # or "lognormal" (Taylor method)
     """
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise InputError(f"{path}: cannot read scenario file ({exc.strerror})") from None
+    text = read_text(path, "scenario file")
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"{path}: not valid TOML: {exc}") from None
+    except RecursionError:
+        raise InputError(f"{path}: not valid TOML: arrays or tables nested too deeply") from None
     r = _Reader(path, text)
     r.known("", data, {"region", "hazard", "outputs", "reliability", "scenario"})
 
     reg = data.get("region")
-    if not isinstance(reg, dict):
+    if not isinstance(reg, dict) or not reg:
         raise r.fail("region", "", "a [region] table is required")
     r.known(
         "region",
@@ -286,7 +314,7 @@ def load_config(path: str | Path) -> Config:
     )
     unit = r.text("region", reg, "dem_elevation_unit", "m")
     if unit not in ("m", "ft"):
-        raise r.fail("region", "dem_elevation_unit", f'must be "m" or "ft", got {unit!r}')
+        raise r.fail("region", "dem_elevation_unit", f'must be "m" or "ft", got {_shown(unit)}')
     region = Region(
         name=r.text("region", reg, "name", path.stem),
         dem=r.file("region", reg, "dem"),
@@ -297,7 +325,7 @@ def load_config(path: str | Path) -> Config:
         soil_layer=r.text("region", reg, "soil_layer") if "soil_layer" in reg else None,
     )
 
-    haz = data.get("hazard", {})
+    haz = r.table("", data, "hazard")
     r.known("hazard", haz, {"fs_breaks", "min_zone_area_m2"})
     try:
         breaks = tuple(float(b) for b in check_breaks(haz.get("fs_breaks", DEFAULT_FS_BREAKS)))
@@ -305,11 +333,11 @@ def load_config(path: str | Path) -> Config:
         raise r.fail("hazard", "fs_breaks", str(exc)) from None
     min_zone = r.number("hazard", haz, "min_zone_area_m2", 0.0, 1e9, 0.0)
 
-    out = data.get("outputs", {})
+    out = r.table("", data, "outputs")
     r.known("outputs", out, {"fs_cap", "hazard_zones", "quicklook_map", "report"})
     fs_cap = r.number("outputs", out, "fs_cap", 1.5, 1e6, 10.0)
 
-    rel = data.get("reliability", {})
+    rel = r.table("", data, "reliability")
     r.known("reliability", rel, {"method", "samples", "random_state", "fs_distribution"})
     method = r.text("reliability", rel, "method", "taylor")
     if method not in RELIABILITY_METHODS:
@@ -325,8 +353,8 @@ def load_config(path: str | Path) -> Config:
         )
     reliability = ReliabilitySpec(
         method=method,
-        samples=int(r.number("reliability", rel, "samples", 10, 1e7, 1000)),  # type: ignore
-        random_state=int(r.number("reliability", rel, "random_state", 0, 2**63 - 1, 0)),  # type: ignore
+        samples=r.integer("reliability", rel, "samples", 10, 10_000_000, 1000),
+        random_state=r.integer("reliability", rel, "random_state", 0, 2**32 - 1, 0),
         fs_distribution=fs_dist,
     )
 
@@ -335,6 +363,10 @@ def load_config(path: str | Path) -> Config:
         raise r.fail("", "scenario", "at least one [[scenario]] table is required")
     scenarios: list[Scenario] = []
     for i, sc in enumerate(raw_scenarios, start=1):
+        if not isinstance(sc, dict):
+            raise r.fail(
+                "", "scenario", f"each scenario must be a [[scenario]] table, got {_shown(sc)}"
+            )
         scenarios.append(_scenario(r, f"scenario#{i}", sc, {s.name for s in scenarios}))
     return Config(
         path=path.resolve(),
@@ -354,9 +386,19 @@ def load_config(path: str | Path) -> Config:
 def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Scenario:
     r.known(table, sc, {"name", "description", *WETNESS_KEYS, "seismic_coefficient", "soil"})
     name = r.text(table, sc, "name")
-    if not _NAME.match(name):
+    if not _NAME.fullmatch(name):
         raise r.fail(
-            table, "name", f"{name!r}: use 1-64 letters, digits, _ . - (it names a folder)"
+            table,
+            "name",
+            f"{name!r}: use 1-64 letters, digits, _ . - starting with a letter or digit "
+            "(it names a folder)",
+        )
+    if name.lower() in RESERVED_NAMES:
+        raise r.fail(
+            table,
+            "name",
+            f"{name!r} is reserved (it names a file or folder of the run); "
+            f"reserved: {', '.join(sorted(RESERVED_NAMES))}",
         )
     if name in taken:
         raise r.fail(table, "name", f"duplicate scenario name {name!r}")
@@ -399,7 +441,7 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
     return Scenario(
         storm=storm,
         name=name,
-        description=str(sc.get("description", "")),
+        description=r.text(table, sc, "description", "-") if "description" in sc else "",
         saturation=r.number(table, sc, "saturation", 0.0, 1.0),
         saturation_raster=r.file(table, sc, "saturation_raster")
         if "saturation_raster" in sc

@@ -1,13 +1,29 @@
-"""The batch run: every scenario of a scenario file, end to end."""
+"""The batch run: every scenario of a scenario file, end to end.
+
+What a run guarantees (README, "What a run guarantees"):
+
+- every input is read and checked before anything in the output folder changes;
+- one writer per output folder (an advisory lock, see :mod:`slopescreen.maps.locks`);
+- every file is written in a private folder and renamed into place, never through a link;
+- cache entries are keyed by the content of all they depend on and verified before use;
+- ``manifest.json`` says ``complete: false`` from the first write until every scenario and
+  the report are done, listing the scenarios finished and missing; ``report.html`` is a
+  "run not finished" page in the meantime.
+"""
 
 from __future__ import annotations
 
 import json
+import os
 import platform
+import re
+import sys
 import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass, field
+from datetime import UTC, datetime
+from html import escape
 from pathlib import Path
 
 import numpy as np
@@ -16,26 +32,28 @@ from slopescreen import __version__
 from slopescreen.cautions import CAUTIONS
 from slopescreen.errors import InputError
 from slopescreen.hazard import class_names as hazard_class_names
+from slopescreen.maps.cache import recorded_sha256
 from slopescreen.maps.config import Config, Scenario, load_config
-from slopescreen.maps.grid import Grid, file_sha256, read_elevations, read_grid
-from slopescreen.maps.rasters import RasterSink, all_or_nothing
+from slopescreen.maps.grid import Grid, dem_files_sha256, read_elevations, read_grid
+from slopescreen.maps.locks import folder_lock
+from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_saturation
 from slopescreen.maps.report import write_report
-from slopescreen.maps.scenario_run import (
-    Runner,
-    ScenarioSummary,
-    check_storm_soils,
-    run_scenario,
-    serial_runner,
-)
+from slopescreen.maps.scenario_run import ScenarioSummary, run_scenario
+from slopescreen.maps.scenario_tiles import Runner, check_storm_soils, serial_runner
 from slopescreen.maps.soils import SoilUnits, load_soils
-from slopescreen.maps.terrain_cache import (
-    cache_key,
-    copy_file,
-    terrain_products,
+from slopescreen.maps.terrain_cache import cache_key, terrain_products
+from slopescreen.outputs import (
+    copy_verified,
+    file_sha256,
+    private_folder,
+    real_folder,
+    remove_stale_work,
+    write_text,
 )
-from slopescreen.outputs import write_text
 
 Echo = Callable[[str], None]
+_SCHEDULER = re.compile(r"[a-z][a-z0-9+.-]*://[A-Za-z0-9_.\-\[\]:]+:[0-9]{1,5}")
+TERRAIN_FILES = ("slope_deg.tif", "specific_catchment_area_m.tif", "hillshade.tif")
 
 
 @dataclass
@@ -70,6 +88,22 @@ class Inputs:
     grid: Grid
     soils: SoilUnits
     hashes: dict[str, str]
+    dem_files: dict[str, str]  # SHA-256 of every file GDAL reads for the DEM
+
+
+@dataclass
+class RunState:
+    """What a run has done so far, for the manifest."""
+
+    started_utc: str
+    command: list[str]
+    finished_utc: str | None = None
+    complete: bool = False
+    finished: list[str] = field(default_factory=list)
+    missing: list[str] = field(default_factory=list)
+    outputs: list[str] = field(default_factory=list)  # relative paths this run wrote
+    summaries: list[ScenarioSummary] = field(default_factory=list)
+    terrain: dict[str, object] = field(default_factory=dict)
 
 
 def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
@@ -117,40 +151,30 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     for sc in cfg.scenarios:
         if sc.saturation_raster is not None:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)
-    return Inputs(cfg, grid, soils, hashes)
+    return Inputs(cfg, grid, soils, hashes, dem_files_sha256(cfg.region.dem))
 
 
-def read_saturation(
-    path: Path, grid: Grid, rows: slice | None = None, cols: slice | None = None
-) -> np.ndarray:
-    """A window of the saturation raster resampled onto the DEM grid (bilinear, NaN where it
-    has no data); with no window, only checks that the raster can be used."""
-    import rasterio
-    from rasterio.enums import Resampling
-    from rasterio.vrt import WarpedVRT
-    from rasterio.windows import Window
+def utc_now() -> str:
+    return datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
 
-    try:
-        src = rasterio.open(path)
-    except rasterio.errors.RasterioIOError as exc:
-        raise InputError(f"{path}: cannot read saturation raster ({exc})") from None
-    with src:
-        if src.crs is None:
-            raise InputError(f"{path}: saturation raster has no coordinate reference system")
-        with WarpedVRT(
-            src,
-            crs=grid.crs,
-            transform=grid.transform,
-            width=grid.width,
-            height=grid.height,
-            resampling=Resampling.bilinear,
-            nodata=np.nan,
-            dtype="float32",
-        ) as vrt:
-            if rows is None or cols is None:
-                return np.empty(0)
-            window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
-            return vrt.read(1, window=window).astype(np.float64)
+
+def check_scheduler_address(address: str) -> None:
+    """Refuse, before anything runs, a --scheduler that is not PROTOCOL://HOST:PORT."""
+    if not _SCHEDULER.fullmatch(address) or not 1 <= int(address.rsplit(":", 1)[1]) <= 65535:
+        raise InputError(
+            f"--scheduler {address!r}: not a scheduler address; give PROTOCOL://HOST:PORT "
+            "with a port 1-65535, e.g. tcp://10.0.0.5:8786"
+        )
+
+
+def _check_subfolders(out: Path, names: Iterable[str]) -> None:
+    for name in names:
+        path = out / name
+        if path.is_symlink() or (path.exists() and not path.is_dir()):
+            kind = "symbolic link" if path.is_symlink() else "file"
+            raise InputError(
+                f"{path}: must be a real folder written by slopescreen, found a {kind}; remove it"
+            )
 
 
 def run(
@@ -162,73 +186,153 @@ def run(
     echo: Echo = print,
     workers: int = 0,
     scheduler: str | None = None,
+    command: Sequence[str] | None = None,
 ) -> Path:
     """Run the scenarios; return the path of manifest.json.
 
-    ``workers`` > 0 runs the scenario tiles on a local dask.distributed cluster of that many
-    worker processes; ``scheduler`` sends them to an existing cluster at that address
-    (workers must see the same files at the same paths). The outputs are the same bytes
-    either way.
+    Every input is read and checked before anything is written, and the output folder is
+    held by this run alone: a second run into it stops at once (InputError). The manifest
+    is written with ``complete: false`` before the first output and rewritten after each
+    scenario, so a run that stops early leaves a folder that says which scenarios it
+    finished and which are missing; ``complete: true`` comes after every scenario and the
+    report. ``workers`` > 0 runs the scenario tiles on a local dask.distributed cluster of
+    that many worker processes; ``scheduler`` sends them to an existing cluster at that
+    address (workers must see the same files at the same paths). The outputs are the same
+    bytes either way.
     """
     timings = Timings()
+    state = RunState(utc_now(), list(sys.argv if command is None else command))
     started = time.perf_counter()
     cfg = load_config(config_path)
     chosen = select_scenarios(cfg, only)
-    terrain_dir = out / "terrain"
-    inputs = prepare(cfg, codes_target=terrain_dir / "soil_unit.tif")
-    timings.add("read and check inputs", started)
+    if scheduler:
+        check_scheduler_address(scheduler)
+    cache = cache_dir if cache_dir is not None else out / ".cache"
+    real_folder(out)
+    subfolders = ["terrain", *(s.name for s in chosen)]
+    _check_subfolders(out, subfolders if cache_dir is not None else [*subfolders, ".cache"])
+    with folder_lock(out, f"PID {os.getpid()}, started {state.started_utc}"):
+        remove_stale_work(out, skip=cache.resolve())
+        with (
+            private_folder(out) as staging,
+            _runner(workers, scheduler, echo) as (runner, numba_threads),
+        ):
+            inputs = prepare(cfg, codes_target=staging / "soil_unit.tif")
+            timings.add("read and check inputs", started)
+            # nothing in the output folder has changed so far; from here on it says its state
+            state.missing = [s.name for s in chosen]
+            write_state(out, cfg, inputs, chosen, timings, state)
+            if cfg.report or (out / "report.html").exists():
+                write_text(out / "report.html", _unfinished_report(cfg, state))
+            os.replace(staging / "soil_unit.tif", real_folder(out / "terrain") / "soil_unit.tif")
+            state.outputs.append("terrain/soil_unit.tif")
+            steps = _Steps(timings, state, echo, progress, runner, numba_threads)
+            _terrain_and_scenarios(cfg, inputs, chosen, out, cache, steps)
+        started = time.perf_counter()
+        if cfg.report:
+            write_report(
+                out / "report.html",
+                cfg,
+                inputs.grid,
+                inputs.soils,
+                hazard_class_names(cfg.fs_breaks),
+                state.summaries,
+                __version__,
+            )
+            state.outputs.append("report.html")
+        else:
+            (out / "report.html").unlink(missing_ok=True)
+        timings.add("report", started)
+        state.finished_utc = utc_now()
+        state.complete = True
+        target = write_state(out, cfg, inputs, chosen, timings, state)
+    echo(f"report: {out / 'report.html'}; manifest: {target}")
+    return target
+
+
+@dataclass
+class _Steps:
+    """How the run's steps report and where they run."""
+
+    timings: Timings
+    state: RunState
+    echo: Echo
+    progress: bool
+    runner: Runner
+    numba_threads: int
+
+
+def _terrain_and_scenarios(
+    cfg: Config, inputs: Inputs, chosen: list[Scenario], out: Path, cache: Path, steps: _Steps
+) -> None:
+    """Terrain (from a verified cache entry, or computed), then every scenario; the
+    manifest is rewritten after each."""
+    timings, state, echo, progress = steps.timings, steps.state, steps.echo, steps.progress
     grid, soils = inputs.grid, inputs.soils
+    terrain_dir = out / "terrain"
     echo(f"region {cfg.region.name}: {grid.width} x {grid.height} cells, {grid.spacing_note}")
     for w in soils.warnings:
         echo(f"WARNING: {w}")
-
     started = time.perf_counter()
-    key = cache_key(inputs.hashes["dem"], cfg.region.dem_elevation_unit)
-    cache = cache_dir if cache_dir is not None else out / ".cache"
-    folder, reused = terrain_products(grid, cfg.region.dem_elevation_unit, key, cache, __version__)
-    for name in ("slope_deg.tif", "specific_catchment_area_m.tif", "hillshade.tif"):
-        copy_file(folder / name, terrain_dir / name)
+    key = cache_key(inputs.dem_files, cfg.region.dem_elevation_unit, __version__)
+    folder, reused = terrain_products(
+        grid, cfg.region.dem_elevation_unit, key, cache, __version__, echo
+    )
+    for name in TERRAIN_FILES:
+        if not copy_verified(folder / name, terrain_dir / name, recorded_sha256(folder, name)):
+            raise InputError(f"{folder / name}: cache file changed while in use; run again")
+        state.outputs.append(f"terrain/{name}")
+    state.terrain = {"cache_key": key, "reused": reused, "spacing": grid.spacing_note}
     timings.add("terrain (cached)" if reused else "terrain", started)
-    echo(f"terrain: {'reused from cache' if reused else 'computed'} ({folder})")
+    echo(f"terrain: {'reused from cache (verified)' if reused else 'computed'} ({folder})")
 
     names = hazard_class_names(cfg.fs_breaks)
-    summaries: list[ScenarioSummary] = []
-    with _runner(workers, scheduler, echo) as (runner, numba_threads):
-        for sc in chosen:
-            started = time.perf_counter()
-            summary, _ = run_scenario(
-                cfg,
-                sc,
-                grid,
-                soils,
-                terrain_dir,
-                folder,
-                key,
-                out / sc.name,
-                names,
-                lambda items, total, label: _progress(items, total, label, progress),
-                runner,
-                numba_threads,
-            )
-            summaries.append(summary)
-            timings.add(f"scenario {sc.name}", started)
-            mapped = sum(summary.class_areas_ha)
-            worst = summary.class_areas_ha[0]
-            echo(
-                f"scenario {sc.name}: {summary.wetness}; {worst:,.1f} ha of {mapped:,.1f} ha "
-                f"mapped in class 1 ({names[0]}) -> {out / sc.name}"
-            )
-            for w in summary.warnings:
-                echo(f"WARNING: {w}")
+    for sc in chosen:
+        started = time.perf_counter()
+        summary, _ = run_scenario(
+            cfg,
+            sc,
+            grid,
+            soils,
+            terrain_dir,
+            folder,
+            key,
+            out / sc.name,
+            names,
+            lambda items, total, label: _progress(items, total, label, progress),
+            steps.runner,
+            steps.numba_threads,
+            echo,
+        )
+        state.summaries.append(summary)
+        state.outputs += [f"{sc.name}/{f}" for f in summary.outputs]
+        state.missing.remove(sc.name)
+        state.finished.append(sc.name)
+        timings.add(f"scenario {sc.name}", started)
+        write_state(out, cfg, inputs, chosen, timings, state)
+        mapped = sum(summary.class_areas_ha)
+        worst = summary.class_areas_ha[0]
+        echo(
+            f"scenario {sc.name}: {summary.wetness}; {worst:,.1f} ha of {mapped:,.1f} ha "
+            f"mapped in class 1 ({names[0]}) -> {out / sc.name}"
+        )
+        for w in summary.warnings:
+            echo(f"WARNING: {w}")
 
-    started = time.perf_counter()
-    if cfg.report:
-        write_report(out / "report.html", cfg, grid, soils, names, summaries, __version__)
-    timings.add("report", started)
-    manifest = _manifest(cfg, inputs, chosen, out, timings, key, reused)
-    target = write_text(out / "manifest.json", json.dumps(manifest, indent=2) + "\n")
-    echo(f"report: {out / 'report.html'}; manifest: {target}")
-    return target
+
+def _unfinished_report(cfg: Config, state: RunState) -> str:
+    """The page standing in report.html while a run is under way (and after it, if it
+    stopped early): an earlier run's report would describe another configuration."""
+    return (
+        "<!DOCTYPE html><html><head><meta charset='utf-8'><title>slopescreen: run not "
+        f"finished</title></head><body><h1>{escape(cfg.region.name)}: run not finished</h1>"
+        f"<p>A slopescreen run started here at {escape(state.started_utc)} (UTC) and has not "
+        "finished, or stopped early. The files in this folder may come from two runs; "
+        "<code>manifest.json</code> lists the scenarios finished and those missing. Run "
+        "again to complete it.</p><ul>"
+        + "".join(f"<li>{escape(c)}</li>" for c in CAUTIONS)
+        + "</ul></body></html>\n"
+    )
 
 
 @contextmanager
@@ -243,29 +347,33 @@ def _runner(workers: int, scheduler: str | None, echo: Echo) -> Iterator[tuple[R
         yield runner, 1
 
 
-def _manifest(
+def _finite(value: float) -> float | None:
+    """Strict JSON has no NaN or infinity: such values are null."""
+    return float(value) if np.isfinite(value) else None
+
+
+def write_state(
+    out: Path,
     cfg: Config,
     inputs: Inputs,
     chosen: list[Scenario],
-    out: Path,
     timings: Timings,
-    key: str,
-    reused: bool,
-) -> dict[str, object]:
+    state: RunState,
+) -> Path:
+    """Write manifest.json (strict JSON) for the run as it stands."""
     import geopandas
     import rasterio
 
-    outputs = sorted(
-        str(p.relative_to(out))
-        for p in out.rglob("*")
-        if p.is_file()
-        and not p.name.startswith(".")
-        and ".cache" not in p.parts
-        and p.name != "manifest.json"
-    )
-    return {
+    manifest = {
         "tool": "slopescreen",
         "version": __version__,
+        "complete": state.complete,
+        "started_utc": state.started_utc,
+        "finished_utc": state.finished_utc,
+        "command": state.command,
+        "scenarios_finished": state.finished,
+        "scenarios_missing": state.missing,
+        "report": "written" if "report.html" in state.outputs else "not written",
         "python": platform.python_version(),
         "packages": {
             "numpy": np.__version__,
@@ -275,19 +383,21 @@ def _manifest(
         },
         "scenario_file": str(cfg.path),
         "inputs_sha256": inputs.hashes,
-        "terrain": {"cache_key": key, "reused": reused, "spacing": inputs.grid.spacing_note},
+        "dem_files_sha256": inputs.dem_files,
+        "terrain": state.terrain,
         "parameters": {
             "fs_breaks": list(cfg.fs_breaks),
             "fs_cap": cfg.fs_cap,
             "min_zone_area_m2": cfg.min_zone_area_m2,
             "soil_units": {
-                k: {f: float(inputs.soils.parameters[f][i]) for f in inputs.soils.parameters}
+                k: {f: _finite(inputs.soils.parameters[f][i]) for f in inputs.soils.parameters}
                 for i, k in enumerate(inputs.soils.keys, start=1)
             },
         },
         "scenarios": [
             {
                 "name": s.name,
+                "description": s.description,
                 "wetness": s.wetness,
                 "seismic_coefficient": s.seismic_coefficient,
                 "soil_overrides": s.soil_overrides,
@@ -299,6 +409,8 @@ def _manifest(
             "warnings": inputs.soils.warnings,
         },
         "timings_s": timings.steps,
-        "outputs": {name: file_sha256(out / name) for name in outputs},
+        "outputs": {name: file_sha256(out / name) for name in sorted(state.outputs)},
         "cautions": list(CAUTIONS),
     }
+    text = json.dumps(manifest, indent=2, allow_nan=False) + "\n"
+    return write_text(out / "manifest.json", text)

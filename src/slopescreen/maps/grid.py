@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-import hashlib
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from slopescreen.errors import InputError
+from slopescreen.outputs import file_sha256
 
 FEET_TO_M = 0.3048
 
@@ -44,12 +44,26 @@ class Grid:
         return f"projected CRS, cells {self.dx_rows_m[0]:g} m x {self.dy_m:g} m"
 
 
-def file_sha256(path: Path, chunk: int = 1 << 22) -> str:
-    digest = hashlib.sha256()
-    with open(path, "rb") as handle:
-        while block := handle.read(chunk):
-            digest.update(block)
-    return digest.hexdigest()
+MAX_CELLS = 2**31 - 1  # routing indexes cells with 32-bit integers
+
+
+def dem_files_sha256(path: Path) -> dict[str, str]:
+    """SHA-256 of every file GDAL reads for the DEM (a VRT and each of its sources, side
+    files such as .aux.xml), by path relative to the DEM's folder where it lies below it."""
+    import rasterio
+
+    with rasterio.open(path) as src:
+        files = [Path(f) for f in src.files] or [Path(path)]
+    out: dict[str, str] = {}
+    base = Path(path).resolve().parent
+    for f in files:
+        resolved = f.resolve()
+        name = str(resolved.relative_to(base)) if resolved.is_relative_to(base) else str(f)
+        try:
+            out[name] = file_sha256(resolved)
+        except OSError as exc:
+            raise InputError(f"{path}: cannot read DEM file {f} ({exc.strerror})") from None
+    return out
 
 
 def _metric_spacing(transform: object, crs: object, height: int) -> tuple[np.ndarray, float, bool]:
@@ -95,11 +109,19 @@ def read_grid(path: Path) -> Grid:
                 "(projected in metres, or geographic)"
             )
         t = src.transform
-        if t.b != 0.0 or t.d != 0.0 or t.e >= 0.0:
-            raise InputError(f"{path}: DEM must be north-up without rotation")
+        if t.b != 0.0 or t.d != 0.0 or t.e >= 0.0 or t.a <= 0.0:
+            raise InputError(
+                f"{path}: DEM must be north-up without rotation or mirroring "
+                "(pixel width > 0, pixel height < 0); warp it first, e.g. with gdalwarp"
+            )
         if src.width < 3 or src.height < 3:
             raise InputError(
                 f"{path}: DEM must be at least 3 x 3 cells, got {src.width} x {src.height}"
+            )
+        if src.width * src.height > MAX_CELLS:
+            raise InputError(
+                f"{path}: DEM has {src.width * src.height:,} cells; at most {MAX_CELLS:,} "
+                "(2^31 - 1) per run: split the region into parts"
             )
         dx_rows, dy, geographic = _metric_spacing(t, src.crs, src.height)
         return Grid(

@@ -93,7 +93,7 @@ def draw_map(
     )
     ax.set_aspect(my / mx)  # equal metres both ways (degrees of longitude shrink with latitude)
     handles = [
-        Patch(facecolor=colours[i], edgecolor="0.3", label=name)
+        Patch(facecolor=colours[i], edgecolor="0.3", label=name.replace("$", r"\$"))
         for i, name in enumerate(class_names)
     ]
     ax.legend(
@@ -129,8 +129,10 @@ def draw_map(
         fontweight="bold",
         arrowprops={"arrowstyle": "-|>", "color": "black", "lw": 1.5},
     )
-    ax.set_title(f"{title}\n{subtitle}", fontsize=10)
-    ax.set_xlabel(f"CRS: {grid.crs.to_string()}", fontsize=7)  # type: ignore[attr-defined]
+    # names are the user's text: never parsed as mathtext ("$...$")
+    ax.set_title(f"{title}\n{subtitle}", fontsize=10, parse_math=False)
+    crs_text = grid.crs.to_string()  # type: ignore[attr-defined]
+    ax.set_xlabel(f"CRS: {crs_text}", fontsize=7, parse_math=False)
     ax.tick_params(labelsize=6)
     ax.ticklabel_format(useOffset=False, style="plain")
     fig.text(

@@ -1,19 +1,26 @@
-"""Writing rasters: tiled, compressed Cloud Optimized GeoTIFFs, written whole or not at all.
+"""Reading and writing rasters on the DEM's grid.
 
-Blocks are written to a tiled GeoTIFF beside the target, which is then copied to a COG and
-renamed over the target, so an interrupted run leaves any previous file whole.
+Outputs are tiled, compressed Cloud Optimized GeoTIFFs written whole or not at all: blocks
+go to a tiled GeoTIFF in a private work folder beside the target (see
+:mod:`slopescreen.outputs`), which is then copied to a COG and renamed over the target, so
+an interrupted run leaves any previous file whole and no link is ever written through.
+Inputs on other grids (saturation rasters) are read resampled onto the DEM's grid.
 """
 
 from __future__ import annotations
 
 import contextlib
 import os
+import shutil
+import tempfile
 from collections.abc import Iterator
 from pathlib import Path
 
 import numpy as np
 
+from slopescreen.errors import InputError
 from slopescreen.maps.grid import Grid
+from slopescreen.outputs import TEMP_PREFIX, real_folder
 
 BLOCK = 512
 
@@ -49,8 +56,8 @@ class RasterSink:
         import rasterio
 
         self.target = Path(target)
-        self.target.parent.mkdir(parents=True, exist_ok=True)
-        self.tmp = self.target.with_name(f".{self.target.stem}.part.tif")
+        self.work = Path(tempfile.mkdtemp(prefix=TEMP_PREFIX, dir=real_folder(target.parent)))
+        self.tmp = self.work / "blocks.tif"
         self.resampling = resampling
         self.dataset = rasterio.open(
             self.tmp,
@@ -83,7 +90,7 @@ class RasterSink:
         import rasterio.shutil
 
         self.dataset.close()
-        final_tmp = self.target.with_name(f".{self.target.stem}.cog.tif")
+        final_tmp = self.work / self.target.name
         try:
             rasterio.shutil.copy(
                 self.tmp,
@@ -98,16 +105,13 @@ class RasterSink:
             )
             os.replace(final_tmp, self.target)
         finally:
-            for leftover in (self.tmp, final_tmp):
-                if leftover.exists():
-                    leftover.unlink()
+            shutil.rmtree(self.work, ignore_errors=True)
         return self.target
 
     def discard(self) -> None:
         if not self.dataset.closed:
             self.dataset.close()
-        if self.tmp.exists():
-            self.tmp.unlink()
+        shutil.rmtree(self.work, ignore_errors=True)
 
 
 @contextlib.contextmanager
@@ -131,3 +135,59 @@ def read_block(path: Path, rows: slice, cols: slice) -> np.ndarray:
     with rasterio.open(path) as src:
         window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
         return src.read(1, window=window)
+
+
+def read_saturation(
+    path: Path, grid: Grid, rows: slice | None = None, cols: slice | None = None
+) -> np.ndarray:
+    """A window of the saturation raster resampled onto the DEM grid (bilinear, NaN where
+    it has no data); with no window, checks the whole raster tile by tile: it must be
+    readable, georeferenced, overlap the DEM and hold values in [0, 1] only."""
+    import rasterio
+    from rasterio.enums import Resampling
+    from rasterio.vrt import WarpedVRT
+    from rasterio.windows import Window
+
+    try:
+        src = rasterio.open(path)
+    except rasterio.errors.RasterioIOError as exc:
+        raise InputError(f"{path}: cannot read saturation raster ({exc})") from None
+    with src:
+        if src.crs is None:
+            raise InputError(f"{path}: saturation raster has no coordinate reference system")
+        with WarpedVRT(
+            src,
+            crs=grid.crs,
+            transform=grid.transform,
+            width=grid.width,
+            height=grid.height,
+            resampling=Resampling.bilinear,
+            nodata=np.nan,
+            dtype="float32",
+        ) as vrt:
+
+            def read(r: slice, c: slice) -> np.ndarray:
+                window = Window(c.start, r.start, c.stop - c.start, r.stop - r.start)
+                try:
+                    return vrt.read(1, window=window).astype(np.float64)
+                except rasterio.errors.RasterioError as exc:
+                    raise InputError(f"{path}: cannot read saturation raster ({exc})") from None
+
+            if rows is not None and cols is not None:
+                return read(rows, cols)
+            covered = 0
+            for r, c in windows(grid):
+                m = read(r, c)
+                finite = np.isfinite(m)
+                bad = finite & ((m < 0.0) | (m > 1.0))
+                if bad.any():
+                    raise InputError(
+                        f"{path}: saturation values must be in [0, 1], found {float(m[bad][0]):g}"
+                    )
+                covered += int(finite.sum())
+            if covered == 0:
+                raise InputError(
+                    f"{path}: saturation raster covers no cell of the DEM {grid.path.name} "
+                    "(after reprojection to the DEM's grid)"
+                )
+            return np.empty(0)

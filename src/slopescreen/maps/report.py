@@ -148,8 +148,8 @@ def write_report(
     for s in scenarios:
         files = ", ".join(f"<code>{_e(f)}</code>" for f in s.outputs)
         parts.append(
-            f"<h2>Scenario {_e(s.name)}</h2><p>{_e(s.wetness)}</p>"
-            f"<p>Rasters: {files}</p>{_image(s.map_png)}"
+            f"<h2>Scenario {_e(s.name)}</h2><p>{_e(s.description)}</p><p>{_e(s.wetness)}</p>"
+            f"<p>Files: {files}</p>{_image(s.map_png)}"
         )
     parts.append(_cautions() + "</body></html>\n")
     return write_text(target, "\n".join(parts))

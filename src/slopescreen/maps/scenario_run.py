@@ -1,54 +1,54 @@
-"""One scenario over the grid, tile by tile: rasters, area tables, zones and map.
+"""One scenario over the grid: tiles computed (here or on dask workers) and written in
+tile order, area tables summed in tile order, then the summary, zones and map.
 
-Every tile is computed by :func:`compute_tile` from files on disk and a small picklable
-:class:`TileJob`, so the same function runs in this process or on dask workers; results are
-written and summed in tile order, so a distributed run gives the same bytes as a serial one.
+The per-tile maths lives in :mod:`slopescreen.maps.scenario_tiles`.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterable, Iterator
+import shutil
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
-from functools import partial
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 
 from slopescreen import __version__
-from slopescreen.errors import InputError
-from slopescreen.hazard import PF_CLASS_NAMES, classify, classify_probability
-from slopescreen.maps.config import Config, ReliabilitySpec, Scenario
+from slopescreen.hazard import PF_CLASS_NAMES
+from slopescreen.maps.cache import building, content_key, usable_entry
+from slopescreen.maps.config import Config, Scenario
 from slopescreen.maps.grid import Grid
-from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_block, windows
+from slopescreen.maps.rasters import RasterSink, all_or_nothing, windows
+from slopescreen.maps.scenario_tiles import (
+    BETA_CAP,
+    CORE_FIELDS,
+    NO_FAILURE_CODE,
+    Runner,
+    TileJob,
+    compute_tile,
+    serial_runner,
+)
 from slopescreen.maps.soils import SoilUnits
-from slopescreen.maps.summary import add_areas, summary_rows, write_summary
+from slopescreen.maps.summary import summary_rows, write_summary
 from slopescreen.maps.terrain_cache import NODATA_F32
-from slopescreen.reliability import Spread, reliability_fosm, reliability_monte_carlo
-from slopescreen.scenario import (
-    FAILS_WHEN_DRY,
-    HOLDS_WHEN_SATURATED,
-    Storm,
-    critical_recharge_mm_day,
-    scenario_fs,
-    storm_response,
-)
+from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
 
-# soil parameters the core takes
-CORE_FIELDS = (
-    "cohesion_kpa",
-    "friction_deg",
-    "unit_weight_kn_m3",
-    "depth_m",
-    "saturated_unit_weight_kn_m3",
-    "root_cohesion_kpa",
-    "hydraulic_conductivity_m_s",
-    "transmissivity_m2_day",
-    "diffusivity_m2_s",
+RECHARGE = "critical_recharge_mm_day.tif"
+# every file a scenario folder can hold; those a run does not write are removed from it
+SCENARIO_FILES = (
+    "fs.tif",
+    "saturation.tif",
+    RECHARGE,
+    "hazard_class.tif",
+    "storm_fs_later.tif",
+    "storm_failure_depth_m.tif",
+    "storm_time_to_failure_h.tif",
+    "probability_of_failure.tif",
+    "reliability_index.tif",
+    "summary.csv",
+    "hazard_zones.gpkg",
+    "map.png",
 )
-BETA_CAP = 10.0  # reliability index stored within +-10 (P_f 0 or 1 gives +-inf)
-NO_FAILURE_CODE = -1.0  # time-to-failure code: FS stays >= 1 up to the later time
-Runner = Callable[[Callable[..., dict], list[tuple]], Iterator[dict]]
 
 
 @dataclass
@@ -61,253 +61,8 @@ class ScenarioSummary:
     map_png: Path | None
     warnings: list[str]
     probability_areas_ha: list[float] | None = None  # per probability class
-    outputs: list[str] = field(default_factory=list)
-
-
-@dataclass(frozen=True)
-class TileJob:
-    """What a tile computation needs; small and picklable (no arrays of the grid)."""
-
-    grid: Grid
-    scenario: Scenario
-    tables: dict[str, np.ndarray]  # soil parameters by unit code, overrides applied
-    spreads: dict[int, dict[str, Spread]]
-    correlations: dict[int, float]
-    slope_deg: Path
-    slope_tan: Path
-    sca: Path
-    codes: Path
-    recharge_cache: Path | None  # critical recharge already computed for these soils
-    fs_breaks: tuple[float, ...]
-    fs_cap: float
-    reliability: ReliabilitySpec
-    n_units: int
-    numba_threads: int = 0  # 0: numba's default (all cores)
-
-
-def core_storm(sc: Scenario) -> Storm | None:
-    if sc.storm is None:
-        return None
-    st = sc.storm
-    return Storm(
-        rain_mm_h=st.rain_mm_h,
-        duration_h=st.duration_h,
-        later_h=st.later_h,
-        water_table_depth_m=st.initial_water_table_depth_m,
-        long_term_infiltration_m_s=st.long_term_infiltration_mm_day / 1000 / 86400,
-    )
-
-
-def check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
-    if sc.storm is None:
-        return
-    for code, key in enumerate(units.keys, start=1):
-        for name in ("hydraulic_conductivity_m_s", "diffusivity_m2_s"):
-            if np.isnan(units.parameters[name][code]):
-                extra = " (or moisture_capacity_per_m)" if name == "diffusivity_m2_s" else ""
-                raise InputError(
-                    f"{where}: storm scenario {sc.name!r} needs {name}{extra} for soil unit {key!r}"
-                )
-
-
-def _fs_fast(seismic: float, tan_slope: np.ndarray, saturation: Any, **p: Any) -> np.ndarray:
-    """FS of cells by the compiled kernel (parameters may be arrays of samples)."""
-    from slopescreen.maps.kernels import fs_ufunc
-
-    tan_phi = np.tan(np.radians(np.asarray(p["friction_deg"], float)))
-    gamma = np.asarray(p["unit_weight_kn_m3"], float)
-    gamma_sat = p.get("saturated_unit_weight_kn_m3")
-    return fs_ufunc(
-        tan_slope,
-        p["depth_m"],
-        np.asarray(p["cohesion_kpa"], float) + np.asarray(p.get("root_cohesion_kpa", 0.0), float),
-        tan_phi,
-        gamma,
-        gamma if gamma_sat is None else gamma_sat,
-        saturation,
-        seismic,
-        9.81,
-    )
-
-
-def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) -> np.ndarray:
-    """FS of a unit's cells for the reliability methods (samples broadcast over cells)."""
-    if sc.storm is not None:
-        return scenario_fs(
-            p.pop("slope_deg"),
-            p.pop("specific_catchment_area_m"),
-            storm=core_storm(sc),
-            seismic_coefficient=sc.seismic_coefficient,
-            **p,
-        )[0]
-    slope = p.pop("slope_deg")
-    sca = p.pop("specific_catchment_area_m")
-    if sc.recharge_mm_day is not None:
-        from slopescreen.hydrology import steady_state_saturation
-        from slopescreen.scenario import cell_transmissivity_m2_day
-
-        t = cell_transmissivity_m2_day(
-            p.get("hydraulic_conductivity_m_s", np.nan),
-            p.get("transmissivity_m2_day", np.nan),
-            p["depth_m"],
-            slope,
-        )
-        m = steady_state_saturation(sc.recharge_mm_day, sca, slope, t)
-    else:
-        m = block["saturation"]
-    return _fs_fast(sc.seismic_coefficient, block["tan"], m, **p)
-
-
-def probability(job: TileJob, block: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
-    """(P_f, reliability index) for a tile's cells; NaN for units without spreads."""
-    sc, rel = job.scenario, job.reliability
-    codes = block["codes"]
-    pf = np.full(codes.shape, np.nan)
-    beta = np.full(codes.shape, np.nan)
-    method = "taylor" if sc.storm is not None else rel.method
-    for code in np.unique(codes):
-        spreads = job.spreads.get(int(code))
-        if not spreads:
-            continue
-        sel = codes == code
-        sub = {k: v[sel] for k, v in block.items()}
-        values: dict[str, object] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
-        values.update(spreads)
-        values["slope_deg"] = sub["slope"]
-        values["specific_catchment_area_m"] = sub["sca"]
-        fs_of = partial(_fs_for_probability, sc, sub)
-        rho = job.correlations.get(int(code), 0.0)
-        corr = {("cohesion_kpa", "friction_deg"): rho} if rho else {}
-        if method == "monte_carlo":
-            res = reliability_monte_carlo(
-                fs_of, values, corr, samples=rel.samples, random_state=rel.random_state
-            )
-        else:
-            res = reliability_fosm(fs_of, values, corr, fs_distribution=rel.fs_distribution)
-        pf[sel] = res.probability_of_failure
-        beta[sel] = np.clip(res.reliability_index, -BETA_CAP, BETA_CAP)
-    return pf, beta
-
-
-def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
-    """Every per-cell output of one scenario on one tile, with its area tables."""
-    from slopescreen.maps.kernels import fs_by_unit, steady_saturation_by_unit
-
-    if job.numba_threads:
-        import numba
-
-        numba.set_num_threads(job.numba_threads)
-    sc = job.scenario
-    tan = read_block(job.slope_tan, rows, cols)
-    sca = read_block(job.sca, rows, cols)
-    codes = read_block(job.codes, rows, cols)
-    valid = (codes > 0) & (tan != NODATA_F32) & (sca != NODATA_F32)
-    out: dict[str, Any] = {"rows": rows, "cols": cols, "missing_wetness": 0}
-    m_grid = None
-    if sc.saturation_raster is not None:
-        from slopescreen.maps.engine import read_saturation
-
-        m_grid = read_saturation(job.scenario.saturation_raster, job.grid, rows, cols)
-        out["missing_wetness"] = int((valid & ~np.isfinite(m_grid)).sum())
-        valid &= np.isfinite(m_grid)
-    c = codes[valid]
-    block = {"tan": tan[valid], "sca": sca[valid], "codes": c}
-    t = job.tables
-    n = c.size
-    values: dict[str, np.ndarray] = {}
-    if sc.storm is not None or job.spreads or job.recharge_cache is None:
-        block["slope"] = read_block(job.slope_deg, rows, cols)[valid].astype(np.float64)
-    params = (
-        {name: t[name][c] for name in CORE_FIELDS}
-        if (sc.storm is not None or job.recharge_cache is None)
-        else {}
-    )
-    if sc.storm is not None:
-        storm = core_storm(sc)
-        assert storm is not None
-        summary, m = storm_response(
-            block["slope"],
-            storm,
-            **{k: v for k, v in params.items() if k != "transmissivity_m2_day"},
-        )
-        fs = summary.end_min_fs
-        values["storm_fs_later"] = np.minimum(summary.later_min_fs, job.fs_cap)
-        values["storm_failure_depth"] = summary.end_critical_depth_m
-        values["storm_time_to_failure"] = np.where(
-            np.isnan(summary.time_to_failure_h), NO_FAILURE_CODE, summary.time_to_failure_h
-        )
-    else:
-        m = np.empty(n)
-        if sc.recharge_mm_day is not None:
-            steady_saturation_by_unit(
-                float(sc.recharge_mm_day),
-                block["tan"],
-                block["sca"],
-                c,
-                t["depth_m"],
-                t["hydraulic_conductivity_m_s"],
-                t["transmissivity_m2_day"],
-                m,
-            )
-        elif m_grid is not None:
-            m = m_grid[valid]
-            bad = (m < 0.0) | (m > 1.0)
-            if bad.any():
-                raise InputError(
-                    f"{sc.saturation_raster}: saturation values must be in [0, 1], "
-                    f"found {float(m[bad][0]):g}"
-                )
-        else:
-            m[:] = sc.saturation
-        fs = np.empty(n)
-        fs_by_unit(
-            block["tan"],
-            c,
-            m,
-            t["depth_m"],
-            t["cohesion_kpa"] + t["root_cohesion_kpa"],
-            np.tan(np.radians(t["friction_deg"])),
-            t["unit_weight_kn_m3"],
-            t["saturated_unit_weight_kn_m3"],
-            float(sc.seismic_coefficient),
-            9.81,
-            fs,
-        )
-    block["saturation"] = np.broadcast_to(m, (n,))
-    values["hazard"] = classify(fs, job.fs_breaks)
-    values["fs"] = np.minimum(fs, job.fs_cap)
-    values["saturation"] = block["saturation"]
-    if job.recharge_cache is None:
-        values["recharge"] = critical_recharge_mm_day(
-            block["slope"], block["sca"], seismic_coefficient=sc.seismic_coefficient, **params
-        )
-    if job.spreads:
-        values["probability"], values["reliability"] = probability(job, block)
-    shape = codes.shape
-    for name, v in values.items():
-        full = (
-            np.zeros(shape, np.uint8)
-            if name == "hazard"
-            else np.full(shape, NODATA_F32, np.float32)
-        )
-        full[valid] = v if name == "hazard" else np.nan_to_num(v, nan=NODATA_F32)
-        out[name] = full
-    cell_area = job.grid.cell_area_rows_m2[rows]
-    table = np.zeros((job.n_units + 1, len(job.fs_breaks) + 2))
-    add_areas(table, codes * valid, out["hazard"], cell_area)
-    out["table"] = table
-    if job.spreads:
-        pf_table = np.zeros((job.n_units + 1, len(PF_CLASS_NAMES) + 1))
-        pf_classes = np.zeros(shape, np.uint8)
-        pf_classes[valid] = classify_probability(values["probability"])
-        add_areas(pf_table, codes * valid, pf_classes, cell_area)
-        out["pf_table"] = pf_table
-    return out
-
-
-def serial_runner(fn: Callable[..., dict], jobs: list[tuple]) -> Iterator[dict]:
-    for args in jobs:
-        yield fn(*args)
+    outputs: list[str] = field(default_factory=list)  # file names in the scenario folder
+    description: str = ""
 
 
 def _sinks(
@@ -317,7 +72,6 @@ def _sinks(
     out: Path,
     names: list[str],
     with_probability: bool,
-    with_recharge: bool,
 ) -> dict[str, RasterSink]:
     from slopescreen.maps.quicklook import colour_table
 
@@ -353,8 +107,7 @@ def _sinks(
             | {"class_0": "no data"},
         ),
     }
-    if with_recharge:
-        sinks["recharge"] = f32("critical_recharge_mm_day.tif", **recharge_tags(sc))
+    sinks["recharge"] = f32(RECHARGE, **recharge_tags(sc))
     if sc.storm is not None:
         sinks["storm_fs_later"] = f32(
             "storm_fs_later.tif",
@@ -395,15 +148,13 @@ def recharge_tags(sc: Scenario) -> dict[str, str]:
 
 
 def recharge_key(units: SoilUnits, sc: Scenario, terrain_key: str) -> str:
-    """Content key of a critical-recharge raster: terrain, soil tables and seismic load."""
-    import hashlib
-
-    digest = hashlib.sha256(terrain_key.encode())
+    """Content key of a critical-recharge raster: terrain (DEM content), the rasterized soil
+    units, every unit's parameters, the seismic load and the program version."""
+    parts: list[str | bytes] = [terrain_key, units.codes_sha256, __version__]
     for name in CORE_FIELDS:
-        digest.update(name.encode())
-        digest.update(np.ascontiguousarray(units.parameters[name]).tobytes())
-    digest.update(repr(float(sc.seismic_coefficient)).encode())
-    return digest.hexdigest()[:24]
+        parts += [name, np.ascontiguousarray(units.parameters[name], np.float64).tobytes()]
+    parts.append(repr(float(sc.seismic_coefficient)))
+    return content_key(*parts)
 
 
 def run_scenario(
@@ -419,15 +170,19 @@ def run_scenario(
     progress: Callable[[Iterable, int, str], Iterable],
     runner: Runner = serial_runner,
     numba_threads: int = 0,
+    echo: Callable[[str], None] = print,
 ) -> tuple[ScenarioSummary, list[dict[str, object]]]:
+    """Write every output of one scenario into ``out``; ``terrain_cache`` is the folder of
+    the terrain cache entry, and critical recharge is cached beside it (in its parent)."""
     from slopescreen.maps.quicklook import draw_map
-    from slopescreen.maps.terrain_cache import copy_file
     from slopescreen.maps.zones import hazard_zones, write_zones
 
     where = f"{cfg.path}: scenario {sc.name}"
     units = soils.with_overrides(sc.soil_overrides, where)
-    recharge_file = terrain_cache / f"critical_recharge-{recharge_key(units, sc, terrain_key)}.tif"
-    cached = recharge_file.exists()
+    entry_name = f"critical_recharge-{recharge_key(units, sc, terrain_key)}"
+    entry = usable_entry(terrain_cache.parent, entry_name, echo)
+    cached = entry is not None
+    recharge_file = entry / RECHARGE if entry is not None else None
     job = TileJob(
         grid=grid,
         scenario=sc,
@@ -438,7 +193,7 @@ def run_scenario(
         slope_tan=terrain_cache / "slope_tan.tif",
         sca=terrain_dir / "specific_catchment_area_m.tif",
         codes=terrain_dir / "soil_unit.tif",
-        recharge_cache=recharge_file if cached else None,
+        recharge_cache=recharge_file,
         fs_breaks=cfg.fs_breaks,
         fs_cap=cfg.fs_cap,
         reliability=cfg.reliability,
@@ -446,7 +201,7 @@ def run_scenario(
         numba_threads=numba_threads,
     )
     with_probability = bool(units.spreads)
-    sinks = _sinks(cfg, sc, grid, out, names, with_probability, not cached)
+    sinks = _sinks(cfg, sc, grid, out, names, with_probability)
     tables, pf_tables = [], []
     missing = 0
     with all_or_nothing(*sinks.values()):
@@ -459,10 +214,10 @@ def run_scenario(
             if with_probability:
                 pf_tables.append(res["pf_table"])
             missing += res["missing_wetness"]
-    if cached:
-        copy_file(recharge_file, out / "critical_recharge_mm_day.tif")
-    else:
-        copy_file(out / "critical_recharge_mm_day.tif", recharge_file)
+    if not cached:  # the output holds exactly the cached values; its tags are this scenario's
+        info = {"seismic_coefficient": sc.seismic_coefficient, "terrain_key": terrain_key}
+        with building(terrain_cache.parent, entry_name, info) as work:
+            shutil.copyfile(out / RECHARGE, work / RECHARGE)
     table = np.sum(tables, axis=0)  # in tile order: the same sums whatever ran the tiles
     warnings: list[str] = []
     if missing:
@@ -514,7 +269,14 @@ def run_scenario(
             f"scenario {sc.name} ({sc.wetness})",
         )
     areas = [float(a) / 10_000.0 for a in table[1:, 1:].sum(axis=0)]
-    outputs = sorted({s.target.name for s in sinks.values()} | {"critical_recharge_mm_day.tif"})
+    written = {s.target.name for s in sinks.values()} | {"summary.csv"}
+    if cfg.hazard_zones:
+        written.add("hazard_zones.gpkg")
+    if cfg.quicklook_map:
+        written.add("map.png")
+    for stale in set(SCENARIO_FILES) - written:  # left by an earlier run of another config
+        (out / stale).unlink(missing_ok=True)
+    outputs = sorted(written)
     return ScenarioSummary(
         sc.name,
         sc.wetness,
@@ -525,4 +287,5 @@ def run_scenario(
         warnings,
         pf_areas,
         outputs,
+        sc.description,
     ), rows_out

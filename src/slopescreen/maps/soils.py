@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import csv
 import dataclasses
+import hashlib
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -21,6 +22,7 @@ from slopescreen.maps.config import (
 )
 from slopescreen.maps.grid import Grid
 from slopescreen.reliability import Spread, spread
+from slopescreen.textfiles import read_text
 
 EXTRA_COLUMNS = ("c_phi_correlation", "strength_lab_tests")
 ALL_COLUMNS = (
@@ -45,6 +47,7 @@ class SoilUnits:
     spreads: dict[int, dict[str, Spread]] = field(default_factory=dict)  # by unit code
     correlations: dict[int, float] = field(default_factory=dict)  # c'-phi' by unit code
     data_cells: int = 0  # DEM cells with data
+    codes_sha256: str = ""  # content of the rasterized unit codes (set with the coverage)
 
     def unit_spreads(self, code: int) -> dict[str, Spread]:
         """The unit's spreads, centred on its current (possibly overridden) means."""
@@ -88,15 +91,19 @@ class SoilUnits:
         from slopescreen.maps.rasters import windows
 
         data_cells = unmapped = 0
+        digest = hashlib.sha256()
         for rows, cols in windows(grid):
             codes = self.rasterize(grid, rows, cols)
             valid = valid_tile(rows, cols)
             codes[~valid] = 0
+            digest.update(f"{rows.start},{cols.start},{codes.shape}".encode())
+            digest.update(np.ascontiguousarray(codes).tobytes())
             data_cells += int(valid.sum())
             unmapped += int((valid & (codes == 0)).sum())
             if sink is not None:
                 sink.write(rows, cols, codes)
         self.data_cells = data_cells
+        self.codes_sha256 = digest.hexdigest()
         self.unmapped_share = unmapped / data_cells if data_cells else 0.0
         self.warnings = [w for w in self.warnings if "lie in no soil unit" not in w]
         if unmapped:
@@ -226,18 +233,20 @@ def _unit_spreads(
 
 
 def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
+    text = read_text(path, "soil table")
     try:
-        text = path.read_text(encoding="utf-8-sig")
-    except OSError as exc:
-        raise InputError(f"{path}: cannot read soil table ({exc.strerror})") from None
-    rows = list(
-        csv.DictReader(
-            line for line in text.splitlines() if line.strip() and not line.lstrip().startswith("#")
+        rows = list(
+            csv.DictReader(
+                line
+                for line in text.splitlines()
+                if line.strip() and not line.lstrip().startswith("#")
+            )
         )
-    )
+    except csv.Error as exc:
+        raise InputError(f"{path}: soil table is not readable CSV ({exc})") from None
     if not rows or key_field not in rows[0]:
         raise InputError(f"{path}: soil table needs a column {key_field!r} (soil_unit_field)")
-    unknown = sorted(set(rows[0]) - set(ALL_COLUMNS) - {key_field})
+    unknown = sorted(set(map(str, rows[0])) - set(ALL_COLUMNS) - {key_field})
     if unknown:
         raise InputError(
             f"{path}: unknown column {unknown[0]!r}; allowed: "
@@ -271,7 +280,15 @@ def read_polygons(region: Region) -> Any:
     frame = frame[frame.geometry.notna() & ~frame.geometry.is_empty]
     if frame.empty:
         raise InputError(f"{region.soil_units}: no polygons")
-    frame[region.soil_unit_field] = frame[region.soil_unit_field].astype(str).str.strip()
+    labels = frame[region.soil_unit_field]
+    blank = labels.isna() | (labels.astype(str).str.strip() == "")
+    if blank.any():
+        raise InputError(
+            f"{region.soil_units}: feature {int(np.flatnonzero(blank.to_numpy())[0])} has no "
+            f"value in field {region.soil_unit_field!r} (soil_unit_field); every polygon "
+            "needs a soil unit"
+        )
+    frame[region.soil_unit_field] = labels.astype(str).str.strip()
     return frame
 
 

@@ -54,9 +54,25 @@ def summary_rows(
     return rows
 
 
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def text_cell(value: object) -> object:
+    """A text cell a spreadsheet will not run as a formula: text beginning with = + - @
+    (or a tab or carriage return) gets a leading apostrophe (common practice against CSV
+    formula injection); numbers are left alone.
+
+    >>> text_cell("=HYPERLINK(1)"), text_cell("COL"), text_cell(-1.5)
+    ("'=HYPERLINK(1)", 'COL', -1.5)
+    """
+    if isinstance(value, str) and value.startswith(FORMULA_STARTS):
+        return "'" + value
+    return value
+
+
 def write_summary(rows: list[dict[str, object]], target: Path) -> Path:
     buffer = io.StringIO()
     writer = csv.DictWriter(buffer, fieldnames=list(rows[0]), lineterminator="\n")
     writer.writeheader()
-    writer.writerows(rows)
+    writer.writerows({k: text_cell(v) for k, v in row.items()} for row in rows)
     return write_text(target, buffer.getvalue())

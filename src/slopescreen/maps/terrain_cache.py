@@ -1,20 +1,23 @@
-"""Terrain products computed once per DEM and cached on disk by content hash."""
+"""Terrain products computed once per DEM content and cached as verified entries."""
 
 from __future__ import annotations
 
-import json
 import os
 import shutil
 import tempfile
+from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
 
 from slopescreen.maps import rasters
+from slopescreen.maps.cache import building, content_key, usable_entry
 from slopescreen.maps.grid import Grid, read_elevations
-from slopescreen.maps.rasters import RasterSink, all_or_nothing
+from slopescreen.maps.locks import entry_lock
+from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_block
+from slopescreen.outputs import TEMP_PREFIX, real_folder
 
-TERRAIN_VERSION = "2"  # bump when a terrain algorithm changes: old caches are not reused
+TERRAIN_VERSION = "3"  # bump when a terrain algorithm changes: old caches are not reused
 NODATA_F32 = -9999.0
 PRODUCTS = ("slope_deg.tif", "slope_tan.tif", "specific_catchment_area_m.tif", "hillshade.tif")
 
@@ -43,7 +46,7 @@ class _Scratch:
 
     def __init__(self, folder: Path) -> None:
         folder.mkdir(parents=True, exist_ok=True)
-        self.folder = Path(tempfile.mkdtemp(prefix=".routing-", dir=folder))
+        self.folder = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}routing-", dir=folder))
         self.count = 0
 
     def __call__(self, shape: tuple[int, ...], dtype: type) -> np.ndarray:
@@ -54,8 +57,11 @@ class _Scratch:
         shutil.rmtree(self.folder, ignore_errors=True)
 
 
-def cache_key(dem_sha256: str, elevation_unit: str) -> str:
-    return f"{dem_sha256[:24]}-{elevation_unit}-v{TERRAIN_VERSION}"
+def cache_key(dem_files_sha256: dict[str, str], elevation_unit: str, version: str) -> str:
+    """Key of the terrain entry: the content of every file of the DEM (a VRT and each of
+    its sources), the elevation unit, the terrain algorithms and the program version."""
+    parts = [f"{name}={sha}" for name, sha in dem_files_sha256.items()]
+    return content_key(*parts, elevation_unit, f"terrain-v{TERRAIN_VERSION}", version)
 
 
 def _f32(a: np.ndarray) -> np.ndarray:
@@ -69,36 +75,45 @@ def _write_band(sink: RasterSink, rows: slice, width: int, band: np.ndarray) -> 
 
 
 def terrain_products(
-    grid: Grid, elevation_unit: str, key: str, cache_dir: Path, version: str
+    grid: Grid,
+    elevation_unit: str,
+    key: str,
+    cache_dir: Path,
+    version: str,
+    echo: Callable[[str], None],
 ) -> tuple[Path, bool]:
     """Folder holding slope (degrees and tangent), specific catchment area and hillshade;
-    returns (folder, reused). Slope and hillshade are computed in row bands; routing holds
-    the whole grid (see slopescreen.routing for its bytes per cell), in memory-mapped work
-    files when the grid would not fit in the memory budget."""
-    folder = cache_dir / f"terrain-{key}"
-    stamp = folder / "terrain.json"
-    if stamp.exists() and all((folder / p).exists() for p in PRODUCTS):
-        return folder, True
-    tags = {"slopescreen_version": version, "terrain_key": key}
-    scratch = None
-    if grid.width * grid.height * ROUTING_BYTES_PER_CELL > memory_budget_bytes():
-        scratch = _Scratch(cache_dir)  # out of core: slower, but bounded by the budget
-    try:
-        return _compute(grid, elevation_unit, folder, stamp, key, tags, scratch), False
-    finally:
-        if scratch is not None:
-            scratch.close()
+    returns (folder, reused). A cached entry is used only after its files pass the check
+    against their recorded hashes; otherwise it is (re)built, all or nothing. Slope and
+    hillshade are computed in row bands; routing holds the whole grid (see
+    slopescreen.routing for its bytes per cell), in memory-mapped work files when the grid
+    would not fit in the memory budget."""
+    name = f"terrain-{key}"
+    with entry_lock(real_folder(cache_dir), name):
+        folder = usable_entry(cache_dir, name, echo)
+        if folder is not None:
+            return folder, True
+        tags = {"slopescreen_version": version, "terrain_key": key}
+        scratch = None
+        if grid.width * grid.height * ROUTING_BYTES_PER_CELL > memory_budget_bytes():
+            scratch = _Scratch(cache_dir)  # out of core: slower, but bounded by the budget
+        info = {"key": key, "dem": str(grid.path), "out_of_core": scratch is not None}
+        try:
+            with building(cache_dir, name, info) as work:
+                _compute(grid, elevation_unit, work, tags, scratch)
+        finally:
+            if scratch is not None:
+                scratch.close()
+        return cache_dir / name, False
 
 
 def _compute(
     grid: Grid,
     elevation_unit: str,
     folder: Path,
-    stamp: Path,
-    key: str,
     tags: dict[str, str],
     scratch: _Scratch | None,
-) -> Path:
+) -> None:
     from slopescreen import routing, terrain
 
     if scratch is None:
@@ -166,19 +181,9 @@ def _compute(
     with all_or_nothing(sink):
         for top in range(0, grid.height, rasters.TILE):
             rows = slice(top, min(top + rasters.TILE, grid.height))
-            _write_band(sink, rows, grid.width, _f32(sca[rows]))
-    tmp = stamp.with_suffix(".part")
-    tmp.write_text(
-        json.dumps({"key": key, "dem": str(grid.path), "out_of_core": scratch is not None}) + "\n"
-    )
-    os.replace(tmp, stamp)
-    return folder
-
-
-def copy_file(source: Path, target: Path) -> Path:
-    """Copy beside the target, then rename over it."""
-    target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = target.with_name(f".{target.name}.part")
-    shutil.copyfile(source, tmp)
-    os.replace(tmp, target)
-    return target
+            band = sca[rows]
+            # cells without a slope (the DEM's edge, next to no data) have no catchment
+            # value either: no data in every terrain raster alike
+            no_slope = read_block(folder / "slope_tan.tif", rows, slice(0, grid.width))
+            band = np.where(no_slope == NODATA_F32, np.nan, band)
+            _write_band(sink, rows, grid.width, _f32(band))

@@ -129,6 +129,5 @@ def write_zones(frame: object, target: Path) -> Path:
 
     set_gdal_config_options({"OGR_CURRENT_DATE": "2000-01-01T00:00:00.000Z"})
     with replacing(target) as tmp:
-        tmp.unlink()
         frame.to_file(tmp, driver="GPKG", layer="hazard_zones")  # type: ignore[attr-defined]
     return target

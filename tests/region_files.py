@@ -1,0 +1,84 @@
+"""Small invented regions written by the tests (a DEM, soil polygons, a scenario file)."""
+
+import geopandas as gpd
+import numpy as np
+import rasterio
+from rasterio.transform import from_origin
+from shapely.geometry import box
+
+PARAMS = {
+    "cohesion_kpa": 2.0,
+    "friction_deg": 30.0,
+    "unit_weight_kn_m3": 18.0,
+    "depth_m": 1.5,
+    "hydraulic_conductivity_m_s": 1e-5,
+}
+
+
+def _dem(path, crs="EPSG:32633", rows=40, cols=50, origin=(500000.0, 5000400.0), cell=10.0):
+    y, x = np.mgrid[0:rows, 0:cols].astype(float)
+    z = 300.0 - 6.0 * np.abs(x - cols / 2) - 2.0 * y
+    kwargs = {"crs": crs} if crs else {}
+    with rasterio.open(
+        path,
+        "w",
+        driver="GTiff",
+        width=cols,
+        height=rows,
+        count=1,
+        dtype="float32",
+        transform=from_origin(*origin, cell, cell),
+        nodata=-9999.0,
+        **kwargs,
+    ) as dst:
+        dst.write(z.astype(np.float32), 1)
+    return path
+
+
+def _polygons(
+    path, bounds=(500000.0, 5000000.0, 500500.0, 5000400.0), crs="EPSG:32633", **overrides
+):
+    x0, y0, x1, y1 = bounds
+    xm = (x0 + x1) / 2
+    rows = [dict(PARAMS, unit="A", **overrides), dict(PARAMS, unit="B", cohesion_kpa=5.0)]
+    frame = gpd.GeoDataFrame(rows, geometry=[box(x0, y0, xm, y1), box(xm, y0, x1, y1)], crs=crs)
+    frame.to_file(path, driver="GeoJSON")
+    return path
+
+
+SCENARIO_TEXT = """[region]
+name = "test region"
+dem = "dem.tif"
+soil_units = "soils.geojson"
+soil_unit_field = "unit"
+
+[hazard]
+min_zone_area_m2 = 0.0
+
+[[scenario]]
+name = "wet"
+recharge_mm_day = 40.0
+
+[[scenario]]
+name = "dry"
+saturation = 0.0
+"""
+
+
+def write_raster(path, z, crs="EPSG:32633", transform=None, nodata=-9999.0):
+    """A one-band float32 GeoTIFF (default: 10 m cells in UTM 33N)."""
+    transform = transform or from_origin(500000.0, 5000000.0, 10.0, 10.0)
+    with rasterio.open(
+        path,
+        "w",
+        driver="GTiff",
+        width=z.shape[1],
+        height=z.shape[0],
+        count=1,
+        dtype="float32",
+        crs=crs,
+        transform=transform,
+        nodata=nodata,
+    ) as dst:
+        dst.write(z.astype(np.float32), 1)
+    return path

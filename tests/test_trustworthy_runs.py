@@ -1,0 +1,679 @@
+"""A map is right or the run says no: bad inputs, damaged and stale caches, links, two runs
+on one folder, killed runs. Real files and real processes throughout; invented regions."""
+
+import codecs
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+
+import geopandas as gpd
+import numpy as np
+import pytest
+import rasterio
+from rasterio.transform import from_origin
+from region_files import SCENARIO_TEXT, _dem, _polygons, write_raster
+
+from slopescreen.cli.main import main
+from slopescreen.maps.engine import run
+
+
+def _files(out):
+    """Every output of a run folder (no lock, no work folders, no cache), as bytes."""
+    return {
+        str(p.relative_to(out)): p.read_bytes()
+        for p in sorted(out.rglob("*"))
+        if p.is_file()
+        and ".cache" not in p.relative_to(out).parts
+        and not any(part.startswith(".") for part in p.relative_to(out).parts)
+    }
+
+
+def _outputs(out):
+    """The outputs that describe the results: all but the manifest (times, timings)."""
+    return {k: v for k, v in _files(out).items() if k != "manifest.json"}
+
+
+def _run(toml, out, *extra):
+    lines = []
+    run(toml, out, progress=False, echo=lines.append, **dict(extra))
+    return lines
+
+
+def _region(folder, **soil):
+    folder.mkdir(parents=True, exist_ok=True)
+    _dem(folder / "dem.tif")
+    _polygons(folder / "soils.geojson", **soil)
+    toml = folder / "scenarios.toml"
+    toml.write_text(SCENARIO_TEXT)
+    return toml
+
+
+# ----------------------------------------------------------------------------------------
+# bad inputs: exit 2, one line, no traceback, an earlier good run untouched
+
+
+@pytest.fixture(scope="module")
+def sentinel(tmp_path_factory):
+    """A good run whose outputs every bad run below must leave byte-identical."""
+    base = tmp_path_factory.mktemp("sentinel")
+    out = base / "out"
+    assert main(["run", str(_region(base / "good")), "--out", str(out), "--quiet"]) == 0
+    return out, _files(out)
+
+
+def _text(old, new):
+    return lambda folder: _edit(folder / "scenarios.toml", old, new)
+
+
+def _edit(path, old, new):
+    text = path.read_text()
+    assert old in text, old
+    path.write_text(text.replace(old, new, 1))
+
+
+def _write(name, data):
+    return lambda folder: (folder / name).write_bytes(data)
+
+
+def _whole_toml(text):
+    return _write("scenarios.toml", text.encode())
+
+
+REGION_LINES = SCENARIO_TEXT.split("[hazard]")[0]
+ONE_SCENARIO = '[[scenario]]\nname = "a"\nsaturation = 0.1\n'
+
+
+def _soil_table(folder, text, encoding="utf-8", bom=b""):
+    (folder / "table.csv").write_bytes(bom + text.encode(encoding))
+    _edit(
+        folder / "scenarios.toml",
+        'soil_unit_field = "unit"',
+        'soil_unit_field = "unit"\nsoil_table = "table.csv"',
+    )
+
+
+TABLE = (
+    "unit,name,cohesion_kpa,friction_deg,unit_weight_kn_m3,depth_m,hydraulic_conductivity_m_s,"
+    "strength_lab_tests\nA,sand,2,30,18,1.5,1e-5,{lab}\nB,clay,5,30,18,1.5,1e-5,\n"
+)
+
+
+def _with_lab(folder, lab_bytes):
+    (folder / "lab.csv").write_bytes(lab_bytes)
+    _soil_table(folder, TABLE.format(lab="lab.csv"))
+
+
+def _saturation(folder, values, **kw):
+    crs = kw.get("crs", "EPSG:32633")
+    origin = kw.get("origin", (500000.0, 5000400.0))
+    write_raster(folder / "m.tif", values, crs, from_origin(*origin, 10.0, 10.0), None)
+    _edit(folder / "scenarios.toml", "saturation = 0.0", 'saturation_raster = "m.tif"')
+
+
+def _null_unit(folder):
+    frame = gpd.read_file(folder / "soils.geojson")
+    frame.loc[0, "unit"] = None
+    frame.to_file(folder / "soils.geojson", driver="GeoJSON")
+
+
+def _transformed_dem(folder, transform):
+    with rasterio.open(folder / "dem.tif") as src:
+        profile, z = src.profile, src.read(1)
+    profile.update(transform=transform)
+    with rasterio.open(folder / "dem.tif", "w", **profile) as dst:
+        dst.write(z, 1)
+
+
+def _huge_vrt(folder):
+    # 50,000 x 50,000 cells: over the 2^31-cell limit, refused before anything is read
+    (folder / "dem.vrt").write_text(
+        '<VRTDataset rasterXSize="50000" rasterYSize="50000"><SRS>EPSG:32633</SRS>'
+        "<GeoTransform>500000, 1, 0, 5000400, 0, -1</GeoTransform>"
+        '<VRTRasterBand dataType="Float32" band="1"/></VRTDataset>'
+    )
+    _edit(folder / "scenarios.toml", 'dem = "dem.tif"', 'dem = "dem.vrt"')
+
+
+LATIN1_TOML = SCENARIO_TEXT.replace("test region", "Rég").encode("latin-1")
+BAD_INPUTS = {
+    # text files in encodings other than UTF-8 (with or without BOM) or UTF-16 with BOM
+    "toml latin-1": (_write("scenarios.toml", LATIN1_TOML), "is not UTF-8 text (byte 0xe9"),
+    "toml utf-16 without BOM": (
+        _write("scenarios.toml", SCENARIO_TEXT.encode("utf-16-le")),
+        "holds NUL characters",
+    ),
+    "toml binary": (_write("scenarios.toml", bytes(range(256))), "scenarios.toml"),
+    "toml empty": (_write("scenarios.toml", b""), "[region]: a [region] table is required"),
+    "soil table latin-1": (
+        lambda f: _soil_table(f, TABLE.format(lab="").replace("sand", "sablé"), "latin-1"),
+        "table.csv: soil table is not UTF-8",
+    ),
+    "soil table utf-16 no BOM": (
+        lambda f: _soil_table(f, TABLE.format(lab=""), "utf-16-le"),
+        "table.csv: soil table holds NUL",
+    ),
+    "lab tests latin-1": (
+        lambda f: _with_lab(
+            f, "sigma3_kpa,deviator_kpa,specimen\n50,80,é1\n100,150,é2\n".encode("latin-1")
+        ),
+        "lab.csv: lab-test file is not UTF-8",
+    ),
+    "lab tests path to another file": (
+        lambda f: _soil_table(f, TABLE.format(lab="scenarios.toml")),
+        "none of its",
+    ),
+    # tables and values of the wrong type or size
+    "hazard = 5": (_whole_toml(f"hazard = 5\n{REGION_LINES}{ONE_SCENARIO}"), "must be a table"),
+    "outputs text": (_whole_toml(f'outputs = "x"\n{REGION_LINES}{ONE_SCENARIO}'), "[outputs]"),
+    "reliability list": (
+        _whole_toml(f"reliability = [1]\n{REGION_LINES}{ONE_SCENARIO}"),
+        "must be a table",
+    ),
+    "scenario = [1, 2]": (
+        _whole_toml(f"scenario = [1, 2]\n{REGION_LINES}"),
+        "each scenario must be a [[scenario]] table",
+    ),
+    "scenario text": (_whole_toml(f'scenario = "x"\n{REGION_LINES}'), "scenario"),
+    "region = 5": (_whole_toml(f"region = 5\n{ONE_SCENARIO}"), "[region] table is required"),
+    "deep nesting": (
+        _whole_toml(f"{REGION_LINES}[hazard]\nfs_breaks = {'[' * 5000}{']' * 5000}\n"),
+        "nested too deeply",
+    ),
+    "huge integer": (
+        _text("saturation = 0.0", f"saturation = {10**30}"),
+        "saturation must be in [0, 1]",
+    ),
+    "huge samples": (
+        _text("[[scenario]]", f"[reliability]\nsamples = {2**62}\n\n[[scenario]]"),
+        "samples: must be a whole number",
+    ),
+    "fractional samples": (
+        _text("[[scenario]]", "[reliability]\nsamples = 5.5\n\n[[scenario]]"),
+        "samples: must be a whole number",
+    ),
+    "largest random_state": (
+        _text("[[scenario]]", f"[reliability]\nrandom_state = {2**63 - 1}\n\n[[scenario]]"),
+        "random_state: must be a whole number in [0, 4294967295]",
+    ),
+    "negative random_state": (
+        _text("[[scenario]]", "[reliability]\nrandom_state = -1\n\n[[scenario]]"),
+        "random_state",
+    ),
+    "name with newline": (_text('name = "dry"', 'name = "dry\\n"'), "(it names a folder)"),
+    "name with slash": (_text('name = "dry"', 'name = "../dry"'), "(it names a folder)"),
+    "name terrain": (_text('name = "dry"', 'name = "terrain"'), "'terrain' is reserved"),
+    "name TERRAIN": (_text('name = "dry"', 'name = "TERRAIN"'), "is reserved"),
+    "name manifest.json": (_text('name = "dry"', 'name = "manifest.json"'), "is reserved"),
+    "name report.html": (_text('name = "dry"', 'name = "report.html"'), "is reserved"),
+    "description number": (
+        _text('name = "dry"', 'name = "dry"\ndescription = 5'),
+        "description: must be a non-empty text",
+    ),
+    "saturation nan": (_text("saturation = 0.0", "saturation = nan"), "got NaN"),
+    "recharge inf": (_text("recharge_mm_day = 40.0", "recharge_mm_day = inf"), "got inf"),
+    "seismic true": (
+        _text("saturation = 0.0", "saturation = 0.0\nseismic_coefficient = true"),
+        "seismic_coefficient: must be a number",
+    ),
+    "breaks decreasing": (
+        _text("[hazard]", "[hazard]\nfs_breaks = [1.5, 1.0]"),
+        "strictly increasing",
+    ),
+    "fs_cap too low": (
+        _text(
+            "[[scenario]]",
+            "[outputs]\nfs_cap = 1\n\n[[scenario]]",
+        ),
+        "fs_cap",
+    ),
+    "zones flag text": (
+        _text("[[scenario]]", '[outputs]\nhazard_zones = "yes"\n\n[[scenario]]'),
+        "must be true or false",
+    ),
+    "key with newline": (_text("[hazard]", '[hazard]\n"a\\nb" = 1'), "unknown key"),
+    "elevation unit": (
+        _text('soil_unit_field = "unit"', 'soil_unit_field = "unit"\ndem_elevation_unit = "yd"'),
+        'must be "m" or "ft"',
+    ),
+    "override unknown unit": (
+        _text("saturation = 0.0", "saturation = 0.0\n[scenario.soil.Z]\ncohesion_kpa = 1.0"),
+        "soil override for unknown unit 'Z'",
+    ),
+    # files the run cannot use
+    "soil polygon without unit": (_null_unit, "has no value in field 'unit'"),
+    "mirrored DEM": (
+        lambda f: _transformed_dem(f, from_origin(500500.0, 5000400.0, -10.0, 10.0)),
+        "without rotation or mirroring",
+    ),
+    "south-up DEM": (
+        lambda f: _transformed_dem(f, rasterio.Affine(10.0, 0.0, 500000.0, 0.0, 10.0, 5000000.0)),
+        "without rotation or mirroring",
+    ),
+    "DEM over the cell limit": (_huge_vrt, "at most 2,147,483,647 (2^31 - 1) per run"),
+    "DEM not a raster": (_write("dem.tif", b"not a raster"), "dem.tif: cannot read DEM"),
+    "saturation above one": (
+        lambda f: _saturation(f, np.full((40, 50), 1.7)),
+        "m.tif: saturation values must be in [0, 1], found 1.7",
+    ),
+    "saturation below zero": (
+        lambda f: _saturation(f, np.full((40, 50), -0.2)),
+        "saturation values must be in [0, 1], found -0.2",
+    ),
+    "saturation on another grid": (
+        lambda f: _saturation(f, np.full((40, 50), 0.5), origin=(900000.0, 6000000.0)),
+        "m.tif: saturation raster covers no cell of the DEM",
+    ),
+    "saturation not a raster": (
+        lambda f: (_saturation(f, np.full((4, 5), 0.5)), (f / "m.tif").write_text("x")),
+        "m.tif: cannot read saturation raster",
+    ),
+}
+BAD_OPTIONS = {
+    "scheduler not a url": (["--scheduler", "not a url"], "--scheduler 'not a url'"),
+    "scheduler port": (["--scheduler", "tcp://127.0.0.1:99999"], "port 1-65535"),
+    "workers negative": (["--workers", "-1"], "--workers -1"),
+    "only unknown": (["--only", "nosuch"], "--only nosuch: no such scenario"),
+}
+
+
+def _one_line_error(capsys, argv, fragment):
+    code = main(argv)
+    err = capsys.readouterr().err
+    assert code == 2, err
+    assert err.count("\n") == 1 and err.endswith("\n"), err
+    assert "Traceback" not in err
+    assert fragment in err, err
+    return err
+
+
+@pytest.mark.parametrize("case", sorted(BAD_INPUTS))
+def test_bad_input_is_one_line_and_leaves_outputs_whole(case, sentinel, tmp_path, capsys):
+    out, before = sentinel
+    toml = _region(tmp_path)
+    change, fragment = BAD_INPUTS[case]
+    change(tmp_path)
+    _one_line_error(capsys, ["check", str(toml)], fragment)  # check catches it too
+    err = _one_line_error(capsys, ["run", str(toml), "--out", str(out), "--quiet"], fragment)
+    assert _files(out) == before
+    assert "test region" not in err  # no line of another file is echoed
+
+
+@pytest.mark.parametrize("case", sorted(BAD_OPTIONS))
+def test_bad_option_is_one_line_and_leaves_outputs_whole(case, sentinel, tmp_path, capsys):
+    out, before = sentinel
+    toml = _region(tmp_path)
+    options, fragment = BAD_OPTIONS[case]
+    _one_line_error(capsys, ["run", str(toml), "--out", str(out), "--quiet", *options], fragment)
+    assert _files(out) == before
+
+
+def test_bad_inputs_cover_the_reported_list():
+    assert len(BAD_INPUTS) + len(BAD_OPTIONS) >= 40
+
+
+def test_envelope_command_reads_utf16_and_refuses_latin1(tmp_path, capsys):
+    # a spreadsheet's "Unicode text" export is UTF-16 with a byte-order mark
+    text = "sigma3_kpa,deviator_kpa\n50,90\n100,160\n200,300\n"
+    (tmp_path / "u16.csv").write_bytes(codecs.BOM_UTF16_LE + text.encode("utf-16-le"))
+    (tmp_path / "u8.csv").write_text(text)
+    assert main(["envelope", str(tmp_path / "u16.csv"), "--json"]) == 0
+    from_utf16 = json.loads(capsys.readouterr().out)
+    assert main(["envelope", str(tmp_path / "u8.csv"), "--json"]) == 0
+    from_utf8 = json.loads(capsys.readouterr().out)
+    assert from_utf16["cohesion_kpa"] == from_utf8["cohesion_kpa"]
+    (tmp_path / "l1.csv").write_bytes(("# é\n" + text).encode("latin-1"))
+    _one_line_error(capsys, ["envelope", str(tmp_path / "l1.csv")], "is not UTF-8 text")
+
+
+def test_bom_and_odd_names_run(tmp_path):
+    # a UTF-8 byte-order mark, "$...$" in the region name and a formula-like unit name
+    toml = _region(tmp_path / "r")
+    frame = gpd.read_file(tmp_path / "r" / "soils.geojson")
+    frame.loc[0, "unit"] = "=HYPERLINK(1)"
+    frame.to_file(tmp_path / "r" / "soils.geojson", driver="GeoJSON")
+    text = SCENARIO_TEXT.replace("test region", "Ridge $x^2$ & co")
+    toml.write_bytes(codecs.BOM_UTF8 + text.encode())
+    _run(toml, tmp_path / "out")
+    summary = (tmp_path / "out" / "dry" / "summary.csv").read_text()
+    assert "'=HYPERLINK(1)" in summary and "\n=HYPERLINK" not in summary.replace(",'=", "")
+    assert (tmp_path / "out" / "dry" / "map.png").read_bytes()[:4] == b"\x89PNG"
+
+
+# ----------------------------------------------------------------------------------------
+# caches: damaged entries are recomputed, changed inputs never reuse a stale entry
+
+
+def _damage(path, how):
+    data = path.read_bytes()
+    if how == "truncate":
+        path.write_bytes(data[: len(data) // 2])
+    elif how == "bit-flip":
+        i = len(data) // 2
+        path.write_bytes(data[:i] + bytes([data[i] ^ 0x10]) + data[i + 1 :])
+    else:
+        path.unlink()
+
+
+@pytest.fixture(scope="module")
+def clean_run(tmp_path_factory):
+    base = tmp_path_factory.mktemp("clean")
+    toml = _region(base / "region")
+    _run(toml, base / "out")
+    return toml, _outputs(base / "out")
+
+
+CACHED = [
+    ("terrain-*", "slope_deg.tif"),
+    ("terrain-*", "slope_tan.tif"),
+    ("terrain-*", "specific_catchment_area_m.tif"),
+    ("terrain-*", "hillshade.tif"),
+    ("terrain-*", "entry.json"),
+    ("critical_recharge-*", "critical_recharge_mm_day.tif"),
+    ("critical_recharge-*", "entry.json"),
+]
+
+
+@pytest.mark.parametrize("how", ["truncate", "bit-flip", "delete"])
+@pytest.mark.parametrize(("entry", "name"), CACHED)
+def test_damaged_cache_is_recomputed(entry, name, how, clean_run, tmp_path):
+    toml, expected = clean_run
+    out = tmp_path / "out"
+    _run(toml, out)
+    targets = list((out / ".cache").glob(f"{entry}/{name}"))
+    assert targets
+    for target in targets:
+        _damage(target, "delete" if name == "entry.json" else how)
+    lines = _run(toml, out)
+    assert any("recomputing it" in line for line in lines), lines
+    assert _outputs(out) == expected
+    lines = _run(toml, out)  # the rebuilt entry is whole and reused
+    assert not any("recomputing" in line for line in lines)
+    assert "terrain: reused from cache (verified)" in " ".join(lines)
+    assert _outputs(out) == expected
+
+
+def _vrt_region(folder):
+    """A DEM as a VRT over two GeoTIFF tiles, a soil table and a lab-test file."""
+    toml = _region(folder)
+    with rasterio.open(folder / "dem.tif") as src:
+        z, profile = src.read(1), src.profile
+    for name, cols in (("west.tif", slice(0, 25)), ("east.tif", slice(25, 50))):
+        part = dict(
+            profile, width=25, transform=src.transform * rasterio.Affine.translation(cols.start, 0)
+        )
+        with rasterio.open(folder / name, "w", **part) as dst:
+            dst.write(z[:, cols], 1)
+    sources = "".join(
+        f'<SimpleSource><SourceFilename relativeToVRT="1">{name}</SourceFilename>'
+        "<SourceBand>1</SourceBand>"
+        f'<SrcRect xOff="0" yOff="0" xSize="25" ySize="40"/>'
+        f'<DstRect xOff="{x}" yOff="0" xSize="25" ySize="40"/></SimpleSource>'
+        for name, x in (("west.tif", 0), ("east.tif", 25))
+    )
+    t = src.transform
+    (folder / "dem.vrt").write_text(
+        f'<VRTDataset rasterXSize="50" rasterYSize="40"><SRS>EPSG:32633</SRS>'
+        f"<GeoTransform>{t.c}, {t.a}, 0, {t.f}, 0, {t.e}</GeoTransform>"
+        f'<VRTRasterBand dataType="Float32" band="1"><NoDataValue>-9999</NoDataValue>'
+        f"{sources}</VRTRasterBand></VRTDataset>"
+    )
+    _edit(toml, 'dem = "dem.tif"', 'dem = "dem.vrt"')
+    (folder / "lab.csv").write_text("sigma3_kpa,deviator_kpa\n50,85\n100,150\n200,280\n")
+    _soil_table(folder, TABLE.format(lab="lab.csv"))
+    return toml
+
+
+def _swap_units(folder):
+    frame = gpd.read_file(folder / "soils.geojson")
+    frame["unit"] = frame["unit"].map({"A": "B", "B": "A"})
+    frame.to_file(folder / "soils.geojson", driver="GeoJSON")
+
+
+def _raise_east_tile(folder):
+    with rasterio.open(folder / "east.tif", "r+") as dst:
+        z = dst.read(1)
+        y = np.arange(z.shape[0])[:, None]
+        dst.write(z + 40.0 * (y / z.shape[0]) ** 2, 1)  # steeper towards the south
+
+
+CHANGES = {
+    "soil map": _swap_units,
+    "soil table": lambda f: _edit(f / "table.csv", "B,clay,5,30", "B,clay,1,27"),
+    "lab tests": lambda f: _edit(f / "lab.csv", "200,280", "200,250"),
+    "VRT source tile": _raise_east_tile,
+}
+
+
+@pytest.mark.parametrize("change", sorted(CHANGES))
+def test_changed_input_warm_run_equals_cold_run(change, tmp_path):
+    toml = _vrt_region(tmp_path / "region")
+    warm = tmp_path / "warm"
+    _run(toml, warm)
+    before = _outputs(warm)
+    CHANGES[change](tmp_path / "region")
+    _run(toml, warm)
+    _run(toml, tmp_path / "cold")
+    after = _outputs(warm)
+    assert after != before  # the change reaches the maps
+    assert after == _outputs(tmp_path / "cold")
+
+
+def test_warm_rerun_is_byte_identical_to_a_cold_run(tmp_path):
+    toml = _vrt_region(tmp_path / "region")
+    _run(toml, tmp_path / "a")
+    _run(toml, tmp_path / "a")
+    _run(toml, tmp_path / "b")
+    a, b = _outputs(tmp_path / "a"), _outputs(tmp_path / "b")
+    assert a == b
+    assert {"wet/hazard_zones.gpkg", "wet/map.png", "report.html", "dry/summary.csv"} <= set(a)
+    for scenario in ("wet", "dry"):  # tags describe the scenario the file belongs to
+        with rasterio.open(tmp_path / "a" / scenario / "critical_recharge_mm_day.tif") as src:
+            assert src.tags()["scenario"] == scenario
+
+
+def test_edge_cells_are_no_data_in_every_terrain_raster(tmp_path):
+    toml = _region(tmp_path / "r")
+    _run(toml, tmp_path / "out")
+    for name in ("slope_deg.tif", "specific_catchment_area_m.tif"):
+        with rasterio.open(tmp_path / "out" / "terrain" / name) as src:
+            v = src.read(1, masked=True)
+        edge = np.ones(v.shape, bool)
+        edge[1:-1, 1:-1] = False
+        assert v.mask[edge].all(), name
+        assert not v.mask[1:-1, 1:-1].any(), name
+
+
+# ----------------------------------------------------------------------------------------
+# the manifest says what the run did
+
+
+def test_manifest_is_strict_json_and_lists_only_this_run(tmp_path):
+    toml = _region(tmp_path / "r")
+    out = tmp_path / "out"
+    _run(toml, out)
+    _run(toml, out, ("only", ["wet"]))
+    text = (out / "manifest.json").read_text()
+    manifest = json.loads(text, parse_constant=lambda c: pytest.fail(f"bare {c} in manifest"))
+    assert manifest["complete"] is True
+    assert manifest["scenarios_finished"] == ["wet"] and manifest["scenarios_missing"] == []
+    assert manifest["started_utc"] <= manifest["finished_utc"]
+    assert manifest["started_utc"].endswith("Z")
+    assert not [k for k in manifest["outputs"] if k.startswith("dry/")]
+    assert {"terrain/slope_deg.tif", "wet/fs.tif", "report.html"} <= set(manifest["outputs"])
+    assert manifest["parameters"]["soil_units"]["A"]["transmissivity_m2_day"] is None
+
+
+def test_outputs_honour_the_umask(tmp_path):
+    toml = _region(tmp_path / "r")
+    old = os.umask(0o022)
+    try:
+        _run(toml, tmp_path / "out")
+    finally:
+        os.umask(old)
+    modes = {k: (tmp_path / "out" / k).stat().st_mode & 0o777 for k in _files(tmp_path / "out")}
+    assert set(modes.values()) == {0o644}, modes
+
+
+# ----------------------------------------------------------------------------------------
+# links: nothing outside the output folder is ever written
+
+
+def test_planted_links_are_never_written_through(tmp_path):
+    toml = _region(tmp_path / "r")
+    out = tmp_path / "out"
+    _run(toml, out)
+    victims = tmp_path / "victims"
+    victims.mkdir()
+    finals = sorted(_files(out))
+    temporary = [
+        "dry/.fs.part.tif",
+        "dry/.fs.cog.tif",
+        "dry/.saturation.cog.tif",
+        "terrain/.slope_deg.tif.part",
+        "dry/.summary.csv",
+        "dry/.hazard_zones.gpkg",
+    ]
+    for i, name in enumerate(finals + temporary):
+        victim = victims / f"v{i}"
+        victim.write_text(f"precious {i}")
+        (out / name).unlink(missing_ok=True)
+        (out / name).symlink_to(victim)
+    _run(toml, out)
+    assert all(v.read_text() == f"precious {v.name[1:]}" for v in victims.iterdir())
+    for name in finals:
+        assert not (out / name).is_symlink() and (out / name).is_file(), name
+
+
+@pytest.mark.parametrize("folder", ["dry", "terrain", ".cache", ".slopescreen.lock"])
+def test_linked_folder_or_lock_is_refused(folder, tmp_path, capsys):
+    toml = _region(tmp_path / "r")
+    out = tmp_path / "out"
+    out.mkdir()
+    elsewhere = tmp_path / "elsewhere"
+    elsewhere.mkdir()
+    (out / folder).symlink_to(elsewhere)
+    _one_line_error(capsys, ["run", str(toml), "--out", str(out), "--quiet"], "symbolic link")
+    assert list(elsewhere.iterdir()) == []
+
+
+# ----------------------------------------------------------------------------------------
+# real processes: two runs on one folder, runs sharing a cache, killed runs
+
+
+def _cli(*args):
+    return [sys.executable, "-m", "slopescreen.cli.main", *map(str, args)]
+
+
+def _big_region(folder, samples=200):
+    """Large enough that a run takes seconds (Monte Carlo probabilities per scenario)."""
+    folder.mkdir(parents=True, exist_ok=True)
+    _dem(folder / "dem.tif", rows=300, cols=300)
+    _polygons(
+        folder / "soils.geojson",
+        bounds=(500000.0, 4997400.0, 503000.0, 5000400.0),
+        cohesion_kpa_sd=1.0,
+        friction_deg_sd=2.0,
+    )
+    toml = folder / "scenarios.toml"
+    toml.write_text(
+        SCENARIO_TEXT.replace(
+            "[[scenario]]",
+            f'[reliability]\nmethod = "monte_carlo"\nsamples = {samples}\n\n[[scenario]]',
+            1,
+        )
+        + '\n[[scenario]]\nname = "half"\nsaturation = 0.5\n'
+    )
+    return toml
+
+
+def _manifest_agrees(out):
+    manifest = json.loads((out / "manifest.json").read_text())
+    for name, sha in manifest["outputs"].items():
+        import hashlib
+
+        assert hashlib.sha256((out / name).read_bytes()).hexdigest() == sha, name
+    return manifest
+
+
+def test_two_runs_on_one_folder(tmp_path):
+    toml = _big_region(tmp_path / "r")
+    out = tmp_path / "out"
+    procs = [
+        subprocess.Popen(
+            _cli("run", toml, "--out", out, "--quiet"),
+            stdout=subprocess.PIPE,
+            stderr=subprocess.PIPE,
+            text=True,
+        )
+        for _ in range(2)
+    ]
+    results = [(p.wait(timeout=600), p.stderr.read()) for p in procs]
+    codes = sorted(code for code, _ in results)
+    assert codes == [0, 2], results
+    refused = next(err for code, err in results if code == 2)
+    assert "another slopescreen run is writing to this folder (PID " in refused
+    assert "started 20" in refused and "Traceback" not in refused
+    assert refused.count("\n") == 1
+    assert _manifest_agrees(out)["complete"] is True
+
+
+def test_two_runs_sharing_one_cache(tmp_path):
+    toml = _big_region(tmp_path / "r", samples=50)
+    procs = [
+        subprocess.Popen(
+            _cli("run", toml, "--out", tmp_path / name, "--cache", tmp_path / "cache", "--quiet"),
+            stderr=subprocess.PIPE,
+            text=True,
+            stdout=subprocess.DEVNULL,
+        )
+        for name in ("a", "b")
+    ]
+    results = [(p.wait(timeout=600), p.stderr.read()) for p in procs]
+    assert [code for code, _ in results] == [0, 0], results
+    assert _outputs(tmp_path / "a") == _outputs(tmp_path / "b")
+
+
+@pytest.mark.parametrize("moment", [0, 1, 2])
+def test_killed_rerun_leaves_old_or_new_files_and_says_so(moment, tmp_path):
+    toml = _big_region(tmp_path / "r")
+    out = tmp_path / "out"
+    assert subprocess.run(_cli("run", toml, "--out", out, "--quiet")).returncode == 0
+    old = _files(out)
+    _edit(toml, "[hazard]", "[hazard]\nfs_breaks = [1.0, 1.2, 1.4]")  # new classes everywhere
+    assert subprocess.run(_cli("run", toml, "--out", tmp_path / "new", "--quiet")).returncode == 0
+    new = _files(tmp_path / "new")
+    proc = subprocess.Popen(_cli("run", toml, "--out", out, "--quiet"))
+    deadline = time.monotonic() + 300
+    while time.monotonic() < deadline:
+        try:
+            state = json.loads((out / "manifest.json").read_text())
+        except (OSError, ValueError):
+            state = {}
+        if state.get("complete") is False and len(state["scenarios_finished"]) >= moment:
+            break
+        time.sleep(0.005)
+    proc.send_signal(signal.SIGKILL)
+    proc.wait()
+    manifest = _manifest_agrees(out)
+    assert manifest["complete"] is False, "the run finished before it could be killed"
+    assert len(manifest["scenarios_finished"]) >= moment
+    assert set(manifest["scenarios_finished"]) | set(manifest["scenarios_missing"]) == {
+        "wet",
+        "dry",
+        "half",
+    }
+    for name, data in _files(out).items():
+        if name not in ("manifest.json", "report.html"):  # these two say the state
+            assert data in (old.get(name), new.get(name)), name
+    for scenario in manifest["scenarios_finished"]:
+        for name in new:
+            if name.startswith(f"{scenario}/"):
+                assert (out / name).read_bytes() == new[name], name
+    assert "run not finished" in (out / "report.html").read_text()
+    # the next run completes the folder and leaves no work folders behind
+    assert subprocess.run(_cli("run", toml, "--out", out, "--quiet")).returncode == 0
+    assert _outputs(out) == {k: v for k, v in new.items() if k != "manifest.json"}
+    assert not [p for p in out.rglob(".slopescreen-tmp-*")]
