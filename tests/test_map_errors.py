@@ -181,8 +181,9 @@ def test_geographic_dem_with_projected_polygons(tmp_path, capsys):
     with open(tmp_path / "out" / "wet" / "summary.csv") as handle:
         rows = list(csv.DictReader(handle))
     total_ha = sum(float(r["area_ha"]) for r in rows if r["soil_unit"] == "ALL")
-    # 38 x 48 interior cells of about 7.87 m x 11.1 m at 45 N (pyproj geodesic scale)
-    assert total_ha == pytest.approx(38 * 48 * 7.87 * 11.1 / 10_000, rel=0.02)
+    # 40 x 50 cells of about 7.87 m x 11.1 m at 45 N (pyproj geodesic scale): every cell,
+    # edges included (one-sided slopes there)
+    assert total_ha == pytest.approx(40 * 50 * 7.87 * 11.1 / 10_000, rel=0.02)
 
 
 def test_coverage_warnings(tmp_path, capsys):
@@ -218,9 +219,16 @@ def test_dem_nodata_propagates(tmp_path, capsys):
     assert main(["run", str(toml), "--out", str(tmp_path / "out"), "--quiet"]) == 0
     with rasterio.open(tmp_path / "out" / "dry" / "fs.tif") as src:
         fs = src.read(1, masked=True)
-    assert fs.mask[19:22, 19:22].all()  # the hole and the cells whose slope needs it
-    assert fs.mask[0].all() and fs.mask[:, -1].all()  # edges
-    assert not fs.mask[10, 10]
+    with rasterio.open(tmp_path / "out" / "terrain" / "slope_one_sided.tif") as src:
+        one_sided = src.read(1)
+    assert fs.mask[20, 20] and fs.mask.sum() == 1  # only the hole itself has no value
+    ring = np.zeros(one_sided.shape, bool)
+    ring[19:22, 19:22] = True
+    ring[20, 20] = False
+    ring[[0, -1], :] = True
+    ring[:, [0, -1]] = True
+    assert (one_sided[ring] == 1).all()  # next to the hole and on the edges: one-sided
+    assert one_sided[20, 20] == 255 and (one_sided[~ring & (one_sided != 255)] == 0).all()
 
 
 def test_unreadable_dem_and_polygons(region, capsys):

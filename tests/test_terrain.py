@@ -11,7 +11,7 @@ from rasterio.transform import from_origin
 from region_files import write_raster
 
 from slopescreen.maps.grid import read_dem
-from slopescreen.terrain import hillshade, slope_deg
+from slopescreen.terrain import grid_gradient, hillshade, slope_deg
 
 _write = write_raster
 
@@ -73,9 +73,13 @@ def test_geographic_dem_uses_metric_spacing(tmp_path):
     path = _write(tmp_path / "geo.tif", 100.0 + 0.2 * x_m, crs="EPSG:4326", transform=transform)
     grid, z = read_dem(path)
     assert grid.geographic
-    assert np.allclose(grid.dx_rows_m, dx, rtol=1e-9)
-    s = slope_deg(z, grid.dx_rows_m, grid.dy_m)
-    assert np.allclose(s[1:-1, 1:-1], math.degrees(math.atan(0.2)), atol=0.01)
+    ue, un, ve, _ = grid.ground.vectors(slice(0, rows), slice(0, cols))
+    assert np.allclose(np.hypot(ue, un).ravel(), dx, rtol=1e-9)
+    assert np.allclose(un, 0.0, atol=1e-9) and np.allclose(ve, 0.0, atol=1e-9)
+    dz_dcol, dz_drow_up, _ = grid_gradient(z)
+    g_e, g_n = grid.ground.ground_gradient(slice(0, rows), slice(0, cols), dz_dcol, dz_drow_up)
+    s = np.degrees(np.arctan(np.hypot(g_e, g_n)))
+    assert np.allclose(s, math.degrees(math.atan(0.2)), atol=0.01)  # edges one-sided
 
 
 def test_feet_are_converted(tmp_path):

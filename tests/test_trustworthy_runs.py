@@ -474,18 +474,6 @@ def test_warm_rerun_is_byte_identical_to_a_cold_run(tmp_path):
             assert src.tags()["scenario"] == scenario
 
 
-def test_edge_cells_are_no_data_in_every_terrain_raster(tmp_path):
-    toml = _region(tmp_path / "r")
-    _run(toml, tmp_path / "out")
-    for name in ("slope_deg.tif", "specific_catchment_area_m.tif"):
-        with rasterio.open(tmp_path / "out" / "terrain" / name) as src:
-            v = src.read(1, masked=True)
-        edge = np.ones(v.shape, bool)
-        edge[1:-1, 1:-1] = False
-        assert v.mask[edge].all(), name
-        assert not v.mask[1:-1, 1:-1].any(), name
-
-
 # ----------------------------------------------------------------------------------------
 # the manifest says what the run did
 

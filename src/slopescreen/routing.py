@@ -7,13 +7,15 @@
    for routing only; slopes come from the original DEM.
 2. Flow directions by D-infinity (Tarboton 1997): the steepest of the eight triangular
    facets around each cell, flow split between the facet's two neighbours in proportion to
-   the angles. Rectangular cells (geographic grids measured per row) are handled by the
-   facet geometry. A cell whose facets all lack data falls back to its steepest lower
-   neighbour (D8).
+   the angles. Cells are rectangles whose ground side lengths and area come from a lattice
+   of ground lengths (``slopescreen.maps.ground``; bilinear between nodes), so any CRS
+   routes in ground metres. A cell whose facets all lack data falls back to its steepest
+   lower neighbour (D8).
 3. Contributing area is accumulated in topological order (in-degree queue), each cell
-   contributing its own area. Specific catchment area a/b = contributing area / contour
-   width b. The width is the cell area over the mean step the flow takes along its own
-   direction, b = dx dy / (d1 cos(r) + (r / r_max) d2 sin(r)) for facet angle r, which is
+   contributing its own ground area; a flag (cells next to no data or the edge where
+   ground beyond would drain in) can be carried downstream with it. Specific catchment
+   area a/b = contributing area / contour width b. The width is the cell area over the
+   mean step the flow takes along its own direction, b = dx dy / (d1 cos(r) + (r / r_max) d2 sin(r)) for facet angle r, which is
    the cell size for flow along a grid axis and d / sqrt(2) for diagonal flow. With it, an
    inclined plane in any direction gives a/b = the upslope flow-path length to the cell's
    lower edge (by continuity: the flux across a contour equals the upslope area).
@@ -22,9 +24,10 @@ Memory: the routing holds the whole grid. With the DEM filled in place it needs,
 peak, the float64 surface (8 bytes per cell), two masks (2), heap keys and indices and the
 pit queue (16) while filling; two int32 receivers, a float32 share and width (16) and the
 float64 area with an int32 in-degree and queue (16) while accumulating: about 35 bytes per
-cell at the peak, the DEM included (tests/benchmarks/bench_routing.py measures 25 bytes per
-cell above the float64 DEM). All work arrays come from an
-``allocate`` function, so grids larger than memory can use memory-mapped files.
+cell at the peak, the DEM included, 36 with the one-byte cut-off flag
+(tests/benchmarks/bench_routing.py measures 25 bytes per cell above the float64 DEM). All
+work arrays come from an ``allocate`` function, so grids larger than memory can use
+memory-mapped files.
 
 References
 ----------
@@ -163,13 +166,33 @@ def fill_depressions(elevation_m: np.ndarray, *, epsilon: bool = True) -> np.nda
     return filled
 
 
+@njit(cache=True)
+def _at(values, step_r, step_c, last_r, last_c, r, c):
+    """Bilinear value at cell (r, c) of a lattice whose node (i, j) stands at cell
+    (min(i step_r, last_r), min(j step_c, last_c))."""
+    nr, nc = values.shape
+    i = min(r // step_r, nr - 2)
+    j = min(c // step_c, nc - 2)
+    r0 = i * step_r
+    c0 = j * step_c
+    r1 = min(r0 + step_r, last_r)
+    c1 = min(c0 + step_c, last_c)
+    tr = (r - r0) / (r1 - r0)
+    tc = (c - c0) / (c1 - c0)
+    top = values[i, j] * (1.0 - tc) + values[i, j + 1] * tc
+    bottom = values[i + 1, j] * (1.0 - tc) + values[i + 1, j + 1] * tc
+    return top * (1.0 - tr) + bottom * tr
+
+
 @njit(cache=True, parallel=True)
-def _dinf(filled, valid, dx_rows, dy, recv1, recv2, share1, width):
+def _dinf(filled, valid, lattice, recv1, recv2, share1, width):
     rows, cols = filled.shape
+    step_r, step_c, last_r, last_c, along_cols, along_rows, _ = lattice
     for r in prange(rows):
-        dx = dx_rows[r]
-        diag = math.hypot(dx, dy)
         for c in range(cols):
+            dx = _at(along_cols, step_r, step_c, last_r, last_c, r, c)
+            dy = _at(along_rows, step_r, step_c, last_r, last_c, r, c)
+            diag = math.hypot(dx, dy)
             cell = r * cols + c
             width[cell] = 0.5 * (dx + dy)
             recv1[cell] = -1
@@ -253,9 +276,13 @@ def _dinf(filled, valid, dx_rows, dy, recv1, recv2, share1, width):
 
 
 @njit(cache=True)
-def _accumulate(recv1, recv2, share1, valid, dx_rows, dy, indegree, area, queue):
+def _accumulate(recv1, recv2, share1, valid, lattice, indegree, area, queue, flags):
+    """Contributing area in topological order; ``flags`` (one per cell, or empty) is
+    carried downstream: a cell receiving any share from a flagged cell is flagged."""
     n = recv1.size
-    cols = n // dx_rows.size
+    cols = valid.shape[1]
+    step_r, step_c, last_r, last_c, _, _, cell_area = lattice
+    carry = flags.size == n
     for i in range(n):
         indegree[i] = 0
     for i in range(n):
@@ -264,7 +291,9 @@ def _accumulate(recv1, recv2, share1, valid, dx_rows, dy, indegree, area, queue)
         if recv2[i] >= 0:
             indegree[recv2[i]] += 1
     for i in range(n):  # each cell's own area to start with
-        area[i] = dx_rows[i // cols] * dy if valid.flat[i] else 0.0
+        r = i // cols
+        c = i - r * cols
+        area[i] = _at(cell_area, step_r, step_c, last_r, last_c, r, c) if valid[r, c] else 0.0
     tail = 0
     for i in range(n):
         if indegree[i] == 0:
@@ -278,6 +307,8 @@ def _accumulate(recv1, recv2, share1, valid, dx_rows, dy, indegree, area, queue)
         j = recv1[i]
         if j >= 0:
             area[j] += a * share1[i]
+            if carry and flags[i]:
+                flags[j] = 1
             indegree[j] -= 1
             if indegree[j] == 0:
                 queue[tail] = j
@@ -285,11 +316,23 @@ def _accumulate(recv1, recv2, share1, valid, dx_rows, dy, indegree, area, queue)
         j = recv2[i]
         if j >= 0:
             area[j] += a * (1.0 - share1[i])
+            if carry and flags[i]:
+                flags[j] = 1
             indegree[j] -= 1
             if indegree[j] == 0:
                 queue[tail] = j
                 tail += 1
     return area
+
+
+def uniform_lattice(dx_m: float | np.ndarray, dy_m: float, rows: int, cols: int) -> tuple:
+    """The routing lattice of a grid with one east-west spacing per row (or one for all)
+    and one north-south spacing: nodes on every row, at the first and last column."""
+    dx_rows = np.ascontiguousarray(np.broadcast_to(np.asarray(dx_m, np.float64), (rows,)))
+    du = np.repeat(dx_rows[:, None], 2, axis=1)
+    dv = np.full((rows, 2), float(dy_m))
+    return (np.int64(1), np.int64(max(cols - 1, 1)), np.int64(rows - 1),
+            np.int64(max(cols - 1, 1)), du, dv, du * dv)  # fmt: skip
 
 
 def specific_catchment_area(
@@ -300,7 +343,8 @@ def specific_catchment_area(
     overwrite: bool = False,
     allocate: Callable[[tuple[int, ...], type], np.ndarray] | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Contributing area (m2) and specific catchment area a/b (m) by D-infinity.
+    """Contributing area (m2) and specific catchment area a/b (m) by D-infinity, on a grid
+    with one east-west spacing per row (or one for all) and one north-south spacing.
 
     Parameters
     ----------
@@ -315,13 +359,40 @@ def specific_catchment_area(
     -------
     (area_m2 float64, sca_m float32), NaN where there is no data; both from ``allocate``.
     """
+    rows, cols = np.shape(elevation_m)
+    area, sca, _ = route(
+        elevation_m,
+        uniform_lattice(dx_m, dy_m, rows, cols),
+        overwrite=overwrite,
+        allocate=allocate,
+    )
+    return area, sca
+
+
+def route(
+    elevation_m: np.ndarray,
+    lattice: tuple,
+    sources: np.ndarray | None = None,
+    *,
+    overwrite: bool = False,
+    allocate: Callable[[tuple[int, ...], type], np.ndarray] | None = None,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    """Contributing area (m2), specific catchment area (m) and, with ``sources``, the cells
+    downstream of them, on a grid measured by a lattice of ground lengths.
+
+    ``lattice`` is (row step, column step, last row, last column, ground length of a column
+    step, of a row step, ground cell area), the last three on lattice nodes (see
+    ``slopescreen.maps.ground.Ground.lattice``); values between nodes are bilinear. Cells
+    are treated as rectangles with those axis lengths and that area. ``sources`` (uint8,
+    one per cell) marks cells whose flag is carried downstream along the D-infinity
+    shares: it is updated in place and returned (1 = receives flow from a source).
+    """
     new = allocate or (lambda shape, dtype: np.empty(shape, dtype))
     dem = np.asarray(elevation_m, dtype=np.float64)
     rows, cols = dem.shape
     n = rows * cols
     valid = new((rows, cols), np.bool_)
     np.isfinite(dem, out=valid)
-    dx_rows = np.ascontiguousarray(np.broadcast_to(np.asarray(dx_m, np.float64), (rows,)))
     if overwrite and dem is elevation_m and dem.flags.c_contiguous:
         work = dem
     else:
@@ -335,23 +406,24 @@ def specific_catchment_area(
     del closed
     recv1, recv2 = new((n,), np.int32), new((n,), np.int32)
     share1, width = new((n,), np.float32), new((n,), np.float32)
-    _dinf(filled, valid, dx_rows, float(dy_m), recv1, recv2, share1, width)
+    _dinf(filled, valid, lattice, recv1, recv2, share1, width)
     del filled, work
     area = new((n,), np.float64)
+    flags = np.zeros(0, np.uint8) if sources is None else sources.reshape(-1)
     _accumulate(
         recv1,
         recv2,
         share1,
         valid,
-        dx_rows,
-        float(dy_m),
+        lattice,
         new((n,), np.int32),
         area,
         new((n,), np.int32),
+        flags,
     )
     del recv1, recv2, share1
     area = area.reshape(rows, cols)
     np.copyto(area, np.nan, where=~valid)
     sca = new((rows, cols), np.float32)
     np.divide(area, width.reshape(rows, cols), out=sca, casting="same_kind")
-    return area, sca
+    return area, sca, None if sources is None else flags.reshape(rows, cols)

@@ -27,7 +27,7 @@ def add_to(sub: Any) -> None:
 def run(args: argparse.Namespace) -> int:
     from slopescreen.hazard import class_names
     from slopescreen.maps.config import load_config
-    from slopescreen.maps.engine import prepare
+    from slopescreen.maps.engine import prepare, void_note
 
     cfg = load_config(args.scenarios)
     inputs = prepare(cfg)
@@ -37,6 +37,7 @@ def run(args: argparse.Namespace) -> int:
         f"  DEM {cfg.region.dem.name}: {grid.width} x {grid.height} cells, "
         f"{grid.crs.to_string()}, {grid.spacing_note}"
     )
+    print(f"  DEM: {void_note(inputs.voids)}")
     print(
         f"  soil units ({len(soils.keys)}): {', '.join(soils.keys)}; "
         f"{1 - soils.unmapped_share:.1%} of DEM data cells covered"

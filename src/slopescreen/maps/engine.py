@@ -53,7 +53,13 @@ from slopescreen.outputs import (
 
 Echo = Callable[[str], None]
 _SCHEDULER = re.compile(r"[a-z][a-z0-9+.-]*://[A-Za-z0-9_.\-\[\]:]+:[0-9]{1,5}")
-TERRAIN_FILES = ("slope_deg.tif", "specific_catchment_area_m.tif", "hillshade.tif")
+TERRAIN_FILES = (
+    "slope_deg.tif",
+    "slope_one_sided.tif",
+    "specific_catchment_area_m.tif",
+    "catchment_cut_off.tif",
+    "hillshade.tif",
+)
 
 
 @dataclass
@@ -89,6 +95,7 @@ class Inputs:
     soils: SoilUnits
     hashes: dict[str, str]
     dem_files: dict[str, str]  # SHA-256 of every file GDAL reads for the DEM
+    voids: dict[str, float] = field(default_factory=dict)  # DEM no-data cells and ground area
 
 
 @dataclass
@@ -112,9 +119,14 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     With ``codes_target`` the rasterized soil units are written there as a GeoTIFF.
     """
     grid = read_grid(cfg.region.dem)
+    voids = {"cells": 0, "area_m2": 0.0}
 
     def valid_tile(rows: slice, cols: slice) -> np.ndarray:
-        return np.isfinite(read_elevations(cfg.region.dem, "m", rows, cols))
+        ok = np.isfinite(read_elevations(cfg.region.dem, "m", rows, cols))
+        area = np.broadcast_to(grid.ground.cell_area_m2(rows, cols), ok.shape)
+        voids["cells"] += int((~ok).sum())
+        voids["area_m2"] += float(area[~ok].sum())
+        return ok
 
     soils = load_soils(cfg.region, grid)
     for sc in cfg.scenarios:  # everything is checked before anything is written
@@ -151,7 +163,7 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     for sc in cfg.scenarios:
         if sc.saturation_raster is not None:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)
-    return Inputs(cfg, grid, soils, hashes, dem_files_sha256(cfg.region.dem))
+    return Inputs(cfg, grid, soils, hashes, dem_files_sha256(cfg.region.dem), voids)
 
 
 def utc_now() -> str:
@@ -238,6 +250,7 @@ def run(
                 hazard_class_names(cfg.fs_breaks),
                 state.summaries,
                 __version__,
+                void_note(inputs.voids),
             )
             state.outputs.append("report.html")
         else:
@@ -271,10 +284,11 @@ def _terrain_and_scenarios(
     grid, soils = inputs.grid, inputs.soils
     terrain_dir = out / "terrain"
     echo(f"region {cfg.region.name}: {grid.width} x {grid.height} cells, {grid.spacing_note}")
+    echo(f"DEM: {void_note(inputs.voids)}")
     for w in soils.warnings:
         echo(f"WARNING: {w}")
     started = time.perf_counter()
-    key = cache_key(inputs.dem_files, cfg.region.dem_elevation_unit, __version__)
+    key = cache_key(inputs.dem_files, cfg.region.dem_elevation_unit, grid.crs.to_wkt(), __version__)
     folder, reused = terrain_products(
         grid, cfg.region.dem_elevation_unit, key, cache, __version__, echo
     )
@@ -282,7 +296,18 @@ def _terrain_and_scenarios(
         if not copy_verified(folder / name, terrain_dir / name, recorded_sha256(folder, name)):
             raise InputError(f"{folder / name}: cache file changed while in use; run again")
         state.outputs.append(f"terrain/{name}")
-    state.terrain = {"cache_key": key, "reused": reused, "spacing": grid.spacing_note}
+    k0, k1 = grid.ground.scale_range()
+    state.terrain = {
+        "cache_key": key,
+        "reused": reused,
+        "ground_geometry": grid.ground.note,
+        "map_scale_range": [_finite(k0), _finite(k1)],
+        "ground_interpolation_error": grid.ground.interpolation_error,
+        "dem_no_data": {
+            "cells": inputs.voids["cells"],
+            "area_ha": round(inputs.voids["area_m2"] / 10_000.0, 4),
+        },
+    }
     timings.add("terrain (cached)" if reused else "terrain", started)
     echo(f"terrain: {'reused from cache (verified)' if reused else 'computed'} ({folder})")
 
@@ -318,6 +343,16 @@ def _terrain_and_scenarios(
         )
         for w in summary.warnings:
             echo(f"WARNING: {w}")
+
+
+def void_note(voids: dict[str, float]) -> str:
+    """One line on the DEM's no-data cells (voids, masked water, the sea)."""
+    if not voids.get("cells"):
+        return "no no-data cells"
+    return (
+        f"{int(voids['cells']):,} no-data cells ({voids['area_m2'] / 10_000.0:,.2f} ha on the "
+        "ground): flow stops there; catchment_cut_off.tif marks where wetness is a lower bound"
+    )
 
 
 def _unfinished_report(cfg: Config, state: RunState) -> str:

@@ -1,4 +1,4 @@
-"""Reading the DEM and measuring its cells in metres (rasterio, pyproj)."""
+"""Reading the DEM and its grid; the grid's ground geometry comes from ``ground``."""
 
 from __future__ import annotations
 
@@ -8,6 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from slopescreen.errors import InputError
+from slopescreen.maps.ground import Ground, ground_geometry
 from slopescreen.outputs import file_sha256
 
 FEET_TO_M = 0.3048
@@ -15,33 +16,27 @@ FEET_TO_M = 0.3048
 
 @dataclass(frozen=True)
 class Grid:
-    """The DEM's grid: every output shares it."""
+    """The DEM's grid: every output shares it. Ground lengths and areas come from
+    ``ground`` (see :mod:`slopescreen.maps.ground`), never from the map units."""
 
     path: Path
     width: int
     height: int
     transform: object  # affine.Affine
     crs: object  # rasterio.crs.CRS
-    dx_rows_m: np.ndarray  # east-west spacing per row, m
-    dy_m: float  # north-south spacing, m
-    geographic: bool
+    ground: Ground
 
     @property
     def shape(self) -> tuple[int, int]:
         return (self.height, self.width)
 
     @property
-    def cell_area_rows_m2(self) -> np.ndarray:
-        return self.dx_rows_m * self.dy_m
+    def geographic(self) -> bool:
+        return self.ground.kind == "geographic"
 
     @property
     def spacing_note(self) -> str:
-        if self.geographic:
-            return (
-                "geographic CRS: cells measured in metres row by row on the ellipsoid "
-                "(no resampling); slope and flow use the true metric spacing of each row"
-            )
-        return f"projected CRS, cells {self.dx_rows_m[0]:g} m x {self.dy_m:g} m"
+        return self.ground.note
 
 
 MAX_CELLS = 2**31 - 1  # routing indexes cells with 32-bit integers
@@ -64,32 +59,6 @@ def dem_files_sha256(path: Path) -> dict[str, str]:
         except OSError as exc:
             raise InputError(f"{path}: cannot read DEM file {f} ({exc.strerror})") from None
     return out
-
-
-def _metric_spacing(transform: object, crs: object, height: int) -> tuple[np.ndarray, float, bool]:
-    from pyproj import Geod
-
-    a, e = transform.a, transform.e  # type: ignore[attr-defined]
-    if crs.is_geographic:  # type: ignore[attr-defined]
-        geod = Geod(**_ellipsoid(crs))
-        lat_centre = transform.f + e * (np.arange(height) + 0.5)  # type: ignore[attr-defined]
-        lon0 = transform.c  # type: ignore[attr-defined]
-        lat_clipped = np.clip(lat_centre, -89.9, 89.9)
-        _, _, dx = geod.inv(
-            np.full(height, lon0), lat_clipped, np.full(height, lon0 + abs(a)), lat_clipped
-        )
-        mid = float(np.clip(lat_centre[height // 2], -89.9, 89.9))
-        _, _, dy = geod.inv(lon0, mid - abs(e) / 2, lon0, mid + abs(e) / 2)
-        return np.asarray(dx, dtype=np.float64), float(dy), True
-    factor = crs.linear_units_factor[1]  # type: ignore[attr-defined]
-    return np.full(height, abs(a) * factor), float(abs(e) * factor), False
-
-
-def _ellipsoid(crs: object) -> dict[str, float]:
-    from pyproj import CRS
-
-    ell = CRS.from_user_input(crs.to_wkt()).ellipsoid  # type: ignore[attr-defined]
-    return {"a": ell.semi_major_metre, "b": ell.semi_minor_metre}
 
 
 def read_grid(path: Path) -> Grid:
@@ -123,16 +92,17 @@ def read_grid(path: Path) -> Grid:
                 f"{path}: DEM has {src.width * src.height:,} cells; at most {MAX_CELLS:,} "
                 "(2^31 - 1) per run: split the region into parts"
             )
-        dx_rows, dy, geographic = _metric_spacing(t, src.crs, src.height)
+        try:
+            ground = ground_geometry(t, src.crs, src.height, src.width)
+        except InputError as exc:
+            raise InputError(f"{path}: {exc}") from None
         return Grid(
             path=Path(path),
             width=src.width,
             height=src.height,
             transform=t,
             crs=src.crs,
-            dx_rows_m=dx_rows,
-            dy_m=dy,
-            geographic=geographic,
+            ground=ground,
         )
 
 

@@ -36,6 +36,27 @@ def _nice_length(target: float) -> float:
     return max(m * power for m in (1, 2, 5) if m * power <= target)
 
 
+def ground_per_map_unit(grid: Grid) -> tuple[float, float, float]:
+    """Ground metres per map unit along x and y at the map's centre cell, and how much the
+    scale varies across the map (largest / smallest - 1, over both axes)."""
+    t = grid.transform
+    r, c = grid.height // 2, grid.width // 2
+    ue, un, ve, vn = grid.ground.vectors(slice(r, r + 1), slice(c, c + 1))
+    mx = float(np.hypot(ue, un).ravel()[0]) / abs(t.a)  # type: ignore[attr-defined]
+    my = float(np.hypot(ve, vn).ravel()[0]) / abs(t.e)  # type: ignore[attr-defined]
+    du0, du1, dv0, dv1 = grid.ground.ground_spacing_m()
+    return mx, my, max(du1 / du0, dv1 / dv0) - 1.0
+
+
+def scale_bar(grid: Grid) -> tuple[float, float]:
+    """(ground length in metres, the same length in map units along x) of a scale bar of
+    a round length near a fifth of the map's width, true at the map's centre."""
+    mx, _, _ = ground_per_map_unit(grid)
+    span_x = abs(grid.transform.a) * grid.width  # type: ignore[attr-defined]
+    bar_m = _nice_length(span_x * mx / 5.0)
+    return bar_m, bar_m / mx
+
+
 def _decimated(path: Path, step: int) -> np.ndarray:
     """The raster read at 1/step resolution (nearest; from its overviews where present)."""
     import rasterio
@@ -67,10 +88,8 @@ def draw_map(
     extent = (t.c, t.c + t.a * grid.width, t.f + t.e * grid.height, t.f)
     n = len(class_names)
     colours = np.array(class_colours(n)) / 255.0
-    # metres per CRS unit east-west (middle row) and north-south
-    mx = float(grid.dx_rows_m[grid.height // 2]) / abs(t.a)
-    my = grid.dy_m / abs(t.e)
-    height_over_width = (grid.height * grid.dy_m) / (grid.width * mx * abs(t.a))
+    mx, my, variation = ground_per_map_unit(grid)
+    height_over_width = (grid.height * my * abs(t.e)) / (grid.width * mx * abs(t.a))
     fig_w = 9.0
     fig_h = min(max(fig_w * height_over_width * 0.8 + 1.8, 5.0), 14.0)
     fig, ax = plt.subplots(figsize=(fig_w, fig_h), dpi=120)
@@ -91,7 +110,7 @@ def draw_map(
         extent=extent,
         interpolation="nearest",
     )
-    ax.set_aspect(my / mx)  # equal metres both ways (degrees of longitude shrink with latitude)
+    ax.set_aspect(my / mx)  # equal ground metres both ways at the map's centre
     handles = [
         Patch(facecolor=colours[i], edgecolor="0.3", label=name.replace("$", r"\$"))
         for i, name in enumerate(class_names)
@@ -105,12 +124,14 @@ def draw_map(
         framealpha=0.85,
     )
     span_x, span_y = extent[1] - extent[0], extent[3] - extent[2]
-    bar_m = _nice_length(span_x * mx / 5.0)
+    bar_m, bar_map = scale_bar(grid)
     x0, y0 = extent[0] + 0.62 * span_x, extent[2] + 0.04 * span_y
-    ax.plot([x0, x0 + bar_m / mx], [y0, y0], color="black", lw=3, solid_capstyle="butt")
+    ax.plot([x0, x0 + bar_map], [y0, y0], color="black", lw=3, solid_capstyle="butt")
     label = f"{bar_m / 1000:g} km" if bar_m >= 1000 else f"{bar_m:g} m"
+    if variation > 0.01:
+        label += f"\n(true at the centre; scale varies {100 * variation:.0f}% across the map)"
     ax.text(
-        x0 + bar_m / mx / 2,
+        x0 + bar_map / 2,
         y0 + 0.015 * span_y,
         label,
         ha="center",

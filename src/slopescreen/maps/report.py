@@ -60,6 +60,7 @@ def write_report(
     class_names: list[str],
     scenarios: list[ScenarioSummary],
     version: str,
+    dem_no_data: str = "",
 ) -> Path:
     parts = [
         f"<!DOCTYPE html><html><head><meta charset='utf-8'>"
@@ -107,6 +108,8 @@ def write_report(
         f"{grid.height} cells, {_e(grid.spacing_note)}, elevations in "
         f"{_e(cfg.region.dem_elevation_unit)}</td></tr>"
         f"<tr><th class='l'>CRS</th><td class='l'>{_e(grid.crs.to_string())}</td></tr>"
+        f"<tr><th class='l'>DEM no data</th><td class='l'>{_e(dem_no_data or 'not counted')}"
+        "</td></tr>"
         f"<tr><th class='l'>origin</th><td class='l'>{t.c:.10g}, {t.f:.10g} "
         "(upper-left corner)</td></tr>"
         f"<tr><th class='l'>soil units</th><td class='l'>{_e(soils.sources['polygons'])} "
@@ -128,7 +131,10 @@ def write_report(
         parts.append(f"<tr><td class='l'>{_e(key)}</td>{vals}</tr>")
     parts.append("</table>")
     parts.append(
-        "<h3>Terrain methods</h3><p>Slope by Horn (1981). Depressions filled by "
+        "<h3>Terrain methods</h3><p>Slope by Horn (1981), from one-sided differences where "
+        "the 3x3 window touches no data or the DEM's edge (marked in "
+        "<code>terrain/slope_one_sided.tif</code>); every length and area on the ground, "
+        "from the CRS's ellipsoid (cell axes measured by geodesics, pyproj). Depressions filled by "
         "Priority-Flood+epsilon (Barnes et al. 2014) so every cell drains; flow directions by "
         "D-infinity (Tarboton 1997); specific catchment area = contributing area / contour "
         "width. Steady-state wetness m = min(1, R a/b / (T sin beta)), T = K z cos beta "
@@ -147,9 +153,18 @@ def write_report(
     )
     for s in scenarios:
         files = ", ".join(f"<code>{_e(f)}</code>" for f in s.outputs)
+        mapped = sum(s.class_areas_ha)
+        cut = (
+            f"<p>{s.cut_off_ha:,.2f} ha ({100 * s.cut_off_ha / mapped:.1f}% of the mapped area) "
+            "drain from beyond a no-data cell or the DEM's edge: there the specific catchment "
+            "area and the wetness are lower bounds (<code>terrain/catchment_cut_off.tif</code>)."
+            "</p>"
+            if mapped and s.cut_off_ha
+            else ""
+        )
         parts.append(
             f"<h2>Scenario {_e(s.name)}</h2><p>{_e(s.description)}</p><p>{_e(s.wetness)}</p>"
-            f"<p>Files: {files}</p>{_image(s.map_png)}"
+            f"<p>Files: {files}</p>{cut}{_image(s.map_png)}"
         )
     parts.append(_cautions() + "</body></html>\n")
     return write_text(target, "\n".join(parts))

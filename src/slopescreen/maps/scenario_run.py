@@ -63,6 +63,7 @@ class ScenarioSummary:
     probability_areas_ha: list[float] | None = None  # per probability class
     outputs: list[str] = field(default_factory=list)  # file names in the scenario folder
     description: str = ""
+    cut_off_ha: float = 0.0  # mapped area whose upslope area is cut off by a void or edge
 
 
 def _sinks(
@@ -80,6 +81,7 @@ def _sinks(
         "scenario": sc.name,
         "wetness": sc.wetness,
         "seismic_coefficient": f"{sc.seismic_coefficient:g}",
+        "ground_geometry": grid.ground.note,
     }
 
     def f32(name: str, **tags: str) -> RasterSink:
@@ -193,6 +195,7 @@ def run_scenario(
         slope_tan=terrain_cache / "slope_tan.tif",
         sca=terrain_dir / "specific_catchment_area_m.tif",
         codes=terrain_dir / "soil_unit.tif",
+        cut_off=terrain_dir / "catchment_cut_off.tif",
         recharge_cache=recharge_file,
         fs_breaks=cfg.fs_breaks,
         fs_cap=cfg.fs_cap,
@@ -202,7 +205,7 @@ def run_scenario(
     )
     with_probability = bool(units.spreads)
     sinks = _sinks(cfg, sc, grid, out, names, with_probability)
-    tables, pf_tables = [], []
+    tables, pf_tables, cut_tables = [], [], []
     missing = 0
     with all_or_nothing(*sinks.values()):
         tiles = [(job, rows, cols) for rows, cols in windows(grid)]
@@ -211,6 +214,7 @@ def run_scenario(
             for name, sink in sinks.items():
                 sink.write(res["rows"], res["cols"], res[name])
             tables.append(res["table"])
+            cut_tables.append(res["cut_table"])
             if with_probability:
                 pf_tables.append(res["pf_table"])
             missing += res["missing_wetness"]
@@ -237,7 +241,10 @@ def run_scenario(
                 f"scenario {sc.name}: storm probability by the Taylor-series "
                 "method (Monte Carlo over depth and time is not offered)"
             )
-    rows_out = summary_rows(table, units.keys, names, sc.name, "factor_of_safety")
+    cut_table = np.sum(cut_tables, axis=0)
+    rows_out = summary_rows(
+        table, units.keys, names, sc.name, "factor_of_safety", cut_table=cut_table
+    )
     pf_areas = None
     if with_probability:
         pf_table = np.sum(pf_tables, axis=0)
@@ -288,4 +295,5 @@ def run_scenario(
         pf_areas,
         outputs,
         sc.description,
+        float(cut_table[1:, 1:].sum()) / 10_000.0,
     ), rows_out

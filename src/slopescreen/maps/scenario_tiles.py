@@ -62,6 +62,7 @@ class TileJob:
     slope_tan: Path
     sca: Path
     codes: Path
+    cut_off: Path  # catchment_cut_off.tif: 1 where the upslope area is cut off
     recharge_cache: Path | None  # verified critical recharge for these terrain, soils and load
     fs_breaks: tuple[float, ...]
     fs_cap: float
@@ -278,10 +279,14 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
         if job.recharge_cache is not None
         else _recharge_tile(job, rows, cols, terrain_ok, codes, sca)
     )
-    cell_area = job.grid.cell_area_rows_m2[rows]
+    cell_area = job.grid.ground.cell_area_m2(rows, cols)
     table = np.zeros((job.n_units + 1, len(job.fs_breaks) + 2))
     add_areas(table, codes * valid, out["hazard"], cell_area)
     out["table"] = table
+    cut_table = np.zeros_like(table)
+    cut = read_block(job.cut_off, rows, cols) == 1
+    add_areas(cut_table, codes * (valid & cut), out["hazard"], cell_area)
+    out["cut_table"] = cut_table
     if job.spreads:
         pf_table = np.zeros((job.n_units + 1, len(PF_CLASS_NAMES) + 1))
         pf_classes = np.zeros(shape, np.uint8)

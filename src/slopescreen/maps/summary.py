@@ -14,10 +14,11 @@ M2_PER_HA = 10_000.0
 
 
 def add_areas(
-    table: np.ndarray, codes: np.ndarray, classes: np.ndarray, cell_area_rows_m2: np.ndarray
+    table: np.ndarray, codes: np.ndarray, classes: np.ndarray, cell_area_m2: np.ndarray
 ) -> None:
-    """Add each cell's area to table[unit code, class] (block by block)."""
-    area = np.broadcast_to(cell_area_rows_m2.reshape(-1, 1), codes.shape)
+    """Add each cell's ground area (an array broadcastable to the block) to
+    table[unit code, class], block by block."""
+    area = np.broadcast_to(cell_area_m2, codes.shape)
     np.add.at(table, (codes.ravel(), classes.ravel()), area.ravel())
 
 
@@ -27,13 +28,19 @@ def summary_rows(
     class_names: list[str],
     scenario: str,
     measure: str = "factor_of_safety",
+    cut_table: np.ndarray | None = None,
 ) -> list[dict[str, object]]:
-    """Rows per soil unit and class, then totals; classes >= 1 only (0 is no data)."""
+    """Rows per soil unit and class, then totals; classes >= 1 only (0 is no data).
+
+    ``cut_table`` (same layout) holds the areas whose upslope area is cut off by a void or
+    the DEM's edge; each row then gives their share of the row's area."""
     mapped = table[1:, 1:]
+    cut = (cut_table if cut_table is not None else np.zeros_like(table))[1:, 1:]
     total_mapped = float(mapped.sum())
     rows: list[dict[str, object]] = []
-    units = [(key, mapped[i]) for i, key in enumerate(unit_keys)] + [("ALL", mapped.sum(axis=0))]
-    for key, areas in units:
+    units = [(key, mapped[i], cut[i]) for i, key in enumerate(unit_keys)]
+    units.append(("ALL", mapped.sum(axis=0), cut.sum(axis=0)))
+    for key, areas, cut_areas in units:
         unit_total = float(areas.sum())
         for cls, name in enumerate(class_names, start=1):
             a = float(areas[cls - 1])
@@ -51,6 +58,9 @@ def summary_rows(
                     else 0.0,
                 }
             )
+            if cut_table is not None:
+                share = 100.0 * float(cut_areas[cls - 1]) / a if a else 0.0
+                rows[-1]["percent_catchment_cut_off"] = round(share, 3)
     return rows
 
 

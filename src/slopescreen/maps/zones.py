@@ -60,8 +60,8 @@ def hazard_zones(
     scenario: str,
 ) -> object:
     """GeoDataFrame of polygons of classes 1 and 2, one per connected patch of a class in a
-    soil unit; patches under ``min_area_m2`` (the minimum mapping unit) are dropped. Areas in
-    m2, measured in a local UTM projection where the DEM is geographic."""
+    soil unit; patches under ``min_area_m2`` (the minimum mapping unit, on the ground) are
+    dropped. Areas are ground areas in m2 (:func:`ground_areas_m2`), whatever the CRS."""
     import geopandas as gpd
     import shapely
     from rasterio.windows import Window, transform
@@ -104,14 +104,35 @@ def hazard_zones(
     frame["scenario"] = scenario
     frame["class_name"] = [class_names[int(c) - 1] for c in frame["hazard_class"]]
     frame["soil_unit"] = [unit_keys[int(c) - 1] for c in frame["code"]]
-    if grid.geographic and len(frame):
-        area = frame.to_crs(frame.estimate_utm_crs()).area
-    else:
-        area = frame.area * grid.crs.linear_units_factor[1] ** 2  # type: ignore[attr-defined]
-    frame["area_m2"] = np.asarray(area, dtype=float)
+    frame["area_m2"] = ground_areas_m2(frame.geometry, grid)
     frame = frame[frame["area_m2"] >= min_area_m2].reset_index(drop=True)
     frame["hazard_class"] = frame["hazard_class"].astype("int32")
     return frame[["scenario", "hazard_class", "class_name", "soil_unit", "area_m2", "geometry"]]
+
+
+def ground_areas_m2(geometry: object, grid: Grid) -> np.ndarray:
+    """Ground areas (m2) of polygons in the grid's CRS: on the CRS's ellipsoid
+    (``pyproj.Geod.geometry_area_perimeter``, Karney 2013) after the edges are split at
+    the cell size, so that a straight edge on the map follows its true course on the
+    ground; a local CRS without a datum measures them in the plane."""
+    import geopandas as gpd
+    import shapely
+    from pyproj import CRS
+
+    geoms = np.asarray(geometry, dtype=object)
+    if geoms.size == 0:
+        return np.zeros(0)
+    t = grid.transform
+    if grid.ground.kind == "local":
+        factor = grid.ground.map_step[0] / abs(t.a)  # type: ignore[attr-defined]
+        return shapely.area(geoms) * factor**2
+    crs = CRS.from_user_input(grid.crs.to_wkt())  # type: ignore[attr-defined]
+    step = min(abs(t.a), abs(t.e))  # type: ignore[attr-defined]
+    dense = shapely.orient_polygons(shapely.segmentize(geoms, step))  # CCW outside, CW holes
+    lonlat = gpd.GeoSeries(dense, crs=grid.crs).to_crs(crs.geodetic_crs)
+    lonlat = shapely.orient_polygons(np.asarray(lonlat.values, dtype=object))
+    geod = crs.get_geod()
+    return np.array([abs(geod.geometry_area_perimeter(g)[0]) for g in lonlat], dtype=float)
 
 
 def grid_bounds(grid: Grid) -> tuple[float, float, float, float]:
