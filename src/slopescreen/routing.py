@@ -15,9 +15,10 @@
    contributing its own ground area; a flag (cells next to no data or the edge where
    ground beyond would drain in) can be carried downstream with it. Specific catchment
    area a/b = contributing area / contour width b. The width is the cell area over the
-   mean step the flow takes along its own direction, b = dx dy / (d1 cos(r) + (r / r_max) d2 sin(r)) for facet angle r, which is
-   the cell size for flow along a grid axis and d / sqrt(2) for diagonal flow. With it, an
-   inclined plane in any direction gives a/b = the upslope flow-path length to the cell's
+   mean step the flow takes along its own direction,
+   b = dx dy / (d1 cos(r) + (r / r_max) d2 sin(r)) for facet angle r, which is the cell
+   size for flow along a grid axis and d / sqrt(2) for diagonal flow. With it, an inclined
+   plane in any direction gives a/b = the upslope flow-path length to the cell's
    lower edge (by continuity: the flux across a contour equals the upslope area).
 
 Memory: the routing holds the whole grid. With the DEM filled in place it needs, at its
