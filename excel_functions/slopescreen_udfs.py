@@ -26,6 +26,7 @@ import numpy as np
 import xlwings as xw
 
 import slopescreen as core
+from slopescreen.ranges import check_ranges
 
 ERROR_PREFIX = "#SLOPESCREEN"
 NO_SOLUTION = "no solution"
@@ -93,6 +94,7 @@ def _call(
     """Convert ``cells`` {core argument: (cell, default)}, call ``fn``, convert back."""
     try:
         kwargs = {name: _value(name, cell, default) for name, (cell, default) in cells.items()}
+        check_ranges(kwargs)  # the same ranges as the shell and the soil table
         return convert(fn(**kwargs))
     except ValueError as exc:  # core.InputError is a ValueError
         return _error(exc)
@@ -516,6 +518,7 @@ def _reliability(
             "root_cohesion_kpa": (root_cohesion_kpa, 0.0),
         }
         v = {name: _value(name, cell, default) for name, (cell, default) in cells.items()}
+        check_ranges(v)  # names cohesion_sd_kpa, friction_sd_deg and the rest
         how = _text("method", method, "taylor", ("taylor", "monte_carlo"))
         values = {
             "slope_deg": v["slope_deg"],

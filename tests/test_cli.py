@@ -213,3 +213,35 @@ def test_unwritable_output_folder_is_one_line(tmp_path, capsys):
     err = capsys.readouterr().err
     assert code == 2
     assert err.count("\n") == 1 and "Not a directory" in err and "Traceback" not in err
+
+
+def test_one_range_per_quantity_in_shell_soil_table_and_cells(tmp_path, capsys):
+    # --unit-weight 190 was accepted by the shell while the soil table refused it
+    import slopescreen_udfs as udf
+
+    code = main(["slope", "--slope-deg", "30", "--depth-m", "1.5", "--cohesion-kpa", "2",
+                 "--friction-deg", "30", "--unit-weight", "190"])  # fmt: skip
+    err = capsys.readouterr().err
+    assert code == 2 and "unit_weight_kn_m3 must be in [5, 30] kN/m3, got 190" in err
+    code = main(["slope", "--slope-deg", "35", "--depth-m", "0", "--cohesion-kpa", "2",
+                 "--friction-deg", "30", "--unit-weight", "19"])  # fmt: skip
+    assert code == 2 and "depth_m must be in [0.05, 50] m, got 0" in capsys.readouterr().err
+    assert "unit_weight_kn_m3 must be in [5, 30] kN/m3" in udf.SS_FS(30, 1.5, 2, 30, 190)
+    from slopescreen.maps.config import SOIL_FIELDS
+
+    assert SOIL_FIELDS["unit_weight_kn_m3"][:2] == (5.0, 30.0)
+
+
+def test_envelope_errors_name_line_and_specimen(tmp_path, capsys):
+    path = tmp_path / "tests.csv"
+    path.write_text("specimen,sigma3_kpa,sigma1_kpa,pore_pressure_kpa\nT1,50,150,0\nT2,100,90,0\n")
+    assert main(["envelope", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert "tests.csv: line 3, specimen T2: sigma1_kpa 90 is below sigma3_kpa 100" in err
+    path.write_text(
+        "specimen,sigma3_kpa,sigma1_kpa,pore_pressure_kpa\nT1,50,150,60\nT2,100,290,0\n"
+    )
+    assert main(["envelope", str(path)]) == 2
+    assert "line 2, specimen T1: pore_pressure_kpa 60 exceeds sigma3_kpa 50" in (
+        capsys.readouterr().err
+    )

@@ -19,7 +19,8 @@ HEAVY = (
 
 def test_core_pulls_in_no_heavy_packages():
     code = (
-        "import sys, slopescreen; print(','.join(sorted({m.split('.')[0] for m in sys.modules})))"
+        "import sys, slopescreen, slopescreen.ranges, slopescreen.textfiles, slopescreen.storm; "
+        "print(','.join(sorted({m.split('.')[0] for m in sys.modules})))"
     )
     loaded = (
         subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)

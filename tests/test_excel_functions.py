@@ -174,7 +174,9 @@ def test_probability_functions_match_core():
     )
     mc = udf.SS_PF(35.0, 2.0, 7.0, 1.5, 31.0, 2.0, 19.0, 0.5, -0.4, "monte_carlo", 20000, 5)
     assert abs(mc - ref.probability_of_failure) < 0.02
-    assert udf.SS_PF(35.0, 2.0, 7.0, -1.0, 31.0, 2.0, 19.0).startswith("#SLOPESCREEN: sd")
+    assert udf.SS_PF(35.0, 2.0, 7.0, -1.0, 31.0, 2.0, 19.0).startswith(
+        "#SLOPESCREEN: cohesion_sd_kpa must be in [0, 1000]"
+    )
     assert "allowed: taylor, monte_carlo" in udf.SS_PF(
         35.0, 2.0, 7.0, 1.5, 31.0, 2.0, 19.0, None, None, "guess"
     )

@@ -432,3 +432,18 @@ def test_run_reports_voids_and_cut_off_share(tmp_path):
     cut_ha = sum(float(r["area_ha"]) * float(r["percent_catchment_cut_off"]) / 100 for r in rows)
     assert cut_ha == pytest.approx(12 * 5 * 100 / 10_000 * 0.9996**-2, rel=1e-3)
     assert "drain from beyond a no-data cell" in (tmp_path / "out" / "report.html").read_text()
+
+
+def test_geographic_rows_have_their_own_north_south_length():
+    # A 0.01-degree grid over 2 degrees of latitude: the ground length of a row step follows
+    # the meridian's curvature row by row (pyproj.Geod as the reference), not one value
+    # taken at mid-latitude (1.5e-4 relative over this span).
+    rows, step = 200, 0.01
+    ground = ground_geometry(from_origin(10.0, 50.0, step, step), CRS.from_epsg(4326), rows, 3)
+    lat = 50.0 - (np.arange(rows) + 0.5) * step
+    _, _, expected = GEOD.inv(
+        np.full(rows, 10.0), lat - step / 2, np.full(rows, 10.0), lat + step / 2
+    )
+    _, _, _, vn = ground.vectors(slice(0, rows), slice(0, 3))
+    assert np.allclose(np.ravel(vn), expected, rtol=1e-9)
+    assert expected.max() / expected.min() - 1.0 > 1e-4

@@ -137,6 +137,7 @@ def _huge_vrt(folder):
     _edit(folder / "scenarios.toml", 'dem = "dem.tif"', 'dem = "dem.vrt"')
 
 
+MC = '[reliability]\nmethod = "monte_carlo"\n'
 LATIN1_TOML = SCENARIO_TEXT.replace("test region", "Rég").encode("latin-1")
 BAD_INPUTS = {
     # text files in encodings other than UTF-8 (with or without BOM) or UTF-16 with BOM
@@ -187,19 +188,19 @@ BAD_INPUTS = {
         "saturation must be in [0, 1]",
     ),
     "huge samples": (
-        _text("[[scenario]]", f"[reliability]\nsamples = {2**62}\n\n[[scenario]]"),
+        _text("[[scenario]]", f"{MC}samples = {2**62}\n\n[[scenario]]"),
         "samples: must be a whole number",
     ),
     "fractional samples": (
-        _text("[[scenario]]", "[reliability]\nsamples = 5.5\n\n[[scenario]]"),
+        _text("[[scenario]]", f"{MC}samples = 5.5\n\n[[scenario]]"),
         "samples: must be a whole number",
     ),
     "largest random_state": (
-        _text("[[scenario]]", f"[reliability]\nrandom_state = {2**63 - 1}\n\n[[scenario]]"),
+        _text("[[scenario]]", f"{MC}random_state = {2**63 - 1}\n\n[[scenario]]"),
         "random_state: must be a whole number in [0, 4294967295]",
     ),
     "negative random_state": (
-        _text("[[scenario]]", "[reliability]\nrandom_state = -1\n\n[[scenario]]"),
+        _text("[[scenario]]", f"{MC}random_state = -1\n\n[[scenario]]"),
         "random_state",
     ),
     "name with newline": (_text('name = "dry"', 'name = "dry\\n"'), "(it names a folder)"),
@@ -241,6 +242,23 @@ BAD_INPUTS = {
     "override unknown unit": (
         _text("saturation = 0.0", "saturation = 0.0\n[scenario.soil.Z]\ncohesion_kpa = 1.0"),
         "soil override for unknown unit 'Z'",
+    ),
+    # keys that would change nothing for this configuration are refused
+    "samples with taylor": (
+        _text("[[scenario]]", "[reliability]\nsamples = 500\n\n[[scenario]]"),
+        'samples: applies to method = "monte_carlo" only',
+    ),
+    "fs_distribution with monte carlo": (
+        _text("[[scenario]]", f'{MC}fs_distribution = "normal"\n\n[[scenario]]'),
+        'fs_distribution: applies to method = "taylor"',
+    ),
+    "zone size without zones": (
+        _text("[[scenario]]", "[outputs]\nhazard_zones = false\n\n[[scenario]]"),
+        "min_zone_area_m2: applies to hazard zones",
+    ),
+    "diffusivity override without storm": (
+        _text("saturation = 0.0", "saturation = 0.0\n[scenario.soil.A]\ndiffusivity_m2_s = 1e-4"),
+        "diffusivity_m2_s: applies to storm scenarios only",
     ),
     # files the run cannot use
     "soil polygon without unit": (_null_unit, "has no value in field 'unit'"),

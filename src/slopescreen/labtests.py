@@ -30,6 +30,7 @@ class LabTests:
     kind: str
     labels: list[str]
     columns: dict[str, np.ndarray]
+    lines: list[int]  # the file line of each test
 
 
 def _number(path: Path, line: int, column: str, text: str, *, allow_blank: bool) -> float:
@@ -87,7 +88,9 @@ def read_lab_tests(path: str | Path) -> LabTests:
         )
     values: dict[str, list[float]] = {c: [] for c in wanted + [c for c in optional if c in names]}
     labels: list[str] = []
+    lines: list[int] = []
     for line, row in numbered[1:]:
+        lines.append(line)
         cells = dict(zip(names, row, strict=False))
         for column in values:
             cell = cells.get(column, "")
@@ -106,4 +109,19 @@ def read_lab_tests(path: str | Path) -> LabTests:
     columns = {k: np.array(v) for k, v in values.items()}
     if "deviator_kpa" in columns:
         columns["sigma1_kpa"] = columns["sigma3_kpa"] + columns.pop("deviator_kpa")
-    return LabTests(kind, labels, columns)
+    for i, label in enumerate(labels):  # name the test, not only the rule
+        s3 = columns.get("sigma3_kpa")
+        if s3 is None:
+            break
+        u = columns.get("pore_pressure_kpa", np.zeros_like(s3))[i]
+        if u > s3[i]:
+            raise InputError(
+                f"{path}: line {lines[i]}, specimen {label}: pore_pressure_kpa {u:g} exceeds "
+                f"sigma3_kpa {s3[i]:g} (effective confining stress must be >= 0)"
+            )
+        if columns["sigma1_kpa"][i] < s3[i]:
+            raise InputError(
+                f"{path}: line {lines[i]}, specimen {label}: sigma1_kpa "
+                f"{columns['sigma1_kpa'][i]:g} is below sigma3_kpa {s3[i]:g} (sigma1 >= sigma3)"
+            )
+    return LabTests(kind, labels, columns, lines)

@@ -6,7 +6,8 @@ are numpy-only and broadcast, so they also serve single slopes.
 Wetness is one of: a saturation ratio (uniform or per cell); steady recharge with
 m = min(1, R (a/b) / (T sin beta)) (see :mod:`slopescreen.hydrology`), T from
 ``transmissivity_m2_day`` where given, else T = K z cos(beta); or a design storm (see
-:mod:`slopescreen.storm`), for which FS is the minimum over depth at the end of the storm.
+:mod:`slopescreen.storm`), for which FS is the minimum over depth and time up to the
+storm's later time.
 """
 
 from __future__ import annotations
@@ -29,6 +30,7 @@ from slopescreen.storm import (
     StormSummary,
     equivalent_saturation,
     pressure_head_m,
+    storm_factor_of_safety,
     storm_summary,
 )
 
@@ -45,8 +47,8 @@ class Storm:
     later_h: float
     water_table_depth_m: float  # initial, vertical
     long_term_infiltration_m_s: float = 0.0
-    depth_steps: int = 10  # planes scanned from z/10 down to the soil base
-    time_steps: int = 24  # time-to-failure resolution: later_h / time_steps
+    depth_steps: int = 10  # planes scanned from z/10 down to the soil base, then refined
+    time_steps: int = 12  # times scanned from 0 to later_h, then refined
 
 
 class CellResults(NamedTuple):
@@ -83,12 +85,14 @@ def storm_response(
     hydraulic_conductivity_m_s: ArrayLike,
     diffusivity_m2_s: ArrayLike,
     end_only: bool = False,
+    seismic_coefficient: float = 0.0,
     **soil: ArrayLike | None,
 ) -> tuple[StormSummary, np.ndarray]:
-    """The storm scan of :func:`slopescreen.storm.storm_summary` for cells, up to the storm's
-    ``later_h`` in its ``time_steps`` (or, with ``end_only``, just the end of the storm), and
-    the equivalent saturation on the basal plane at the end of the storm. ``soil``: cohesion,
-    friction, unit weights, root cohesion."""
+    """The storm search of :func:`slopescreen.storm.storm_summary` for cells, up to the
+    storm's ``later_h`` in its ``time_steps`` (or, with ``end_only``, just the end of the
+    storm), and the equivalent saturation on the basal plane at the end of the storm.
+    ``soil``: cohesion, friction, unit weights, root cohesion; ``seismic_coefficient`` acts
+    throughout the storm."""
     hydro = dict(
         slope_deg=slope_deg,
         water_table_depth_m=storm.water_table_depth_m,
@@ -103,12 +107,48 @@ def storm_response(
         duration_h=storm.duration_h,
         depth_steps=storm.depth_steps,
         time_steps=1 if end_only else storm.time_steps,
+        seismic_coefficient=seismic_coefficient,
         **hydro,
         **soil,
     )
     psi = pressure_head_m(depth_m, storm.duration_h, duration_h=storm.duration_h, **hydro)
     m = equivalent_saturation(psi, depth_m, slope_deg)
     return res, np.broadcast_to(m, np.shape(res.end_min_fs))
+
+
+def storm_fs_at(
+    slope_deg: ArrayLike,
+    storm: Storm,
+    depth_fraction: ArrayLike,
+    time_h: ArrayLike,
+    *,
+    depth_m: ArrayLike,
+    hydraulic_conductivity_m_s: ArrayLike,
+    diffusivity_m2_s: ArrayLike,
+    seismic_coefficient: float = 0.0,
+    **soil: ArrayLike | None,
+) -> np.ndarray:
+    """FS on the plane at ``depth_fraction`` of the soil depth at ``time_h`` of a storm:
+    the critical plane and time found with the mean parameters, at which the Taylor-series
+    probability of a storm scenario is evaluated (Duncan 2000 evaluates the critical surface
+    of the mean values). ``soil``: cohesion, friction, unit weights, root cohesion."""
+    soil = {k: v for k, v in soil.items() if k != "transmissivity_m2_day"}
+    return np.asarray(
+        storm_factor_of_safety(
+            np.asarray(depth_fraction, float) * np.asarray(depth_m, float),
+            np.asarray(time_h, float),
+            slope_deg=slope_deg,
+            water_table_depth_m=storm.water_table_depth_m,
+            rain_mm_h=storm.rain_mm_h,
+            duration_h=storm.duration_h,
+            hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
+            diffusivity_m2_s=diffusivity_m2_s,
+            long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
+            seismic_coefficient=seismic_coefficient,
+            **soil,  # type: ignore[arg-type]
+        ),
+        dtype=float,
+    )
 
 
 def scenario_fs(
@@ -131,8 +171,9 @@ def scenario_fs(
 ) -> tuple[np.ndarray, np.ndarray]:
     """(FS, saturation m) of cells under one scenario's wetness; see the module docstring.
 
-    For a storm, FS is the minimum over depth at the end of the storm and m the equivalent
-    saturation max(psi, 0) / (z cos^2 beta) on the basal plane then.
+    For a storm, FS is the minimum over depth and time from the start of the storm to its
+    ``later_h`` (the value of ``fs.tif``) and m the equivalent saturation
+    max(psi, 0) / (z cos^2 beta) on the basal plane at the end of the storm.
     """
     slope = np.asarray(slope_deg, dtype=float)
     soil = dict(
@@ -149,10 +190,10 @@ def scenario_fs(
             depth_m=depth_m,
             hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
             diffusivity_m2_s=diffusivity_m2_s,
-            end_only=True,
+            seismic_coefficient=seismic_coefficient,
             **soil,
         )
-        return res.end_min_fs, m
+        return res.window_min_fs, m
     if recharge_mm_day is not None:
         t = cell_transmissivity_m2_day(
             hydraulic_conductivity_m_s, transmissivity_m2_day, depth_m, slope

@@ -50,6 +50,14 @@ recharge_mm_day = 25.0
 name = "quake"
 saturation = 0.5
 seismic_coefficient = 0.1
+
+[[scenario]]
+name = "design_storm"
+[scenario.storm]
+rain_mm_h = 20.0
+duration_h = 12.0
+later_h = 24.0
+initial_water_table_depth_m = 1.0
 """
 
 
@@ -94,6 +102,7 @@ def make_region(folder: Path, n: int, cell: float = 5.0) -> None:
             saturated_unit_weight_kn_m3=20.0,
             depth_m=1.0 + 0.3 * i,
             hydraulic_conductivity_m_s=1e-5 * (i + 1),
+            diffusivity_m2_s=1e-4,
             geometry=box(x0 + i * width / 4, y0, x0 + (i + 1) * width / 4, y0 + width),
         )
         for i in range(4)
@@ -117,6 +126,12 @@ def main() -> None:
     parser.add_argument("--size", type=int, default=10_000)
     parser.add_argument("--workdir", type=Path, default=None)
     parser.add_argument("--workers", type=int, default=0)
+    parser.add_argument(
+        "--storm-size",
+        type=int,
+        default=2000,
+        help="side of the region for the design-storm step, run apart (0: skip)",
+    )
     args = parser.parse_args()
     folder = args.workdir or Path(tempfile.mkdtemp(prefix="slopescreen-bench-"))
     started = time.perf_counter()
@@ -161,6 +176,20 @@ def main() -> None:
         f"one more scenario with a new seismic load (critical recharge recomputed): {third:.0f}"
         f" s for the whole command, {timings3['scenario quake']:.0f} s for the scenario"
     )
+    if args.storm_size:  # the bracketed minimum over depth and time, reported apart
+        storm_folder = folder / "storm"
+        make_region(storm_folder, args.storm_size)
+        _run([str(storm_folder / "scenarios.toml"), "--out", str(storm_folder / "out"),
+              "--only", "design_storm", *extra])  # fmt: skip
+        seconds = json.loads((storm_folder / "out" / "manifest.json").read_text())["timings_s"][
+            "scenario design_storm"
+        ]
+        cells = args.storm_size**2
+        print(
+            f"design storm (exact minimum over depth and time) on {cells / 1e6:.0f} M cells: "
+            f"{seconds:.0f} s for the scenario, {cells / seconds / 1e3:.0f} k cells/s; at that "
+            f"rate {args.size**2 / (cells / seconds) / 60:.0f} min for the main region"
+        )
 
 
 if __name__ == "__main__":

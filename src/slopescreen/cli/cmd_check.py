@@ -67,7 +67,8 @@ def run(args: argparse.Namespace) -> int:
     print(f"  per scenario: {', '.join(wanted)}")
     if any(sc.storm for sc in cfg.scenarios):
         print(
-            "  storm scenarios also: storm_fs_later.tif, storm_failure_depth_m.tif, "
+            "  storm scenarios also: storm_fs_end.tif, storm_fs_later.tif, "
+            "storm_failure_depth_m.tif, "
             "storm_time_to_failure_h.tif"
         )
     print(f"  across scenarios: {'report.html, ' if cfg.report else ''}manifest.json")

@@ -33,7 +33,9 @@ def add_to(sub: Any) -> None:
 def check_slope(kwargs: dict[str, Any]) -> dict[str, Any]:
     """All single-slope results for the given core keyword arguments."""
     from slopescreen import inverse, stability
+    from slopescreen.ranges import check_ranges
 
+    check_ranges(kwargs)  # the same ranges as the soil table and the spreadsheet cells
     kw = dict(kwargs)
     target = kw.pop("target_fs")
     slope, depth = kw.pop("slope_deg"), kw.pop("depth_m")
@@ -65,7 +67,7 @@ def _describe(name: str, value: float, target: float) -> str:
     if math.isfinite(value):
         return f"{value:.3f}"
     if name == "factor_of_safety":
-        return "no driving stress (flat ground): does not fail"
+        return "no driving stress (a flat slope with no seismic load): does not fail"
     return f"none (no value brings FS to {target:g})"
 
 

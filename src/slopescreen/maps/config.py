@@ -39,20 +39,22 @@ from typing import Any
 from slopescreen._checks import checked
 from slopescreen.errors import InputError
 from slopescreen.hazard import DEFAULT_FS_BREAKS, check_breaks
+from slopescreen.ranges import RANGES
 from slopescreen.textfiles import read_text
 
+_REQUIRED_SOIL = ("cohesion_kpa", "friction_deg", "unit_weight_kn_m3", "depth_m")
 SOIL_FIELDS: dict[str, tuple[float, float, bool]] = {
-    # field: (low, high, required)
-    "cohesion_kpa": (0.0, 1000.0, True),
-    "friction_deg": (0.0, 70.0, True),
-    "unit_weight_kn_m3": (5.0, 30.0, True),
-    "depth_m": (0.05, 50.0, True),
-    "saturated_unit_weight_kn_m3": (9.81, 30.0, False),
-    "root_cohesion_kpa": (0.0, 200.0, False),
-    "hydraulic_conductivity_m_s": (1e-12, 1.0, False),
-    "transmissivity_m2_day": (1e-9, 1e5, False),
-    "diffusivity_m2_s": (1e-9, 1.0, False),
-    "moisture_capacity_per_m": (1e-6, 10.0, False),
+    # field: (low, high, required); the ranges are the one table of slopescreen.ranges
+    name: (RANGES[name][0], RANGES[name][1], name in _REQUIRED_SOIL)
+    for name in (
+        *_REQUIRED_SOIL,
+        "saturated_unit_weight_kn_m3",
+        "root_cohesion_kpa",
+        "hydraulic_conductivity_m_s",
+        "transmissivity_m2_day",
+        "diffusivity_m2_s",
+        "moisture_capacity_per_m",
+    )
 }
 HYDRAULIC_FIELDS = ("hydraulic_conductivity_m_s", "transmissivity_m2_day")
 # fields that may carry a spread for probability of failure
@@ -105,7 +107,7 @@ class ReliabilitySpec:
     method: str = "taylor"
     samples: int = 1000
     random_state: int = 0
-    fs_distribution: str = "normal"
+    fs_distribution: str = "lognormal"  # Duncan (2000): FS is positive and skewed
 
 
 @dataclass(frozen=True)
@@ -283,7 +285,7 @@ def load_config(path: str | Path) -> Config:
         method = "taylor"                  # or "monte_carlo"
         samples = 1000
         random_state = 1                   # same number, same samples
-        fs_distribution = "normal"         # or "lognormal" (Taylor method)
+        fs_distribution = "lognormal"      # or "normal" (Taylor method; default lognormal)
     """
     path = Path(path)
     text = read_text(path, "scenario file")
@@ -346,11 +348,12 @@ def load_config(path: str | Path) -> Config:
             "method",
             f"must be one of {', '.join(RELIABILITY_METHODS)}, got {method!r}",
         )
-    fs_dist = r.text("reliability", rel, "fs_distribution", "normal")
+    fs_dist = r.text("reliability", rel, "fs_distribution", "lognormal")
     if fs_dist not in ("normal", "lognormal"):
         raise r.fail(
             "reliability", "fs_distribution", f"must be normal or lognormal, got {fs_dist!r}"
         )
+    _refuse_unused_reliability(r, rel, method, raw_storms=_has_storm(data.get("scenario")))
     reliability = ReliabilitySpec(
         method=method,
         samples=r.integer("reliability", rel, "samples", 10, 10_000_000, 1000),
@@ -368,6 +371,11 @@ def load_config(path: str | Path) -> Config:
                 "", "scenario", f"each scenario must be a [[scenario]] table, got {_shown(sc)}"
             )
         scenarios.append(_scenario(r, f"scenario#{i}", sc, {s.name for s in scenarios}))
+    zones = r.flag("outputs", out, "hazard_zones", True)
+    if not zones and "min_zone_area_m2" in haz:
+        raise r.fail(
+            "hazard", "min_zone_area_m2", "applies to hazard zones, and hazard_zones = false"
+        )
     return Config(
         path=path.resolve(),
         text=text,
@@ -375,12 +383,38 @@ def load_config(path: str | Path) -> Config:
         fs_breaks=breaks,
         min_zone_area_m2=float(min_zone),
         fs_cap=float(fs_cap),
-        hazard_zones=r.flag("outputs", out, "hazard_zones", True),
+        hazard_zones=zones,
         quicklook_map=r.flag("outputs", out, "quicklook_map", True),
         report=r.flag("outputs", out, "report", True),
         scenarios=tuple(scenarios),
         reliability=reliability,
     )
+
+
+def _has_storm(raw: object) -> bool:
+    return isinstance(raw, list) and any(isinstance(s, dict) and "storm" in s for s in raw)
+
+
+def _refuse_unused_reliability(
+    r: _Reader, rel: dict[str, Any], method: str, raw_storms: bool
+) -> None:
+    """Keys that would change nothing are refused: samples and random_state belong to Monte
+    Carlo; fs_distribution to the Taylor series (storm scenarios always use it)."""
+    if method != "monte_carlo":
+        for key in ("samples", "random_state"):
+            if key in rel:
+                raise r.fail(
+                    "reliability", key, 'applies to method = "monte_carlo" only; remove it'
+                )
+    elif "fs_distribution" in rel and not raw_storms:
+        raise r.fail(
+            "reliability",
+            "fs_distribution",
+            'applies to method = "taylor" (and storm scenarios) only; remove it',
+        )
+
+
+STORM_ONLY_FIELDS = ("diffusivity_m2_s", "moisture_capacity_per_m")
 
 
 def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Scenario:
@@ -418,6 +452,9 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
         if not isinstance(fields, dict):
             raise r.fail(sub, "", f"soil override for unit {unit!r} must be a table")
         r.known(sub, fields, set(SOIL_FIELDS))
+        for key in STORM_ONLY_FIELDS:
+            if key in fields and "storm" not in sc:
+                raise r.fail(sub, key, "applies to storm scenarios only; remove it")
         overrides[str(unit)] = {k: r.number(sub, fields, k, *SOIL_FIELDS[k][:2]) for k in fields}  # type: ignore[misc]
     storm = None
     if "storm" in sc:
@@ -447,6 +484,8 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
         if "saturation_raster" in sc
         else None,
         recharge_mm_day=r.number(table, sc, "recharge_mm_day", 0.0, 10000.0),
-        seismic_coefficient=float(r.number(table, sc, "seismic_coefficient", 0.0, 0.99, 0.0)),
+        seismic_coefficient=float(
+            r.number(table, sc, "seismic_coefficient", *RANGES["seismic_coefficient"][:2], 0.0)
+        ),
         soil_overrides=overrides,
     )

@@ -109,6 +109,7 @@ class RunState:
     finished: list[str] = field(default_factory=list)
     missing: list[str] = field(default_factory=list)
     outputs: list[str] = field(default_factory=list)  # relative paths this run wrote
+    hashes: dict[str, str] = field(default_factory=dict)  # of those, hashed once each
     summaries: list[ScenarioSummary] = field(default_factory=list)
     terrain: dict[str, object] = field(default_factory=dict)
 
@@ -147,6 +148,7 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
             | {
                 "slopescreen_version": __version__,
                 "description": "soil unit code; unit_N names code N",
+                "ground_geometry": grid.ground.note,
             },
         )
     with all_or_nothing(sink) if sink is not None else nullcontext():
@@ -387,6 +389,13 @@ def _finite(value: float) -> float | None:
     return float(value) if np.isfinite(value) else None
 
 
+def _output_sha256(out: Path, name: str, state: RunState) -> str:
+    """A written output's SHA-256, computed once (the manifest is rewritten per scenario)."""
+    if name not in state.hashes:
+        state.hashes[name] = file_sha256(out / name)
+    return state.hashes[name]
+
+
 def write_state(
     out: Path,
     cfg: Config,
@@ -444,7 +453,7 @@ def write_state(
             "warnings": inputs.soils.warnings,
         },
         "timings_s": timings.steps,
-        "outputs": {name: file_sha256(out / name) for name in sorted(state.outputs)},
+        "outputs": {name: _output_sha256(out, name, state) for name in sorted(state.outputs)},
         "cautions": list(CAUTIONS),
     }
     text = json.dumps(manifest, indent=2, allow_nan=False) + "\n"

@@ -66,26 +66,37 @@ class Ground:
         self, rows: slice, cols: slice
     ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """(u_east, u_north, v_east, v_north) for a block, broadcastable to its shape."""
-        r = np.arange(rows.start, rows.stop)
-        c = np.arange(cols.start, cols.stop)
-        ir, tr = _weights(self.node_rows, self.row_step, r)
-        ic, tc = _weights(self.node_cols, self.col_step, c)
-        out = []
-        for field in (self.u[..., 0], self.u[..., 1], self.v[..., 0], self.v[..., 1]):
-            if field.shape[1] == 2 and np.array_equal(field[:, 0], field[:, 1]):
-                col = (1 - tr) * field[ir, 0] + tr * field[ir + 1, 0]  # depends on the row only
-                out.append(col[:, None])
-                continue
-            used = slice(ir.min(), ir.max() + 2)  # the node rows this block needs
-            along = field[used][:, ic] * (1 - tc) + field[used][:, ic + 1] * tc
-            i = ir - used.start
-            out.append(along[i] * (1 - tr)[:, None] + along[i + 1] * tr[:, None])
+        fields = (self.u[..., 0], self.u[..., 1], self.v[..., 0], self.v[..., 1])
+        out = [self._interpolate(field, rows, cols) for field in fields]
         return out[0], out[1], out[2], out[3]
 
+    def cell_area_at(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+        """Ground cell area at the given cells (index arrays), bilinear between nodes."""
+        area = np.abs(self.u[..., 0] * self.v[..., 1] - self.u[..., 1] * self.v[..., 0])
+        ir, tr = _weights(self.node_rows, self.row_step, np.asarray(rows, np.int64))
+        ic, tc = _weights(self.node_cols, self.col_step, np.asarray(cols, np.int64))
+        top = area[ir, ic] * (1 - tc) + area[ir, ic + 1] * tc
+        bottom = area[ir + 1, ic] * (1 - tc) + area[ir + 1, ic + 1] * tc
+        return top * (1 - tr) + bottom * tr
+
+    def _interpolate(self, field: np.ndarray, rows: slice, cols: slice) -> np.ndarray:
+        """Bilinear values of a field on the nodes over a block (a column where the field
+        depends on the row only)."""
+        r = np.arange(rows.start, rows.stop)
+        ir, tr = _weights(self.node_rows, self.row_step, r)
+        if field.shape[1] == 2 and np.array_equal(field[:, 0], field[:, 1]):
+            return ((1 - tr) * field[ir, 0] + tr * field[ir + 1, 0])[:, None]
+        ic, tc = _weights(self.node_cols, self.col_step, np.arange(cols.start, cols.stop))
+        used = slice(ir.min(), ir.max() + 2)  # the node rows this block needs
+        along = field[used][:, ic] * (1 - tc) + field[used][:, ic + 1] * tc
+        i = ir - used.start
+        return along[i] * (1 - tr)[:, None] + along[i + 1] * tr[:, None]
+
     def cell_area_m2(self, rows: slice, cols: slice) -> np.ndarray:
-        """Ground area of each cell of a block, |u x v| (broadcastable to the block)."""
-        ue, un, ve, vn = self.vectors(rows, cols)
-        return np.abs(ue * vn - un * ve)
+        """Ground area of each cell of a block (broadcastable to the block): |u x v| on the
+        nodes, bilinear between them, as the routing takes it (one field to interpolate)."""
+        area = np.abs(self.u[..., 0] * self.v[..., 1] - self.u[..., 1] * self.v[..., 0])
+        return self._interpolate(area, rows, cols)
 
     def ground_gradient(
         self, rows: slice, cols: slice, dz_dcol: np.ndarray, dz_drow_up: np.ndarray

@@ -40,6 +40,7 @@ SCENARIO_FILES = (
     "saturation.tif",
     RECHARGE,
     "hazard_class.tif",
+    "storm_fs_end.tif",
     "storm_fs_later.tif",
     "storm_failure_depth_m.tif",
     "storm_time_to_failure_h.tif",
@@ -94,7 +95,14 @@ def _sinks(
             fs_cap=f"{cfg.fs_cap:g}",
             fs_cap_note=f"FS above {cfg.fs_cap:g}, including flat ground with no driving "
             f"stress, is stored as {cfg.fs_cap:g}",
-            **({"fs_when": "minimum over depth at the end of the storm"} if sc.storm else {}),
+            **(
+                {
+                    "fs_when": "minimum over depth and time from the start of the storm to "
+                    f"{sc.storm.later_h:g} h (bracketed and refined; see storm_summary)"
+                }
+                if sc.storm
+                else {}
+            ),
         ),
         "saturation": f32("saturation.tif", units="saturation ratio m = h_w / z"),
         "hazard": RasterSink(
@@ -111,6 +119,11 @@ def _sinks(
     }
     sinks["recharge"] = f32(RECHARGE, **recharge_tags(sc))
     if sc.storm is not None:
+        sinks["storm_fs_end"] = f32(
+            "storm_fs_end.tif",
+            units="minimum FS over depth",
+            when=f"at the end of the storm, {sc.storm.duration_h:g} h after it began",
+        )
         sinks["storm_fs_later"] = f32(
             "storm_fs_later.tif",
             units="minimum FS over depth",
@@ -118,7 +131,7 @@ def _sinks(
         )
         sinks["storm_failure_depth"] = f32(
             "storm_failure_depth_m.tif",
-            units="m, vertical depth of the minimum FS at the end of the storm",
+            units="m, vertical depth of the minimum FS over depth and time (fs.tif)",
         )
         sinks["storm_time_to_failure"] = f32(
             "storm_time_to_failure_h.tif",
@@ -126,17 +139,45 @@ def _sinks(
             code_no_failure=f"{NO_FAILURE_CODE:g} (FS stays >= 1 up to {sc.storm.later_h:g} h)",
         )
     if with_probability:
-        method = "taylor" if sc.storm is not None else cfg.reliability.method
+        conventions = probability_conventions(cfg, sc)
         sinks["probability"] = f32(
-            "probability_of_failure.tif", units="P(FS < 1), 0 to 1", method=method
+            "probability_of_failure.tif", units="P(FS < 1), 0 to 1", **conventions
         )
         sinks["reliability"] = f32(
             "reliability_index.tif",
             units="reliability index beta",
-            method=method,
             cap=f"stored within +-{BETA_CAP:g}",
+            **conventions,
         )
     return sinks
+
+
+def probability_conventions(cfg: Config, sc: Scenario) -> dict[str, str]:
+    """How P_f and beta were obtained, for the raster tags and the report."""
+    if sc.storm is not None or cfg.reliability.method == "taylor":
+        lognormal = cfg.reliability.fs_distribution == "lognormal"
+        out = {
+            "method": "taylor",
+            "fs_distribution": cfg.reliability.fs_distribution,
+            "beta": "ln(F / sqrt(1 + V^2)) / sqrt(ln(1 + V^2)), V = sigma_F / F (Duncan 2000)"
+            if lognormal
+            else "(F - 1) / sigma_F",
+            "p_f": "Phi(-beta)",
+            "correlation_model": "c'-phi' correlation used as the Pearson correlation of the "
+            "inputs in the variance sum",
+        }
+        if sc.storm is not None:
+            out["storm"] = "at the critical depth and time of the mean parameters"
+        return out
+    return {
+        "method": "monte_carlo",
+        "fs_distribution": "none assumed: P_f is the share of samples with FS < 1",
+        "beta": "-Phi^-1(P_f) (generalised reliability index)",
+        "p_f": f"share of {cfg.reliability.samples} samples with FS < 1, random_state "
+        f"{cfg.reliability.random_state}",
+        "correlation_model": "c'-phi' correlation applied to the normal scores (Gaussian "
+        "copula); the Pearson correlation of the sampled values can differ a little",
+    }
 
 
 def recharge_tags(sc: Scenario) -> dict[str, str]:

@@ -28,7 +28,7 @@ from slopescreen.reliability import Spread, reliability_fosm, reliability_monte_
 from slopescreen.scenario import (
     Storm,
     critical_recharge_mm_day,
-    scenario_fs,
+    storm_fs_at,
     storm_response,
 )
 
@@ -118,14 +118,18 @@ def _fs_fast(seismic: float, tan_slope: np.ndarray, saturation: Any, **p: Any) -
 
 def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) -> np.ndarray:
     """FS of a unit's cells for the reliability methods (samples broadcast over cells)."""
-    if sc.storm is not None:
-        return scenario_fs(
+    if sc.storm is not None:  # at the critical plane and time of the mean parameters
+        p.pop("specific_catchment_area_m")
+        storm = core_storm(sc)
+        assert storm is not None
+        return storm_fs_at(
             p.pop("slope_deg"),
-            p.pop("specific_catchment_area_m"),
-            storm=core_storm(sc),
+            storm,
+            block["storm_depth_fraction"],
+            block["storm_time_h"],
             seismic_coefficient=sc.seismic_coefficient,
             **p,
-        )[0]
+        )
     slope = p.pop("slope_deg")
     sca = p.pop("specific_catchment_area_m")
     if sc.recharge_mm_day is not None:
@@ -214,11 +218,15 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
         summary, m = storm_response(
             block["slope"],
             storm,
+            seismic_coefficient=float(sc.seismic_coefficient),
             **{k: v for k, v in params.items() if k != "transmissivity_m2_day"},
         )
-        fs = summary.end_min_fs
+        fs = summary.window_min_fs
+        block["storm_depth_fraction"] = summary.window_critical_depth_m / params["depth_m"]
+        block["storm_time_h"] = summary.window_critical_time_h
+        values["storm_fs_end"] = np.minimum(summary.end_min_fs, job.fs_cap)
         values["storm_fs_later"] = np.minimum(summary.later_min_fs, job.fs_cap)
-        values["storm_failure_depth"] = summary.end_critical_depth_m
+        values["storm_failure_depth"] = summary.window_critical_depth_m
         values["storm_time_to_failure"] = np.where(
             np.isnan(summary.time_to_failure_h), NO_FAILURE_CODE, summary.time_to_failure_h
         )

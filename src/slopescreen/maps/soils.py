@@ -48,6 +48,7 @@ class SoilUnits:
     correlations: dict[int, float] = field(default_factory=dict)  # c'-phi' by unit code
     data_cells: int = 0  # DEM cells with data
     codes_sha256: str = ""  # content of the rasterized unit codes (set with the coverage)
+    diffusivity_derived: frozenset[int] = frozenset()  # codes whose D0 is K / C0
 
     def unit_spreads(self, code: int) -> dict[str, Spread]:
         """The unit's spreads, centred on its current (possibly overridden) means."""
@@ -127,6 +128,15 @@ class SoilUnits:
                 if name in HYDRAULIC_FIELDS:  # one hydraulic property replaces the other
                     other = next(h for h in HYDRAULIC_FIELDS if h != name)
                     params[other][code] = np.nan
+            capacity = "moisture_capacity_per_m" in fields
+            conductivity = "hydraulic_conductivity_m_s" in fields
+            if "diffusivity_m2_s" not in fields and (
+                capacity or (conductivity and code in self.diffusivity_derived)
+            ):  # D0 = K / C0 follows a new K or C0
+                params["diffusivity_m2_s"][code] = (
+                    params["hydraulic_conductivity_m_s"][code]
+                    / params["moisture_capacity_per_m"][code]
+                )
         return dataclasses.replace(self, parameters=params)
 
 
@@ -337,6 +347,7 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
             correlations[code] = rho
     # hydraulic diffusivity D0 = K / C0 where only the moisture capacity C0 is given
     derived = params["hydraulic_conductivity_m_s"] / params["moisture_capacity_per_m"]
+    from_capacity = np.isnan(params["diffusivity_m2_s"]) & np.isfinite(derived)
     params["diffusivity_m2_s"] = np.where(
         np.isnan(params["diffusivity_m2_s"]), derived, params["diffusivity_m2_s"]
     )
@@ -370,5 +381,6 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
         sources={"polygons": str(region.soil_units), "parameters": source},
         spreads=spreads,
         correlations=correlations,
+        diffusivity_derived=frozenset(int(c) for c in np.flatnonzero(from_capacity)),
     )
     return units

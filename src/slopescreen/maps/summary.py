@@ -19,7 +19,9 @@ def add_areas(
     """Add each cell's ground area (an array broadcastable to the block) to
     table[unit code, class], block by block."""
     area = np.broadcast_to(cell_area_m2, codes.shape)
-    np.add.at(table, (codes.ravel(), classes.ravel()), area.ravel())
+    n_classes = table.shape[1]
+    index = codes.astype(np.int64).ravel() * n_classes + classes.astype(np.int64).ravel()
+    table += np.bincount(index, weights=area.ravel(), minlength=table.size).reshape(table.shape)
 
 
 def summary_rows(

@@ -110,11 +110,19 @@ def hazard_zones(
     return frame[["scenario", "hazard_class", "class_name", "soil_unit", "area_m2", "geometry"]]
 
 
+SMALL_ZONE_CELLS = 32  # zones within this many cells a side: local areal scale suffices
+
+
 def ground_areas_m2(geometry: object, grid: Grid) -> np.ndarray:
-    """Ground areas (m2) of polygons in the grid's CRS: on the CRS's ellipsoid
-    (``pyproj.Geod.geometry_area_perimeter``, Karney 2013) after the edges are split at
-    the cell size, so that a straight edge on the map follows its true course on the
-    ground; a local CRS without a datum measures them in the plane."""
+    """Ground areas (m2) of polygons in the grid's CRS.
+
+    A polygon that spans at most ``SMALL_ZONE_CELLS`` cells each way takes its map area
+    times the ground-to-map area ratio of the cell under its centroid (the areal scale
+    changes by far less than 0.1% over such a span on the projections in use); a larger
+    one is measured on the CRS's ellipsoid (``pyproj.Geod.geometry_area_perimeter``,
+    Karney 2013) after its edges are split at the cell size, so that a straight edge on
+    the map follows its true course on the ground. A local CRS without a datum measures in
+    the plane."""
     import geopandas as gpd
     import shapely
     from pyproj import CRS
@@ -123,16 +131,29 @@ def ground_areas_m2(geometry: object, grid: Grid) -> np.ndarray:
     if geoms.size == 0:
         return np.zeros(0)
     t = grid.transform
+    map_cell = abs(t.a * t.e)  # type: ignore[attr-defined]
     if grid.ground.kind == "local":
         factor = grid.ground.map_step[0] / abs(t.a)  # type: ignore[attr-defined]
         return shapely.area(geoms) * factor**2
-    crs = CRS.from_user_input(grid.crs.to_wkt())  # type: ignore[attr-defined]
-    step = min(abs(t.a), abs(t.e))  # type: ignore[attr-defined]
-    dense = shapely.orient_polygons(shapely.segmentize(geoms, step))  # CCW outside, CW holes
-    lonlat = gpd.GeoSeries(dense, crs=grid.crs).to_crs(crs.geodetic_crs)
-    lonlat = shapely.orient_polygons(np.asarray(lonlat.values, dtype=object))
-    geod = crs.get_geod()
-    return np.array([abs(geod.geometry_area_perimeter(g)[0]) for g in lonlat], dtype=float)
+    bounds = shapely.bounds(geoms)
+    span = np.maximum(
+        (bounds[:, 2] - bounds[:, 0]) / abs(t.a),  # type: ignore[attr-defined]
+        (bounds[:, 3] - bounds[:, 1]) / abs(t.e),  # type: ignore[attr-defined]
+    )
+    centre = shapely.centroid(geoms)
+    col = np.clip(((shapely.get_x(centre) - t.c) / t.a).astype(np.int64), 0, grid.width - 1)  # type: ignore[attr-defined]
+    row = np.clip(((shapely.get_y(centre) - t.f) / t.e).astype(np.int64), 0, grid.height - 1)  # type: ignore[attr-defined]
+    areas = shapely.area(geoms) * grid.ground.cell_area_at(row, col) / map_cell
+    large = np.flatnonzero(span > SMALL_ZONE_CELLS)
+    if large.size:
+        crs = CRS.from_user_input(grid.crs.to_wkt())  # type: ignore[attr-defined]
+        step = min(abs(t.a), abs(t.e))  # type: ignore[attr-defined]
+        dense = shapely.orient_polygons(shapely.segmentize(geoms[large], step))
+        lonlat = gpd.GeoSeries(dense, crs=grid.crs).to_crs(crs.geodetic_crs)
+        lonlat = shapely.orient_polygons(np.asarray(lonlat.values, dtype=object))
+        geod = crs.get_geod()
+        areas[large] = [abs(geod.geometry_area_perimeter(g)[0]) for g in lonlat]
+    return areas
 
 
 def grid_bounds(grid: Grid) -> tuple[float, float, float, float]:

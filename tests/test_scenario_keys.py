@@ -1,0 +1,200 @@
+"""Every key the scenario file accepts reaches the results: changing it alone changes the
+outputs of a run (or, where it cannot matter for that scenario kind, the file is refused;
+those refusals are rows of the bad-input table in test_trustworthy_runs.py)."""
+
+import geopandas as gpd
+import numpy as np
+import pytest
+import rasterio
+from region_files import PARAMS, _dem, _polygons
+
+from slopescreen.maps.config import SOIL_FIELDS, STORM_KEYS
+from slopescreen.maps.engine import run
+
+SOIL = dict(PARAMS, diffusivity_m2_s=1e-4)
+KINDS = {
+    "uniform": "saturation = 0.3",
+    "raster": 'saturation_raster = "m.tif"',
+    "recharge": "recharge_mm_day = 40.0",
+    "storm": (
+        "[scenario.storm]\nrain_mm_h = 20.0\nduration_h = 6.0\nlater_h = 12.0\n"
+        "initial_water_table_depth_m = 1.0\nlong_term_infiltration_mm_day = 0.0"
+    ),
+}
+
+
+def _text(kind, region="", hazard="", outputs="", reliability="", scenario="", soil=""):
+    wet = KINDS[kind]
+    head, _, storm = wet.partition("[scenario.storm]")
+    storm = f"[scenario.storm]{storm}" if storm else ""
+    return (
+        f'[region]\nname = "keys"\ndem = "dem.tif"\nsoil_units = "soils.geojson"\n{region}\n'
+        f"[hazard]\nmin_zone_area_m2 = 0.0\n{hazard}\n[outputs]\n{outputs}\n"
+        f"[reliability]\n{reliability}\n"
+        f'[[scenario]]\nname = "s"\ndescription = "base"\n{head}\n{scenario}\n{storm}\n'
+        + (f"[scenario.soil.A]\n{soil}\n" if soil else "")
+    )
+
+
+def _outputs(out):
+    return {
+        str(p.relative_to(out)): p.read_bytes()
+        for p in sorted(out.rglob("*"))
+        if p.is_file()
+        and p.name != "manifest.json"
+        and not any(part.startswith(".") for part in p.relative_to(out).parts)
+    }
+
+
+@pytest.fixture(scope="module")
+def region(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("keys")
+    _dem(folder / "dem.tif")
+    _polygons(folder / "soils.geojson", diffusivity_m2_s=1e-4, cohesion_kpa_sd=0.5)
+    frame = gpd.read_file(folder / "soils.geojson")
+    frame["other"] = ["B", "A"]  # the units swapped, for soil_unit_field
+    frame["diffusivity_m2_s"] = 1e-4
+    frame.to_file(folder / "soils.geojson", driver="GeoJSON")
+    frame.to_file(folder / "soils.gpkg", layer="first", driver="GPKG")
+    frame.assign(cohesion_kpa=[4.0, 1.0]).to_file(folder / "soils.gpkg", layer="second")
+    with rasterio.open(folder / "dem.tif") as src:
+        profile = src.profile
+    for name, value in (("m.tif", 0.4), ("m2.tif", 0.7)):
+        with rasterio.open(folder / name, "w", **profile) as dst:
+            dst.write(np.full((1, 40, 50), value, np.float32))
+    (folder / "table.csv").write_text(
+        "unit,cohesion_kpa,friction_deg,unit_weight_kn_m3,depth_m,hydraulic_conductivity_m_s,"
+        "diffusivity_m2_s,cohesion_kpa_sd\nA,3,31,18,1.5,1e-5,1e-4,0.5\nB,5,30,18,1.5,1e-5,"
+        "1e-4,0.5\n"
+    )
+    return folder
+
+
+def _run(region, tmp_path, name, text):
+    toml = region / f"{name}.toml"
+    toml.write_text(text)
+    out = tmp_path / name
+    run(toml, out, progress=False, echo=lambda s: None)
+    return _outputs(out)
+
+
+# (section, key, changed line): every key of [region], [hazard], [outputs], [reliability]
+FILE_KEYS = [
+    ("region", "name", 'name = "other"'),
+    ("region", "dem_elevation_unit", 'dem_elevation_unit = "ft"'),
+    ("region", "soil_unit_field", 'soil_unit_field = "other"'),
+    ("region", "soil_table", 'soil_table = "table.csv"'),
+    ("hazard", "fs_breaks", "fs_breaks = [1.0, 1.2, 1.4]"),
+    ("hazard", "min_zone_area_m2", "min_zone_area_m2 = 5000.0"),
+    ("outputs", "fs_cap", "fs_cap = 1.6"),
+    ("outputs", "hazard_zones", "hazard_zones = false"),
+    ("outputs", "quicklook_map", "quicklook_map = false"),
+    ("outputs", "report", "report = false"),
+    ("reliability", "method", 'method = "monte_carlo"\nsamples = 50'),
+    ("reliability", "fs_distribution", 'fs_distribution = "normal"'),
+]
+
+
+@pytest.mark.parametrize(("section", "key", "line"), FILE_KEYS, ids=[k for _, k, _ in FILE_KEYS])
+def test_every_file_key_changes_the_outputs(section, key, line, region, tmp_path):
+    base_text = _text("uniform")
+    base = _run(region, tmp_path, "base", base_text)
+    if key in ("name", "min_zone_area_m2"):  # keys the base sets: replaced
+        old = next(x for x in base_text.splitlines() if x.startswith(f"{key} ="))
+        changed = base_text.replace(old, line, 1)
+    elif key == "hazard_zones":  # without zones, their minimum size is refused
+        changed = _text("uniform", **{section: line}).replace("min_zone_area_m2 = 0.0\n", "")
+    else:
+        changed = _text("uniform", **{section: line})
+    assert _run(region, tmp_path, key, changed) != base
+
+
+def test_soil_layer_and_monte_carlo_keys_change_the_outputs(region, tmp_path):
+    layered = _text("uniform").replace('"soils.geojson"', '"soils.gpkg"')
+    first = _run(
+        region,
+        tmp_path,
+        "first",
+        layered.replace("\n\n[hazard]", '\nsoil_layer = "first"\n\n[hazard]', 1),
+    )
+    second = _run(
+        region,
+        tmp_path,
+        "second",
+        layered.replace("\n\n[hazard]", '\nsoil_layer = "second"\n\n[hazard]', 1),
+    )
+    assert first != second
+    mc = 'method = "monte_carlo"\nsamples = 50\n'
+    a = _run(region, tmp_path, "mc_a", _text("uniform", reliability=mc + "random_state = 1"))
+    b = _run(region, tmp_path, "mc_b", _text("uniform", reliability=mc + "random_state = 2"))
+    c = _run(region, tmp_path, "mc_c", _text("uniform", reliability=mc.replace("50", "80")))
+    assert a != b and a != c
+
+
+SCENARIO_KEYS = {
+    "name": 'name = "t"',
+    "description": 'description = "another"',
+    "seismic_coefficient": "seismic_coefficient = 0.1",
+}
+WETNESS_CHANGES = {
+    "uniform": ("saturation = 0.3", "saturation = 0.6"),
+    "raster": ('saturation_raster = "m.tif"', 'saturation_raster = "m2.tif"'),
+    "recharge": ("recharge_mm_day = 40.0", "recharge_mm_day = 5.0"),
+}
+STORM_CHANGES = {
+    "rain_mm_h": "rain_mm_h = 50.0",
+    "duration_h": "duration_h = 9.0",
+    "later_h": "later_h = 30.0",
+    "initial_water_table_depth_m": "initial_water_table_depth_m = 0.4",
+    "long_term_infiltration_mm_day": "long_term_infiltration_mm_day = 0.5",
+}
+SOIL_CHANGES = {
+    "cohesion_kpa": 4.0,
+    "friction_deg": 35.0,
+    "unit_weight_kn_m3": 20.0,
+    "depth_m": 0.8,
+    "saturated_unit_weight_kn_m3": 21.0,
+    "root_cohesion_kpa": 2.0,
+    "hydraulic_conductivity_m_s": 3e-6,
+    "transmissivity_m2_day": 0.05,
+    "diffusivity_m2_s": 2e-5,
+    "moisture_capacity_per_m": 0.5,
+}
+
+
+def test_the_key_lists_are_complete():
+    assert set(SOIL_CHANGES) == set(SOIL_FIELDS)
+    assert set(STORM_CHANGES) == set(STORM_KEYS)
+
+
+@pytest.mark.parametrize("kind", sorted(KINDS))
+def test_every_scenario_key_changes_the_outputs(kind, region, tmp_path):
+    base = _run(region, tmp_path, "base", _text(kind))
+    base_text = _text(kind)
+    changes = {"seismic_coefficient": _text(kind, scenario=SCENARIO_KEYS["seismic_coefficient"])}
+    for key, old in (("name", 'name = "s"'), ("description", 'description = "base"')):
+        changes[key] = base_text.replace(old, SCENARIO_KEYS[key], 1)  # set by the base
+    if kind in WETNESS_CHANGES:
+        old, new = WETNESS_CHANGES[kind]
+        changes["wetness"] = _text(kind).replace(old, new)
+    else:
+        for key, line in STORM_CHANGES.items():
+            changes[key] = _text(kind).replace(
+                next(x for x in KINDS["storm"].splitlines() if x.startswith(key)), line
+            )
+    for field, value in SOIL_CHANGES.items():
+        if field in ("diffusivity_m2_s", "moisture_capacity_per_m") and kind != "storm":
+            continue  # refused outside storms (test_trustworthy_runs: bad-input table)
+        if field == "transmissivity_m2_day" and kind == "storm":
+            continue  # it replaces the conductivity a storm needs: refused (test below)
+        changes[f"soil.{field}"] = _text(kind, soil=f"{field} = {value}")
+    unchanged = [k for k, text in changes.items() if _run(region, tmp_path, k, text) == base]
+    assert unchanged == [], f"{kind}: keys that changed nothing: {unchanged}"
+
+
+def test_transmissivity_alone_is_refused_for_a_storm(region, tmp_path):
+    from slopescreen.errors import InputError
+
+    text = _text("storm", soil="transmissivity_m2_day = 0.05")
+    with pytest.raises(InputError, match="storm scenario 's' needs hydraulic_conductivity_m_s"):
+        _run(region, tmp_path, "refused", text)
