@@ -128,8 +128,8 @@ class Scenario:
             st = self.storm
             return (
                 f"design storm {st.rain_mm_h:g} mm/h for {st.duration_h:g} h, water table "
-                f"initially {st.initial_water_table_depth_m:g} m deep; FS at the storm's "
-                f"end and at {st.later_h:g} h"
+                f"initially {st.initial_water_table_depth_m:g} m deep; FS the lowest over "
+                f"depth and time to {st.later_h:g} h"
             )
         if self.recharge_mm_day is not None:
             return f"steady recharge {self.recharge_mm_day:g} mm/day"
