@@ -9,6 +9,7 @@ from __future__ import annotations
 import contextlib
 import errno
 import os
+import time
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -56,14 +57,24 @@ def folder_lock(folder: Path, holder: str) -> Iterator[None]:
     fd = _open_lock_file(folder / FOLDER_LOCK)
     try:
         if not _try_lock(fd, wait=False):
-            other = os.pread(fd, 200, 0).decode("utf-8", "replace").strip() or "holder unknown"
+            other = ""
+            for _ in range(40):  # the holder writes its line just after taking the lock
+                other = os.pread(fd, 200, 0).decode("utf-8", "replace").split("\n")[0].strip()
+                if other:
+                    break
+                time.sleep(0.05)
             raise InputError(
-                f"{folder}: another slopescreen run is writing to this folder ({other}); "
+                f"{folder}: another slopescreen run is writing to this folder "
+                f"({other or 'holder unknown'}); "
                 "wait for it to finish or choose another --out"
             )
-        os.ftruncate(fd, 0)
-        os.pwrite(fd, f"{holder}\n".encode(), 0)
-        yield
+        line = f"{holder}\n".encode()
+        os.pwrite(fd, line, 0)  # never empty while held: write, then cut what is left
+        os.ftruncate(fd, len(line))
+        try:
+            yield
+        finally:
+            os.ftruncate(fd, 0)  # at rest the file names nobody (no stale holder quoted)
     finally:
         os.close(fd)
 
