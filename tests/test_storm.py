@@ -143,8 +143,8 @@ def test_storm_summary_finds_first_failure():
     assert res.later_min_fs[0] > res.end_min_fs[0]  # pressure falls back after the storm
 
 
-def _random_cells(n, seed):
-    rng = np.random.default_rng(seed)
+def _random_cells(n, draw):
+    rng = np.random.default_rng(draw)
     return rng.uniform(0.5, 3.0, n), dict(
         slope_deg=rng.uniform(15.0, 45.0, n),
         cohesion_kpa=rng.uniform(0.0, 10.0, n),
@@ -182,7 +182,7 @@ def test_depth_minimum_is_bracketed_not_scanned():
 def test_depth_minimum_against_a_dense_scan_on_random_cells():
     # Tolerance stated in storm_summary: FS within 0.005 of a 1,000-plane scan, and no cell
     # reported holding whose dense minimum is below 1 (10,000 random cells).
-    soil, kw = _random_cells(10_000, seed=11)
+    soil, kw = _random_cells(10_000, draw=11)
     res = storm_summary(
         soil_depth_m=soil, later_h=12.0, duration_h=12.0, depth_steps=10, time_steps=1, **kw
     )
@@ -195,7 +195,7 @@ def test_depth_minimum_against_a_dense_scan_on_random_cells():
 def test_window_minimum_and_time_to_failure_agree():
     # The minimum over depth and time against a dense grid of 200 planes x 121 times, and
     # the time to failure is given exactly where that minimum is below 1.
-    soil, kw = _random_cells(1500, seed=5)
+    soil, kw = _random_cells(1500, draw=5)
     res = storm_summary(soil_depth_m=soil, later_h=30.0, duration_h=12.0, **kw)
     dense = np.full(soil.shape, np.inf)
     for t in np.linspace(0.0, 30.0, 121):
@@ -213,7 +213,7 @@ def test_window_minimum_and_time_to_failure_agree():
 def test_prepared_columns_match_the_public_function():
     from slopescreen.storm import _Columns
 
-    soil, kw = _random_cells(500, seed=2)
+    soil, kw = _random_cells(500, draw=2)
     kw["seismic_coefficient"] = 0.1
     cols = _Columns(6.0, soil.shape, **kw)
     for frac, t in ((0.1, 0.0), (0.5, 3.0), (1.0, 6.0), (0.7, 20.0)):

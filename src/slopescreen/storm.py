@@ -40,9 +40,9 @@ from numpy.typing import ArrayLike
 
 from slopescreen._checks import as_result, checked
 from slopescreen._normal import erfc
-from slopescreen.errors import InputError
 from slopescreen.stability import (
     WATER_UNIT_WEIGHT_KN_M3,
+    _column,
     factor_of_safety,
     ratio_or_inf,
     resisting_stress,
@@ -267,17 +267,21 @@ class _Columns:
     evaluations of the depth and time search."""
 
     def __init__(self, duration_h: float, shape: tuple[int, ...], **kw: ArrayLike) -> None:
-        sat = kw.get("saturated_unit_weight_kn_m3")
-        gamma = checked("unit_weight_kn_m3", kw["unit_weight_kn_m3"], 0.0, low_open=True)
-        gamma_w = checked(
-            "water_unit_weight_kn_m3",
-            kw.get("water_unit_weight_kn_m3", WATER_UNIT_WEIGHT_KN_M3),
+        col = _column(  # the unit weights and k_h checked as factor_of_safety checks them
+            kw["slope_deg"],
             0.0,
-            low_open=True,
+            kw["unit_weight_kn_m3"],
+            0.0,
+            kw.get("saturated_unit_weight_kn_m3"),
+            0.0,
+            kw.get("seismic_coefficient", 0.0),
+            kw.get("water_unit_weight_kn_m3", WATER_UNIT_WEIGHT_KN_M3),
         )
-        gamma_sat = gamma if sat is None else checked("saturated_unit_weight_kn_m3", sat, 0.0)
-        if (np.asarray(gamma_sat) < gamma_w).any():
-            raise InputError("saturated unit weight must be >= the unit weight of water")
+        gamma, gamma_sat, gamma_w = (
+            col.unit_weight,
+            col.saturated_unit_weight,
+            col.water_unit_weight,
+        )
         beta, d, ratio, duration, d_hat = _storm_inputs(
             kw["slope_deg"],
             kw["water_table_depth_m"],
@@ -287,12 +291,10 @@ class _Columns:
             kw["diffusivity_m2_s"],
             kw.get("long_term_infiltration_m_s", 0.0),
         )
-        alpha = np.radians(np.asarray(kw["slope_deg"], float))
+        alpha, k_h = col.beta, col.seismic
         c = checked("cohesion_kpa", kw["cohesion_kpa"], 0.0)
         c = c + checked("root_cohesion_kpa", kw.get("root_cohesion_kpa", 0.0), 0.0)
         phi = checked("friction_deg", kw["friction_deg"], 0.0, 90.0, high_open=True)
-        k_h = checked("seismic_coefficient", kw.get("seismic_coefficient", 0.0), 0.0, 1.0,
-                      high_open=True)  # fmt: skip
 
         def cells(x: ArrayLike) -> np.ndarray:
             return np.broadcast_to(np.asarray(x, float), shape)

@@ -42,15 +42,10 @@ def horn_gradient(
     dy_m : north-south spacing, m (> 0).
     """
     z = np.asarray(elevation_m, dtype=np.float64)
-    a, b, c, d, f, g, h, i = _window(z)
+    dz_dcol, dz_drow_up, one_sided = grid_gradient(z)  # Horn where the window is full
     dx = np.broadcast_to(np.asarray(dx_m, dtype=np.float64).reshape(-1, 1), (z.shape[0], 1))
-    gx = np.full(z.shape, np.nan)
-    gy = np.full(z.shape, np.nan)
-    gx[1:-1, 1:-1] = ((c + 2.0 * f + i) - (a + 2.0 * d + g)) / (8.0 * dx[1:-1])
-    gy[1:-1, 1:-1] = ((a + 2.0 * b + c) - (g + 2.0 * h + i)) / (8.0 * dy_m)
-    own_gap = np.isnan(z)  # Horn's stencil skips the centre: no data there must still show
-    gx[own_gap] = np.nan
-    gy[own_gap] = np.nan
+    gx = np.where(one_sided, np.nan, dz_dcol / dx)
+    gy = np.where(one_sided, np.nan, dz_drow_up / dy_m)
     return gx, gy
 
 

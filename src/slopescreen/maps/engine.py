@@ -155,9 +155,10 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
         soils.measure_coverage(grid, valid_tile, sink)
         if soils.data_cells == 0:
             raise InputError(f"{cfg.region.dem}: DEM holds no data cells")
+    dem_files = dem_files_sha256(cfg.region.dem)  # the DEM itself first, as GDAL lists it
     hashes = {
         "scenario_file": file_sha256(cfg.path),
-        "dem": file_sha256(cfg.region.dem),
+        "dem": next(iter(dem_files.values())),
         "soil_units": file_sha256(cfg.region.soil_units),
     }
     if cfg.region.soil_table is not None:
@@ -165,7 +166,7 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     for sc in cfg.scenarios:
         if sc.saturation_raster is not None:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)
-    return Inputs(cfg, grid, soils, hashes, dem_files_sha256(cfg.region.dem), voids)
+    return Inputs(cfg, grid, soils, hashes, dem_files, voids)
 
 
 def utc_now() -> str:

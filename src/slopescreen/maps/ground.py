@@ -70,9 +70,13 @@ class Ground:
         out = [self._interpolate(field, rows, cols) for field in fields]
         return out[0], out[1], out[2], out[3]
 
+    def _node_areas(self) -> np.ndarray:
+        """Ground cell area |u x v| on the lattice nodes."""
+        return np.abs(self.u[..., 0] * self.v[..., 1] - self.u[..., 1] * self.v[..., 0])
+
     def cell_area_at(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
         """Ground cell area at the given cells (index arrays), bilinear between nodes."""
-        area = np.abs(self.u[..., 0] * self.v[..., 1] - self.u[..., 1] * self.v[..., 0])
+        area = self._node_areas()
         ir, tr = _weights(self.node_rows, self.row_step, np.asarray(rows, np.int64))
         ic, tc = _weights(self.node_cols, self.col_step, np.asarray(cols, np.int64))
         top = area[ir, ic] * (1 - tc) + area[ir, ic + 1] * tc
@@ -95,7 +99,7 @@ class Ground:
     def cell_area_m2(self, rows: slice, cols: slice) -> np.ndarray:
         """Ground area of each cell of a block (broadcastable to the block): |u x v| on the
         nodes, bilinear between them, as the routing takes it (one field to interpolate)."""
-        area = np.abs(self.u[..., 0] * self.v[..., 1] - self.u[..., 1] * self.v[..., 0])
+        area = self._node_areas()
         return self._interpolate(area, rows, cols)
 
     def ground_gradient(
@@ -110,7 +114,7 @@ class Ground:
         |u|, |v| and the cell area on the nodes)."""
         du = np.hypot(self.u[..., 0], self.u[..., 1])
         dv = np.hypot(self.v[..., 0], self.v[..., 1])
-        area = np.abs(self.u[..., 0] * self.v[..., 1] - self.u[..., 1] * self.v[..., 0])
+        area = self._node_areas()
         return (
             np.int64(self.row_step),
             np.int64(self.col_step),

@@ -121,7 +121,7 @@ def ground_areas_m2(geometry: object, grid: Grid) -> np.ndarray:
     changes by far less than 0.1% over such a span on the projections in use); a larger
     one is measured on the CRS's ellipsoid (``pyproj.Geod.geometry_area_perimeter``,
     Karney 2013) after its edges are split at the cell size, so that a straight edge on
-    the map follows its true course on the ground. A local CRS without a datum measures in
+    the map follows its true path on the ground. A local CRS without a datum measures in
     the plane."""
     import geopandas as gpd
     import shapely
