@@ -52,7 +52,7 @@ dem = "dem.tif"
 soil_units = "soils.geojson"
 soil_unit_field = "unit"
 
-[hazard]
+[classes]
 min_zone_area_m2 = 0.0
 
 [[scenario]]

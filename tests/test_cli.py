@@ -32,7 +32,7 @@ SLOPE = [
 
 def test_slope_json_matches_core(capsys):
     assert main([*SLOPE, "--json"]) == 0
-    out = json.loads(capsys.readouterr().out)
+    out = json.loads(capsys.readouterr().out)["results"]
     kw = dict(saturated_unit_weight_kn_m3=20.0)
     assert out["factor_of_safety"] == pytest.approx(
         factor_of_safety(34.0, 1.6, 6.0, 31.0, 18.5, 0.7, **kw)
@@ -45,8 +45,56 @@ def test_slope_json_matches_core(capsys):
         "critical_slope_deg",
         "required_cohesion_kpa",
         "stresses_kpa",
-        "cautions",
     }
+
+
+def test_slope_text_echoes_every_input_and_one_caution_block(capsys):
+    args = [*SLOPE, "--root-cohesion-kpa", "2", "--surcharge-kpa", "3"]
+    assert main([*args, "--seismic-coefficient", "0.1"]) == 0
+    text = capsys.readouterr().out
+    for fragment in (
+        "root cohesion 2 kPa",
+        "unit weight 18.5 kN/m3, saturated 20 kN/m3, water 9.81 kN/m3",
+        "surcharge 3 kPa, seismic k_h 0.1, target FS 1",
+    ):
+        assert fragment in text
+    assert text.count("Screening level only") == 1
+
+
+def test_slope_json_and_demo_record_share_one_layout(tmp_path, capsys):
+    assert main([*SLOPE, "--json"]) == 0
+    from_shell = json.loads(capsys.readouterr().out)
+    out = tmp_path / "demo"
+    assert main(["demo", "--region", str(ROOT / "demo_region"), "--out", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert text.count("Screening level only") == 1  # the cautions once per command
+    record = json.loads((out / "hillside_check.json").read_text())
+    assert set(from_shell) == set(record) - {"envelope"}
+    assert set(from_shell["results"]) == set(record["results"])
+    assert set(from_shell["inputs"]) == set(record["inputs"])
+    assert record["results"]["factor_of_safety"] > 0.0
+    assert (out / "mohr_circles.png").stat().st_size > 1000
+    cov = record["envelope"]["covariance"]
+    assert set(cov) == {
+        "cohesion_cohesion_kpa2",
+        "cohesion_friction_kpa_deg",
+        "friction_friction_deg2",
+    }
+
+
+@pytest.mark.parametrize("command", ["slope", "envelope", "run", "check", "demo"])
+def test_help_is_plain_text_with_defaults(command, capsys):
+    with pytest.raises(SystemExit):
+        main([command, "--help"])
+    text = capsys.readouterr().out
+    assert "``" not in text and "::" not in text and ":mod:" not in text
+    if command == "slope":
+        assert "(default 9.81)" in text
+    if command == "run":
+        from slopescreen.maps.output_names import RUN_OUTPUTS, SCENARIO_OUTPUTS, TERRAIN_OUTPUTS
+
+        for name, _, _ in (*TERRAIN_OUTPUTS, *SCENARIO_OUTPUTS, *RUN_OUTPUTS):
+            assert name in text
 
 
 def test_slope_text_shows_cautions(capsys):
@@ -72,7 +120,7 @@ def test_slope_no_solution_is_null_in_json(capsys):
         "--json",
     ]
     assert main(args) == 0
-    out = json.loads(capsys.readouterr().out)
+    out = json.loads(capsys.readouterr().out)["results"]
     assert out["factor_of_safety"] is None  # flat ground: no driving stress
 
 
@@ -172,16 +220,6 @@ def test_console_script_no_traceback():
     assert proc.stderr.strip() == (
         "slopescreen slope: error: slope_deg must be in [0, 90) degrees, got 95"
     )
-
-
-def test_demo_runs_end_to_end(tmp_path, capsys):
-    out = tmp_path / "demo"
-    assert main(["demo", "--region", str(ROOT / "demo_region"), "--out", str(out)]) == 0
-    text = capsys.readouterr().out
-    assert "Screening level only" in text
-    record = json.loads((out / "hillside_check.json").read_text())
-    assert record["results"]["factor_of_safety"] > 0.0
-    assert (out / "mohr_circles.png").stat().st_size > 1000
 
 
 def test_failed_plot_keeps_previous_figure(tmp_path, capsys):

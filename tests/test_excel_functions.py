@@ -209,3 +209,15 @@ def test_storm_functions_match_core():
     assert "rain_mm_h must be in [0, 1000]" in udf.SS_STORM_HEAD(
         1.0, 1.0, 30.0, 0.5, -3.0, 2.0, 1e-5, 1e-4
     )
+
+
+def test_readme_lists_every_cell_function():
+    from pathlib import Path
+
+    folder = Path(udf.__file__).resolve().parent
+    source = (folder / "slopescreen_udfs.py").read_text()
+    readme = (folder / "README.md").read_text()
+    functions = re.findall(r"^def (SS_[A-Z_]+)\(", source, flags=re.MULTILINE)
+    assert len(functions) >= 17
+    for name in functions:
+        assert f"`{name}(" in readme, name

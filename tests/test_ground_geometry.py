@@ -277,7 +277,7 @@ def _cone_region(folder, crs_name):
     toml = folder / "scenarios.toml"
     toml.write_text(
         f'[region]\nname = "cone"\ndem = "{dem.name}"\nsoil_units = "soils.geojson"\n\n'
-        '[hazard]\nmin_zone_area_m2 = 0.0\n\n[[scenario]]\nname = "dry"\nsaturation = 0.0\n'
+        '[classes]\nmin_zone_area_m2 = 0.0\n\n[[scenario]]\nname = "dry"\nsaturation = 0.0\n'
     )
     return toml
 
@@ -294,13 +294,13 @@ def test_class_and_zone_areas_are_ground_areas(crs_name, tmp_path):
     toml = _cone_region(tmp_path / "r", crs_name)
     out = tmp_path / "out"
     run(toml, out, progress=False, echo=lambda s: None)
-    zones = gpd.read_file(out / "dry" / "hazard_zones.gpkg")
+    zones = gpd.read_file(out / "dry" / "low_margin_zones.gpkg")
     assert len(zones) >= 1
     geodesic = _geodesic_area_m2(zones)  # pyproj.Geod on the written polygons
     assert np.allclose(zones["area_m2"], geodesic, rtol=0.005)
     with open(out / "dry" / "summary.csv") as handle:
         rows = [r for r in csv.DictReader(handle) if r["soil_unit"] == "ALL"]
-    classes_12 = 10_000 * sum(float(r["area_ha"]) for r in rows if int(r["hazard_class"]) <= 2)
+    classes_12 = 10_000 * sum(float(r["area_ha"]) for r in rows if int(r["class"]) <= 2)
     assert classes_12 == pytest.approx(geodesic.sum(), rel=0.005)
     # the steep disc of 5 km radius, on the ground in every CRS (cells of 150-220 m: 3%)
     assert classes_12 == pytest.approx(math.pi * 5000.0**2, rel=0.03)
@@ -328,13 +328,14 @@ def test_lonlat_run_with_zones_writes_every_output(tmp_path):
         "terrain/catchment_cut_off.tif",
         "terrain/slope_one_sided.tif",
         "dry/fs.tif",
-        "dry/hazard_zones.gpkg",
-        "dry/map.png",
+        "dry/low_margin_zones.gpkg",
+        "dry/stability_class.png",
+        "terrain/soil_unit.png",
         "dry/summary.csv",
         "report.html",
     }
     assert wanted <= set(manifest["outputs"])
-    assert len(gpd.read_file(out / "dry" / "hazard_zones.gpkg")) >= 1
+    assert len(gpd.read_file(out / "dry" / "low_margin_zones.gpkg")) >= 1
     assert "geographic CRS" in manifest["terrain"]["ground_geometry"]
 
 

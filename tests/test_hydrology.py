@@ -5,13 +5,13 @@ import math
 import numpy as np
 import pytest
 
-from slopescreen.hazard import class_names, classify
 from slopescreen.hydrology import (
     recharge_for_saturation_mm_day,
     steady_state_saturation,
     transmissivity_m2_day,
 )
 from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED, evaluate_cells
+from slopescreen.stability_classes import class_names, classify
 
 
 def test_steady_state_saturation_formula():

@@ -22,7 +22,7 @@ from slopescreen.maps.engine import run
 ROOT = Path(__file__).resolve().parents[1]
 REGION = ROOT / "demo_region"
 SCENARIOS = REGION / "quillbrook_scenarios.toml"
-PER_SCENARIO = ("fs.tif", "saturation.tif", "critical_recharge_mm_day.tif", "hazard_class.tif")
+PER_SCENARIO = ("fs.tif", "saturation.tif", "critical_recharge_mm_day.tif", "stability_class.tif")
 NAMES = ("dry_season", "wet_season", "fully_saturated", "wet_season_logged", "design_storm")
 PROBABILITY = ("probability_of_failure.tif", "reliability_index.tif")
 STORM = (
@@ -31,14 +31,6 @@ STORM = (
     "storm_failure_depth_m.tif",
     "storm_time_to_failure_h.tif",
 )
-
-
-@pytest.fixture(scope="module")
-def demo_out(tmp_path_factory):
-    out = tmp_path_factory.mktemp("quillbrook")
-    lines = []
-    run(SCENARIOS, out, progress=False, echo=lines.append)
-    return out, lines
 
 
 def _soil_table():
@@ -111,9 +103,9 @@ def test_every_output_exists_opens_and_shares_the_dem_grid(demo_out):
             assert src.tags(ns="IMAGE_STRUCTURE").get("LAYOUT") == "COG", path
             assert src.nodata is not None
     for s in NAMES:
-        zones = gpd.read_file(out / s / "hazard_zones.gpkg")
+        zones = gpd.read_file(out / s / "low_margin_zones.gpkg")
         assert zones.crs == crs
-        assert (out / s / "map.png").read_bytes()[:4] == b"\x89PNG"
+        assert (out / s / "stability_class.png").read_bytes()[:4] == b"\x89PNG"
         assert (out / s / "summary.csv").stat().st_size > 0
     report = (out / "report.html").read_text()
     assert all(s in report for s in NAMES)
@@ -143,7 +135,7 @@ def _ground_cell_ha(profile):
 def test_summary_areas_add_up_to_mapped_area(demo_out):
     out, _ = demo_out
     for s in NAMES:
-        classes, profile, _, _ = _read(out / s / "hazard_class.tif")
+        classes, profile, _, _ = _read(out / s / "stability_class.tif")
         cell_ha = _ground_cell_ha(profile)  # ground hectares: UTM scale about 0.9997 here
         mapped_ha = float(cell_ha[classes > 0].sum())
         with open(out / s / "summary.csv") as handle:
@@ -155,7 +147,7 @@ def test_summary_areas_add_up_to_mapped_area(demo_out):
         assert per_unit == pytest.approx(mapped_ha, rel=1e-6)
         for cls in (1, 2, 3, 4):
             class_ha = float(cell_ha[classes == cls].sum())
-            row = next(r for r in rows if r["soil_unit"] == "ALL" and int(r["hazard_class"]) == cls)
+            row = next(r for r in rows if r["soil_unit"] == "ALL" and int(r["class"]) == cls)
             assert float(row["area_ha"]) == pytest.approx(class_ha, abs=1e-3)
         assert sum(
             float(r["percent_of_mapped_area"]) for r in rows if r["soil_unit"] == "ALL"
@@ -214,9 +206,9 @@ def test_critical_recharge_brings_fs_to_one(demo_out):
     assert (fs_dry[rc == -1] < 1.0).all()
 
 
-def test_hazard_classes_colour_table_and_names(demo_out):
+def test_stability_classes_colour_table_and_names(demo_out):
     out, _ = demo_out
-    with rasterio.open(out / "wet_season" / "hazard_class.tif") as src:
+    with rasterio.open(out / "wet_season" / "stability_class.tif") as src:
         cmap = src.colormap(1)
         tags = src.tags()
         data = src.read(1)
@@ -231,9 +223,9 @@ def test_hazard_classes_colour_table_and_names(demo_out):
 
 def test_zones_hold_the_two_least_stable_classes(demo_out):
     out, _ = demo_out
-    zones = gpd.read_file(out / "wet_season" / "hazard_zones.gpkg")
+    zones = gpd.read_file(out / "wet_season" / "low_margin_zones.gpkg")
     assert len(zones) > 0
-    assert set(zones["hazard_class"]) <= {1, 2}
+    assert set(zones["stability_class"]) <= {1, 2}
     assert (zones["area_m2"] >= 500.0).all()
     centre = zones.geometry.centroid
     ground_m2 = zones.geometry.area / _areal_scale(zones.crs, centre.x, centre.y)
@@ -243,11 +235,9 @@ def test_zones_hold_the_two_least_stable_classes(demo_out):
         rows = list(csv.DictReader(handle))
     for cls in (1, 2):
         class_m2 = 10_000 * next(
-            float(r["area_ha"])
-            for r in rows
-            if r["soil_unit"] == "ALL" and int(r["hazard_class"]) == cls
+            float(r["area_ha"]) for r in rows if r["soil_unit"] == "ALL" and int(r["class"]) == cls
         )
-        zone_m2 = zones.loc[zones["hazard_class"] == cls, "area_m2"].sum()
+        zone_m2 = zones.loc[zones["stability_class"] == cls, "area_m2"].sum()
         assert 0.5 * class_m2 < zone_m2 <= class_m2 + 1e-6
 
 
@@ -260,7 +250,7 @@ def test_rerun_reuses_terrain_and_reproduces_outputs(demo_out):
     second = json.loads((out / "manifest.json").read_text())
     assert second["terrain"]["reused"] is True
     assert any("reused from cache" in line for line in again)
-    for name in (*PER_SCENARIO, "summary.csv", "hazard_zones.gpkg"):
+    for name in (*PER_SCENARIO, "summary.csv", "low_margin_zones.gpkg"):
         key = f"wet_season/{name}"
         assert second["outputs"][key] == first["outputs"][key], key
 
@@ -330,7 +320,7 @@ def test_probability_raster_matches_taylor_series_by_hand(demo_out):
     with open(out / "wet_season" / "summary.csv") as handle:
         rows_pf = [r for r in csv.DictReader(handle) if r["measure"] == "probability_of_failure"]
     assert rows_pf and sum(float(r["area_ha"]) for r in rows_pf if r["soil_unit"] == "ALL") > 0
-    assert "Probability of failure by scenario" in (out / "report.html").read_text()
+    assert "<h3>Probability of failure</h3>" in (out / "report.html").read_text()
 
 
 def test_storm_rasters_match_core_at_sampled_cells(demo_out):

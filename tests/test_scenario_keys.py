@@ -23,13 +23,13 @@ KINDS = {
 }
 
 
-def _text(kind, region="", hazard="", outputs="", reliability="", scenario="", soil=""):
+def _text(kind, region="", classes="", outputs="", reliability="", scenario="", soil=""):
     wet = KINDS[kind]
     head, _, storm = wet.partition("[scenario.storm]")
     storm = f"[scenario.storm]{storm}" if storm else ""
     return (
         f'[region]\nname = "keys"\ndem = "dem.tif"\nsoil_units = "soils.geojson"\n{region}\n'
-        f"[hazard]\nmin_zone_area_m2 = 0.0\n{hazard}\n[outputs]\n{outputs}\n"
+        f"[classes]\nmin_zone_area_m2 = 0.0\n{classes}\n[outputs]\n{outputs}\n"
         f"[reliability]\n{reliability}\n"
         f'[[scenario]]\nname = "s"\ndescription = "base"\n{head}\n{scenario}\n{storm}\n'
         + (f"[scenario.soil.A]\n{soil}\n" if soil else "")
@@ -78,16 +78,16 @@ def _run(region, tmp_path, name, text):
     return _outputs(out)
 
 
-# (section, key, changed line): every key of [region], [hazard], [outputs], [reliability]
+# (section, key, changed line): every key of [region], [classes], [outputs], [reliability]
 FILE_KEYS = [
     ("region", "name", 'name = "other"'),
     ("region", "dem_elevation_unit", 'dem_elevation_unit = "ft"'),
     ("region", "soil_unit_field", 'soil_unit_field = "other"'),
     ("region", "soil_table", 'soil_table = "table.csv"'),
-    ("hazard", "fs_breaks", "fs_breaks = [1.0, 1.2, 1.4]"),
-    ("hazard", "min_zone_area_m2", "min_zone_area_m2 = 5000.0"),
+    ("classes", "fs_breaks", "fs_breaks = [1.0, 1.2, 1.4]"),
+    ("classes", "min_zone_area_m2", "min_zone_area_m2 = 5000.0"),
     ("outputs", "fs_cap", "fs_cap = 1.6"),
-    ("outputs", "hazard_zones", "hazard_zones = false"),
+    ("outputs", "zones", "zones = false"),
     ("outputs", "quicklook_map", "quicklook_map = false"),
     ("outputs", "report", "report = false"),
     ("reliability", "method", 'method = "monte_carlo"\nsamples = 50'),
@@ -102,7 +102,7 @@ def test_every_file_key_changes_the_outputs(section, key, line, region, tmp_path
     if key in ("name", "min_zone_area_m2"):  # keys the base sets: replaced
         old = next(x for x in base_text.splitlines() if x.startswith(f"{key} ="))
         changed = base_text.replace(old, line, 1)
-    elif key == "hazard_zones":  # without zones, their minimum size is refused
+    elif key == "zones":  # without zones, their minimum size is refused
         changed = _text("uniform", **{section: line}).replace("min_zone_area_m2 = 0.0\n", "")
     else:
         changed = _text("uniform", **{section: line})
@@ -115,13 +115,13 @@ def test_soil_layer_and_monte_carlo_keys_change_the_outputs(region, tmp_path):
         region,
         tmp_path,
         "first",
-        layered.replace("\n\n[hazard]", '\nsoil_layer = "first"\n\n[hazard]', 1),
+        layered.replace("\n\n[classes]", '\nsoil_layer = "first"\n\n[classes]', 1),
     )
     second = _run(
         region,
         tmp_path,
         "second",
-        layered.replace("\n\n[hazard]", '\nsoil_layer = "second"\n\n[hazard]', 1),
+        layered.replace("\n\n[classes]", '\nsoil_layer = "second"\n\n[classes]', 1),
     )
     assert first != second
     mc = 'method = "monte_carlo"\nsamples = 50\n'

@@ -4,6 +4,7 @@ on one folder, killed runs. Real files and real processes throughout; invented r
 import codecs
 import json
 import os
+import re
 import signal
 import subprocess
 import sys
@@ -32,8 +33,20 @@ def _files(out):
 
 
 def _outputs(out):
-    """The outputs that describe the results: all but the manifest (times, timings)."""
-    return {k: v for k, v in _files(out).items() if k != "manifest.json"}
+    """The outputs that describe the results: all but the manifest (times, timings), and
+    the report with its run times blanked."""
+    files = {k: v for k, v in _files(out).items() if k != "manifest.json"}
+    if "report.html" in files:
+        files["report.html"] = undated(files["report.html"])
+    return files
+
+
+def undated(report: bytes) -> bytes:
+    """A report with its run start and end times (and the command line) blanked."""
+    report = re.sub(rb"Run [0-9TZ:-]+ to [0-9TZ:-]+ \(UTC\)", b"Run (UTC)", report)
+    return re.sub(
+        rb"<td class='l'><code>[^<]*</code></td></tr></table></div>\n<h3>Soil", b"", report
+    )
 
 
 def _run(toml, out, *extra):
@@ -82,7 +95,7 @@ def _whole_toml(text):
     return _write("scenarios.toml", text.encode())
 
 
-REGION_LINES = SCENARIO_TEXT.split("[hazard]")[0]
+REGION_LINES = SCENARIO_TEXT.split("[classes]")[0]
 ONE_SCENARIO = '[[scenario]]\nname = "a"\nsaturation = 0.1\n'
 
 
@@ -167,7 +180,7 @@ BAD_INPUTS = {
         "none of its",
     ),
     # tables and values of the wrong type or size
-    "hazard = 5": (_whole_toml(f"hazard = 5\n{REGION_LINES}{ONE_SCENARIO}"), "must be a table"),
+    "classes = 5": (_whole_toml(f"classes = 5\n{REGION_LINES}{ONE_SCENARIO}"), "must be a table"),
     "outputs text": (_whole_toml(f'outputs = "x"\n{REGION_LINES}{ONE_SCENARIO}'), "[outputs]"),
     "reliability list": (
         _whole_toml(f"reliability = [1]\n{REGION_LINES}{ONE_SCENARIO}"),
@@ -180,7 +193,7 @@ BAD_INPUTS = {
     "scenario text": (_whole_toml(f'scenario = "x"\n{REGION_LINES}'), "scenario"),
     "region = 5": (_whole_toml(f"region = 5\n{ONE_SCENARIO}"), "[region] table is required"),
     "deep nesting": (
-        _whole_toml(f"{REGION_LINES}[hazard]\nfs_breaks = {'[' * 5000}{']' * 5000}\n"),
+        _whole_toml(f"{REGION_LINES}[classes]\nfs_breaks = {'[' * 5000}{']' * 5000}\n"),
         "nested too deeply",
     ),
     "huge integer": (
@@ -220,7 +233,7 @@ BAD_INPUTS = {
         "seismic_coefficient: must be a number",
     ),
     "breaks decreasing": (
-        _text("[hazard]", "[hazard]\nfs_breaks = [1.5, 1.0]"),
+        _text("[classes]", "[classes]\nfs_breaks = [1.5, 1.0]"),
         "strictly increasing",
     ),
     "fs_cap too low": (
@@ -231,10 +244,10 @@ BAD_INPUTS = {
         "fs_cap",
     ),
     "zones flag text": (
-        _text("[[scenario]]", '[outputs]\nhazard_zones = "yes"\n\n[[scenario]]'),
+        _text("[[scenario]]", '[outputs]\nzones = "yes"\n\n[[scenario]]'),
         "must be true or false",
     ),
-    "key with newline": (_text("[hazard]", '[hazard]\n"a\\nb" = 1'), "unknown key"),
+    "key with newline": (_text("[classes]", '[classes]\n"a\\nb" = 1'), "unknown key"),
     "elevation unit": (
         _text('soil_unit_field = "unit"', 'soil_unit_field = "unit"\ndem_elevation_unit = "yd"'),
         'must be "m" or "ft"',
@@ -253,8 +266,8 @@ BAD_INPUTS = {
         'fs_distribution: applies to method = "taylor"',
     ),
     "zone size without zones": (
-        _text("[[scenario]]", "[outputs]\nhazard_zones = false\n\n[[scenario]]"),
-        "min_zone_area_m2: applies to hazard zones",
+        _text("[[scenario]]", "[outputs]\nzones = false\n\n[[scenario]]"),
+        "min_zone_area_m2: applies to low-margin zones",
     ),
     "diffusivity override without storm": (
         _text("saturation = 0.0", "saturation = 0.0\n[scenario.soil.A]\ndiffusivity_m2_s = 1e-4"),
@@ -357,7 +370,7 @@ def test_bom_and_odd_names_run(tmp_path):
     _run(toml, tmp_path / "out")
     summary = (tmp_path / "out" / "dry" / "summary.csv").read_text()
     assert "'=HYPERLINK(1)" in summary and "\n=HYPERLINK" not in summary.replace(",'=", "")
-    assert (tmp_path / "out" / "dry" / "map.png").read_bytes()[:4] == b"\x89PNG"
+    assert (tmp_path / "out" / "dry" / "stability_class.png").read_bytes()[:4] == b"\x89PNG"
 
 
 # ----------------------------------------------------------------------------------------
@@ -486,7 +499,12 @@ def test_warm_rerun_is_byte_identical_to_a_cold_run(tmp_path):
     _run(toml, tmp_path / "b")
     a, b = _outputs(tmp_path / "a"), _outputs(tmp_path / "b")
     assert a == b
-    assert {"wet/hazard_zones.gpkg", "wet/map.png", "report.html", "dry/summary.csv"} <= set(a)
+    assert {
+        "wet/low_margin_zones.gpkg",
+        "wet/stability_class.png",
+        "report.html",
+        "dry/summary.csv",
+    } <= set(a)
     for scenario in ("wet", "dry"):  # tags describe the scenario the file belongs to
         with rasterio.open(tmp_path / "a" / scenario / "critical_recharge_mm_day.tif") as src:
             assert src.tags()["scenario"] == scenario
@@ -540,7 +558,7 @@ def test_planted_links_are_never_written_through(tmp_path):
         "dry/.saturation.cog.tif",
         "terrain/.slope_deg.tif.part",
         "dry/.summary.csv",
-        "dry/.hazard_zones.gpkg",
+        "dry/.low_margin_zones.gpkg",
     ]
     for i, name in enumerate(finals + temporary):
         victim = victims / f"v{i}"
@@ -648,7 +666,7 @@ def test_killed_rerun_leaves_old_or_new_files_and_says_so(moment, tmp_path):
     out = tmp_path / "out"
     assert subprocess.run(_cli("run", toml, "--out", out, "--quiet")).returncode == 0
     old = _files(out)
-    _edit(toml, "[hazard]", "[hazard]\nfs_breaks = [1.0, 1.2, 1.4]")  # new classes everywhere
+    _edit(toml, "[classes]", "[classes]\nfs_breaks = [1.0, 1.2, 1.4]")  # new classes everywhere
     assert subprocess.run(_cli("run", toml, "--out", tmp_path / "new", "--quiet")).returncode == 0
     new = _files(tmp_path / "new")
     proc = subprocess.Popen(_cli("run", toml, "--out", out, "--quiet"))

@@ -26,7 +26,7 @@ from slopescreen.strength import (
     shear_strength_kpa,
 )
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"
 
 __all__ = [
     "EnvelopeFit",

@@ -92,14 +92,10 @@ def _finish(fig, ax, fit: EnvelopeFit, sigma_max: float, title: str, target: str
     ax.set_xlim(0.0, sigma_max)
     ax.grid(alpha=0.3)
     ax.legend(fontsize=7, loc="upper left")
-    fig.text(
-        0.01,
-        0.01,
-        "Screening aid only; not a design. Verify with licensed practice.",
-        fontsize=6,
-        color="0.4",
-    )
-    fig.tight_layout()
+    from slopescreen.cautions import CAUTIONS
+
+    fig.text(0.01, 0.01, "CAUTION: " + " ".join(CAUTIONS), fontsize=6, color="0.3", wrap=True)
+    fig.tight_layout(rect=(0, 0.07, 1, 1))
     with replacing(target) as tmp:
         fig.savefig(tmp, format="png")
     fig.clf()

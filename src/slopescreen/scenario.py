@@ -18,7 +18,6 @@ from typing import NamedTuple
 import numpy as np
 from numpy.typing import ArrayLike
 
-from slopescreen.hazard import DEFAULT_FS_BREAKS, classify
 from slopescreen.hydrology import (
     recharge_for_saturation_mm_day,
     steady_state_saturation,
@@ -26,6 +25,7 @@ from slopescreen.hydrology import (
 )
 from slopescreen.inverse import critical_saturation
 from slopescreen.stability import factor_of_safety
+from slopescreen.stability_classes import DEFAULT_FS_BREAKS, classify
 from slopescreen.storm import (
     StormSummary,
     equivalent_saturation,
@@ -55,7 +55,7 @@ class CellResults(NamedTuple):
     saturation: np.ndarray
     factor_of_safety: np.ndarray
     critical_recharge_mm_day: np.ndarray
-    hazard_class: np.ndarray
+    stability_class: np.ndarray
 
 
 def transmissivity_m2_day_from(
@@ -264,7 +264,7 @@ def evaluate_cells(
     fs_breaks: ArrayLike = DEFAULT_FS_BREAKS,
     **kwargs: object,
 ) -> CellResults:
-    """Screen cells for one scenario: saturation, FS, critical recharge and hazard class.
+    """Screen cells for one scenario: saturation, FS, critical recharge and stability class.
 
     Keyword arguments as :func:`scenario_fs`; see :func:`critical_recharge_mm_day`.
     """

@@ -27,7 +27,7 @@ soil_units = "soils.gpkg"
 
 [outputs]
 quicklook_map = true
-hazard_zones = true
+zones = true
 report = true
 
 [[scenario]]

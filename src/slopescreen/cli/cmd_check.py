@@ -25,11 +25,14 @@ def add_to(sub: Any) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from slopescreen.hazard import class_names
     from slopescreen.maps.config import load_config
     from slopescreen.maps.engine import prepare, void_note
+    from slopescreen.maps.output_names import SCENARIO_OUTPUTS, written
+    from slopescreen.stability_classes import class_names
 
     cfg = load_config(args.scenarios)
+    for note in cfg.deprecations:
+        print(f"DEPRECATED: {note}")
     inputs = prepare(cfg)
     grid, soils = inputs.grid, inputs.soils
     print(f"scenario file {cfg.path}: valid")
@@ -44,32 +47,24 @@ def run(args: argparse.Namespace) -> int:
     )
     for w in soils.warnings:
         print(f"  WARNING: {w}")
-    print(f"  hazard classes: {'; '.join(class_names(cfg.fs_breaks))}")
+    print(f"  stability classes: {'; '.join(class_names(cfg.fs_breaks))}")
     print("  would run:")
     for sc in cfg.scenarios:
         extra = f", seismic k_h {sc.seismic_coefficient:g}" if sc.seismic_coefficient else ""
         over = f", overrides for {', '.join(sc.soil_overrides)}" if sc.soil_overrides else ""
         print(f"    {sc.name}: {sc.wetness}{extra}{over}")
-    wanted = [
-        "fs.tif",
-        "saturation.tif",
-        "critical_recharge_mm_day.tif",
-        "hazard_class.tif",
-        "summary.csv",
-    ]
-    wanted += ["hazard_zones.gpkg"] * cfg.hazard_zones + ["map.png"] * cfg.quicklook_map
-    if soils.spreads:
-        wanted += ["probability_of_failure.tif", "reliability_index.tif"]
+    spreads = bool(soils.spreads)
+    if spreads:
         print(
             f"  probability of failure: {cfg.reliability.method.replace('_', ' ')} for units "
             f"{', '.join(soils.keys[c - 1] for c in sorted(soils.spreads))}"
         )
+    settings = {"zones": cfg.zones, "maps": cfg.quicklook_map, "spreads": spreads}
+    wanted = written(SCENARIO_OUTPUTS, storm=False, **settings)
     print(f"  per scenario: {', '.join(wanted)}")
     if any(sc.storm for sc in cfg.scenarios):
-        print(
-            "  storm scenarios also: storm_fs_end.tif, storm_fs_later.tif, "
-            "storm_failure_depth_m.tif, "
-            "storm_time_to_failure_h.tif"
-        )
-    print(f"  across scenarios: {'report.html, ' if cfg.report else ''}manifest.json")
+        extra = [f for f in written(SCENARIO_OUTPUTS, storm=True, **settings) if f not in wanted]
+        print(f"  storm scenarios also: {', '.join(extra)}")
+    across = "comparison/, report.html, " if cfg.report else ""
+    print(f"  across scenarios: {across}manifest.json")
     return 0

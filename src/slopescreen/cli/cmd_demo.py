@@ -82,16 +82,16 @@ def read_slope_file(path: Path) -> dict[str, Any]:
 
 
 def run(args: argparse.Namespace) -> int:
-    from slopescreen.cautions import CAUTIONS, caution_block
+    from slopescreen.cautions import caution_block
     from slopescreen.cli import cmd_envelope, cmd_slope
-    from slopescreen.cli.options import dump_json, finite_or_none
+    from slopescreen.cli.options import dump_json
     from slopescreen.outputs import write_text
 
     region = find_region(args.region)
     out = args.out
     tests_path = region / "lab_tests.csv"
     tests, fit = cmd_envelope.fit_file(tests_path, out / "mohr_circles.png")
-    print(cmd_envelope.format_text(tests_path, tests, fit).split("\n\n")[0])
+    print(cmd_envelope.format_text(tests_path, tests, fit))
     print(f"  figure written: {out / 'mohr_circles.png'}\n")
 
     slope = read_slope_file(region / "hillside_slope.toml")
@@ -101,17 +101,8 @@ def run(args: argparse.Namespace) -> int:
     result = cmd_slope.check_slope(slope)
     print(f"{name} (strength from the envelope fit above)")
     print(cmd_slope.format_text(slope, result))
-    record = {
-        "slope": name,
-        "inputs": slope,
-        "envelope": {
-            k: finite_or_none(v) if isinstance(v, float) else v
-            for k, v in fit.as_dict().items()
-            if k != "covariance"
-        },
-        "results": {k: finite_or_none(v) for k, v in result.items() if k != "stresses_kpa"},
-        "cautions": list(CAUTIONS),
-    }
+    record = cmd_slope.slope_record(name, slope, result)
+    record["envelope"] = cmd_envelope.fit_record(fit)
     write_text(out / "hillside_check.json", dump_json(record) + "\n")
     print(f"\nresults written: {out / 'hillside_check.json'}\n")
 
@@ -119,7 +110,10 @@ def run(args: argparse.Namespace) -> int:
 
     scenarios = region / "quillbrook_scenarios.toml"
     print(f"regional run: {scenarios}")
-    run_region(scenarios, out, progress=sys.stderr.isatty())
+    from slopescreen.maps.report import Extras
+
+    extras = Extras(out / "mohr_circles.png", fit.as_dict(), record)
+    run_region(scenarios, out, progress=sys.stderr.isatty(), extras=extras)
     print(f"\nopen {out / 'report.html'} in a browser for the maps and tables.\n")
     print(caution_block())
     return 0

@@ -71,8 +71,7 @@ def fit_file(path: Path, plot: Path | None = None):
 
 
 def format_text(path: Path, tests: Any, fit: Any) -> str:
-    from slopescreen.cautions import caution_block
-
+    """The fit as text (the command prints the cautions once, after it)."""
     lines = [
         f"slopescreen envelope fit: {path} ({fit.n} {tests.kind.replace('_', ' ')} tests, "
         f"{fit.method})",
@@ -83,23 +82,34 @@ def format_text(path: Path, tests: Any, fit: Any) -> str:
         f"  r2                 {fit.r2:8.4f}",
     ]
     lines += [f"  WARNING: {w}" for w in fit.warnings]
-    lines += ["", caution_block()]
     return "\n".join(lines)
 
 
-def run(args: argparse.Namespace) -> int:
-    import math
+def fit_record(fit: Any) -> dict[str, Any]:
+    """The fit for JSON (``envelope --json`` and the demo's hillside_check.json): NaN as
+    null, the covariance of (c', phi') with its units."""
+    from slopescreen.cli.options import finite_or_none
 
-    from slopescreen.cautions import CAUTIONS
+    record = {
+        k: finite_or_none(v) if isinstance(v, float) else v
+        for k, v in fit.as_dict().items()
+        if k != "covariance"
+    }
+    cov = fit.as_dict()["covariance"]
+    record["covariance"] = {
+        "cohesion_cohesion_kpa2": finite_or_none(cov[0][0]),
+        "cohesion_friction_kpa_deg": finite_or_none(cov[0][1]),
+        "friction_friction_deg2": finite_or_none(cov[1][1]),
+    }
+    return record
+
+
+def run(args: argparse.Namespace) -> int:
+    from slopescreen.cautions import CAUTIONS, caution_block
 
     tests, fit = fit_file(args.tests, args.plot)
     if args.json:
-        payload = fit.as_dict()
-        for key in ("cohesion_se_kpa", "friction_se_deg"):
-            payload[key] = payload[key] if math.isfinite(payload[key]) else None
-        payload["covariance"] = [
-            [v if math.isfinite(v) else None for v in row] for row in payload["covariance"]
-        ]
+        payload = fit_record(fit)
         payload["kind"] = tests.kind
         payload["file"] = str(args.tests)
         payload["cautions"] = list(CAUTIONS)
@@ -108,4 +118,5 @@ def run(args: argparse.Namespace) -> int:
         print(format_text(args.tests, tests, fit))
         if args.plot is not None:
             print(f"  figure written: {args.plot}")
+        print("\n" + caution_block())
     return 0

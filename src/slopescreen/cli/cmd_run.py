@@ -1,9 +1,7 @@
 """``slopescreen run``: every scenario of a scenario file, end to end.
 
-Writes, under --out: terrain/ (slope, specific catchment area, soil units, hillshade),
-one folder per scenario (fs.tif, saturation.tif, critical_recharge_mm_day.tif,
-hazard_class.tif, hazard_zones.gpkg, summary.csv, map.png), report.html and manifest.json.
-Terrain and critical recharge are cached by the content of their inputs and verified
+Writes, under --out, the files listed below. Terrain and critical recharge are cached by
+the content of their inputs and verified
 before use (default: OUT/.cache). One run at a time per --out folder; manifest.json says
 "complete": true only when every scenario and the report are done.
 
@@ -23,11 +21,13 @@ from slopescreen.cli.options import command_parser
 
 
 def add_to(sub: Any) -> None:
+    from slopescreen.maps.output_names import listing
+
     parser = command_parser(
         sub,
         "run",
         "run every scenario of a scenario file (maps, zones, tables, report)",
-        __doc__,
+        f"{__doc__}\nOutputs (file, written when, content):\n{listing()}\n",
         run,
     )
     parser.add_argument("scenarios", type=Path, metavar="SCENARIOS.toml")
@@ -70,7 +70,6 @@ def run(args: argparse.Namespace) -> int:
     if not 0 <= args.workers <= 256:
         raise InputError(f"--workers {args.workers}: must be 0 (no cluster) to 256")
     out = args.out or default_out(args.scenarios)
-    print(caution_block())
     run_engine(
         args.scenarios,
         out,

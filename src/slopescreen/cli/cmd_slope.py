@@ -71,17 +71,44 @@ def _describe(name: str, value: float, target: float) -> str:
     return f"none (no value brings FS to {target:g})"
 
 
-def format_text(kwargs: dict[str, Any], result: dict[str, Any]) -> str:
-    from slopescreen.cautions import caution_block
+def format_inputs(kwargs: dict[str, Any]) -> list[str]:
+    """Every input that changes FS, one line each group (nothing applied unseen)."""
+    sat = kwargs.get("saturated_unit_weight_kn_m3")
+    sat_text = f"{sat:.4g}" if sat is not None else f"{kwargs['unit_weight_kn_m3']:.4g} (as above)"
+    return [
+        f"  slope {kwargs['slope_deg']:.4g} deg, vertical depth {kwargs['depth_m']:.4g} m, "
+        f"saturation m {kwargs['saturation']:g}",
+        f"  c' {kwargs['cohesion_kpa']:.4g} kPa, phi' {kwargs['friction_deg']:.4g} deg, "
+        f"root cohesion {kwargs['root_cohesion_kpa']:.4g} kPa",
+        f"  unit weight {kwargs['unit_weight_kn_m3']:.4g} kN/m3, saturated {sat_text} kN/m3, "
+        f"water {kwargs['water_unit_weight_kn_m3']:.4g} kN/m3",
+        f"  surcharge {kwargs['surcharge_kpa']:.4g} kPa, seismic k_h "
+        f"{kwargs['seismic_coefficient']:g}, target FS {kwargs['target_fs']:g}",
+    ]
 
+
+def slope_record(name: str, kwargs: dict[str, Any], result: dict[str, Any]) -> dict[str, Any]:
+    """One JSON layout for ``slope --json`` and the demo's hillside_check.json."""
+    from slopescreen.cautions import CAUTIONS
+
+    results = {k: finite_or_none(v) for k, v in result.items() if k != "stresses_kpa"}
+    results["stresses_kpa"] = {k: finite_or_none(v) for k, v in result["stresses_kpa"].items()}
+    return {
+        "slope": name,
+        "inputs": dict(kwargs),
+        "results": results,
+        "cautions": list(CAUTIONS),
+    }
+
+
+def format_text(kwargs: dict[str, Any], result: dict[str, Any]) -> str:
+    """The check as text (the command prints the cautions once, after it)."""
     target = kwargs["target_fs"]
     fs = result["factor_of_safety"]
     verdict = "below target" if fs < target else "at or above target"
     lines = [
         "slopescreen single-slope check (infinite slope, slope-parallel seepage)",
-        f"  slope {kwargs['slope_deg']:.4g} deg, vertical depth {kwargs['depth_m']:.4g} m, "
-        f"c' {kwargs['cohesion_kpa']:.4g} kPa, phi' {kwargs['friction_deg']:.4g} deg, "
-        f"saturation m {kwargs['saturation']:g}",
+        *format_inputs(kwargs),
         f"  factor of safety           {_describe('factor_of_safety', fs, target)}  "
         f"({verdict} {target:g})",
         f"  critical saturation m      {_describe('m', result['critical_saturation'], target)}"
@@ -92,23 +119,17 @@ def format_text(kwargs: dict[str, Any], result: dict[str, Any]) -> str:
         "   (<=0: none needed)",
         "  stresses on the slip plane (kPa): "
         + ", ".join(f"{k.replace('_kpa', '')} {v:.2f}" for k, v in result["stresses_kpa"].items()),
-        "",
-        caution_block(),
     ]
     return "\n".join(lines)
 
 
 def run(args: argparse.Namespace) -> int:
-    from slopescreen.cautions import CAUTIONS
+    from slopescreen.cautions import caution_block
 
     kwargs = slope_kwargs(args)
     result = check_slope(kwargs)
     if args.json:
-        payload = {k: finite_or_none(v) for k, v in result.items() if k != "stresses_kpa"}
-        payload["stresses_kpa"] = {k: finite_or_none(v) for k, v in result["stresses_kpa"].items()}
-        payload["inputs"] = kwargs
-        payload["cautions"] = list(CAUTIONS)
-        print(dump_json(payload))
+        print(dump_json(slope_record("command line", kwargs, result)))
     else:
-        print(format_text(kwargs, result))
+        print(format_text(kwargs, result) + "\n\n" + caution_block())
     return 0

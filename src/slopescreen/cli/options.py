@@ -29,7 +29,12 @@ SLOPE_OPTIONS: tuple[tuple[str, str, str, float | None], ...] = (
         "horizontal pseudo-static coefficient k_h, [0, 1) (default 0)",
         0.0,
     ),
-    ("--water-unit-weight", "water_unit_weight_kn_m3", "unit weight of water, kN/m3", 9.81),
+    (
+        "--water-unit-weight",
+        "water_unit_weight_kn_m3",
+        "unit weight of water, kN/m3 (default 9.81)",
+        9.81,
+    ),
     ("--target-fs", "target_fs", "target factor of safety for the inverse values (default 1)", 1.0),
 )
 
@@ -37,12 +42,30 @@ SLOPE_OPTIONS: tuple[tuple[str, str, str, float | None], ...] = (
 def command_parser(
     sub: Any, name: str, help_text: str, doc: str | None, run: Any
 ) -> argparse.ArgumentParser:
-    """A sub-command whose --help is the command module's docstring, with its example."""
+    """A sub-command whose --help is the command module's docstring, with its example,
+    as plain text (no reStructuredText markup)."""
     parser = sub.add_parser(
-        name, help=help_text, description=doc, formatter_class=argparse.RawDescriptionHelpFormatter
+        name,
+        help=help_text,
+        description=plain_text(doc or ""),
+        formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     parser.set_defaults(run=run)
     return parser
+
+
+def plain_text(doc: str) -> str:
+    """A docstring as a terminal shows it: ``code`` and :role:`x` marks removed, "::"
+    ending a line becomes ":".
+
+    >>> plain_text("Writes ``fs.tif``; see :mod:`slopescreen`.\\n\\nExample::")
+    'Writes fs.tif; see slopescreen.\\n\\nExample:'
+    """
+    import re
+
+    text = re.sub(r":[a-z]+:`([^`]*)`", r"\1", doc)
+    text = text.replace("``", "")
+    return re.sub(r"::$", ":", text, flags=re.MULTILINE)
 
 
 def add_slope_options(parser: argparse.ArgumentParser) -> None:

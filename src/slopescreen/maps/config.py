@@ -10,13 +10,13 @@ Example (paths are relative to the scenario file)::
     soil_unit_field = "unit"
     soil_table = "soil_parameters.csv"   # optional; else parameters are polygon fields
 
-    [hazard]
+    [classes]                         # stability classes (read as [hazard] before 0.2)
     fs_breaks = [1.0, 1.3, 1.5]
     min_zone_area_m2 = 500.0
 
     [outputs]
     fs_cap = 10.0
-    hazard_zones = true
+    zones = true                      # low-margin zones (read as hazard_zones before 0.2)
     quicklook_map = true
     report = true
 
@@ -30,16 +30,19 @@ Example (paths are relative to the scenario file)::
 
 from __future__ import annotations
 
+import difflib
 import re
 import tomllib
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from slopescreen._checks import checked
 from slopescreen.errors import InputError
-from slopescreen.hazard import DEFAULT_FS_BREAKS, check_breaks
+from slopescreen.maps.scenario_schema import SCHEMA, allowed
 from slopescreen.ranges import RANGES
+from slopescreen.stability_classes import DEFAULT_FS_BREAKS, check_breaks
 from slopescreen.textfiles import read_text
 
 _REQUIRED_SOIL = ("cohesion_kpa", "friction_deg", "unit_weight_kn_m3", "depth_m")
@@ -79,7 +82,7 @@ STORM_KEYS: dict[str, tuple[float, float]] = {
 RELIABILITY_METHODS = ("taylor", "monte_carlo")
 _NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
 # names the run gives to its own files and folders beside the scenario folders
-RESERVED_NAMES = frozenset({"terrain", "report.html", "manifest.json"})
+RESERVED_NAMES = frozenset({"terrain", "comparison", "report.html", "manifest.json"})
 
 
 @dataclass(frozen=True)
@@ -137,6 +140,27 @@ class Scenario:
             return f"saturation raster {self.saturation_raster.name}"
         return f"uniform saturation m = {self.saturation:g}"
 
+    @property
+    def loads(self) -> str:
+        """Every load that changes the result: wetness, seismic k_h, soil overrides."""
+        over = "; ".join(
+            f"{unit}: " + ", ".join(f"{k} = {v:g}" for k, v in fields.items())
+            for unit, fields in self.soil_overrides.items()
+        )
+        return (
+            f"{self.wetness}; seismic k_h = {self.seismic_coefficient:g}; "
+            f"soil overrides: {over or 'none'}"
+        )
+
+
+@dataclass(frozen=True)
+class ComparisonSpec:
+    """The report's scenario comparison: areas against ``baseline`` (default: the first
+    scenario run) and a class-change map for each pair (first, second)."""
+
+    baseline: str | None = None
+    pairs: tuple[tuple[str, str], ...] = ()
+
 
 @dataclass(frozen=True)
 class Config:
@@ -146,11 +170,18 @@ class Config:
     fs_breaks: tuple[float, ...]
     min_zone_area_m2: float
     fs_cap: float
-    hazard_zones: bool
+    zones: bool
     quicklook_map: bool
     report: bool
     scenarios: tuple[Scenario, ...]
     reliability: ReliabilitySpec = ReliabilitySpec()
+    # one line per deprecated key read, printed once by the command that loaded the file
+    deprecations: tuple[str, ...] = ()
+    comparison: ComparisonSpec = ComparisonSpec()
+
+
+# old names still read for one release: (table, key or "") -> new name
+DEPRECATED_NAMES = {("", "hazard"): "classes", ("outputs", "hazard_zones"): "zones"}
 
 
 def _shown(value: object, limit: int = 60) -> str:
@@ -205,7 +236,29 @@ class _Reader:
     def known(self, table: str, data: dict[str, Any], allowed: set[str]) -> None:
         for key in data:
             if key not in allowed:
-                raise self.fail(table, key, f"unknown key; allowed: {', '.join(sorted(allowed))}")
+                raise self.fail(
+                    table,
+                    key,
+                    f"unknown key{did_you_mean(key, allowed)}; allowed: "
+                    f"{', '.join(sorted(allowed))}",
+                )
+
+    def renamed(self, table: str, data: dict[str, Any], notes: list[str]) -> dict[str, Any]:
+        """``data`` with deprecated keys read under their new names, one note per key."""
+        data = dict(data)
+        for (where, old), new in DEPRECATED_NAMES.items():
+            if where != table or old not in data:
+                continue
+            label = f"[{old}]" if not table else f"[{table}] {old}"
+            if new in data:
+                raise self.fail(table, old, f"give {new} only ({old} is its old name)")
+            where = self.lines.line(table, old) if table else self.lines.line(old)
+            notes.append(
+                f"{self.path.name}: {where}: {label} is deprecated and read as "
+                f"{f'[{new}]' if not table else new} for this release; rename it"
+            )
+            data[new] = data.pop(old)
+        return data
 
     def number(
         self,
@@ -296,24 +349,14 @@ def load_config(path: str | Path) -> Config:
     except RecursionError:
         raise InputError(f"{path}: not valid TOML: arrays or tables nested too deeply") from None
     r = _Reader(path, text)
-    r.known("", data, {"region", "hazard", "outputs", "reliability", "scenario"})
+    notes: list[str] = []
+    data = r.renamed("", data, notes)
+    r.known("", data, set(SCHEMA))
 
     reg = data.get("region")
     if not isinstance(reg, dict) or not reg:
         raise r.fail("region", "", "a [region] table is required")
-    r.known(
-        "region",
-        reg,
-        {
-            "name",
-            "dem",
-            "dem_elevation_unit",
-            "soil_units",
-            "soil_unit_field",
-            "soil_table",
-            "soil_layer",
-        },
-    )
+    r.known("region", reg, allowed("region"))
     unit = r.text("region", reg, "dem_elevation_unit", "m")
     if unit not in ("m", "ft"):
         raise r.fail("region", "dem_elevation_unit", f'must be "m" or "ft", got {_shown(unit)}')
@@ -327,20 +370,21 @@ def load_config(path: str | Path) -> Config:
         soil_layer=r.text("region", reg, "soil_layer") if "soil_layer" in reg else None,
     )
 
-    haz = r.table("", data, "hazard")
-    r.known("hazard", haz, {"fs_breaks", "min_zone_area_m2"})
+    classes_table = "hazard" if ("hazard", "") in r.lines.where else "classes"
+    haz = r.table("", data, "classes")
+    r.known(classes_table, haz, allowed("classes"))
     try:
         breaks = tuple(float(b) for b in check_breaks(haz.get("fs_breaks", DEFAULT_FS_BREAKS)))
     except (InputError, TypeError, ValueError) as exc:
-        raise r.fail("hazard", "fs_breaks", str(exc)) from None
-    min_zone = r.number("hazard", haz, "min_zone_area_m2", 0.0, 1e9, 0.0)
+        raise r.fail(classes_table, "fs_breaks", str(exc)) from None
+    min_zone = r.number(classes_table, haz, "min_zone_area_m2", 0.0, 1e9, 0.0)
 
-    out = r.table("", data, "outputs")
-    r.known("outputs", out, {"fs_cap", "hazard_zones", "quicklook_map", "report"})
+    out = r.renamed("outputs", r.table("", data, "outputs"), notes)
+    r.known("outputs", out, allowed("outputs"))
     fs_cap = r.number("outputs", out, "fs_cap", 1.5, 1e6, 10.0)
 
     rel = r.table("", data, "reliability")
-    r.known("reliability", rel, {"method", "samples", "random_state", "fs_distribution"})
+    r.known("reliability", rel, allowed("reliability"))
     method = r.text("reliability", rel, "method", "taylor")
     if method not in RELIABILITY_METHODS:
         raise r.fail(
@@ -371,10 +415,10 @@ def load_config(path: str | Path) -> Config:
                 "", "scenario", f"each scenario must be a [[scenario]] table, got {_shown(sc)}"
             )
         scenarios.append(_scenario(r, f"scenario#{i}", sc, {s.name for s in scenarios}))
-    zones = r.flag("outputs", out, "hazard_zones", True)
+    zones = r.flag("outputs", out, "zones", True)
     if not zones and "min_zone_area_m2" in haz:
         raise r.fail(
-            "hazard", "min_zone_area_m2", "applies to hazard zones, and hazard_zones = false"
+            classes_table, "min_zone_area_m2", "applies to low-margin zones, and zones = false"
         )
     return Config(
         path=path.resolve(),
@@ -383,12 +427,61 @@ def load_config(path: str | Path) -> Config:
         fs_breaks=breaks,
         min_zone_area_m2=float(min_zone),
         fs_cap=float(fs_cap),
-        hazard_zones=zones,
+        zones=zones,
         quicklook_map=r.flag("outputs", out, "quicklook_map", True),
         report=r.flag("outputs", out, "report", True),
         scenarios=tuple(scenarios),
         reliability=reliability,
+        deprecations=tuple(notes),
+        comparison=_comparison(r, r.table("", data, "comparison"), [s.name for s in scenarios]),
     )
+
+
+def _comparison(r: _Reader, data: dict[str, Any], names: list[str]) -> ComparisonSpec:
+    r.known("comparison", data, allowed("comparison"))
+    baseline = r.text("comparison", data, "baseline") if "baseline" in data else None
+    if baseline is not None and baseline not in names:
+        raise r.fail(
+            "comparison",
+            "baseline",
+            f"no scenario {baseline!r}{did_you_mean(baseline, names)}; scenarios: "
+            f"{', '.join(names)}",
+        )
+    raw = data.get("pairs", [])
+    shape = 'a list of [first, second] scenario-name pairs, e.g. [["dry", "wet"]]'
+    if not isinstance(raw, list):
+        raise r.fail("comparison", "pairs", f"must be {shape}, got {_shown(raw)}")
+    pairs = []
+    for pair in raw:
+        if (
+            not isinstance(pair, list)
+            or len(pair) != 2
+            or not all(isinstance(n, str) for n in pair)
+            or pair[0] == pair[1]
+        ):
+            raise r.fail(
+                "comparison", "pairs", f"must be {shape} of two different names, got {_shown(pair)}"
+            )
+        for name in pair:
+            if name not in names:
+                raise r.fail(
+                    "comparison",
+                    "pairs",
+                    f"no scenario {name!r}{did_you_mean(name, names)}; scenarios: "
+                    f"{', '.join(names)}",
+                )
+        pairs.append((pair[0], pair[1]))
+    return ComparisonSpec(baseline, tuple(pairs))
+
+
+def did_you_mean(name: str, allowed: Iterable[str]) -> str:
+    """' (did you mean X?)' for the closest allowed name, or '' where none is close.
+
+    >>> did_you_mean("friction_dge", ["friction_deg", "depth_m"])
+    ' (did you mean friction_deg?)'
+    """
+    close = difflib.get_close_matches(name, list(allowed), n=1, cutoff=0.75)
+    return f" (did you mean {close[0]}?)" if close else ""
 
 
 def _has_storm(raw: object) -> bool:
@@ -418,7 +511,7 @@ STORM_ONLY_FIELDS = ("diffusivity_m2_s", "moisture_capacity_per_m")
 
 
 def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Scenario:
-    r.known(table, sc, {"name", "description", *WETNESS_KEYS, "seismic_coefficient", "soil"})
+    r.known(table, sc, allowed("scenario"))
     name = r.text(table, sc, "name")
     if not _NAME.fullmatch(name):
         raise r.fail(
@@ -462,7 +555,7 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
         raw = sc["storm"]
         if not isinstance(raw, dict):
             raise r.fail(table, "storm", "must be a table")
-        r.known(sub, raw, set(STORM_KEYS))
+        r.known(sub, raw, allowed("scenario.storm"))
         for key in ("rain_mm_h", "duration_h", "initial_water_table_depth_m"):
             if key not in raw:
                 raise r.fail(sub, "", f"storm needs {key}")

@@ -17,6 +17,7 @@ import json
 import os
 import platform
 import re
+import shutil
 import sys
 import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
@@ -31,13 +32,14 @@ import numpy as np
 from slopescreen import __version__
 from slopescreen.cautions import CAUTIONS
 from slopescreen.errors import InputError
-from slopescreen.hazard import class_names as hazard_class_names
 from slopescreen.maps.cache import recorded_sha256
+from slopescreen.maps.comparison import FOLDER as COMPARISON_FOLDER
+from slopescreen.maps.comparison import ClassChange
 from slopescreen.maps.config import Config, Scenario, load_config
 from slopescreen.maps.grid import Grid, dem_files_sha256, read_elevations, read_grid
 from slopescreen.maps.locks import folder_lock
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_saturation
-from slopescreen.maps.report import write_report
+from slopescreen.maps.report import Extras, RunFacts, write_report
 from slopescreen.maps.scenario_run import ScenarioSummary, run_scenario
 from slopescreen.maps.scenario_tiles import Runner, check_storm_soils, serial_runner
 from slopescreen.maps.soils import SoilUnits, load_soils
@@ -50,6 +52,7 @@ from slopescreen.outputs import (
     remove_stale_work,
     write_text,
 )
+from slopescreen.stability_classes import class_names as stability_class_names
 
 Echo = Callable[[str], None]
 _SCHEDULER = re.compile(r"[a-z][a-z0-9+.-]*://[A-Za-z0-9_.\-\[\]:]+:[0-9]{1,5}")
@@ -202,6 +205,7 @@ def run(
     workers: int = 0,
     scheduler: str | None = None,
     command: Sequence[str] | None = None,
+    extras: Extras | None = None,
 ) -> Path:
     """Run the scenarios; return the path of manifest.json.
 
@@ -219,12 +223,14 @@ def run(
     state = RunState(utc_now(), list(sys.argv if command is None else command))
     started = time.perf_counter()
     cfg = load_config(config_path)
+    for note in cfg.deprecations:
+        echo(f"DEPRECATED: {note}")
     chosen = select_scenarios(cfg, only)
     if scheduler:
         check_scheduler_address(scheduler)
     cache = cache_dir if cache_dir is not None else out / ".cache"
     real_folder(out)
-    subfolders = ["terrain", *(s.name for s in chosen)]
+    subfolders = ["terrain", COMPARISON_FOLDER, *(s.name for s in chosen)]
     _check_subfolders(out, subfolders if cache_dir is not None else [*subfolders, ".cache"])
     with folder_lock(out, f"PID {os.getpid()}, started {state.started_utc}"):
         remove_stale_work(out, skip=cache.resolve())
@@ -244,26 +250,92 @@ def run(
             steps = _Steps(timings, state, echo, progress, runner, numba_threads)
             _terrain_and_scenarios(cfg, inputs, chosen, out, cache, steps)
         started = time.perf_counter()
+        state.finished_utc = utc_now()
         if cfg.report:
+            small, changes = _comparison(cfg, inputs.grid, out, state)
+            facts = RunFacts(
+                state.started_utc,
+                state.finished_utc,
+                __version__,
+                state.command,
+                inputs.hashes,
+                void_note(inputs.voids),
+            )
             write_report(
                 out / "report.html",
                 cfg,
                 inputs.grid,
                 inputs.soils,
-                hazard_class_names(cfg.fs_breaks),
+                stability_class_names(cfg.fs_breaks),
                 state.summaries,
-                __version__,
-                void_note(inputs.voids),
+                facts,
+                small,
+                changes,
+                extras,
             )
             state.outputs.append("report.html")
         else:
             (out / "report.html").unlink(missing_ok=True)
+            shutil.rmtree(out / COMPARISON_FOLDER, ignore_errors=True)
         timings.add("report", started)
-        state.finished_utc = utc_now()
         state.complete = True
         target = write_state(out, cfg, inputs, chosen, timings, state)
     echo(f"report: {out / 'report.html'}; manifest: {target}")
     return target
+
+
+def _comparison(
+    cfg: Config, grid: Grid, out: Path, state: RunState
+) -> tuple[Path | None, list[ClassChange]]:
+    """The report's comparison figures under OUT/comparison: the small multiples of every
+    scenario run and a class-change map per pair of scenarios that both ran."""
+    from slopescreen.maps.comparison import class_change, draw_change, draw_small_multiples
+    from slopescreen.maps.quicklook import MapFrame
+
+    folder = real_folder(out / COMPARISON_FOLDER)
+    names = stability_class_names(cfg.fs_breaks)
+    ran = [s.name for s in state.summaries]
+    written: list[Path] = []
+    small = None
+    if len(ran) > 1:
+        small = draw_small_multiples(
+            folder / "stability_classes.png",
+            grid,
+            out / "terrain" / "hillshade.tif",
+            [(n, out / n / "stability_class.tif") for n in ran],
+            names,
+            f"{cfg.region.name}: factor-of-safety classes by scenario",
+        )
+        written.append(small)
+    changes = []
+    for first, second in cfg.comparison.pairs:
+        if first not in ran or second not in ran:
+            continue
+        frame = MapFrame(
+            grid,
+            out / "terrain" / "hillshade.tif",
+            f"{cfg.region.name}: where the class changes from {first} to {second}",
+            f"{first}: {_loads(cfg, first)}\n{second}: {_loads(cfg, second)}",
+            soil_codes=out / "terrain" / "soil_unit.tif",
+        )
+        step_map, areas = class_change(
+            grid,
+            out / first / "stability_class.tif",
+            out / second / "stability_class.tif",
+            frame.step,
+        )
+        png = draw_change(folder / f"{first}_vs_{second}.png", frame, step_map, first, second)
+        written.append(png)
+        changes.append(ClassChange(first, second, areas, png))
+    for stale in set(folder.iterdir()) - set(written):
+        if stale.is_file() and stale.suffix == ".png":
+            stale.unlink()
+    state.outputs += [f"{COMPARISON_FOLDER}/{p.name}" for p in written]
+    return small, changes
+
+
+def _loads(cfg: Config, name: str) -> str:
+    return next(sc.loads for sc in cfg.scenarios if sc.name == name)
 
 
 @dataclass
@@ -311,10 +383,15 @@ def _terrain_and_scenarios(
             "area_ha": round(inputs.voids["area_m2"] / 10_000.0, 4),
         },
     }
+    if cfg.quicklook_map:
+        _soil_unit_map(cfg, grid, soils, terrain_dir)
+        state.outputs.append("terrain/soil_unit.png")
+    else:
+        (terrain_dir / "soil_unit.png").unlink(missing_ok=True)
     timings.add("terrain (cached)" if reused else "terrain", started)
     echo(f"terrain: {'reused from cache (verified)' if reused else 'computed'} ({folder})")
 
-    names = hazard_class_names(cfg.fs_breaks)
+    names = stability_class_names(cfg.fs_breaks)
     for sc in chosen:
         started = time.perf_counter()
         summary, _ = run_scenario(
@@ -346,6 +423,29 @@ def _terrain_and_scenarios(
         )
         for w in summary.warnings:
             echo(f"WARNING: {w}")
+
+
+def _soil_unit_map(cfg: Config, grid: Grid, soils: SoilUnits, terrain_dir: Path) -> Path:
+    """terrain/soil_unit.png: the soil units in the house style."""
+    from slopescreen.maps.palette import unit_rgb
+    from slopescreen.maps.quicklook import MapFrame, draw_classes, read_for_map
+
+    frame = MapFrame(
+        grid,
+        terrain_dir / "hillshade.tif",
+        f"{cfg.region.name}: soil units",
+        f"from {cfg.region.soil_units.name}, field {cfg.region.soil_unit_field}",
+        soil_codes=terrain_dir / "soil_unit.tif",
+    )
+    return draw_classes(
+        terrain_dir / "soil_unit.png",
+        frame,
+        read_for_map(terrain_dir / "soil_unit.tif", frame),
+        list(soils.keys),
+        "soil unit",
+        "no soil unit, or no DEM data",
+        colours=unit_rgb(len(soils.keys)),
+    )
 
 
 def void_note(voids: dict[str, float]) -> str:

@@ -1,27 +1,41 @@
-"""Quick-look map (PNG): hazard classes over a hillshade, with legend, scale bar, north
-arrow, CRS and scenario name. Colours are sampled from matplotlib's perceptually uniform
-'plasma' colour map."""
+"""Map figures (PNG) in one house style: opaque class or value colours over the relief
+(lightness only, see :mod:`slopescreen.maps.palette`), soil-unit boundaries and zone
+outlines as thin lines, a legend with a no-data entry, axes labelled with their units, and
+the scale bar and north arrow in the margin beside the map, never on the data. Every figure
+carries the full cautions."""
 
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from slopescreen.cautions import CAUTIONS
 from slopescreen.maps.grid import Grid
+from slopescreen.maps.palette import (
+    FAILS_DRY_HEX,
+    HOLDS_HEX,
+    NO_DATA_HEX,
+    class_rgb,
+    hex_rgb,
+    ramp,
+    relief_from_hillshade,
+    shade,
+)
 from slopescreen.outputs import replacing
+from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
 
-COLOUR_MAP = "plasma"
+MAX_PIXELS = 1600  # rasters are read at most this many cells a side for a figure
+BOUNDARY_HEX = "#1f4e79"  # soil-unit boundaries: dashed slate blue, apart from zone outlines
+MAX_ZONE_OUTLINES = 20_000  # beyond this many zones the outlines would hide the map
 
 
 def class_colours(n_classes: int) -> list[tuple[int, ...]]:
-    """RGBA 0-255 per class, least stable first (dark) to most stable (light)."""
-    from matplotlib import colormaps
-
-    rgba = colormaps[COLOUR_MAP](np.linspace(0.05, 0.95, n_classes))
-    return [tuple(int(v) for v in row) for row in np.round(rgba * 255.0)]
+    """RGBA 0-255 per class, least stable first (most prominent) to most stable (pale)."""
+    rgb = np.round(class_rgb(n_classes) * 255.0).astype(int)
+    return [(*(int(v) for v in row), 255) for row in rgb]
 
 
 def colour_table(n_classes: int) -> dict[int, tuple[int, int, int, int]]:
@@ -57,6 +71,17 @@ def scale_bar(grid: Grid) -> tuple[float, float]:
     return bar_m, bar_m / mx
 
 
+def axis_labels(crs: object) -> tuple[str, str]:
+    """Axis titles with units: Easting / Northing in the CRS's linear unit, or longitude
+    and latitude in degrees for a geographic grid."""
+    if getattr(crs, "is_geographic", False):
+        return "Longitude (degrees east)", "Latitude (degrees north)"
+    unit = str(getattr(crs, "linear_units", "") or "map units")
+    short = {"metre": "m", "meter": "m", "foot": "ft", "US survey foot": "US survey ft"}
+    unit = short.get(unit, unit)
+    return f"Easting ({unit})", f"Northing ({unit})"
+
+
 def _decimated(path: Path, step: int) -> np.ndarray:
     """The raster read at 1/step resolution (nearest; from its overviews where present)."""
     import rasterio
@@ -67,105 +92,304 @@ def _decimated(path: Path, step: int) -> np.ndarray:
         return src.read(1, out_shape=shape, resampling=Resampling.nearest)
 
 
-def draw_map(
+@dataclass
+class MapFrame:
+    """What every map shares: the grid, relief, outlines and its words."""
+
+    grid: Grid
+    hillshade: Path
+    title: str
+    subtitle: str
+    soil_codes: Path | None = None  # soil-unit raster for boundaries
+    zones: Path | None = None  # zone polygons for outlines
+    inset: tuple[list[str], np.ndarray] | None = None  # units, areas (unit x class)
+    inset_title: str = "share of each soil unit's area by class"
+    notes: list[str] = field(default_factory=list)  # extra legend lines
+
+    @property
+    def step(self) -> int:
+        return max(1, math.ceil(max(self.grid.height, self.grid.width) / MAX_PIXELS))
+
+
+@dataclass
+class Special:
+    """A code of a continuous raster shown as its own legend entry."""
+
+    value: float
+    hex_colour: str
+    label: str
+
+
+def read_for_map(path: Path, frame: MapFrame) -> np.ndarray:
+    """A raster as a map of ``frame`` shows it (decimated to at most MAX_PIXELS a side)."""
+    return _decimated(path, frame.step)
+
+
+def draw_classes(
     target: Path,
-    grid: Grid,
-    hillshade_path: Path,
-    hazard_path: Path,
-    class_names: list[str],
-    title: str,
-    subtitle: str,
+    frame: MapFrame,
+    classes: np.ndarray,
+    names: list[str],
+    legend_title: str,
+    no_data_label: str = "no result (no soil unit or no data)",
+    colours: np.ndarray | None = None,
+) -> Path:
+    """A map of uint8 classes 1..n (0 = no result; from :func:`read_for_map`), least
+    stable first; ``colours`` (n x 3, RGB 0-1) default to the class palette."""
+    from matplotlib.patches import Patch
+
+    colours = class_rgb(len(names)) if colours is None else colours
+    lut = np.vstack([hex_rgb(NO_DATA_HEX), colours])
+    rgb = lut[np.clip(classes, 0, len(names))]
+    handles = [
+        Patch(facecolor=colours[i], edgecolor="0.3", label=name) for i, name in enumerate(names)
+    ]
+    handles.append(Patch(facecolor=hex_rgb(NO_DATA_HEX), edgecolor="0.3", label=no_data_label))
+    return _draw(target, frame, rgb, handles, legend_title)
+
+
+def draw_values(
+    target: Path,
+    frame: MapFrame,
+    value_path: Path,
+    label: str,
+    log: bool = False,
+    specials: tuple[Special, ...] = (),
+    no_data_label: str = "no result (no soil unit or no data)",
+    value_range: tuple[float, float] | None = None,
+) -> Path:
+    """A continuous map, low values (the worry) dark and prominent, high values pale, on a
+    log colour scale with ``log``; codes in ``specials`` get their own legend entries."""
+    from matplotlib.colors import ListedColormap, LogNorm, Normalize
+    from matplotlib.patches import Patch
+
+    values = _decimated(value_path, frame.step).astype(np.float64)
+    nodata = ~np.isfinite(values) | (values <= -9000.0)
+    special_masks = [(s, np.isclose(values, s.value) & ~nodata) for s in specials]
+    regular = ~nodata
+    for _, m in special_masks:
+        regular &= ~m
+    if log:
+        regular &= values > 0.0
+    data = values[regular]
+    if value_range is None:
+        lo, hi = np.percentile(data, [1.0, 99.0]) if data.size else (1.0, 10.0)
+        if log:
+            lo = max(lo, 1e-3)
+            lo, hi = 10 ** math.floor(math.log10(lo)), 10 ** math.ceil(math.log10(max(hi, lo)))
+            hi = max(hi, lo * 10.0)
+        elif hi <= lo:
+            hi = lo + 1.0
+        value_range = (float(lo), float(hi))
+    norm = (LogNorm if log else Normalize)(*value_range, clip=True)
+    colours = ramp(256)
+    cmap = ListedColormap(colours)
+    rgb = np.empty((*values.shape, 3))
+    rgb[:] = hex_rgb(NO_DATA_HEX)
+    if data.size:
+        rgb[regular] = cmap(norm(data))[:, :3]
+    handles = []
+    for s, m in special_masks:
+        rgb[m] = hex_rgb(s.hex_colour)
+        handles.append(Patch(facecolor=hex_rgb(s.hex_colour), edgecolor="0.3", label=s.label))
+    handles.append(Patch(facecolor=hex_rgb(NO_DATA_HEX), edgecolor="0.3", label=no_data_label))
+    return _draw(target, frame, rgb, handles, "codes and lines", colourbar=(cmap, norm, label))
+
+
+def _draw(
+    target: Path,
+    frame: MapFrame,
+    rgb: np.ndarray,
+    handles: list,
+    legend_title: str,
+    colourbar: tuple | None = None,
 ) -> Path:
     import matplotlib
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
-    from matplotlib.colors import ListedColormap
-    from matplotlib.patches import Patch
+    from matplotlib.lines import Line2D
+    from matplotlib.ticker import FuncFormatter, MaxNLocator
+    from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
-    step = max(1, math.ceil(max(grid.height, grid.width) / 1600))
+    grid = frame.grid
+    hillshade = _decimated(frame.hillshade, frame.step)
+    h, w = min(hillshade.shape[0], rgb.shape[0]), min(hillshade.shape[1], rgb.shape[1])
+    hillshade, rgb = hillshade[:h, :w], rgb[:h, :w]
+    inside = hillshade > 0
+    image = np.ones((*rgb.shape[:2], 4))
+    image[..., :3] = shade(rgb, np.where(inside, relief_from_hillshade(hillshade), 0.0))
+    image[..., 3] = inside  # outside the DEM's data: the page shows through
     t = grid.transform
-    extent = (t.c, t.c + t.a * grid.width, t.f + t.e * grid.height, t.f)
-    n = len(class_names)
-    colours = np.array(class_colours(n)) / 255.0
+    extent = (t.c, t.c + t.a * grid.width, t.f + t.e * grid.height, t.f)  # type: ignore[attr-defined]
     mx, my, variation = ground_per_map_unit(grid)
-    height_over_width = (grid.height * my * abs(t.e)) / (grid.width * mx * abs(t.a))
-    fig_w = 9.0
-    fig_h = min(max(fig_w * height_over_width * 0.8 + 1.8, 5.0), 14.0)
-    fig, ax = plt.subplots(figsize=(fig_w, fig_h), dpi=120)
-    ax.imshow(
-        np.ma.masked_equal(_decimated(hillshade_path, step), 0),
-        cmap="gray",
-        extent=extent,
-        interpolation="nearest",
-        vmin=0,
-        vmax=255,
+    height_over_width = (grid.height * my * abs(t.e)) / (grid.width * mx * abs(t.a))  # type: ignore[attr-defined]
+    fig_w = 11.0
+    map_w = 0.58 * fig_w
+    fig_h = min(max(map_w * height_over_width + 2.6, 6.0), 16.0)
+    fig = plt.figure(figsize=(fig_w, fig_h), dpi=110)
+    bottom = 1.35 / fig_h
+    top = 1.0 - 1.0 / fig_h
+    ax = fig.add_axes((0.09, bottom, 0.58, top - bottom))
+    ax.imshow(image, extent=extent, interpolation="nearest")
+    ax.set_aspect(my / mx, anchor="NW")  # equal ground metres both ways at the map's centre
+    if frame.soil_codes is not None:
+        codes = _decimated(frame.soil_codes, frame.step)[:h, :w]
+        for code in np.unique(codes[codes > 0]):
+            ax.contour(
+                (codes == code).astype(float),
+                levels=[0.5],
+                colors=BOUNDARY_HEX,
+                linewidths=0.9,
+                linestyles="dashed",
+                extent=extent,
+                origin="upper",
+            )
+        handles.append(
+            Line2D([], [], color=BOUNDARY_HEX, lw=0.9, ls="dashed", label="soil-unit boundary")
+        )
+    if frame.zones is not None and frame.zones.exists():
+        import geopandas as gpd
+
+        zones = gpd.read_file(frame.zones)
+        if 0 < len(zones) <= MAX_ZONE_OUTLINES:
+            zones.boundary.plot(ax=ax, color="black", linewidth=0.45)
+            handles.append(Line2D([], [], color="black", lw=0.9, label="low-margin zone"))
+        elif len(zones):
+            frame.notes.append(f"{len(zones):,} zones: too many to outline at this scale")
+    ax.set_xlim(extent[0], extent[1])
+    ax.set_ylim(extent[2], extent[3])
+    xlabel, ylabel = axis_labels(grid.crs)
+    ax.set_xlabel(xlabel, fontsize=9)
+    ax.set_ylabel(ylabel, fontsize=9)
+    fmt = "{:,.3f}" if grid.geographic else "{:,.0f}"
+    for axis in (ax.xaxis, ax.yaxis):
+        axis.set_major_formatter(FuncFormatter(lambda v, _: fmt.format(v)))
+        axis.set_major_locator(MaxNLocator(5, prune="lower"))
+    ax.tick_params(labelsize=8)
+    plt.setp(ax.get_yticklabels(), rotation=90, va="center")
+    # names are the user's text: never parsed as mathtext ("$...$")
+    fig.text(
+        0.09,
+        1.0 - 0.25 / fig_h,
+        frame.title,
+        fontsize=12,
+        weight="bold",
+        va="top",
+        parse_math=False,
     )
-    ax.imshow(
-        np.ma.masked_equal(_decimated(hazard_path, step), 0),
-        cmap=ListedColormap(colours),
-        vmin=0.5,
-        vmax=n + 0.5,
-        alpha=0.6,
-        extent=extent,
-        interpolation="nearest",
+    fig.text(
+        0.09, 1.0 - 0.55 / fig_h, frame.subtitle, fontsize=9, va="top", parse_math=False, wrap=True
     )
-    ax.set_aspect(my / mx)  # equal ground metres both ways at the map's centre
-    handles = [
-        Patch(facecolor=colours[i], edgecolor="0.3", label=name.replace("$", r"\$"))
-        for i, name in enumerate(class_names)
-    ]
-    ax.legend(
+    side_left = 0.70
+    legend = fig.legend(
         handles=handles,
-        loc="lower left",
-        fontsize=7,
-        title="factor of safety",
-        title_fontsize=7,
-        framealpha=0.85,
+        loc="upper left",
+        bbox_to_anchor=(side_left, top),
+        fontsize=8,
+        title=legend_title,
+        title_fontsize=9,
+        frameon=False,
+        alignment="left",
     )
-    span_x, span_y = extent[1] - extent[0], extent[3] - extent[2]
+    for text in legend.get_texts():
+        text.set_parse_math(False)
+    y_next = top - (0.05 + 0.032 * len(handles)) * 6.5 / fig_h
+    if colourbar is not None:
+        cmap, norm, label = colourbar
+        cax = fig.add_axes((side_left + 0.01, y_next - 0.03, 0.22, 0.022))
+        bar = fig.colorbar(
+            matplotlib.cm.ScalarMappable(norm=norm, cmap=cmap), cax=cax, orientation="horizontal"
+        )
+        bar.ax.tick_params(labelsize=7)
+        bar.set_label(label, fontsize=8)
+        y_next -= 0.03 + 0.9 / fig_h
+    if frame.inset is not None and len(frame.inset[0]) <= 12:
+        units, areas = frame.inset
+        height = min(0.22, 0.035 * len(units) + 0.05)
+        if y_next - height > bottom + 1.4 / fig_h:
+            iax = fig.add_axes((side_left + 0.07, y_next - height, 0.2, height))
+            _inset(iax, units, areas, frame.inset_title)
+    for i, note in enumerate(frame.notes):
+        fig.text(side_left, bottom + 1.25 / fig_h - i * 0.2 / fig_h, note, fontsize=7)
     bar_m, bar_map = scale_bar(grid)
-    x0, y0 = extent[0] + 0.62 * span_x, extent[2] + 0.04 * span_y
-    ax.plot([x0, x0 + bar_map], [y0, y0], color="black", lw=3, solid_capstyle="butt")
     label = f"{bar_m / 1000:g} km" if bar_m >= 1000 else f"{bar_m:g} m"
     if variation > 0.01:
-        label += f"\n(true at the centre; scale varies {100 * variation:.0f}% across the map)"
-    ax.text(
-        x0 + bar_map / 2,
-        y0 + 0.015 * span_y,
-        label,
-        ha="center",
-        va="bottom",
-        fontsize=8,
-        bbox={"facecolor": "white", "alpha": 0.7, "edgecolor": "none"},
+        label += f" (true at the centre;\nscale varies {100 * variation:.0f}% across the map)"
+    ax.add_artist(
+        AnchoredSizeBar(
+            ax.transData,
+            bar_map,
+            label,
+            loc="lower left",
+            bbox_to_anchor=(1.03, 0.0),
+            bbox_transform=ax.transAxes,
+            frameon=True,
+            size_vertical=0,
+            fontproperties={"size": 8},
+            sep=4,
+            borderpad=0.6,
+        )
     )
     ax.annotate(
         "N",
-        xy=(0.95, 0.95),
-        xytext=(0.95, 0.84),
+        xy=(1.08, 0.34),
+        xytext=(1.08, 0.22),
         xycoords="axes fraction",
         ha="center",
         va="center",
         fontsize=11,
         fontweight="bold",
+        annotation_clip=False,
         arrowprops={"arrowstyle": "-|>", "color": "black", "lw": 1.5},
     )
-    # names are the user's text: never parsed as mathtext ("$...$")
-    ax.set_title(f"{title}\n{subtitle}", fontsize=10, parse_math=False)
     crs_text = grid.crs.to_string()  # type: ignore[attr-defined]
-    ax.set_xlabel(f"CRS: {crs_text}", fontsize=7, parse_math=False)
-    ax.tick_params(labelsize=6)
-    ax.ticklabel_format(useOffset=False, style="plain")
     fig.text(
-        0.01,
-        0.005,
-        "CAUTION: " + " ".join(CAUTIONS[:1] + CAUTIONS[2:]),
-        fontsize=6,
-        color="0.25",
+        0.09,
+        0.55 / fig_h,
+        f"CRS: {crs_text}. {grid.ground.note}",
+        fontsize=7,
+        color="0.2",
+        parse_math=False,
         wrap=True,
     )
-    fig.tight_layout(rect=(0, 0.03, 1, 1))
+    fig.text(
+        0.09,
+        0.1 / fig_h,
+        "CAUTION: " + " ".join(CAUTIONS),
+        fontsize=7,
+        color="0.2",
+        wrap=True,
+        parse_math=False,
+    )
     with replacing(target) as tmp:
         fig.savefig(tmp, format="png")
     plt.close(fig)
     return target
+
+
+def _inset(ax: object, units: list[str], areas: np.ndarray, title: str) -> None:
+    """Horizontal bars: each unit's area split by class, as shares of the unit."""
+    shares = areas / np.maximum(areas.sum(axis=1, keepdims=True), 1e-12)
+    colours = class_rgb(areas.shape[1])
+    left = np.zeros(len(units))
+    y = np.arange(len(units))[::-1]
+    for k in range(areas.shape[1]):
+        ax.barh(y, shares[:, k], left=left, color=colours[k], edgecolor="0.4", lw=0.3)  # type: ignore[attr-defined]
+        left += shares[:, k]
+    ax.set_yticks(y, [u[:14] for u in units], fontsize=7)  # type: ignore[attr-defined]
+    ax.set_xlim(0, 1)  # type: ignore[attr-defined]
+    ax.set_xticks([0, 0.5, 1], ["0", "50%", "100%"], fontsize=7)  # type: ignore[attr-defined]
+    ax.set_title(title, fontsize=8, loc="left")  # type: ignore[attr-defined]
+    for label in ax.get_yticklabels():  # type: ignore[attr-defined]
+        label.set_parse_math(False)
+
+
+CRITICAL_RECHARGE_SPECIALS = (
+    Special(FAILS_WHEN_DRY, FAILS_DRY_HEX, f"fails even when dry (code {FAILS_WHEN_DRY:g})"),
+    Special(
+        HOLDS_WHEN_SATURATED,
+        HOLDS_HEX,
+        f"holds even when saturated (code {HOLDS_WHEN_SATURATED:g})",
+    ),
+)

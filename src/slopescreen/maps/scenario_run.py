@@ -14,10 +14,10 @@ from pathlib import Path
 import numpy as np
 
 from slopescreen import __version__
-from slopescreen.hazard import PF_CLASS_NAMES
 from slopescreen.maps.cache import building, content_key, usable_entry
 from slopescreen.maps.config import Config, Scenario
 from slopescreen.maps.grid import Grid
+from slopescreen.maps.output_names import LEGACY_SCENARIO_FILES, SCENARIO_OUTPUTS
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, windows
 from slopescreen.maps.scenario_tiles import (
     BETA_CAP,
@@ -32,24 +32,11 @@ from slopescreen.maps.soils import SoilUnits
 from slopescreen.maps.summary import summary_rows, write_summary
 from slopescreen.maps.terrain_cache import NODATA_F32
 from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
+from slopescreen.stability_classes import PF_CLASS_NAMES
 
 RECHARGE = "critical_recharge_mm_day.tif"
 # every file a scenario folder can hold; those a run does not write are removed from it
-SCENARIO_FILES = (
-    "fs.tif",
-    "saturation.tif",
-    RECHARGE,
-    "hazard_class.tif",
-    "storm_fs_end.tif",
-    "storm_fs_later.tif",
-    "storm_failure_depth_m.tif",
-    "storm_time_to_failure_h.tif",
-    "probability_of_failure.tif",
-    "reliability_index.tif",
-    "summary.csv",
-    "hazard_zones.gpkg",
-    "map.png",
-)
+SCENARIO_FILES = (*(f for f, _, _ in SCENARIO_OUTPUTS), *LEGACY_SCENARIO_FILES)
 
 
 @dataclass
@@ -59,12 +46,16 @@ class ScenarioSummary:
     seismic_coefficient: float
     overrides: dict[str, dict[str, float]]
     class_areas_ha: list[float]  # per FS class, all units
-    map_png: Path | None
+    maps: dict[str, Path]  # what each map shows -> its PNG
     warnings: list[str]
     probability_areas_ha: list[float] | None = None  # per probability class
     outputs: list[str] = field(default_factory=list)  # file names in the scenario folder
     description: str = ""
     cut_off_ha: float = 0.0  # mapped area whose upslope area is cut off by a void or edge
+    loads: str = ""  # every load that changes the result, in words
+    unit_class_areas_ha: list[list[float]] = field(default_factory=list)  # unit x class
+    zones: list[dict[str, object]] = field(default_factory=list)  # largest, by area
+    storm: bool = False
 
 
 def _sinks(
@@ -105,8 +96,8 @@ def _sinks(
             ),
         ),
         "saturation": f32("saturation.tif", units="saturation ratio m = h_w / z"),
-        "hazard": RasterSink(
-            out / "hazard_class.tif",
+        "classes": RasterSink(
+            out / "stability_class.tif",
             grid,
             "uint8",
             0,
@@ -217,8 +208,7 @@ def run_scenario(
 ) -> tuple[ScenarioSummary, list[dict[str, object]]]:
     """Write every output of one scenario into ``out``; ``terrain_cache`` is the folder of
     the terrain cache entry, and critical recharge is cached beside it (in its parent)."""
-    from slopescreen.maps.quicklook import draw_map
-    from slopescreen.maps.zones import hazard_zones, write_zones
+    from slopescreen.maps.zones import low_margin_zones, write_zones
 
     where = f"{cfg.path}: scenario {sc.name}"
     units = soils.with_overrides(sc.soil_overrides, where)
@@ -294,34 +284,29 @@ def run_scenario(
         )
         pf_areas = [float(a) / 10_000.0 for a in pf_table[1:, 1:].sum(axis=0)]
     write_summary(rows_out, out / "summary.csv")
-    if cfg.hazard_zones:
-        zones = hazard_zones(
-            out / "hazard_class.tif",
+    largest: list[dict[str, object]] = []
+    if cfg.zones:
+        zones = low_margin_zones(
+            out / "stability_class.tif",
             job.codes,
             grid,
             units.keys,
             names,
             cfg.min_zone_area_m2,
             sc.name,
+            terrain_dir / "slope_deg.tif",
         )
-        write_zones(zones, out / "hazard_zones.gpkg")
-    map_png = None
+        write_zones(zones, out / "low_margin_zones.gpkg")
+        largest = largest_zones(zones)
+    unit_areas = table[1:, 1:] / 10_000.0
+    maps: dict[str, Path] = {}
     if cfg.quicklook_map:
-        map_png = draw_map(
-            out / "map.png",
-            grid,
-            terrain_dir / "hillshade.tif",
-            out / "hazard_class.tif",
-            names,
-            f"{cfg.region.name}: factor-of-safety classes",
-            f"scenario {sc.name} ({sc.wetness})",
-        )
+        maps = draw_scenario_maps(cfg, sc, grid, units.keys, names, terrain_dir, out, unit_areas)
     areas = [float(a) / 10_000.0 for a in table[1:, 1:].sum(axis=0)]
     written = {s.target.name for s in sinks.values()} | {"summary.csv"}
-    if cfg.hazard_zones:
-        written.add("hazard_zones.gpkg")
-    if cfg.quicklook_map:
-        written.add("map.png")
+    written |= {p.name for p in maps.values()}
+    if cfg.zones:
+        written.add("low_margin_zones.gpkg")
     for stale in set(SCENARIO_FILES) - written:  # left by an earlier run of another config
         (out / stale).unlink(missing_ok=True)
     outputs = sorted(written)
@@ -331,10 +316,109 @@ def run_scenario(
         sc.seismic_coefficient,
         sc.soil_overrides,
         areas,
-        map_png,
+        maps,
         warnings,
         pf_areas,
         outputs,
         sc.description,
         float(cut_table[1:, 1:].sum()) / 10_000.0,
+        sc.loads,
+        unit_areas.tolist(),
+        largest,
+        sc.storm is not None,
     ), rows_out
+
+
+def largest_zones(zones: object, count: int = 10) -> list[dict[str, object]]:
+    """The ``count`` largest zones: class, soil unit, ground area and mean slope."""
+    frame = zones.sort_values("area_m2", ascending=False, kind="stable").head(count)  # type: ignore[attr-defined]
+    return [
+        {
+            "class_name": str(r.class_name),
+            "soil_unit": str(r.soil_unit),
+            "area_ha": float(r.area_m2) / 10_000.0,
+            "mean_slope_deg": float(r.mean_slope_deg),
+        }
+        for r in frame.itertuples()
+    ]
+
+
+def draw_scenario_maps(
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    unit_keys: list[str],
+    names: list[str],
+    terrain_dir: Path,
+    out: Path,
+    unit_areas: np.ndarray,
+) -> dict[str, Path]:
+    """Every map of one scenario in the house style; returns {what it shows: PNG path}."""
+    from slopescreen.maps.palette import HOLDS_HEX
+    from slopescreen.maps.quicklook import (
+        CRITICAL_RECHARGE_SPECIALS,
+        MapFrame,
+        Special,
+        draw_classes,
+        draw_values,
+        read_for_map,
+    )
+    from slopescreen.stability_classes import classify_probability
+
+    region = cfg.region.name
+
+    def frame(what: str, inset: bool = False) -> MapFrame:
+        return MapFrame(
+            grid,
+            terrain_dir / "hillshade.tif",
+            f"{region}: {what}",
+            f"scenario {sc.name}: {sc.loads}",
+            soil_codes=terrain_dir / "soil_unit.tif",
+            zones=out / "low_margin_zones.gpkg" if cfg.zones else None,
+            inset=(unit_keys, unit_areas) if inset else None,
+        )
+
+    f = frame("factor-of-safety classes (susceptibility, no annual frequency)", inset=True)
+    maps = {
+        "stability classes": draw_classes(
+            out / "stability_class.png",
+            f,
+            read_for_map(out / "stability_class.tif", f),
+            names,
+            "factor of safety",
+        )
+    }
+    if (out / "probability_of_failure.tif").exists():
+        f = frame("probability of failure P(FS < 1) from parameter spread")
+        pf = read_for_map(out / "probability_of_failure.tif", f).astype(np.float64)
+        pf[pf < 0.0] = np.nan
+        maps["probability of failure"] = draw_classes(
+            out / "probability_of_failure.png",
+            f,
+            classify_probability(pf),
+            list(PF_CLASS_NAMES),
+            "chance that FS < 1",
+            "no result (no spread given, or no data)",
+        )
+    f = frame("critical steady recharge (rain that starts failure)")
+    maps["critical recharge"] = draw_values(
+        out / RECHARGE.replace(".tif", ".png"),
+        f,
+        out / RECHARGE,
+        "steady recharge bringing FS to 1 (mm/day, log scale)",
+        log=True,
+        specials=CRITICAL_RECHARGE_SPECIALS,
+    )
+    if sc.storm is not None:
+        f = frame("time from the start of the storm until FS falls below 1")
+        maps["storm time to failure"] = draw_values(
+            out / "storm_time_to_failure_h.png",
+            f,
+            out / "storm_time_to_failure_h.tif",
+            "hours after the storm began",
+            specials=(
+                Special(NO_FAILURE_CODE, HOLDS_HEX, f"holds to {sc.storm.later_h:g} h (code -1)"),
+            ),
+            value_range=(0.0, sc.storm.later_h),
+        )
+    return maps

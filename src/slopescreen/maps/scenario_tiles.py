@@ -17,7 +17,6 @@ from typing import Any
 import numpy as np
 
 from slopescreen.errors import InputError
-from slopescreen.hazard import PF_CLASS_NAMES, classify, classify_probability
 from slopescreen.maps.config import ReliabilitySpec, Scenario
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.rasters import read_block, read_saturation
@@ -31,6 +30,7 @@ from slopescreen.scenario import (
     storm_fs_at,
     storm_response,
 )
+from slopescreen.stability_classes import PF_CLASS_NAMES, classify, classify_probability
 
 # soil parameters the core takes
 CORE_FIELDS = (
@@ -268,7 +268,7 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
             fs,
         )
     block["saturation"] = np.broadcast_to(m, (n,))
-    values["hazard"] = classify(fs, job.fs_breaks)
+    values["classes"] = classify(fs, job.fs_breaks)
     values["fs"] = np.minimum(fs, job.fs_cap)
     values["saturation"] = block["saturation"]
     if job.spreads:
@@ -277,10 +277,10 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     for name, v in values.items():
         full = (
             np.zeros(shape, np.uint8)
-            if name == "hazard"
+            if name == "classes"
             else np.full(shape, NODATA_F32, np.float32)
         )
-        full[valid] = v if name == "hazard" else np.nan_to_num(v, nan=NODATA_F32)
+        full[valid] = v if name == "classes" else np.nan_to_num(v, nan=NODATA_F32)
         out[name] = full
     out["recharge"] = (
         read_block(job.recharge_cache, rows, cols)
@@ -289,11 +289,11 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     )
     cell_area = job.grid.ground.cell_area_m2(rows, cols)
     table = np.zeros((job.n_units + 1, len(job.fs_breaks) + 2))
-    add_areas(table, codes * valid, out["hazard"], cell_area)
+    add_areas(table, codes * valid, out["classes"], cell_area)
     out["table"] = table
     cut_table = np.zeros_like(table)
     cut = read_block(job.cut_off, rows, cols) == 1
-    add_areas(cut_table, codes * (valid & cut), out["hazard"], cell_area)
+    add_areas(cut_table, codes * (valid & cut), out["classes"], cell_area)
     out["cut_table"] = cut_table
     if job.spreads:
         pf_table = np.zeros((job.n_units + 1, len(PF_CLASS_NAMES) + 1))

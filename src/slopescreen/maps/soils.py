@@ -19,6 +19,7 @@ from slopescreen.maps.config import (
     SPREAD_SUFFIXES,
     UNCERTAIN_FIELDS,
     Region,
+    did_you_mean,
 )
 from slopescreen.maps.grid import Grid
 from slopescreen.reliability import Spread, spread
@@ -49,6 +50,7 @@ class SoilUnits:
     data_cells: int = 0  # DEM cells with data
     codes_sha256: str = ""  # content of the rasterized unit codes (set with the coverage)
     diffusivity_derived: frozenset[int] = frozenset()  # codes whose D0 is K / C0
+    lab_tests: dict[str, Path] = field(default_factory=dict)  # unit -> lab-test CSV fitted
 
     def unit_spreads(self, code: int) -> dict[str, Spread]:
         """The unit's spreads, centred on its current (possibly overridden) means."""
@@ -259,7 +261,8 @@ def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
     unknown = sorted(set(map(str, rows[0])) - set(ALL_COLUMNS) - {key_field})
     if unknown:
         raise InputError(
-            f"{path}: unknown column {unknown[0]!r}; allowed: "
+            f"{path}: unknown column {unknown[0]!r}"
+            f"{did_you_mean(unknown[0], [key_field, *ALL_COLUMNS])}; allowed: "
             f"{', '.join([key_field, *ALL_COLUMNS])}"
         )
     table: dict[str, dict[str, Any]] = {}
@@ -382,5 +385,11 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
         spreads=spreads,
         correlations=correlations,
         diffusivity_derived=frozenset(int(c) for c in np.flatnonzero(from_capacity)),
+        lab_tests={
+            k: (Path(source).parent / str(records[k]["strength_lab_tests"]).strip()).resolve()
+            for k in keys
+            if isinstance(records[k].get("strength_lab_tests"), str)
+            and str(records[k]["strength_lab_tests"]).strip()
+        },
     )
     return units

@@ -1,4 +1,5 @@
-"""Area tables: hectares and shares of each hazard class per soil unit and in total."""
+"""Area tables: hectares and shares of each stability or probability class per soil unit
+and in total."""
 
 from __future__ import annotations
 
@@ -51,7 +52,7 @@ def summary_rows(
                     "scenario": scenario,
                     "measure": measure,
                     "soil_unit": key,
-                    "hazard_class": cls,
+                    "class": cls,
                     "class_name": name,
                     "area_ha": round(a / M2_PER_HA, 4),
                     "percent_of_unit": round(100.0 * a / unit_total, 3) if unit_total else 0.0,

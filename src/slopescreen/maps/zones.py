@@ -1,4 +1,4 @@
-"""Hazard-zone polygons of the least stable classes (rasterio.features, geopandas).
+"""Low-margin zones: polygons of the two least stable classes (rasterio.features, geopandas).
 
 Polygons are traced tile by tile from the written rasters, so memory stays bounded; pieces
 that meet across a tile edge are merged afterwards (by class and soil unit), so the result
@@ -19,7 +19,7 @@ ZONE_CLASSES = (1, 2)  # the two least stable classes
 _UNIT_SPAN = 65536
 
 
-def _tile_polygons(hazard: np.ndarray, codes: np.ndarray, transform: object) -> list[tuple]:
+def _tile_polygons(classes: np.ndarray, codes: np.ndarray, transform: object) -> list[tuple]:
     """(polygon, class, unit code) of every 4-connected patch of classes 1-2 in a tile.
 
     Polygons are built in one vectorised shapely call from the traced rings (one Python
@@ -28,10 +28,10 @@ def _tile_polygons(hazard: np.ndarray, codes: np.ndarray, transform: object) -> 
     import shapely
     from rasterio import features
 
-    mask = np.isin(hazard, ZONE_CLASSES) & (codes > 0)
+    mask = np.isin(classes, ZONE_CLASSES) & (codes > 0)
     if not mask.any():
         return []
-    label = (hazard.astype(np.int32) * _UNIT_SPAN + codes.astype(np.int32)) * mask
+    label = (classes.astype(np.int32) * _UNIT_SPAN + codes.astype(np.int32)) * mask
     rings, ring_owner, values = [], [], []
     for k, (geom, value) in enumerate(
         features.shapes(label, mask=mask, transform=transform, connectivity=4)
@@ -50,14 +50,15 @@ def _tile_polygons(hazard: np.ndarray, codes: np.ndarray, transform: object) -> 
     ]
 
 
-def hazard_zones(
-    hazard_path: Path,
+def low_margin_zones(
+    class_path: Path,
     codes_path: Path,
     grid: Grid,
     unit_keys: list[str],
     class_names: list[str],
     min_area_m2: float,
     scenario: str,
+    slope_path: Path | None = None,
 ) -> object:
     """GeoDataFrame of polygons of classes 1 and 2, one per connected patch of a class in a
     soil unit; patches under ``min_area_m2`` (the minimum mapping unit, on the ground) are
@@ -72,14 +73,14 @@ def hazard_zones(
         window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
         t = transform(window, grid.transform)
         found = _tile_polygons(
-            read_block(hazard_path, rows, cols), read_block(codes_path, rows, cols), t
+            read_block(class_path, rows, cols), read_block(codes_path, rows, cols), t
         )
         pieces += found
         x0, y0 = t.c, t.f
         x1, y1 = t.c + t.a * (cols.stop - cols.start), t.f + t.e * (rows.stop - rows.start)
         edges.append(shapely.box(min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1)).boundary)
     frame = gpd.GeoDataFrame(
-        {"hazard_class": [p[1] for p in pieces], "code": [p[2] for p in pieces]},
+        {"stability_class": [p[1] for p in pieces], "code": [p[2] for p in pieces]},
         geometry=[p[0] for p in pieces],
         crs=grid.crs,
     )
@@ -87,27 +88,66 @@ def hazard_zones(
         outer = shapely.box(*grid_bounds(grid)).boundary
         inner_edges = shapely.difference(shapely.union_all(edges), outer)
         on_edge = frame.intersects(inner_edges)
-        merged = frame[on_edge].dissolve(by=["hazard_class", "code"], as_index=False)
+        merged = frame[on_edge].dissolve(by=["stability_class", "code"], as_index=False)
         merged = merged.explode(index_parts=False)
         frame = gpd.GeoDataFrame(
             np.concatenate(
                 [
-                    frame[~on_edge][["hazard_class", "code"]].to_numpy(),
-                    merged[["hazard_class", "code"]].to_numpy(),
+                    frame[~on_edge][["stability_class", "code"]].to_numpy(),
+                    merged[["stability_class", "code"]].to_numpy(),
                 ]
             ),
-            columns=["hazard_class", "code"],
+            columns=["stability_class", "code"],
             geometry=list(frame[~on_edge].geometry) + list(merged.geometry),
             crs=grid.crs,
         )
-        frame = frame.sort_values(["hazard_class", "code"], kind="stable")
+        frame = frame.sort_values(["stability_class", "code"], kind="stable")
     frame["scenario"] = scenario
-    frame["class_name"] = [class_names[int(c) - 1] for c in frame["hazard_class"]]
+    frame["class_name"] = [class_names[int(c) - 1] for c in frame["stability_class"]]
     frame["soil_unit"] = [unit_keys[int(c) - 1] for c in frame["code"]]
     frame["area_m2"] = ground_areas_m2(frame.geometry, grid)
     frame = frame[frame["area_m2"] >= min_area_m2].reset_index(drop=True)
-    frame["hazard_class"] = frame["hazard_class"].astype("int32")
-    return frame[["scenario", "hazard_class", "class_name", "soil_unit", "area_m2", "geometry"]]
+    frame["stability_class"] = frame["stability_class"].astype("int32")
+    columns = ["scenario", "stability_class", "class_name", "soil_unit", "area_m2"]
+    if slope_path is not None:
+        frame["mean_slope_deg"] = mean_in_zones(frame.geometry, slope_path, grid)
+        columns.append("mean_slope_deg")
+    return frame[[*columns, "geometry"]]
+
+
+def mean_in_zones(geometry: object, raster: Path, grid: Grid) -> np.ndarray:
+    """Mean of a raster's cells (centres inside) per polygon, tile by tile."""
+    import shapely
+    from rasterio import features
+    from rasterio.windows import Window, transform
+
+    geoms = np.asarray(geometry, dtype=object)
+    total = np.zeros(geoms.size + 1)
+    count = np.zeros(geoms.size + 1)
+    if geoms.size == 0:
+        return np.zeros(0)
+    tree = shapely.STRtree(geoms)
+    for rows, cols in windows(grid):
+        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+        t = transform(window, grid.transform)
+        x0, y0 = t.c, t.f
+        x1, y1 = t.c + t.a * window.width, t.f + t.e * window.height
+        hits = tree.query(shapely.box(min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1)))
+        if hits.size == 0:
+            continue
+        ids = features.rasterize(
+            zip(geoms[hits], hits + 1, strict=True),
+            out_shape=(window.height, window.width),
+            transform=t,
+            fill=0,
+            dtype="int32",
+        ).ravel()
+        values = read_block(raster, rows, cols).astype(np.float64).ravel()
+        ok = np.isfinite(values) & (values > -9000.0)
+        total += np.bincount(ids[ok], weights=values[ok], minlength=total.size)
+        count += np.bincount(ids[ok], minlength=count.size)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(count[1:] > 0, total[1:] / np.maximum(count[1:], 1), np.nan)
 
 
 SMALL_ZONE_CELLS = 32  # zones within this many cells a side: local areal scale suffices
@@ -171,5 +211,5 @@ def write_zones(frame: object, target: Path) -> Path:
 
     set_gdal_config_options({"OGR_CURRENT_DATE": "2000-01-01T00:00:00.000Z"})
     with replacing(target) as tmp:
-        frame.to_file(tmp, driver="GPKG", layer="hazard_zones")  # type: ignore[attr-defined]
+        frame.to_file(tmp, driver="GPKG", layer="low_margin_zones")  # type: ignore[attr-defined]
     return target

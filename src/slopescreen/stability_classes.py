@@ -1,4 +1,6 @@
-"""Hazard classes from factor of safety (numpy only).
+"""Stability (susceptibility) classes from factor of safety, and probability classes
+(numpy only). Neither carries an annual frequency: in zoning guidance (Fell et al. 2008)
+that is what makes a *hazard* map, so these are called stability or susceptibility classes.
 
 Classes are numbered from the least stable: with breaks b1 < b2 < ... < bk, class 1 is
 FS < b1, class i is b(i-1) <= FS < b(i), class k+1 is FS >= bk; 0 means no data. The
@@ -58,13 +60,15 @@ def classify(factor_of_safety: ArrayLike, breaks: ArrayLike = DEFAULT_FS_BREAKS)
     return out
 
 
-# probability-of-failure classes, most likely to fail first (our own names)
+# probability-of-failure classes, most likely to fail first, named by their own breaks:
+# P is the chance that FS < 1 given the parameter spread, not an annual frequency, so the
+# words of annual-likelihood scales (expected, likely, ...) are not used
 PF_BREAKS: tuple[float, ...] = (0.01, 0.1, 0.5)
 PF_CLASS_NAMES: tuple[str, ...] = (
-    "expected (P >= 50%)",
-    "likely (10% <= P < 50%)",
-    "possible (1% <= P < 10%)",
-    "remote (P < 1%)",
+    "1 in 2 or more (P >= 50%)",
+    "1 in 10 to 1 in 2 (10% <= P < 50%)",
+    "1 in 100 to 1 in 10 (1% <= P < 10%)",
+    "under 1 in 100 (P < 1%)",
 )
 
 

@@ -1,0 +1,125 @@
+"""Scenario comparison: one row of small class maps, and where the class changes between
+two scenarios (cells less stable, more stable, unchanged), with ground areas."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from slopescreen.cautions import CAUTIONS
+from slopescreen.maps.grid import Grid
+from slopescreen.maps.palette import NO_DATA_HEX, class_rgb, hex_rgb, relief_from_hillshade, shade
+from slopescreen.maps.quicklook import MapFrame, draw_classes, read_for_map
+from slopescreen.maps.rasters import read_block, windows
+from slopescreen.outputs import replacing
+
+FOLDER = "comparison"
+CHANGE_NAMES = ("less stable", "more stable", "same class")
+# less stable: the least stable class colour; more stable: a slate blue; same: pale
+CHANGE_HEX = ("#5a1a78", "#4f86b0", "#f2f2ef")
+
+
+@dataclass
+class ClassChange:
+    first: str
+    second: str
+    areas_ha: tuple[float, float, float]  # less stable, more stable, same (in both mapped)
+    png: Path | None = None
+
+
+def class_change(
+    grid: Grid, first: Path, second: Path, step: int
+) -> tuple[np.ndarray, tuple[float, float, float]]:
+    """Where ``second``'s class differs from ``first``'s, read tile by tile: a map of every
+    ``step``-th cell (1 less stable, 2 more stable, 3 the same class, 0 no class in either)
+    and the ground hectares of codes 1, 2 and 3 over the whole grid."""
+    small = np.zeros((-(-grid.height // step), -(-grid.width // step)), np.uint8)
+    totals = np.zeros(4)
+    for rows, cols in windows(grid):
+        a = read_block(first, rows, cols).astype(np.int16)
+        b = read_block(second, rows, cols).astype(np.int16)
+        change = np.where(b < a, 1, np.where(b > a, 2, 3)).astype(np.uint8)
+        change[(a == 0) | (b == 0)] = 0
+        area = np.broadcast_to(grid.ground.cell_area_m2(rows, cols), change.shape)
+        totals += np.bincount(change.ravel(), weights=area.ravel(), minlength=4)
+        r0, c0 = (-rows.start) % step, (-cols.start) % step
+        part = change[r0::step, c0::step]
+        i, j = (rows.start + r0) // step, (cols.start + c0) // step
+        small[i : i + part.shape[0], j : j + part.shape[1]] = part
+    areas = tuple(float(v) / 10_000.0 for v in totals[1:])
+    return small, areas  # type: ignore[return-value]
+
+
+def draw_change(target: Path, frame: MapFrame, change: np.ndarray, first: str, second: str) -> Path:
+    """The class-change map (from :func:`class_change`) in the house style."""
+    colours = np.array([hex_rgb(h) for h in CHANGE_HEX])
+    return draw_classes(
+        target,
+        frame,
+        change,
+        list(CHANGE_NAMES),
+        f"{second}\ncompared with {first}",
+        colours=colours,
+    )
+
+
+def draw_small_multiples(
+    target: Path,
+    grid: Grid,
+    hillshade: Path,
+    scenarios: list[tuple[str, Path]],
+    names: list[str],
+    title: str,
+) -> Path:
+    """One row of class maps, one per scenario, with a shared legend."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from matplotlib.patches import Patch
+
+    frame = MapFrame(grid, hillshade, title, "")
+    shade_raw = read_for_map(hillshade, frame)
+    relief = relief_from_hillshade(shade_raw)
+    colours = class_rgb(len(names))
+    lut = np.vstack([hex_rgb(NO_DATA_HEX), colours])
+    n = len(scenarios)
+    per_row = min(n, 5)
+    rows = -(-n // per_row)
+    t = grid.transform
+    aspect = (grid.height * abs(t.e)) / (grid.width * abs(t.a))  # type: ignore[attr-defined]
+    panel = 11.0 / per_row
+    fig, axes = plt.subplots(
+        rows,
+        per_row,
+        figsize=(11.0, rows * panel * aspect + 2.0),
+        dpi=100,
+        squeeze=False,
+    )
+    for ax in axes.ravel():
+        ax.set_axis_off()
+    for ax, (name, path) in zip(axes.ravel(), scenarios, strict=False):
+        classes = read_for_map(path, frame)
+        rgb = shade(lut[np.clip(classes, 0, len(names))], np.where(shade_raw > 0, relief, 0.0))
+        image = np.concatenate([rgb, (shade_raw > 0)[..., None].astype(float)], axis=-1)
+        ax.imshow(image, interpolation="nearest")
+        ax.set_title(name, fontsize=9, parse_math=False)
+    handles = [Patch(facecolor=colours[i], edgecolor="0.3", label=nm) for i, nm in enumerate(names)]
+    handles.append(Patch(facecolor=hex_rgb(NO_DATA_HEX), edgecolor="0.3", label="no result"))
+    fig.legend(
+        handles=handles,
+        loc="lower center",
+        ncol=min(5, len(handles)),
+        fontsize=8,
+        frameon=False,
+        bbox_to_anchor=(0.5, 0.09),
+    )
+    fig.suptitle(title, fontsize=11, x=0.01, ha="left")
+    fig.text(0.01, 0.01, "CAUTION: " + " ".join(CAUTIONS), fontsize=7, color="0.2", wrap=True)
+    fig.subplots_adjust(left=0.01, right=0.99, top=0.88, bottom=0.2, wspace=0.04)
+    with replacing(target) as tmp:
+        fig.savefig(tmp, format="png")
+    plt.close(fig)
+    return target
