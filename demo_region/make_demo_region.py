@@ -1,8 +1,10 @@
 """Build the invented demo region: the fictitious Quillbrook catchment.
 
 Writes quillbrook_dem.tif (450 x 450 cells at 10 m), soil_units.gpkg (five soil units) and
-soil_parameters.csv beside this file. The terrain is synthetic: a valley draining south with
-convergent hollows, spurs and a little roughness, all from formulas below. It is placed at
+soil_parameters.csv beside this file. The terrain is synthetic: a valley draining south,
+fractal relief by spectral synthesis, then a few thousand years of stream incision and
+hillslope diffusion so that tributaries, hollows and spurs form as on real ground, all
+from the formulas below (numpy only; the same numbers every run). It is placed at
 sea, off any coast, in UTM zone 25S so it cannot be mistaken for real ground.
 
     python demo_region/make_demo_region.py
@@ -137,50 +139,151 @@ UNITS = [
 ]
 
 
+RANDOM_STATE = 20261202  # same number, same landscape
+MEDIAN_SLOPE_DEG = 18.0
+
+
+def _spectral_surface(rng: np.random.Generator, beta: float = 2.8) -> np.ndarray:
+    """Fractal relief by spectral synthesis: white noise whose Fourier amplitudes fall as
+    k^(-beta/2) (a power spectrum k^-beta; natural topography has beta about 2 to 3,
+    from memory of the spectral analyses summarised by Turcotte 1997, Fractals and Chaos
+    in Geology and Geophysics), scaled to unit standard deviation."""
+    noise = rng.standard_normal((SIZE, SIZE))
+    ky = np.fft.fftfreq(SIZE)[:, None]
+    kx = np.fft.rfftfreq(SIZE)[None, :]
+    k = np.hypot(kx, ky)
+    k[0, 0] = 1.0
+    # above wavelengths of 15 cells the relief is left to the erosion pass below
+    spectrum = np.fft.rfft2(noise) * k ** (-beta / 2.0) * np.exp(-((k * 15.0) ** 2))
+    spectrum[0, 0] = 0.0
+    surface = np.fft.irfft2(spectrum, s=(SIZE, SIZE))
+    return surface / surface.std()
+
+
+_STEPS = [(-1, -1), (-1, 0), (-1, 1), (0, -1), (0, 1), (1, -1), (1, 0), (1, 1)]
+
+
+def _drainage(z: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Depressions filled by priority flood (Barnes et al. 2014, in plain Python with
+    heapq), then D8 receivers (steepest descent on the filled surface; the outlet row
+    drains off the southern edge), the cells in upstream-to-downstream order, and the
+    contributing area in cells. Flat filled ground drains towards its spill point."""
+    import heapq
+
+    h, w = z.shape
+    flat = z.ravel().astype(float)
+    filled = flat.copy()
+    done = np.zeros(h * w, bool)
+    receiver = np.full(h * w, -1, np.int64)
+    heap: list[tuple[float, int, int]] = []
+    counter = 0
+    for c in range(w):  # only the southern edge is open: the valley drains south
+        i = (h - 1) * w + c
+        heapq.heappush(heap, (filled[i], counter, i))
+        done[i] = True
+        counter += 1
+    order = []
+    while heap:
+        level, _, i = heapq.heappop(heap)
+        order.append(i)
+        r, c = divmod(i, w)
+        for dr, dc in _STEPS:
+            rr, cc = r + dr, c + dc
+            if 0 <= rr < h and 0 <= cc < w:
+                j = rr * w + cc
+                if not done[j]:
+                    done[j] = True
+                    filled[j] = max(filled[j], level + 1e-4)
+                    receiver[j] = i
+                    counter += 1
+                    heapq.heappush(heap, (filled[j], counter, j))
+    upstream_first = np.array(order[::-1], np.int64)
+    area = np.ones(h * w)
+    for i in upstream_first:
+        if receiver[i] >= 0:
+            area[receiver[i]] += area[i]
+    return receiver, upstream_first, area.reshape(h, w)
+
+
+def _erode(z: np.ndarray, steps: int = 14) -> tuple[np.ndarray, np.ndarray]:
+    """A simple landscape-evolution pass: stream-power incision solved implicitly along the
+    drainage (Braun & Willett 2013, E = K A^0.5 S) with uplift, and linear hillslope
+    diffusion (Culling 1960). Returns the eroded surface and its contributing area (cells)."""
+    dt, uplift = 1000.0, 2e-3  # years, m/yr
+    erodibility, diffusivity = (
+        4e-4,
+        0.02,
+    )  # 1/yr (with A in m2 to the 0.5), m2/yr (stable: D dt / dx2 <= 0.25)
+    z = z.astype(float).copy()
+    area = np.ones_like(z)
+    for _ in range(steps):
+        receiver, upstream_first, area = _drainage(z)
+        flat = z.ravel()
+        flat[:-SIZE] += uplift * dt  # the southern edge is base level
+        a_m2 = area.ravel() * CELL * CELL
+        for i in upstream_first[::-1]:  # downstream first
+            j = receiver[i]
+            if j < 0:
+                continue
+            dist = CELL * (np.sqrt(2.0) if abs(i - j) in (SIZE - 1, SIZE + 1) else 1.0)
+            f = erodibility * dt * np.sqrt(a_m2[i]) / dist
+            flat[i] = (flat[i] + f * flat[j]) / (1.0 + f)
+        z = flat.reshape(z.shape)
+        padded = np.pad(z, 1, mode="edge")
+        laplace = (
+            padded[:-2, 1:-1] + padded[2:, 1:-1] + padded[1:-1, :-2] + padded[1:-1, 2:] - 4 * z
+        ) / CELL**2
+        z = z + diffusivity * dt * laplace
+    _, _, area = _drainage(z)
+    return z, area
+
+
 def terrain() -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Elevation (m), hollow strength (0-1) and distance from the channel (m)."""
+    """Elevation (m), hollows (0-1: convergent ground off the channels) and contributing
+    area (m2): a valley draining south, fractal relief by spectral synthesis, then shaped
+    by stream incision and hillslope diffusion."""
+    rng = np.random.default_rng(RANDOM_STATE)
     y_index, x_index = np.mgrid[0:SIZE, 0:SIZE]
     x = (x_index + 0.5) * CELL
     y = (SIZE - y_index - 0.5) * CELL  # metres north of the southern edge
     channel = 2250.0 + 260.0 * np.sin(2.0 * np.pi * y / 3100.0)
     d = x - channel
-    z = 180.0 + 0.035 * y + 520.0 * (1.0 - np.exp(-((d / 650.0) ** 2)))
-    hollow = np.zeros_like(z)
-    # tributary hollows: (start x, start y, end x, end y, depth m, half-width m)
-    for x0, y0, x1, y1, depth, width in [
-        (300, 4200, 1900, 3300, 55, 110),
-        (4300, 4000, 2600, 3000, 60, 120),
-        (200, 2600, 1800, 1900, 50, 100),
-        (4400, 2300, 2700, 1500, 55, 110),
-        (600, 1100, 1900, 600, 40, 90),
-        (4100, 800, 2500, 300, 45, 90),
-        (1000, 3600, 1900, 2700, 35, 70),
-        (3600, 3500, 2700, 2400, 35, 70),
-    ]:
-        vx, vy = x1 - x0, y1 - y0
-        length = np.hypot(vx, vy)
-        t = np.clip(((x - x0) * vx + (y - y0) * vy) / length**2, 0.0, 1.0)
-        dist = np.hypot(x - (x0 + t * vx), y - (y0 + t * vy))
-        shape = np.exp(-((dist / width) ** 2)) * np.sin(np.pi * np.clip(t, 0.0, 1.0)) ** 0.5
-        z -= depth * shape
-        hollow = np.maximum(hollow, shape)
-    rng = np.random.default_rng(20261202)
-    for wavelength, amplitude in [(900.0, 9.0), (420.0, 5.0), (180.0, 2.0), (70.0, 0.6)]:
-        for _ in range(3):
-            angle, phase = rng.uniform(0, np.pi), rng.uniform(0, 2 * np.pi)
-            k = 2 * np.pi / wavelength
-            z += amplitude / 3 * np.sin(k * (x * np.cos(angle) + y * np.sin(angle)) + phase)
-    return z.astype(np.float32), hollow, np.abs(d)
+    valley = 180.0 + 0.035 * y + 420.0 * (1.0 - np.exp(-((d / 800.0) ** 2)))
+    rough = _spectral_surface(rng)
+    z = valley + 55.0 * rough * (0.35 + 0.65 * (1.0 - np.exp(-((d / 400.0) ** 2))))
+    z, area = _erode(z)
+    # relief scaled about the outlet so that the median slope is MEDIAN_SLOPE_DEG: hills
+    # with a few percent of failing ground in the wet season, not badlands
+    gy, gx = np.gradient(z, CELL)
+    z = z.min() + (z - z.min()) * np.tan(np.radians(MEDIAN_SLOPE_DEG)) / np.median(np.hypot(gx, gy))
+    a_m2 = area * CELL * CELL
+    padded = np.pad(z, 1, mode="edge")
+    laplace = padded[:-2, 1:-1] + padded[2:, 1:-1] + padded[1:-1, :-2] + padded[1:-1, 2:] - 4 * z
+    # hollows: concave ground draining 0.3 to 8 ha, off the channels
+    hollow = ((laplace > 0.0) & (a_m2 > 3_000.0) & (a_m2 < 80_000.0)).astype(float)
+    for _ in range(2):  # widen the hollow axes into the hollows they drain
+        padded = np.pad(hollow, 1, mode="edge")
+        hollow = np.maximum.reduce(
+            [hollow, padded[:-2, 1:-1], padded[2:, 1:-1], padded[1:-1, :-2], padded[1:-1, 2:]]
+        ) * (laplace > -0.5)
+    return z.astype(np.float32), hollow, a_m2
 
 
-def unit_map(z: np.ndarray, hollow: np.ndarray, dist: np.ndarray) -> np.ndarray:
-    """Codes 1..5 in UNITS order from landform, smoothed by a 5 x 5 majority filter."""
+def unit_map(z: np.ndarray, hollow: np.ndarray, area_m2: np.ndarray) -> np.ndarray:
+    """Codes 1..5 in UNITS order from landform, smoothed by a 5 x 5 majority filter:
+    alluvium along channels, colluvium in hollows, ridge soils on the highest convex
+    ground, till low on the valley sides, weathered slope soil elsewhere."""
     codes = np.full(z.shape, 3, np.int32)  # SLP
-    codes[dist < 700.0] = 4  # TIL on the lower slopes
-    high = z > np.percentile(z, 80)
-    codes[high] = 5  # RDG
-    codes[hollow > 0.45] = 2  # COL
-    codes[dist < 140.0] = 1  # ALV
+    channel = area_m2 > 400_000.0
+    height_above = z - _channel_level(z, channel)
+    codes[height_above < 45.0] = 4  # TIL on the lower slopes
+    codes[(z > np.percentile(z, 75)) & (area_m2 < 1_500.0)] = 5  # RDG
+    codes[hollow > 0.3] = 2  # COL
+    wide = channel.copy()
+    for _ in range(3):  # the channel belt, three cells either side
+        padded = np.pad(wide, 1, mode="edge")
+        wide = wide | padded[:-2, 1:-1] | padded[2:, 1:-1] | padded[1:-1, :-2] | padded[1:-1, 2:]
+    codes[wide | (height_above < 6.0)] = 1  # ALV
     for _ in range(2):
         padded = np.pad(codes, 2, mode="edge")
         votes = np.zeros((len(UNITS) + 1, *codes.shape), np.int32)
@@ -193,6 +296,21 @@ def unit_map(z: np.ndarray, hollow: np.ndarray, dist: np.ndarray) -> np.ndarray:
     return codes
 
 
+def _channel_level(z: np.ndarray, channel: np.ndarray) -> np.ndarray:
+    """The elevation of the nearest channel cell along each row (the valley runs north to
+    south, so a row is a cross-section)."""
+    level = np.empty_like(z)
+    cols = np.arange(z.shape[1])
+    for r in range(z.shape[0]):
+        where = np.flatnonzero(channel[r])
+        if where.size == 0:
+            level[r] = z[r].min()
+            continue
+        nearest = where[np.abs(cols[:, None] - where[None, :]).argmin(axis=1)]
+        level[r] = z[r, nearest]
+    return level
+
+
 def main() -> None:
     import geopandas as gpd
     import rasterio
@@ -200,7 +318,7 @@ def main() -> None:
     from rasterio.transform import from_origin
     from shapely.geometry import shape
 
-    z, hollow, dist = terrain()
+    z, hollow, area_m2 = terrain()
     transform = from_origin(ORIGIN[0], ORIGIN[1], CELL, CELL)
     profile = dict(
         driver="GTiff",
@@ -220,7 +338,7 @@ def main() -> None:
     with rasterio.open(HERE / "quillbrook_dem.tif", "w", **profile) as dst:
         dst.write(z, 1)
         dst.update_tags(description="synthetic DEM of the invented Quillbrook catchment")
-    codes = unit_map(z, hollow, dist)
+    codes = unit_map(z, hollow, area_m2)
     geoms, keys, names = [], [], []
     for geom, value in features.shapes(codes, transform=transform, connectivity=4):
         unit = UNITS[int(value) - 1]  # (key, name, ...)

@@ -37,8 +37,7 @@ SLOPE_INPUTS = [
 
 
 def _slope_sheet(wb: Workbook) -> None:
-    ws = wb.active
-    ws.title = "Slope"
+    ws = wb.create_sheet("Slope")
     ws.append(["input", "value", "meaning"])
     for row in SLOPE_INPUTS:
         ws.append(list(row))
@@ -91,6 +90,8 @@ def _lab_sheet(wb: Workbook) -> None:
             "pore_pressure_kpa",
             "sigma3_eff_kpa",
             "sigma1_eff_kpa",
+            "Python: sigma3_eff_kpa",
+            "Python: sigma1_eff_kpa",
         ]
     )
     n = len(tests.labels)
@@ -104,6 +105,12 @@ def _lab_sheet(wb: Workbook) -> None:
                 float(cols["pore_pressure_kpa"][i]),
                 f"=SS_EFF_STRESS(B{r},D{r})",
                 f"=SS_EFF_STRESS(C{r},D{r})",
+                udf.SS_EFF_STRESS(
+                    float(cols["sigma3_kpa"][i]), float(cols["pore_pressure_kpa"][i])
+                ),
+                udf.SS_EFF_STRESS(
+                    float(cols["sigma1_kpa"][i]), float(cols["pore_pressure_kpa"][i])
+                ),
             ]
         )
     last = n + 1
@@ -138,12 +145,31 @@ def _lab_sheet(wb: Workbook) -> None:
         ws.append(
             [
                 f"=A{r}",
-                f"=SS_MOHR_CENTRE(F{r},E{r})",
-                f"=SS_MOHR_RADIUS(F{r},E{r})",
+                f"=SS_MOHR_CENTRE(E{r},F{r})",
+                f"=SS_MOHR_RADIUS(E{r},F{r})",
                 f"=SS_PLANE_ANGLE({friction_cell})",
-                f"=SS_PLANE_STRESSES(F{r},E{r},{friction_cell})",
+                f"=SS_PLANE_STRESSES(E{r},F{r},{friction_cell})",
             ]
         )
+    # slopescreen's Python value beside every formula (columns H-L, same rows)
+    s3 = [float(cols["sigma3_kpa"][i] - cols["pore_pressure_kpa"][i]) for i in range(n)]
+    s1 = [float(cols["sigma1_kpa"][i] - cols["pore_pressure_kpa"][i]) for i in range(n)]
+    friction = expected[1][1]
+    for j, title in enumerate(
+        ["Python: centre", "Python: radius", "Python: plane", "Python: sigma'_f", "Python: tau_f"]
+    ):
+        ws.cell(below + 1, 8 + j, title).font = Font(bold=True)
+    for i in range(n):
+        row = below + 2 + i
+        plane = udf.SS_PLANE_STRESSES(s3[i], s1[i], friction)[0]
+        values = [
+            udf.SS_MOHR_CENTRE(s3[i], s1[i]),
+            udf.SS_MOHR_RADIUS(s3[i], s1[i]),
+            udf.SS_PLANE_ANGLE(friction),
+            *plane,
+        ]
+        for j, value in enumerate(values):
+            ws.cell(row, 8 + j, value)
     ws.column_dimensions["A"].width = 28
 
 
@@ -186,13 +212,13 @@ def _reliability_sheet(wb: Workbook) -> None:
         ),
         (
             "pressure head at 1.6 m, end of storm",
-            "=SS_STORM_HEAD(B3,B14,B2,B12,B13,B14,B15,B16)",
-            udf.SS_STORM_HEAD(1.6, 12.0, 34.0, v["water_table_depth_m"], 20.0, 12.0, 2e-5, 5e-5),
+            "=SS_STORM_HEAD(B2,B3,B14,B12,B13,B14,B15,B16)",
+            udf.SS_STORM_HEAD(34.0, 1.6, 12.0, v["water_table_depth_m"], 20.0, 12.0, 2e-5, 5e-5),
         ),
         (
             "FS at 1.6 m, end of storm",
-            "=SS_STORM_FS(B3,B14,B2,B4,B6,B8,B12,B13,B14,B15,B16)",
-            udf.SS_STORM_FS(1.6, 12.0, 34.0, 6.0, 31.0, 18.5, 1.0, 20.0, 12.0, 2e-5, 5e-5),
+            "=SS_STORM_FS(B2,B3,B14,B4,B6,B8,B12,B13,B14,B15,B16)",
+            udf.SS_STORM_FS(34.0, 1.6, 12.0, 6.0, 31.0, 18.5, 1.0, 20.0, 12.0, 2e-5, 5e-5),
         ),
     ]
     for label, formula, expected in results:
@@ -202,7 +228,8 @@ def _reliability_sheet(wb: Workbook) -> None:
 
 
 def _notes_sheet(wb: Workbook) -> None:
-    ws = wb.create_sheet("Read me")
+    ws = wb.active  # the first sheet a user sees
+    ws.title = "Read me"
     ws.append(
         [
             "slopescreen demo workbook: invented data for the fictitious Quillbrook "
@@ -212,6 +239,19 @@ def _notes_sheet(wb: Workbook) -> None:
     ws.append(
         ["The formulas need the slopescreen cell functions loaded (see excel_functions/README.md)."]
     )
+    ws.append(
+        [
+            "Beside every formula stands the value slopescreen's Python gives for the same "
+            "inputs, so you can see at a glance that the spreadsheet agrees."
+        ]
+    )
+    ws.append(
+        [
+            "Argument order, the same in every function: slope_deg, depth_m (and time_h), "
+            "strength, unit weights, water, then the optional cells; stresses minor before "
+            "major (sigma3, sigma1)."
+        ]
+    )
     for line in CAUTIONS:
         ws.append([f"CAUTION: {line}"])
     ws.column_dimensions["A"].width = 120
@@ -219,10 +259,10 @@ def _notes_sheet(wb: Workbook) -> None:
 
 def write_workbook(out: Path = DEFAULT_OUT) -> Path:
     wb = Workbook()
+    _notes_sheet(wb)
     _slope_sheet(wb)
     _lab_sheet(wb)
     _reliability_sheet(wb)
-    _notes_sheet(wb)
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = out.with_name(f".{out.name}.tmp")
     wb.save(tmp)

@@ -378,8 +378,8 @@ def _field(index: int) -> Callable[[Any], Any]:
 
 
 @xw.func
-@_ranges("sigma1_kpa", "sigma3_kpa")
-def SS_MOHR_CENTRE(sigma1_kpa, sigma3_kpa):
+@_ranges("sigma3_kpa", "sigma1_kpa")
+def SS_MOHR_CENTRE(sigma3_kpa, sigma1_kpa):
     """Centre of the Mohr circle (sigma1 + sigma3)/2, kPa."""
     return _call(
         core.mohr_circle,
@@ -389,8 +389,8 @@ def SS_MOHR_CENTRE(sigma1_kpa, sigma3_kpa):
 
 
 @xw.func
-@_ranges("sigma1_kpa", "sigma3_kpa")
-def SS_MOHR_RADIUS(sigma1_kpa, sigma3_kpa):
+@_ranges("sigma3_kpa", "sigma1_kpa")
+def SS_MOHR_RADIUS(sigma3_kpa, sigma1_kpa):
     """Radius of the Mohr circle (sigma1 - sigma3)/2, kPa."""
     return _call(
         core.mohr_circle,
@@ -412,8 +412,8 @@ def _pairs(result: Any) -> Any:
 
 
 @xw.func
-@_ranges("sigma1_eff_kpa", "sigma3_eff_kpa", "friction_deg")
-def SS_PLANE_STRESSES(sigma1_eff_kpa, sigma3_eff_kpa, friction_deg):
+@_ranges("sigma3_eff_kpa", "sigma1_eff_kpa", "friction_deg")
+def SS_PLANE_STRESSES(sigma3_eff_kpa, sigma1_eff_kpa, friction_deg):
     """Effective normal and shear stress on the failure plane: one row [normal, shear] per test."""
     return _call(
         core.failure_plane_stresses,
@@ -666,9 +666,9 @@ _STORM_ARGS = (
 @xw.func
 @_ranges("depth_m", "time_h", *_STORM_ARGS)
 def SS_STORM_HEAD(
+    slope_deg,
     depth_m,
     time_h,
-    slope_deg,
     water_table_depth_m,
     rain_mm_h,
     duration_h,
@@ -707,9 +707,9 @@ def SS_STORM_HEAD(
     "root_cohesion_kpa",
 )
 def SS_STORM_FS(
+    slope_deg,
     depth_m,
     time_h,
-    slope_deg,
     cohesion_kpa,
     friction_deg,
     unit_weight_kn_m3,

@@ -55,6 +55,9 @@ soil_unit_field = "unit"
 [classes]
 min_zone_area_m2 = 0.0
 
+[outputs]
+quicklook_map = false
+
 [[scenario]]
 name = "wet"
 recharge_mm_day = 40.0
@@ -63,6 +66,10 @@ recharge_mm_day = 40.0
 name = "dry"
 saturation = 0.0
 """
+
+
+# the same with the PNG maps drawn (about 1 s a figure): for the tests that look at them
+SCENARIO_TEXT_WITH_MAPS = SCENARIO_TEXT.replace("[outputs]\nquicklook_map = false\n", "[outputs]\n")
 
 
 def write_raster(path, z, crs="EPSG:32633", transform=None, nodata=-9999.0):

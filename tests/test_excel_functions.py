@@ -58,10 +58,11 @@ def test_strength_functions_match_core():
         core.shear_strength_kpa(150.0, 8.0, 28.0, 50.0)
     )
     assert udf.SS_EFF_STRESS(100.0, 30.0) == 70.0
-    assert udf.SS_MOHR_CENTRE(300.0, 100.0) == 200.0
-    assert udf.SS_MOHR_RADIUS(300.0, 100.0) == 100.0
+    # one argument order: minor principal stress first (sigma3, sigma1), as SS_ENVELOPE
+    assert udf.SS_MOHR_CENTRE(100.0, 300.0) == 200.0
+    assert udf.SS_MOHR_RADIUS(100.0, 300.0) == 100.0
     assert udf.SS_PLANE_ANGLE(30.0) == 60.0
-    pairs = udf.SS_PLANE_STRESSES([[300.0], [500.0]], [[100.0], [150.0]], 30.0)
+    pairs = udf.SS_PLANE_STRESSES([[100.0], [150.0]], [[300.0], [500.0]], 30.0)
     ref = core.failure_plane_stresses(np.array([300.0, 500.0]), np.array([100.0, 150.0]), 30.0)
     assert np.allclose(np.array(pairs).T, np.array(ref))
 
@@ -150,6 +151,19 @@ def test_demo_workbook_formulas_agree_with_python(tmp_path):
         assert got == (pytest.approx(expected) if isinstance(expected, float) else expected)
     errors = [v for v in values.values() if isinstance(v, str) and v.startswith("#SLOPESCREEN")]
     assert errors == []
+    # every LabTests formula has slopescreen's Python value beside it
+    compared = 0
+    for row in range(2, lab.max_row + 1):
+        if str(lab.cell(row, 5).value).startswith("=SS_EFF_STRESS"):
+            for col in (5, 6):
+                assert values[(row, col)] == pytest.approx(lab.cell(row, col + 2).value)
+                compared += 1
+        if str(lab.cell(row, 2).value).startswith("=SS_MOHR_CENTRE"):
+            for col in range(2, 7):
+                assert values[(row, col)] == pytest.approx(lab.cell(row, col + 6).value)
+                compared += 1
+    assert compared == 4 * 2 + 4 * 5
+    assert wb.sheetnames[0] == "Read me"
 
 
 def test_probability_functions_match_core():
@@ -193,10 +207,11 @@ def test_storm_functions_match_core():
         hydraulic_conductivity_m_s=1e-5,
         diffusivity_m2_s=1e-4,
     )
-    assert udf.SS_STORM_HEAD(1.0, 3.0, *storm.values()) == pytest.approx(
+    rest = list(storm.values())[1:]  # slope first, then depth and time, as in SS_FS
+    assert udf.SS_STORM_HEAD(30.0, 1.0, 3.0, *rest) == pytest.approx(
         pressure_head_m(1.0, 3.0, **storm)
     )
-    column = udf.SS_STORM_FS([[0.5], [1.0]], 6.0, 30.0, 2.0, 33.0, 19.0, 0.5, 10.0, 2.0, 1e-5, 1e-4)
+    column = udf.SS_STORM_FS(30.0, [[0.5], [1.0]], 6.0, 2.0, 33.0, 19.0, 0.5, 10.0, 2.0, 1e-5, 1e-4)
     ref = storm_factor_of_safety(
         np.array([0.5, 1.0]),
         6.0,
@@ -207,7 +222,7 @@ def test_storm_functions_match_core():
     )
     assert np.allclose(np.array(column, dtype=float).ravel(), ref)
     assert "rain_mm_h must be in [0, 1000]" in udf.SS_STORM_HEAD(
-        1.0, 1.0, 30.0, 0.5, -3.0, 2.0, 1e-5, 1e-4
+        30.0, 1.0, 1.0, 0.5, -3.0, 2.0, 1e-5, 1e-4
     )
 
 

@@ -233,12 +233,12 @@ def test_report_renders_in_a_real_browser(demo_out, tmp_path):
 
 
 def _two_scenarios(folder, extra=""):
-    from region_files import SCENARIO_TEXT, _dem, _polygons
+    from region_files import SCENARIO_TEXT_WITH_MAPS, _dem, _polygons
 
     _dem(folder / "dem.tif")
     _polygons(folder / "soils.geojson")
     path = folder / "s.toml"
-    path.write_text(SCENARIO_TEXT + extra)
+    path.write_text(SCENARIO_TEXT_WITH_MAPS + extra)
     return path
 
 
@@ -275,7 +275,8 @@ def test_deprecated_names_read_for_one_release(tmp_path):
     from slopescreen.maps.config import load_config
 
     path = _two_scenarios(tmp_path)
-    old = path.read_text().replace("[classes]", "[hazard]") + "\n[outputs]\nhazard_zones = false\n"
+    old = path.read_text().replace("[classes]", "[hazard]")
+    old = old.replace("[outputs]\n", "[outputs]\nhazard_zones = false\n")
     old = old.replace("min_zone_area_m2 = 0.0\n", "fs_breaks = [1.0, 1.2]\n")
     path.write_text(old)
     cfg = load_config(path)
@@ -283,7 +284,7 @@ def test_deprecated_names_read_for_one_release(tmp_path):
     assert len(cfg.deprecations) == 2
     assert "[hazard] is deprecated and read as [classes]" in cfg.deprecations[0]
     assert "hazard_zones is deprecated and read as zones" in cfg.deprecations[1]
-    path.write_text(old + "zones = true\n")
+    path.write_text(old.replace("hazard_zones = false\n", "hazard_zones = false\nzones = true\n"))
     with pytest.raises(InputError, match="give zones only"):
         load_config(path)
 

@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 import rasterio
 from rasterio.transform import from_origin
-from region_files import SCENARIO_TEXT, _dem, _polygons, write_raster
+from region_files import SCENARIO_TEXT, SCENARIO_TEXT_WITH_MAPS, _dem, _polygons, write_raster
 
 from slopescreen.cli.main import main
 from slopescreen.maps.engine import run
@@ -238,13 +238,13 @@ BAD_INPUTS = {
     ),
     "fs_cap too low": (
         _text(
-            "[[scenario]]",
-            "[outputs]\nfs_cap = 1\n\n[[scenario]]",
+            "[outputs]\n",
+            "[outputs]\nfs_cap = 1\n",
         ),
         "fs_cap",
     ),
     "zones flag text": (
-        _text("[[scenario]]", '[outputs]\nzones = "yes"\n\n[[scenario]]'),
+        _text("[outputs]\n", '[outputs]\nzones = "yes"\n'),
         "must be true or false",
     ),
     "key with newline": (_text("[classes]", '[classes]\n"a\\nb" = 1'), "unknown key"),
@@ -266,7 +266,7 @@ BAD_INPUTS = {
         'fs_distribution: applies to method = "taylor"',
     ),
     "zone size without zones": (
-        _text("[[scenario]]", "[outputs]\nzones = false\n\n[[scenario]]"),
+        _text("[outputs]\n", "[outputs]\nzones = false\n"),
         "min_zone_area_m2: applies to low-margin zones",
     ),
     "diffusivity override without storm": (
@@ -365,7 +365,7 @@ def test_bom_and_odd_names_run(tmp_path):
     frame = gpd.read_file(tmp_path / "r" / "soils.geojson")
     frame.loc[0, "unit"] = "=HYPERLINK(1)"
     frame.to_file(tmp_path / "r" / "soils.geojson", driver="GeoJSON")
-    text = SCENARIO_TEXT.replace("test region", "Ridge $x^2$ & co")
+    text = SCENARIO_TEXT_WITH_MAPS.replace("test region", "Ridge $x^2$ & co")
     toml.write_bytes(codecs.BOM_UTF8 + text.encode())
     _run(toml, tmp_path / "out")
     summary = (tmp_path / "out" / "dry" / "summary.csv").read_text()
@@ -494,6 +494,7 @@ def test_changed_input_warm_run_equals_cold_run(change, tmp_path):
 
 def test_warm_rerun_is_byte_identical_to_a_cold_run(tmp_path):
     toml = _vrt_region(tmp_path / "region")
+    _edit(toml, "quicklook_map = false\n", "")  # the maps too
     _run(toml, tmp_path / "a")
     _run(toml, tmp_path / "a")
     _run(toml, tmp_path / "b")

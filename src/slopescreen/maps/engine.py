@@ -297,7 +297,7 @@ def _comparison(
     ran = [s.name for s in state.summaries]
     written: list[Path] = []
     small = None
-    if len(ran) > 1:
+    if len(ran) > 1 and cfg.quicklook_map:
         small = draw_small_multiples(
             folder / "stability_classes.png",
             grid,
@@ -324,8 +324,10 @@ def _comparison(
             out / second / "stability_class.tif",
             frame.step,
         )
-        png = draw_change(folder / f"{first}_vs_{second}.png", frame, step_map, first, second)
-        written.append(png)
+        png = None
+        if cfg.quicklook_map:
+            png = draw_change(folder / f"{first}_vs_{second}.png", frame, step_map, first, second)
+            written.append(png)
         changes.append(ClassChange(first, second, areas, png))
     for stale in set(folder.iterdir()) - set(written):
         if stale.is_file() and stale.suffix == ".png":

@@ -33,8 +33,16 @@ SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     ("storm_time_to_failure_h.png", "storm, maps on", "map of the time to failure"),
 )
 RUN_OUTPUTS: tuple[tuple[str, str, str], ...] = (
-    ("comparison/stability_classes.png", "report on, 2+ scenarios", "class maps side by side"),
-    ("comparison/FIRST_vs_SECOND.png", "report on, [comparison] pairs", "class-change map"),
+    (
+        "comparison/stability_classes.png",
+        "report on, maps on, 2+ scenarios",
+        "class maps side by side",
+    ),
+    (
+        "comparison/FIRST_vs_SECOND.png",
+        "report on, maps on, [comparison] pairs",
+        "class-change map",
+    ),
     ("report.html", "report on", "the self-contained report"),
     ("manifest.json", "always", "the run's state, inputs, parameters and output hashes"),
 )

@@ -253,8 +253,8 @@ def _draw(
 
         zones = gpd.read_file(frame.zones)
         if 0 < len(zones) <= MAX_ZONE_OUTLINES:
-            zones.boundary.plot(ax=ax, color="black", linewidth=0.45)
-            handles.append(Line2D([], [], color="black", lw=0.9, label="low-margin zone"))
+            zones.boundary.plot(ax=ax, color="0.1", linewidth=0.3)
+            handles.append(Line2D([], [], color="0.1", lw=0.8, label="low-margin zone outline"))
         elif len(zones):
             frame.notes.append(f"{len(zones):,} zones: too many to outline at this scale")
     ax.set_xlim(extent[0], extent[1])
