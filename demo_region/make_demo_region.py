@@ -210,10 +210,9 @@ def _erode(z: np.ndarray, steps: int = 14) -> tuple[np.ndarray, np.ndarray]:
     drainage (Braun & Willett 2013, E = K A^0.5 S) with uplift, and linear hillslope
     diffusion (Culling 1960). Returns the eroded surface and its contributing area (cells)."""
     dt, uplift = 1000.0, 2e-3  # years, m/yr
-    erodibility, diffusivity = (
-        4e-4,
-        0.02,
-    )  # 1/yr (with A in m2 to the 0.5), m2/yr (stable: D dt / dx2 <= 0.25)
+    # erodibility 1/yr (with A in m2 to the 0.5); diffusivity m2/yr, D dt / dx^2 = 0.2 keeps
+    # the explicit diffusion step stable (it must stay at or below 0.25)
+    erodibility, diffusivity = 4e-4, 0.02
     z = z.astype(float).copy()
     area = np.ones_like(z)
     for _ in range(steps):
