@@ -84,22 +84,35 @@ def test_out_of_range_soil_parameter(region, capsys):
     _fails(capsys, toml, "unit 'A', field cohesion_kpa: -5 is outside the allowed range")
 
 
+def _line(text, fragment, occurrence=1):
+    """The 1-based number of the line holding ``fragment`` (its n-th occurrence)."""
+    hits = [i for i, line in enumerate(text.splitlines(), start=1) if fragment in line]
+    return hits[occurrence - 1]
+
+
 def test_unknown_key_names_the_line(region, capsys):
     _folder, toml = region
-    toml.write_text(SCENARIO_TEXT.replace("recharge_mm_day = 40.0", "rechrage_mm_day = 40.0"))
-    _fails(capsys, toml, "line 12: [scenario] rechrage_mm_day: unknown key")
+    text = SCENARIO_TEXT.replace("recharge_mm_day = 40.0", "rechrage_mm_day = 40.0")
+    toml.write_text(text)
+    line = _line(text, "rechrage_mm_day")
+    _fails(capsys, toml, f"line {line}: [scenario] rechrage_mm_day: unknown key")
+    _fails(capsys, toml, "(did you mean recharge_mm_day?)")
 
 
 def test_duplicate_scenario_name(region, capsys):
     _folder, toml = region
-    toml.write_text(SCENARIO_TEXT.replace('name = "dry"', 'name = "wet"'))
-    _fails(capsys, toml, "line 15: [scenario] name: duplicate scenario name 'wet'")
+    text = SCENARIO_TEXT.replace('name = "dry"', 'name = "wet"')
+    toml.write_text(text)
+    line = _line(text, 'name = "wet"', occurrence=2)
+    _fails(capsys, toml, f"line {line}: [scenario] name: duplicate scenario name 'wet'")
 
 
 def test_out_of_range_scenario_value(region, capsys):
     _folder, toml = region
-    toml.write_text(SCENARIO_TEXT.replace("saturation = 0.0", "saturation = 1.5"))
-    _fails(capsys, toml, "line 16: [scenario] saturation: saturation must be in [0, 1]")
+    text = SCENARIO_TEXT.replace("saturation = 0.0", "saturation = 1.5")
+    toml.write_text(text)
+    line = _line(text, "saturation = 1.5")
+    _fails(capsys, toml, f"line {line}: [scenario] saturation: saturation must be in [0, 1]")
 
 
 def test_soil_table_missing_unit(region, capsys):

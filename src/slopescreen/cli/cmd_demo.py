@@ -112,7 +112,7 @@ def run(args: argparse.Namespace) -> int:
     print(f"regional run: {scenarios}")
     from slopescreen.maps.report import Extras
 
-    extras = Extras(out / "mohr_circles.png", fit.as_dict(), record)
+    extras = Extras(out / "mohr_circles.png", fit.as_dict(), record, tests_path)
     run_region(scenarios, out, progress=sys.stderr.isatty(), extras=extras)
     print(f"\nopen {out / 'report.html'} in a browser for the maps and tables.\n")
     print(caution_block())

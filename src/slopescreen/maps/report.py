@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from slopescreen.cautions import CAUTIONS
-from slopescreen.maps.comparison import CHANGE_NAMES, ClassChange
+from slopescreen.maps.comparison import ClassChange
 from slopescreen.maps.config import SOIL_FIELDS, Config
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.scenario_run import ScenarioSummary
@@ -33,8 +33,9 @@ margin-top:2em}.meta{color:#555}
 .tbl{overflow-x:auto;max-width:100%;margin:0.5em 0 1.2em}
 table{border-collapse:collapse}
 td,th{border:1px solid #bbb;padding:3px 7px;font-size:0.88em;text-align:right;
-vertical-align:top}
-th{background:#f0eef3}td.l,th.l{text-align:left}td.w{white-space:normal;min-width:14em}
+vertical-align:top;white-space:nowrap}
+th{background:#f0eef3}td.l,th.l{text-align:left}td.w,th.w{white-space:normal;min-width:24em;
+text-align:left}
 .caution{border:2px solid #8a2a2a;background:#fbeeee;padding:0.5em 1em;margin:1em 0}
 .warn{color:#8a4b00}img{max-width:100%;border:1px solid #ccc;margin:0.4em 0}
 .up{color:#5a1a78;font-weight:600}.down{color:#1f4e79}
@@ -50,6 +51,7 @@ class Extras:
     mohr_png: Path | None = None
     lab_fit: dict[str, object] | None = None
     hillside: dict[str, object] | None = None
+    lab_tests: Path | None = None  # the file the demo's fit came from
 
 
 @dataclass
@@ -77,10 +79,15 @@ def _num(value: object, fmt: str = ".4g") -> str:
     return EMPTY if not math.isfinite(v) else format(v, fmt)
 
 
-def _table(head: Sequence[str], rows: Sequence[Sequence[str]], left: int = 1) -> str:
-    """A table in its own scrolling box; the first ``left`` columns align left. Cells are
-    HTML already (escape them with _e or _num)."""
+def _table(
+    head: Sequence[str], rows: Sequence[Sequence[str]], left: int = 1, wrap_last: bool = False
+) -> str:
+    """A table in its own scrolling box; the first ``left`` columns align left, and the
+    last wraps its text with ``wrap_last``. Cells are HTML already (escape them with _e or
+    _num)."""
     cls = ["l" if i < left else "" for i in range(len(head))]
+    if wrap_last:
+        cls[-1] = "w"
     th = "".join(f"<th class='{c}'>{_e(h)}</th>" for c, h in zip(cls, head, strict=True))
     body = "".join(
         "<tr>" + "".join(f"<td class='{c}'>{v}</td>" for c, v in zip(cls, r, strict=True)) + "</tr>"
@@ -227,7 +234,7 @@ def _soil_table(cfg: Config, soils: SoilUnits) -> str:
             ]
         )
     head = ["unit", *fields, "spread (drives the probability of failure)"]
-    return _table(head, rows)
+    return _table(head, rows, wrap_last=True)
 
 
 def _lab_fits(cfg: Config, soils: SoilUnits, extras: Extras, work: Path) -> list[str]:
@@ -235,11 +242,14 @@ def _lab_fits(cfg: Config, soils: SoilUnits, extras: Extras, work: Path) -> list
 
     parts = []
     fits: list[tuple[str, Path, object, Path]] = []
+    demo = extras.lab_tests.resolve() if extras.lab_tests is not None else None
     for unit, path in soils.lab_tests.items():
         png = work / f"mohr_{len(fits)}.png"
         _, fit = fit_file(path, png)
-        fits.append((f"soil unit {unit}", path, fit, png))
-    if extras.lab_fit is not None and extras.mohr_png is not None:
+        label = f"soil unit {unit}" + (" and the demo hillside" if path == demo else "")
+        fits.append((label, path, fit, png))
+    shown = set(soils.lab_tests.values())
+    if extras.lab_fit is not None and extras.mohr_png is not None and demo not in shown:
         parts.append(_fit_block("the demo hillside", extras.lab_fit, None, extras.mohr_png))
     for label, path, fit, png in fits:
         parts.append(_fit_block(label, fit.as_dict(), _relative(path, cfg), png))  # type: ignore[attr-defined]
@@ -276,7 +286,9 @@ def _hillside(record: dict[str, object]) -> str:
     inputs = record.get("inputs", {})
     results = record.get("results", {})
     rows = [[_e(k), _num(v)] for k, v in dict(inputs).items()]  # type: ignore[arg-type]
-    rows += [[f"<strong>{_e(k)}</strong>", _num(v)] for k, v in dict(results).items()]  # type: ignore[arg-type]
+    for key, value in dict(results).items():  # type: ignore[arg-type]
+        items = value.items() if isinstance(value, dict) else [(key, value)]
+        rows += [[f"<strong>{_e(k)}</strong>", _num(v)] for k, v in items]
     return f"<h3>Hillside check: {_e(record.get('slope', ''))}</h3>" + _table(
         ["quantity", "value"], rows
     )
@@ -405,7 +417,7 @@ def write_report(
         ],
         ["command", f"<code>{_e(' '.join(facts.command))}</code>"],
     ]
-    parts.append(_table(["input", "value"], [[_e(a), b] for a, b in rows], left=2))
+    parts.append(_table(["input", "value"], [[_e(a), b] for a, b in rows], 2, wrap_last=True))
     parts.append("<h3>Soil parameters</h3>" + _soil_table(cfg, soils))
     with tempfile.TemporaryDirectory() as work:
         parts += _lab_fits(cfg, soils, extras, Path(work))
@@ -423,6 +435,3 @@ def write_report(
         )
         parts.append(_cautions() + "</body></html>\n")
         return write_text(target, "\n".join(parts))
-
-
-__all__ = ["CHANGE_NAMES", "Extras", "RunFacts", "write_report"]

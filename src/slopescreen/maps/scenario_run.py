@@ -55,7 +55,6 @@ class ScenarioSummary:
     loads: str = ""  # every load that changes the result, in words
     unit_class_areas_ha: list[list[float]] = field(default_factory=list)  # unit x class
     zones: list[dict[str, object]] = field(default_factory=list)  # largest, by area
-    storm: bool = False
 
 
 def _sinks(
@@ -325,7 +324,6 @@ def run_scenario(
         sc.loads,
         unit_areas.tolist(),
         largest,
-        sc.storm is not None,
     ), rows_out
 
 
