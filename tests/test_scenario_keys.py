@@ -24,6 +24,8 @@ KINDS = {
 
 
 def _text(kind, region="", classes="", outputs="", reliability="", scenario="", soil=""):
+    if "quicklook_map" not in outputs:  # figures cost a second each; one row turns them on
+        outputs = f"quicklook_map = false\n{outputs}"
     wet = KINDS[kind]
     head, _, storm = wet.partition("[scenario.storm]")
     storm = f"[scenario.storm]{storm}" if storm else ""
@@ -88,7 +90,7 @@ FILE_KEYS = [
     ("classes", "min_zone_area_m2", "min_zone_area_m2 = 5000.0"),
     ("outputs", "fs_cap", "fs_cap = 1.6"),
     ("outputs", "zones", "zones = false"),
-    ("outputs", "quicklook_map", "quicklook_map = false"),
+    ("outputs", "quicklook_map", "quicklook_map = true"),
     ("outputs", "report", "report = false"),
     ("reliability", "method", 'method = "monte_carlo"\nsamples = 50'),
     ("reliability", "fs_distribution", 'fs_distribution = "normal"'),
