@@ -58,6 +58,17 @@ def test_hillshade_flat_ground_value():
     assert shade[0, 0] == 0  # edge: no data
 
 
+def test_hillshade_full_shadow_is_data_not_no_data():
+    # a face dipping south-east at atan(tan(60) sqrt(2)) = 67.8 degrees, away from a sun 45
+    # degrees high in the north-west, lies in shadow: cos 45 cos 67.8 - sin 45 sin 67.8 < 0
+    # (common practice: the brightness is clipped at its darkest value)
+    x = np.arange(7.0) * 10.0
+    z = np.add.outer(np.zeros(7), -x * math.tan(math.radians(60.0)))  # falls to the east
+    z = z - np.add.outer(np.arange(7.0) * 10.0 * math.tan(math.radians(60.0)), np.zeros(7))
+    shade = hillshade(z, 10.0, 10.0)
+    assert shade[3, 3] == 1  # darkest brightness, still a data value
+
+
 def test_geographic_dem_uses_metric_spacing(tmp_path):
     # A plane rising 0.2 m per metre to the east, laid on a 0.0005-degree grid at 45 N: the
     # slope must be atan(0.2) whatever the degree spacing, which only works if each row is

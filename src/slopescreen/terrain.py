@@ -116,8 +116,8 @@ def hillshade_from_gradient(
     azimuth_deg: float = 315.0,
     altitude_deg: float = 45.0,
 ) -> np.ndarray:
-    """Hillshade brightness 0-255 (uint8; 0 marks no data) from the ground gradient
-    (dz/d east, dz/d north), as :func:`hillshade`."""
+    """Hillshade brightness 1-255 (uint8) from the ground gradient (dz/d east, dz/d north),
+    as :func:`hillshade`; 0 marks no data only (ground in full shadow is 1)."""
     gx = np.asarray(gradient_east, dtype=np.float64)
     gy = np.asarray(gradient_north, dtype=np.float64)
     slope = np.arctan(np.hypot(gx, gy))
@@ -127,7 +127,7 @@ def hillshade_from_gradient(
     shade = np.cos(zenith) * np.cos(slope) + np.sin(zenith) * np.sin(slope) * np.cos(
         azimuth - aspect
     )
-    out = np.clip(np.rint(np.nan_to_num(shade * 254.0, nan=-1.0)) + 1.0, 0.0, 255.0)
+    out = np.clip(np.rint(np.nan_to_num(shade * 254.0, nan=-1.0)) + 1.0, 1.0, 255.0)
     return np.where(np.isnan(shade), 0, out).astype(np.uint8)
 
 
