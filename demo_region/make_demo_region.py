@@ -205,6 +205,12 @@ def _drainage(z: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return receiver, upstream_first, area.reshape(h, w)
 
 
+def _laplacian(z: np.ndarray) -> np.ndarray:
+    """Sum of the four neighbours minus four times the cell (edges repeated), m."""
+    padded = np.pad(z, 1, mode="edge")
+    return padded[:-2, 1:-1] + padded[2:, 1:-1] + padded[1:-1, :-2] + padded[1:-1, 2:] - 4 * z
+
+
 def _erode(z: np.ndarray, steps: int = 14) -> tuple[np.ndarray, np.ndarray]:
     """A simple landscape-evolution pass: stream-power incision solved implicitly along the
     drainage (Braun & Willett 2013, E = K A^0.5 S) with uplift, and linear hillslope
@@ -228,11 +234,7 @@ def _erode(z: np.ndarray, steps: int = 14) -> tuple[np.ndarray, np.ndarray]:
             f = erodibility * dt * np.sqrt(a_m2[i]) / dist
             flat[i] = (flat[i] + f * flat[j]) / (1.0 + f)
         z = flat.reshape(z.shape)
-        padded = np.pad(z, 1, mode="edge")
-        laplace = (
-            padded[:-2, 1:-1] + padded[2:, 1:-1] + padded[1:-1, :-2] + padded[1:-1, 2:] - 4 * z
-        ) / CELL**2
-        z = z + diffusivity * dt * laplace
+        z = z + diffusivity * dt * _laplacian(z) / CELL**2
     _, _, area = _drainage(z)
     return z, area
 
@@ -256,8 +258,7 @@ def terrain() -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     gy, gx = np.gradient(z, CELL)
     z = z.min() + (z - z.min()) * np.tan(np.radians(MEDIAN_SLOPE_DEG)) / np.median(np.hypot(gx, gy))
     a_m2 = area * CELL * CELL
-    padded = np.pad(z, 1, mode="edge")
-    laplace = padded[:-2, 1:-1] + padded[2:, 1:-1] + padded[1:-1, :-2] + padded[1:-1, 2:] - 4 * z
+    laplace = _laplacian(z)
     # hollows: concave ground draining 0.3 to 8 ha, off the channels
     hollow = ((laplace > 0.0) & (a_m2 > 3_000.0) & (a_m2 < 80_000.0)).astype(float)
     for _ in range(2):  # widen the hollow axes into the hollows they drain

@@ -10,8 +10,8 @@ import numpy as np
 
 from slopescreen.cautions import CAUTIONS
 from slopescreen.maps.grid import Grid
-from slopescreen.maps.palette import NO_DATA_HEX, class_rgb, hex_rgb, relief_from_hillshade, shade
-from slopescreen.maps.quicklook import MapFrame, draw_classes, read_for_map
+from slopescreen.maps.palette import NO_DATA_HEX, class_rgb, hex_rgb
+from slopescreen.maps.quicklook import MapFrame, draw_classes, read_for_map, relief_image
 from slopescreen.maps.rasters import read_block, windows
 from slopescreen.outputs import replacing
 
@@ -81,8 +81,7 @@ def draw_small_multiples(
     from matplotlib.patches import Patch
 
     frame = MapFrame(grid, hillshade, title, "")
-    shade_raw = read_for_map(hillshade, frame)
-    relief = relief_from_hillshade(shade_raw)
+    relief = read_for_map(hillshade, frame)
     colours = class_rgb(len(names))
     lut = np.vstack([hex_rgb(NO_DATA_HEX), colours])
     n = len(scenarios)
@@ -102,9 +101,9 @@ def draw_small_multiples(
         ax.set_axis_off()
     for ax, (name, path) in zip(axes.ravel(), scenarios, strict=False):
         classes = read_for_map(path, frame)
-        rgb = shade(lut[np.clip(classes, 0, len(names))], np.where(shade_raw > 0, relief, 0.0))
-        image = np.concatenate([rgb, (shade_raw > 0)[..., None].astype(float)], axis=-1)
-        ax.imshow(image, interpolation="nearest")
+        ax.imshow(
+            relief_image(lut[np.clip(classes, 0, len(names))], relief), interpolation="nearest"
+        )
         ax.set_title(name, fontsize=9, parse_math=False)
     handles = [Patch(facecolor=colours[i], edgecolor="0.3", label=nm) for i, nm in enumerate(names)]
     handles.append(Patch(facecolor=hex_rgb(NO_DATA_HEX), edgecolor="0.3", label="no result"))

@@ -120,6 +120,18 @@ class Special:
     label: str
 
 
+def relief_image(rgb: np.ndarray, hillshade: np.ndarray) -> np.ndarray:
+    """RGBA image: the colours shaded by the relief (lightness only), transparent outside
+    the DEM's data so the page shows through; cut to the shape both arrays share."""
+    h, w = min(hillshade.shape[0], rgb.shape[0]), min(hillshade.shape[1], rgb.shape[1])
+    hillshade, rgb = hillshade[:h, :w], rgb[:h, :w]
+    inside = hillshade > 0
+    image = np.ones((h, w, 4))
+    image[..., :3] = shade(rgb, np.where(inside, relief_from_hillshade(hillshade), 0.0))
+    image[..., 3] = inside
+    return image
+
+
 def read_for_map(path: Path, frame: MapFrame) -> np.ndarray:
     """A raster as a map of ``frame`` shows it (decimated to at most MAX_PIXELS a side)."""
     return _decimated(path, frame.step)
@@ -213,13 +225,8 @@ def _draw(
     from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
     grid = frame.grid
-    hillshade = _decimated(frame.hillshade, frame.step)
-    h, w = min(hillshade.shape[0], rgb.shape[0]), min(hillshade.shape[1], rgb.shape[1])
-    hillshade, rgb = hillshade[:h, :w], rgb[:h, :w]
-    inside = hillshade > 0
-    image = np.ones((*rgb.shape[:2], 4))
-    image[..., :3] = shade(rgb, np.where(inside, relief_from_hillshade(hillshade), 0.0))
-    image[..., 3] = inside  # outside the DEM's data: the page shows through
+    image = relief_image(rgb, _decimated(frame.hillshade, frame.step))
+    h, w = image.shape[:2]
     t = grid.transform
     extent = (t.c, t.c + t.a * grid.width, t.f + t.e * grid.height, t.f)  # type: ignore[attr-defined]
     mx, my, variation = ground_per_map_unit(grid)
