@@ -267,6 +267,18 @@ BAD_INPUTS = {
         _text("[outputs]\n", "[outputs]\nzones = false\n"),
         "min_zone_area_m2: applies to low-margin zones",
     ),
+    "comparison baseline unknown": (
+        _text("[[scenario]]", '[comparison]\nbaseline = "drry"\n\n[[scenario]]'),
+        "no scenario 'drry' (did you mean dry?)",
+    ),
+    "comparison pair of one name": (
+        _text("[[scenario]]", '[comparison]\npairs = [["dry", "dry"]]\n\n[[scenario]]'),
+        "two different names",
+    ),
+    "old and new classes table": (
+        _text("[classes]", "[hazard]\nfs_breaks = [1.0]\n\n[classes]"),
+        "give classes only (hazard is its old name)",
+    ),
     "diffusivity override without storm": (
         _text("saturation = 0.0", "saturation = 0.0\n[scenario.soil.A]\ndiffusivity_m2_s = 1e-4"),
         "diffusivity_m2_s: applies to storm scenarios only",
