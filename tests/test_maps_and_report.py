@@ -193,7 +193,7 @@ def _chromium():
 @pytest.mark.skipif(_chromium() is None, reason="Debian's chromium is not installed")
 def test_report_renders_in_a_real_browser(demo_out, tmp_path):
     """Headless Chromium renders the report: no console error, a screenshot that is not
-    blank. The screenshot is kept under docs/ for README."""
+    blank. The screenshot and one class map are kept under docs/ for README."""
     out, _ = demo_out
     shot = tmp_path / "report.png"
     result = subprocess.run(
@@ -228,8 +228,11 @@ def test_report_renders_in_a_real_browser(demo_out, tmp_path):
     assert distinct.shape[0] > 200  # text, tables and maps, not an empty page
     assert image.std() > 0.05
     docs = Path(__file__).resolve().parents[1] / "docs"
-    if docs.is_dir():
+    if docs.is_dir():  # the pictures README shows
         shutil.copyfile(shot, docs / "report_screenshot.png")
+        shutil.copyfile(
+            out / "wet_season" / "stability_class.png", docs / "stability_class_example.png"
+        )
 
 
 def _two_scenarios(folder, extra=""):
