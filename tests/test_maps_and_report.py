@@ -311,7 +311,13 @@ def test_misspelt_soil_column_gets_a_suggestion(tmp_path):
 
 
 def test_scenario_file_reference_is_current():
-    from slopescreen.maps.scenario_schema import markdown
+    from slopescreen.maps.config import SOIL_FIELDS, STORM_KEYS, WETNESS_KEYS
+    from slopescreen.maps.scenario_schema import SOIL_MEANINGS, allowed, markdown
+
+    # the documented keys are exactly those the reader takes ranges and meanings for
+    assert set(SOIL_MEANINGS) == set(SOIL_FIELDS)
+    assert allowed("scenario.storm") == set(STORM_KEYS)
+    assert set(WETNESS_KEYS) <= allowed("scenario")
 
     docs = Path(__file__).resolve().parents[1] / "docs" / "scenario-file.md"
     assert docs.read_text() == markdown(), "run: python -m slopescreen.maps.scenario_schema"

@@ -10,8 +10,14 @@ import numpy as np
 
 from slopescreen.cautions import CAUTIONS
 from slopescreen.maps.grid import Grid
-from slopescreen.maps.palette import NO_DATA_HEX, class_rgb, hex_rgb
-from slopescreen.maps.quicklook import MapFrame, draw_classes, read_for_map, relief_image
+from slopescreen.maps.palette import hex_rgb
+from slopescreen.maps.quicklook import (
+    MapFrame,
+    class_legend,
+    draw_classes,
+    read_for_map,
+    relief_image,
+)
 from slopescreen.maps.rasters import read_block, windows
 from slopescreen.outputs import replacing
 
@@ -78,12 +84,10 @@ def draw_small_multiples(
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
-    from matplotlib.patches import Patch
 
     frame = MapFrame(grid, hillshade, title, "")
     relief = read_for_map(hillshade, frame)
-    colours = class_rgb(len(names))
-    lut = np.vstack([hex_rgb(NO_DATA_HEX), colours])
+    lut, handles = class_legend(names, "no result")
     n = len(scenarios)
     per_row = min(n, 5)
     rows = -(-n // per_row)
@@ -105,8 +109,6 @@ def draw_small_multiples(
             relief_image(lut[np.clip(classes, 0, len(names))], relief), interpolation="nearest"
         )
         ax.set_title(name, fontsize=9, parse_math=False)
-    handles = [Patch(facecolor=colours[i], edgecolor="0.3", label=nm) for i, nm in enumerate(names)]
-    handles.append(Patch(facecolor=hex_rgb(NO_DATA_HEX), edgecolor="0.3", label="no result"))
     fig.legend(
         handles=handles,
         loc="lower center",

@@ -148,16 +148,24 @@ def draw_classes(
 ) -> Path:
     """A map of uint8 classes 1..n (0 = no result; from :func:`read_for_map`), least
     stable first; ``colours`` (n x 3, RGB 0-1) default to the class palette."""
+    lut, handles = class_legend(names, no_data_label, colours)
+    return _draw(target, frame, lut[np.clip(classes, 0, len(names))], handles, legend_title)
+
+
+def class_legend(
+    names: list[str], no_data_label: str, colours: np.ndarray | None = None
+) -> tuple[np.ndarray, list]:
+    """(colour per class code 0..n, legend patches) of a class map: code 0 (no result)
+    grey, then ``colours`` (default the class palette), one patch each, no data last."""
     from matplotlib.patches import Patch
 
     colours = class_rgb(len(names)) if colours is None else colours
     lut = np.vstack([hex_rgb(NO_DATA_HEX), colours])
-    rgb = lut[np.clip(classes, 0, len(names))]
-    handles = [
-        Patch(facecolor=colours[i], edgecolor="0.3", label=name) for i, name in enumerate(names)
+    labels = [*names, no_data_label]
+    return lut, [
+        Patch(facecolor=lut[(i + 1) % len(lut)], edgecolor="0.3", label=label)
+        for i, label in enumerate(labels)
     ]
-    handles.append(Patch(facecolor=hex_rgb(NO_DATA_HEX), edgecolor="0.3", label=no_data_label))
-    return _draw(target, frame, rgb, handles, legend_title)
 
 
 def draw_values(
@@ -225,6 +233,7 @@ def _draw(
     from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
     grid = frame.grid
+    notes = list(frame.notes)  # the frame itself is left as given
     image = relief_image(rgb, _decimated(frame.hillshade, frame.step))
     h, w = image.shape[:2]
     t = grid.transform
@@ -263,7 +272,7 @@ def _draw(
             zones.boundary.plot(ax=ax, color="0.1", linewidth=0.3)
             handles.append(Line2D([], [], color="0.1", lw=0.8, label="low-margin zone outline"))
         elif len(zones):
-            frame.notes.append(f"{len(zones):,} zones: too many to outline at this scale")
+            notes.append(f"{len(zones):,} zones: too many to outline at this scale")
     ax.set_xlim(extent[0], extent[1])
     ax.set_ylim(extent[2], extent[3])
     xlabel, ylabel = axis_labels(grid.crs)
@@ -317,7 +326,7 @@ def _draw(
         if y_next - height > bottom + 1.4 / fig_h:
             iax = fig.add_axes((side_left + 0.07, y_next - height, 0.2, height))
             _inset(iax, units, areas, frame.inset_title)
-    for i, note in enumerate(frame.notes):
+    for i, note in enumerate(notes):
         fig.text(side_left, bottom + 1.25 / fig_h - i * 0.2 / fig_h, note, fontsize=7)
     bar_m, bar_map = scale_bar(grid)
     label = f"{bar_m / 1000:g} km" if bar_m >= 1000 else f"{bar_m:g} m"
