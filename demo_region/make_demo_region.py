@@ -1,7 +1,8 @@
 """Build the invented demo region: the fictitious Quillbrook catchment.
 
-Writes quillbrook_dem.tif (450 x 450 cells at 10 m), soil_units.gpkg (five soil units) and
-soil_parameters.csv beside this file. The terrain is synthetic: a valley draining south,
+Writes quillbrook_dem.tif (450 x 450 cells at 10 m), soil_units.gpkg (five soil units),
+soil_parameters.csv and mapped_landslides.gpkg (an invented inventory of slides drawn from
+a hidden soil table, see HIDDEN_CHANGES) beside this file. The terrain is synthetic: a valley draining south,
 fractal relief by spectral synthesis, then a few thousand years of stream incision and
 hillslope diffusion so that tributaries, hollows and spurs form as on real ground, all
 from the formulas below (numpy only; the same numbers every run). It is placed at
@@ -311,6 +312,81 @@ def _channel_level(z: np.ndarray, channel: np.ndarray) -> np.ndarray:
     return level
 
 
+# The invented landslide inventory is drawn from a *hidden* soil table that the demo's
+# scenario file does not use: the weathered siltstone's c' is 30% lower than the table
+# says. Calibration against the inventory should move it back towards this value.
+HIDDEN_CHANGES = {"SLP": {"cohesion_kpa": 2.8}}
+HIDDEN_SCENARIO = "wet_season"  # the wetness the hidden slides happened under
+SLIDE_CHANCE = 0.06  # chance that a cell far below FS = 1 holds a mapped slide
+SLIDE_SPREAD = 0.08  # FS width over which the chance falls (logistic)
+YEARS = (1996, 2025)  # invented dates of the mapped slides
+
+
+def hidden_fs() -> np.ndarray:
+    """FS of the wet-season scenario under the hidden soil table, by slopescreen itself."""
+    import tempfile
+    import tomllib
+
+    from slopescreen.maps.engine import run
+
+    with tempfile.TemporaryDirectory() as work:
+        folder = Path(work)
+        rows = list(csv.reader(open(HERE / "soil_parameters.csv", newline="")))
+        header = rows[1]
+        for row in rows[2:]:
+            for name, value in HIDDEN_CHANGES.get(row[0], {}).items():
+                row[header.index(name)] = str(value)
+        with open(folder / "hidden.csv", "w", newline="") as handle:
+            handle.write(rows[0][0] + "\n")
+            csv.writer(handle).writerows(rows[1:])
+        text = (HERE / "quillbrook_scenarios.toml").read_text()
+        cfg = tomllib.loads(text)
+        wetness = next(s for s in cfg["scenario"] if s["name"] == HIDDEN_SCENARIO)
+        (folder / "hidden.toml").write_text(
+            "[region]\n"
+            f'dem = "{(HERE / "quillbrook_dem.tif").as_posix()}"\n'
+            f'soil_units = "{(HERE / "soil_units.gpkg").as_posix()}"\n'
+            'soil_table = "hidden.csv"\n'
+            "[outputs]\nquicklook_map = false\nreport = false\nzones = false\n"
+            f'[[scenario]]\nname = "hidden"\nrecharge_mm_day = {wetness["recharge_mm_day"]}\n'
+        )
+        # the lab-test file the soil table names sits beside the real table
+        (folder / "lab_tests.csv").write_bytes((HERE / "lab_tests.csv").read_bytes())
+        run(folder / "hidden.toml", folder / "out", progress=False, echo=lambda _: None)
+        import rasterio
+
+        with rasterio.open(folder / "out" / "hidden" / "fs.tif") as src:
+            fs = src.read(1, masked=True).astype(float).filled(np.nan)
+    return fs
+
+
+def landslide_inventory(transform: object) -> object:
+    """Invented mapped slides (points at the head scarp): each cell holds one with a chance
+    that rises as the hidden FS falls, at a random place in the cell, with a random date."""
+    import geopandas as gpd
+    from shapely.geometry import Point
+
+    fs = hidden_fs()
+    rng = np.random.default_rng(RANDOM_STATE + 1)
+    chance = SLIDE_CHANCE / (1.0 + np.exp((np.nan_to_num(fs, nan=99.0) - 1.0) / SLIDE_SPREAD))
+    rows, cols = np.nonzero(rng.random(fs.shape) < chance)
+    x0, y0 = ORIGIN
+    points = [
+        Point(x0 + (c + rng.random()) * CELL, y0 - (r + rng.random()) * CELL)
+        for r, c in zip(rows, cols, strict=True)
+    ]
+    days = rng.integers(0, 365 * (YEARS[1] - YEARS[0] + 1), size=len(points))
+    dates = np.datetime64(f"{YEARS[0]}-01-01") + days.astype("timedelta64[D]")
+    return gpd.GeoDataFrame(
+        {
+            "slide_id": [f"QB-{i + 1:04d}" for i in range(len(points))],
+            "observed": [str(d) for d in dates],
+        },
+        geometry=points,
+        crs=CRS,
+    )
+
+
 def main() -> None:
     import geopandas as gpd
     import rasterio
@@ -362,6 +438,11 @@ def main() -> None:
         )
         writer.writerow(COLUMNS)
         writer.writerows(UNITS)
+    slides = landslide_inventory(transform)
+    target = HERE / "mapped_landslides.gpkg"
+    if target.exists():
+        target.unlink()
+    slides.to_file(target, driver="GPKG", layer="mapped_landslides")
 
 
 if __name__ == "__main__":

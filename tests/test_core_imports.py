@@ -20,7 +20,7 @@ HEAVY = (
 def test_core_pulls_in_no_heavy_packages():
     code = (
         "import sys, slopescreen, slopescreen.ranges, slopescreen.textfiles, slopescreen.storm, "
-        "slopescreen.validation; "
+        "slopescreen.validation, slopescreen.back_analysis, slopescreen.sensitivity; "
         "print(','.join(sorted({m.split('.')[0] for m in sys.modules})))"
     )
     loaded = (

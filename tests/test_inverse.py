@@ -9,6 +9,7 @@ from slopescreen import (
     critical_slope_deg,
     factor_of_safety,
     required_cohesion_kpa,
+    required_friction_deg,
 )
 
 
@@ -70,6 +71,18 @@ def test_required_cohesion_plugs_back():
     assert fs == pytest.approx(1.3, rel=1e-10)
     assert required_cohesion_kpa(15.0, 1.0, 35.0, 18.0) < 0.0  # friction alone suffices
     assert np.isnan(required_cohesion_kpa(0.0, 1.0, 35.0, 18.0))
+
+
+def test_required_friction_plugs_back_and_nan_cases():
+    kw = dict(saturated_unit_weight_kn_m3=20.0, root_cohesion_kpa=1.5, seismic_coefficient=0.05)
+    phi = required_friction_deg(38.0, 1.4, 3.0, 18.5, 0.7, target_fs=1.2, **kw)
+    assert 0.0 < phi < 90.0
+    fs = factor_of_safety(38.0, 1.4, 3.0, phi, 18.5, 0.7, **kw)
+    assert fs == pytest.approx(1.2, rel=1e-10)
+    assert required_friction_deg(10.0, 1.0, 50.0, 18.0) < 0.0  # cohesion alone suffices
+    assert np.isnan(required_friction_deg(0.0, 1.0, 5.0, 18.0))  # no driving stress
+    # fully saturated with gamma_sat = gamma_w: no effective stress for friction to act on
+    assert np.isnan(required_friction_deg(30.0, 1.0, 0.0, 9.81, 1.0))
 
 
 def _first_crossing_by_scan(target, **kw):

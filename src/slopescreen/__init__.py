@@ -12,6 +12,7 @@ from slopescreen.inverse import (
     critical_saturation,
     critical_slope_deg,
     required_cohesion_kpa,
+    required_friction_deg,
 )
 from slopescreen.stability import SlipPlaneStresses, factor_of_safety, slip_plane_stresses
 from slopescreen.strength import (
@@ -48,6 +49,7 @@ __all__ = [
     "plane_stresses",
     "principal_stress_at_failure_kpa",
     "required_cohesion_kpa",
+    "required_friction_deg",
     "shear_strength_kpa",
     "slip_plane_stresses",
 ]

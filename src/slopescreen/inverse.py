@@ -199,6 +199,47 @@ def required_cohesion_kpa(
     return as_result(np.where(tau > 0.0, c, np.nan))
 
 
+def required_friction_deg(
+    slope_deg: ArrayLike,
+    depth_m: ArrayLike,
+    cohesion_kpa: ArrayLike,
+    unit_weight_kn_m3: ArrayLike,
+    saturation: ArrayLike = 0.0,
+    *,
+    target_fs: ArrayLike = 1.0,
+    saturated_unit_weight_kn_m3: ArrayLike | None = None,
+    root_cohesion_kpa: ArrayLike = 0.0,
+    surcharge_kpa: ArrayLike = 0.0,
+    seismic_coefficient: ArrayLike = 0.0,
+    water_unit_weight_kn_m3: ArrayLike = WATER_UNIT_WEIGHT_KN_M3,
+) -> ArrayLike:
+    """Effective friction angle phi' (degrees) that brings FS to ``target_fs``.
+
+    tan(phi') = (target tau_d - c' - c_root) / sigma'. A value <= 0 means cohesion (and
+    roots) alone already reach the target: no friction is needed. NaN where sigma' <= 0
+    (friction carries nothing: the plane is fully unloaded by water or by the seismic
+    load) or the driving stress is zero.
+
+    >>> round(required_friction_deg(35.0, 1.0, 5.367, 19.0, 1.0), 2)
+    30.0
+    """
+    c_total, _, target = _strength_terms(cohesion_kpa, root_cohesion_kpa, 0.0, target_fs)
+    col = _column(
+        slope_deg,
+        depth_m,
+        unit_weight_kn_m3,
+        saturation,
+        saturated_unit_weight_kn_m3,
+        surcharge_kpa,
+        seismic_coefficient,
+        water_unit_weight_kn_m3,
+    )
+    _, _, sigma_eff, tau = _stresses_unclipped(col)
+    with np.errstate(all="ignore"):
+        phi = np.degrees(np.arctan((target * tau - c_total) / sigma_eff))
+    return as_result(np.where((tau > 0.0) & (sigma_eff > 0.0), phi, np.nan))
+
+
 def _first_root(
     p: np.ndarray, q: np.ndarray, r: np.ndarray, low: np.ndarray, high: np.ndarray
 ) -> np.ndarray:

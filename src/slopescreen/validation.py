@@ -166,3 +166,95 @@ def failing_confusion(
         "false_alarm_share": share(~hit),
         "flagged_share": share(np.ones_like(hit)),
     }
+
+
+def grouped_curves(
+    area_between: ArrayLike, area_tied: ArrayLike, landslide_tied: ArrayLike
+) -> RankCurves:
+    """Success-rate and ROC curves from masses gathered around the landslide scores.
+
+    With t_1 < ... < t_K the distinct scores of the landslide cells, ``area_between[j]`` is
+    the weight of all cells scoring strictly between t_j and t_{j+1} (j = 0..K, with
+    t_0 = -inf and t_{K+1} = +inf), ``area_tied[j]`` the weight of all cells scoring exactly
+    t_{j+1} (landslide cells included) and ``landslide_tied[j]`` the landslide weight among
+    them. This is what a map too large for memory is reduced to, tile by tile; the areas
+    equal those of :func:`rank_curves` on the same cells (between two landslide scores the
+    landslide share is flat, so merging those groups changes no area).
+
+    >>> c = grouped_curves([0.0, 3.0], [1.0], [1.0])  # as in rank_curves' example
+    >>> c.roc_auc, c.success_auc
+    (1.0, 0.875)
+    """
+    between = np.asarray(area_between, dtype=float).ravel()
+    tied = np.asarray(area_tied, dtype=float).ravel()
+    hit = np.asarray(landslide_tied, dtype=float).ravel()
+    if not between.size == tied.size + 1 == hit.size + 1:
+        raise InputError(
+            f"grouped_curves: need K + 1 between-masses for K tied groups, got {between.size} "
+            f"and {tied.size}, {hit.size}"
+        )
+    if hit.sum() <= 0.0 or (between.sum() + tied.sum() - hit.sum()) <= 0.0:
+        raise InputError("landslide cells: need at least one cell with and one without")
+    area_steps = np.empty(2 * tied.size + 1)
+    area_steps[0::2] = between
+    area_steps[1::2] = tied
+    slide_steps = np.zeros_like(area_steps)
+    slide_steps[1::2] = hit
+    area = np.cumsum(area_steps)
+    slides = np.cumsum(slide_steps)
+    stable = area - slides
+    return RankCurves(
+        np.r_[0.0, area / area[-1]],
+        np.r_[0.0, slides / slides[-1]],
+        np.r_[0.0, stable / stable[-1]],
+    )
+
+
+def masses_around(
+    score: ArrayLike, weight: ArrayLike, thresholds: ArrayLike
+) -> tuple[np.ndarray, np.ndarray]:
+    """(area_between, area_tied) of :func:`grouped_curves` for one batch of cells: the
+    weight strictly between consecutive sorted ``thresholds`` (K + 1 values) and exactly
+    at each (K values). NaN scores are left out. Sum the results over batches (tiles).
+
+    >>> b, t = masses_around([0.5, 1.0, 1.5, 3.0], [1, 1, 1, 1], [1.0, 2.0])
+    >>> b.tolist(), t.tolist()
+    ([1.0, 1.0, 1.0], [1.0, 0.0])
+    """
+    s = np.asarray(score, dtype=float).ravel()
+    w = np.broadcast_to(np.asarray(weight, dtype=float), np.shape(score)).ravel()
+    t = np.asarray(thresholds, dtype=float).ravel()
+    keep = np.isfinite(s)
+    s, w = s[keep], w[keep]
+    k = t.size
+    at = np.searchsorted(t, s, side="left")  # thresholds below the score
+    tie = at < k
+    tie[tie] = t[at[tie]] == s[tie]
+    between = np.bincount(at[~tie], weights=w[~tie], minlength=k + 1)
+    tied = np.bincount(at[tie], weights=w[tie], minlength=k)
+    return between, tied
+
+
+def held_out_blocks(
+    block_row: ArrayLike, block_col: ArrayLike, test_share: float, random_state: int
+) -> np.ndarray:
+    """True for the blocks held out for testing: each block (row, column of the block
+    grid) is drawn independently with probability ``test_share`` from a counter-based
+    hash of its indices and ``random_state`` (SplitMix64, Steele et al. 2014), so any tile
+    of a map can be labelled on its own and the same number gives the same split.
+
+    >>> held_out_blocks([0, 0, 1], [0, 1, 0], 0.0, 3).tolist()
+    [False, False, False]
+    """
+    if not 0.0 <= test_share <= 1.0:
+        raise InputError(f"test_share must be in [0, 1], got {test_share:g}")
+    r = np.asarray(block_row, dtype=np.uint64)
+    c = np.asarray(block_col, dtype=np.uint64)
+    with np.errstate(over="ignore"):
+        x = (r << np.uint64(32)) ^ c ^ (np.uint64(random_state) * np.uint64(0x9E3779B97F4A7C15))
+        x = x + np.uint64(0x9E3779B97F4A7C15)
+        x = (x ^ (x >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+        x = (x ^ (x >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+        x = x ^ (x >> np.uint64(31))
+    u = (x >> np.uint64(11)).astype(np.float64) / float(1 << 53)
+    return u < test_share

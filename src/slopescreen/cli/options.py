@@ -101,3 +101,28 @@ def finite_or_none(value: float) -> float | None:
 
 def dump_json(obj: object) -> str:
     return json.dumps(obj, indent=2, allow_nan=False)
+
+
+def run_folder_options(parser: argparse.ArgumentParser, scenario: bool = False) -> None:
+    """SCENARIOS.toml, --out and --inventory: the options of the commands that work on a
+    finished run's folder (score, backcalc, calibrate, sensitivity)."""
+    from pathlib import Path
+
+    parser.add_argument("scenarios", type=Path, metavar="SCENARIOS.toml")
+    parser.add_argument(
+        "--out",
+        type=Path,
+        default=None,
+        help="the run's output folder (default: <scenario file name>_output)",
+    )
+    parser.add_argument(
+        "--inventory",
+        type=Path,
+        default=None,
+        metavar="FILE",
+        help="landslide points or polygons (default: [inventory] path of the scenario file)",
+    )
+    if scenario:
+        parser.add_argument(
+            "--scenario", required=True, metavar="NAME", help="the scenario to work on"
+        )

@@ -82,7 +82,9 @@ STORM_KEYS: dict[str, tuple[float, float]] = {
 RELIABILITY_METHODS = ("taylor", "monte_carlo")
 _NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
 # names the run gives to its own files and folders beside the scenario folders
-RESERVED_NAMES = frozenset({"terrain", "comparison", "report.html", "manifest.json"})
+RESERVED_NAMES = frozenset(
+    {"terrain", "comparison", "validation", "report.html", "manifest.json", "inventory_scores.csv"}
+)
 
 
 @dataclass(frozen=True)
@@ -163,6 +165,29 @@ class ComparisonSpec:
 
 
 @dataclass(frozen=True)
+class InventorySpec:
+    """Known landslides to score the maps against (``[inventory]``, or ``--inventory``)."""
+
+    path: Path
+    key: str | None = None  # field naming each landslide; features sharing a key are one
+    date_field: str | None = None
+    part: str = "scarp"  # polygons: "scarp" (highest share of cells) or "whole"
+    split: str = "blocks"  # held-out part: "date" (newest) or "blocks" (spatial blocks)
+    block_size_m: float = 500.0
+    test_share: float = 0.3
+    random_state: int = 0
+
+    def with_path(self, path: Path) -> InventorySpec:
+        from dataclasses import replace
+
+        return replace(self, path=path)
+
+
+SCARP_SHARE = 0.2  # polygons, part = "scarp": the highest 20% of the cells by elevation
+SPLITS = ("date", "blocks")
+
+
+@dataclass(frozen=True)
 class Config:
     path: Path
     text: str
@@ -178,6 +203,7 @@ class Config:
     # one line per deprecated key read, printed once by the command that loaded the file
     deprecations: tuple[str, ...] = ()
     comparison: ComparisonSpec = ComparisonSpec()
+    inventory: InventorySpec | None = None
 
 
 # old names still read for one release: (table, key or "") -> new name
@@ -434,6 +460,38 @@ def load_config(path: str | Path) -> Config:
         reliability=reliability,
         deprecations=tuple(notes),
         comparison=_comparison(r, r.table("", data, "comparison"), [s.name for s in scenarios]),
+        inventory=_inventory(r, data["inventory"]) if "inventory" in data else None,
+    )
+
+
+def _inventory(r: _Reader, data: Any) -> InventorySpec:
+    """[inventory]: keys that cannot matter (a date split's block size) are refused."""
+    if not isinstance(data, dict):
+        raise r.fail("", "inventory", f"must be a table ([inventory]), got {_shown(data)}")
+    r.known("inventory", data, allowed("inventory"))
+    part = r.text("inventory", data, "part", "scarp")
+    if part not in ("scarp", "whole"):
+        raise r.fail("inventory", "part", f'must be "scarp" or "whole", got {_shown(part)}')
+    date_field = r.text("inventory", data, "date_field") if "date_field" in data else None
+    split = r.text("inventory", data, "split", "date" if date_field else "blocks")
+    if split not in SPLITS:
+        raise r.fail("inventory", "split", f'must be "date" or "blocks", got {_shown(split)}')
+    if split == "date" and date_field is None:
+        raise r.fail("inventory", "split", 'split = "date" needs date_field')
+    if split == "date":
+        for key in ("block_size_m", "random_state"):
+            if key in data:
+                raise r.fail("inventory", key, 'applies to split = "blocks" only; remove it')
+    share = r.number("inventory", data, "test_share", 0.05, 0.95, 0.3)
+    return InventorySpec(
+        path=r.file("inventory", data, "path"),
+        key=r.text("inventory", data, "key") if "key" in data else None,
+        date_field=date_field,
+        part=part,
+        split=split,
+        block_size_m=float(r.number("inventory", data, "block_size_m", 10.0, 1e6, 500.0)),
+        test_share=float(share),
+        random_state=r.integer("inventory", data, "random_state", 0, 2**32 - 1, 0),
     )
 
 

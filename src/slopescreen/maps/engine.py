@@ -37,6 +37,7 @@ from slopescreen.maps.comparison import FOLDER as COMPARISON_FOLDER
 from slopescreen.maps.comparison import ClassChange
 from slopescreen.maps.config import Config, Scenario, load_config
 from slopescreen.maps.grid import Grid, dem_files_sha256, read_elevations, read_grid
+from slopescreen.maps.inventory import Inventory
 from slopescreen.maps.locks import folder_lock
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_saturation
 from slopescreen.maps.report import Extras, RunFacts, write_report
@@ -44,6 +45,7 @@ from slopescreen.maps.scenario_run import ScenarioSummary, run_scenario
 from slopescreen.maps.scenario_tiles import Runner, check_storm_soils, serial_runner
 from slopescreen.maps.soils import SoilUnits, load_soils
 from slopescreen.maps.terrain_cache import cache_key, terrain_products
+from slopescreen.maps.validation_report import validation_section
 from slopescreen.outputs import (
     copy_verified,
     file_sha256,
@@ -99,6 +101,7 @@ class Inputs:
     hashes: dict[str, str]
     dem_files: dict[str, str]  # SHA-256 of every file GDAL reads for the DEM
     voids: dict[str, float] = field(default_factory=dict)  # DEM no-data cells and ground area
+    inventory: Inventory | None = None  # known landslides, when [inventory] is given
 
 
 @dataclass
@@ -115,6 +118,7 @@ class RunState:
     hashes: dict[str, str] = field(default_factory=dict)  # of those, hashed once each
     summaries: list[ScenarioSummary] = field(default_factory=list)
     terrain: dict[str, object] = field(default_factory=dict)
+    validation: dict[str, object] = field(default_factory=dict)  # manifest's "inventory"
 
 
 def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
@@ -169,7 +173,13 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     for sc in cfg.scenarios:
         if sc.saturation_raster is not None:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)
-    return Inputs(cfg, grid, soils, hashes, dem_files, voids)
+    inventory = None
+    if cfg.inventory is not None:
+        from slopescreen.maps.inventory import read_inventory
+
+        inventory = read_inventory(cfg.inventory, grid, cfg.region.dem_elevation_unit)
+        hashes["inventory"] = file_sha256(cfg.inventory.path)
+    return Inputs(cfg, grid, soils, hashes, dem_files, voids, inventory)
 
 
 def utc_now() -> str:
@@ -249,6 +259,7 @@ def run(
             state.outputs.append("terrain/soil_unit.tif")
             steps = _Steps(timings, state, echo, progress, runner, numba_threads)
             _terrain_and_scenarios(cfg, inputs, chosen, out, cache, steps)
+            _known_landslides(cfg, inputs, out, steps)
         started = time.perf_counter()
         state.finished_utc = utc_now()
         if cfg.report:
@@ -272,6 +283,7 @@ def run(
                 small,
                 changes,
                 extras,
+                validation_section(state.validation, out),
             )
             state.outputs.append("report.html")
         else:
@@ -334,6 +346,34 @@ def _comparison(
             stale.unlink()
     state.outputs += [f"{COMPARISON_FOLDER}/{p.name}" for p in written]
     return small, changes
+
+
+def _known_landslides(cfg: Config, inputs: Inputs, out: Path, steps: _Steps) -> None:
+    """Score the scenarios against the inventory ([inventory]); results of the inventory
+    commands from an earlier run (validation/) describe other maps and are removed."""
+    from slopescreen.maps.finished_run import VALIDATION_FOLDER
+
+    shutil.rmtree(out / VALIDATION_FOLDER, ignore_errors=True)
+    (out / "inventory_scores.csv").unlink(missing_ok=True)
+    if inputs.inventory is None:
+        return
+    from slopescreen.maps.inventory_scores import score_all
+
+    started = time.perf_counter()
+    section, files = score_all(
+        cfg,
+        inputs.grid,
+        inputs.soils.keys,
+        out,
+        steps.state.finished,
+        inputs.inventory,
+        steps.runner,
+        steps.echo,
+        lambda items, total, label: _progress(items, total, label, steps.progress),
+    )
+    steps.state.validation["inventory"] = section
+    steps.state.outputs += [f.relative_to(out).as_posix() for f in files]
+    steps.timings.add("inventory scores", started)
 
 
 def _loads(cfg: Config, name: str) -> str:
@@ -558,6 +598,7 @@ def write_state(
         "timings_s": timings.steps,
         "outputs": {name: _output_sha256(out, name, state) for name in sorted(state.outputs)},
         "cautions": list(CAUTIONS),
+        **state.validation,
     }
     text = json.dumps(manifest, indent=2, allow_nan=False) + "\n"
     return write_text(out / "manifest.json", text)

@@ -31,6 +31,8 @@ SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     ("storm_failure_depth_m.tif", "storm", "depth of the lowest FS"),
     ("storm_time_to_failure_h.tif", "storm", "hours until FS first falls below 1; -1 never"),
     ("storm_time_to_failure_h.png", "storm, maps on", "map of the time to failure"),
+    ("inventory_scores.csv", "inventory given", "landslide density and frequency ratio"),
+    ("success_rate.png", "inventory given", "success and prediction rates with AUC"),
 )
 RUN_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     (
@@ -42,6 +44,12 @@ RUN_OUTPUTS: tuple[tuple[str, str, str], ...] = (
         "comparison/FIRST_vs_SECOND.png",
         "report on, maps on, [comparison] pairs",
         "class-change map",
+    ),
+    ("inventory_scores.csv", "inventory given", "one row of scores per scenario"),
+    (
+        "validation/",
+        "score, backcalc, calibrate, sensitivity",
+        "back-analysis, calibration and sensitivity tables and figures",
     ),
     ("report.html", "report on", "the self-contained report"),
     ("manifest.json", "always", "the run's state, inputs, parameters and output hashes"),
@@ -69,6 +77,7 @@ def written(
     spreads: bool,
     storm: bool,
     report: bool = True,
+    inventory: bool = False,
 ) -> list[str]:
     """The files of ``table`` a run with these settings writes."""
     conditions = {
@@ -78,6 +87,7 @@ def written(
         "spreads given": spreads,
         "storm": storm,
         "report on": report,
+        "inventory given": inventory,
     }
     out = []
     for name, when, _ in table:

@@ -191,3 +191,15 @@ def read_saturation(
                     "(after reprojection to the DEM's grid)"
                 )
             return np.empty(0)
+
+
+def read_at_cells(path: Path, grid: Grid, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+    """The raster's values at the cells (rows, cols) of the grid, read tile by tile (only
+    the tiles holding one of the cells); float64."""
+    out = np.full(rows.shape, np.nan)
+    for r, c in windows(grid):
+        inside = (rows >= r.start) & (rows < r.stop) & (cols >= c.start) & (cols < c.stop)
+        if inside.any():
+            block = read_block(path, r, c)
+            out[inside] = block[rows[inside] - r.start, cols[inside] - c.start]
+    return out

@@ -358,7 +358,12 @@ def write_report(
     small_multiples: Path | None = None,
     changes: Sequence[ClassChange] = (),
     extras: Extras | None = None,
+    validation: str = "",
 ) -> Path:
+    """The report; ``validation`` is the known-landslides section (HTML), kept between
+    markers so the inventory commands can rewrite it in place."""
+    from slopescreen.maps.finished_run import SECTION_END, SECTION_START
+
     import tempfile
 
     extras = extras or Extras()
@@ -388,6 +393,7 @@ def write_report(
             + _table(["chance that FS < 1", *(s.name for s in with_pf)], rows)
         )
     parts += [_scenario_section(s, class_names, soils.keys) for s in scenarios]
+    parts.append(SECTION_START + validation + SECTION_END)
 
     t = grid.transform
     parts.append("<h2>Inputs</h2>")

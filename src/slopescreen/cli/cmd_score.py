@@ -1,0 +1,62 @@
+"""``slopescreen score``: score a finished run's maps against known landslides.
+
+Reads the rasters the run wrote (nothing is recomputed) and, for every scenario, writes
+OUT/<scenario>/inventory_scores.csv (landslide density and frequency ratio per FS class
+and soil unit), OUT/<scenario>/success_rate.png (success and prediction rates with their
+AUC) and OUT/inventory_scores.csv (one row per scenario); the report and manifest.json
+gain the scores. The inventory's options (key, date_field, part, split...) come from the
+scenario file's [inventory] table; --inventory names another file to score.
+
+Example::
+
+    slopescreen score demo_region/quillbrook_scenarios.toml --out demo_output \\
+        --inventory demo_region/mapped_landslides.gpkg
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+from typing import Any
+
+from slopescreen.cli.options import command_parser, run_folder_options
+
+
+def add_to(sub: Any) -> None:
+    parser = command_parser(
+        sub, "score", "score a finished run's maps against known landslides", __doc__, run
+    )
+    run_folder_options(parser)
+    parser.add_argument("--quiet", action="store_true", help="no progress bars")
+
+
+def run(args: argparse.Namespace) -> int:
+    from slopescreen.cautions import caution_block
+    from slopescreen.cli.cmd_run import default_out
+    from slopescreen.maps.finished_run import locked_run, record_results
+    from slopescreen.maps.inventory_scores import score_all
+
+    out = args.out or default_out(args.scenarios)
+    with locked_run(args.scenarios, out, args.inventory) as (done, inv):
+        scenarios = list(done.manifest["scenarios_finished"])
+        for name in scenarios:
+            for f in ("fs.tif", "stability_class.tif", "probability_of_failure.tif"):
+                if f != "probability_of_failure.tif" or (out / name / f).exists():
+                    done.verified(f"{name}/{f}")
+        done.verified("terrain/soil_unit.tif")
+
+        def progress(items: Any, total: int, label: str) -> Any:
+            from tqdm import tqdm
+
+            enabled = not args.quiet and sys.stderr.isatty()
+            return tqdm(items, total=total, desc=label, disable=not enabled, leave=False)
+
+        section, files = score_all(
+            done.cfg, done.grid, done.soils.keys, out, scenarios, inv, progress=progress
+        )
+        target = record_results(done, "inventory", "", section, files)
+    print(f"scores: {out / 'inventory_scores.csv'}; report: {out / 'report.html'}; "
+          f"manifest: {target}")
+    print(caution_block())
+    return 0

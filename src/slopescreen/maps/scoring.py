@@ -1,0 +1,320 @@
+"""Scoring a finished run against a landslide inventory, from its rasters (no map is
+recomputed): success-rate and prediction-rate curves by FS and by P_f, ROC areas,
+landslide density and frequency ratio per class and soil unit, and the confusion at FS = 1.
+
+Two passes over the rasters, tile by tile: the first reads the scores at the landslide
+cells, the second sums, for every tile, the ground area between and at those scores
+(:func:`slopescreen.validation.masses_around`), so the curves are exact (ties count one
+half) at any map size, and the tiles run wherever the run's tiles run (the same
+``Runner``).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from slopescreen.maps.grid import Grid
+from slopescreen.maps.inventory import FEW_CELLS, Inventory
+from slopescreen.maps.rasters import read_block, windows
+from slopescreen.maps.scenario_tiles import Runner, serial_runner
+from slopescreen.maps.summary import add_areas
+from slopescreen.maps.terrain_cache import NODATA_F32
+from slopescreen.validation import (
+    RankCurves,
+    auc_standard_error,
+    grouped_curves,
+    masses_around,
+)
+
+GROUPS = ("all", "test")  # success rate on every landslide; prediction rate on the held out
+SCORES = ("fs", "pf")  # FS ascending; P_f descending (scored as -P_f)
+
+
+@dataclass(frozen=True)
+class ScoreJob:
+    """What a scoring tile needs: paths and the landslide scores (small, picklable)."""
+
+    grid: Grid
+    fs: Path
+    probability: Path | None
+    classes: Path
+    codes: Path
+    thresholds: dict[tuple[str, str], np.ndarray]  # (score, group) -> sorted unique scores
+    split: str
+    block_cells: tuple[int, int]
+    test_share: float
+    random_state: int
+    n_units: int
+    n_classes: int
+
+
+def read_scores(grid: Grid, job: ScoreJob, rows: slice, cols: slice) -> dict[str, np.ndarray]:
+    """FS, -P_f (NaN where none), class, unit code and cell area of a window."""
+    fs = read_block(job.fs, rows, cols).astype(np.float64)
+    valid = fs != NODATA_F32
+    out = {
+        "fs": np.where(valid, fs, np.nan),
+        "class": read_block(job.classes, rows, cols).astype(np.int64),
+        "code": read_block(job.codes, rows, cols).astype(np.int64),
+        "area": np.broadcast_to(grid.ground.cell_area_m2(rows, cols), fs.shape),
+    }
+    if job.probability is not None:
+        pf = read_block(job.probability, rows, cols).astype(np.float64)
+        out["pf"] = np.where(valid & (pf != NODATA_F32), -pf, np.nan)
+    else:
+        out["pf"] = np.full(fs.shape, np.nan)
+    return out
+
+
+def _test_area(job: ScoreJob, rows: slice, cols: slice) -> np.ndarray | None:
+    """Cells of held-out blocks in a window; None for a date split (all area scored)."""
+    if job.split != "blocks":
+        return None
+    from slopescreen.validation import held_out_blocks
+
+    r = np.arange(rows.start, rows.stop)[:, None] // job.block_cells[0]
+    c = np.arange(cols.start, cols.stop)[None, :] // job.block_cells[1]
+    return held_out_blocks(r, c, job.test_share, job.random_state)
+
+
+def score_tile(job: ScoreJob, rows: slice, cols: slice) -> dict[str, Any]:
+    """Area masses around the landslide scores, cell counts and the unit x class areas of
+    one tile."""
+    v = read_scores(job.grid, job, rows, cols)
+    test = _test_area(job, rows, cols)
+    valid = np.isfinite(v["fs"])
+    out: dict[str, Any] = {}
+    for score in SCORES:
+        for group in GROUPS:
+            keep = np.isfinite(v[score])
+            if group == "test" and test is not None:
+                keep &= test
+            out[(score, group, "masses")] = masses_around(
+                v[score][keep], v["area"][keep], job.thresholds[(score, group)]
+            )
+            out[(score, group, "cells")] = int(keep.sum())
+    table = np.zeros((job.n_units + 1, job.n_classes + 1))
+    add_areas(table, v["code"] * valid, v["class"] * valid, v["area"])
+    out["unit_class_m2"] = table
+    out["flagged_m2"] = float(v["area"][valid & (v["fs"] < 1.0)].sum())
+    return out
+
+
+def landslide_scores(grid: Grid, job: ScoreJob, inv: Inventory) -> dict[str, np.ndarray]:
+    """The scores at every landslide cell (NaN where the map has no value), tile by tile."""
+    n = inv.rows.size
+    out = {k: np.full(n, np.nan) for k in ("fs", "pf", "area")}
+    out["class"] = np.zeros(n, np.int64)
+    out["code"] = np.zeros(n, np.int64)
+    for rows, cols in windows(grid):
+        inside = (
+            (inv.rows >= rows.start)
+            & (inv.rows < rows.stop)
+            & (inv.cols >= cols.start)
+            & (inv.cols < cols.stop)
+        )
+        if not inside.any():
+            continue
+        v = read_scores(grid, job, rows, cols)
+        r, c = inv.rows[inside] - rows.start, inv.cols[inside] - cols.start
+        for key in out:
+            out[key][inside] = v[key][r, c]
+    return out
+
+
+@dataclass
+class GroupScore:
+    curves: RankCurves
+    landslides: int
+    cells: int
+    stable_cells: int
+
+    @property
+    def se(self) -> float:
+        """Hanley & McNeil standard error of the ROC area, counting landslides (not their
+        cells, which are not independent) against stable cells."""
+        return auc_standard_error(self.curves.roc_auc, self.landslides, self.stable_cells)
+
+
+@dataclass
+class ScenarioScore:
+    scenario: str
+    record: dict[str, object]
+    groups: dict[tuple[str, str], GroupScore]
+    density_rows: list[dict[str, object]]
+    warnings: list[str] = field(default_factory=list)
+
+
+def _cells_of(inv: Inventory, v: dict[str, np.ndarray], score: str, group: str) -> np.ndarray:
+    keep = np.isfinite(v[score])
+    if group == "test":
+        keep &= inv.cell_is_test()
+    return keep
+
+
+def score_scenario(
+    name: str,
+    grid: Grid,
+    folder: Path,
+    terrain: Path,
+    inv: Inventory,
+    unit_keys: list[str],
+    class_names: list[str],
+    runner: Runner = serial_runner,
+    progress: Any = None,
+) -> ScenarioScore:
+    """Every score of one scenario folder against the inventory."""
+    pf_path = folder / "probability_of_failure.tif"
+    base = ScoreJob(
+        grid=grid,
+        fs=folder / "fs.tif",
+        probability=pf_path if pf_path.exists() else None,
+        classes=folder / "stability_class.tif",
+        codes=terrain / "soil_unit.tif",
+        thresholds={},
+        split=inv.spec.split,
+        block_cells=inv.block_cells,
+        test_share=inv.spec.test_share,
+        random_state=inv.spec.random_state,
+        n_units=len(unit_keys),
+        n_classes=len(class_names),
+    )
+    v = landslide_scores(grid, base, inv)
+    thresholds = {
+        (s, g): np.unique(v[s][_cells_of(inv, v, s, g)]) for s in SCORES for g in GROUPS
+    }
+    job = ScoreJob(**{**base.__dict__, "thresholds": thresholds})
+    tiles = [(job, rows, cols) for rows, cols in windows(grid)]
+    results: Iterable[dict] = runner(score_tile, tiles)
+    if progress is not None:
+        results = progress(results, len(tiles), f"{name} scores")
+    total: dict[Any, Any] = {}
+    for res in results:  # summed in tile order: the same sums whatever ran the tiles
+        for key, value in res.items():
+            if key in total:
+                total[key] = (
+                    tuple(a + b for a, b in zip(total[key], value, strict=True))
+                    if isinstance(value, tuple)
+                    else total[key] + value
+                )
+            else:
+                total[key] = value
+    groups: dict[tuple[str, str], GroupScore] = {}
+    warnings: list[str] = []
+    for s in SCORES:
+        for g in GROUPS:
+            keep = _cells_of(inv, v, s, g)
+            t = thresholds[(s, g)]
+            if t.size == 0:
+                continue
+            at = np.searchsorted(t, v[s][keep])
+            hit = np.bincount(at, weights=v["area"][keep], minlength=t.size)
+            between, tied = total[(s, g, "masses")]
+            cells = total[(s, g, "cells")]
+            if cells <= int(keep.sum()):
+                continue
+            groups[(s, g)] = GroupScore(
+                grouped_curves(between, tied, hit),
+                int(np.unique(inv.slide[keep]).size),
+                int(keep.sum()),
+                cells - int(keep.sum()),
+            )
+    scored = np.isfinite(v["fs"])
+    on_no_data = int((~scored).sum())
+    if on_no_data:
+        warnings.append(
+            f"scenario {name}: {on_no_data} of {inv.rows.size} landslide cells lie on no data "
+            "(no DEM value, soil unit or wetness) and are not scored"
+        )
+    if scored.sum() < FEW_CELLS:
+        warnings.append(
+            f"scenario {name}: only {int(scored.sum())} landslide cells scored (fewer than "
+            f"{FEW_CELLS}): the scores are not meaningful"
+        )
+    flagged = total["flagged_m2"]
+    area = float(total["unit_class_m2"][1:, 1:].sum())
+    hit_area = float(v["area"][scored].sum())
+    captured = float(v["area"][scored & (v["fs"] < 1.0)].sum())
+    all_fs, test_fs = groups.get(("fs", "all")), groups.get(("fs", "test"))
+    all_pf, test_pf = groups.get(("pf", "all")), groups.get(("pf", "test"))
+
+    def auc(gs: GroupScore | None, kind: str = "success") -> float | None:
+        if gs is None:
+            return None
+        return round(gs.curves.success_auc if kind == "success" else gs.curves.roc_auc, 6)
+
+    record: dict[str, object] = {
+        "scenario": name,
+        "landslides": int(np.unique(inv.slide[scored]).size),
+        "cells": int(scored.sum()),
+        "success_auc": auc(all_fs),
+        "prediction_auc": auc(test_fs),
+        "flagged_share": round(flagged / area, 6) if area else None,
+        "captured_share": round(captured / hit_area, 6) if hit_area else None,
+        "false_alarm_share": round((flagged - captured) / (area - hit_area), 6)
+        if area > hit_area
+        else None,
+        "roc_auc": auc(all_fs, "roc"),
+        "roc_auc_se": round(all_fs.se, 6) if all_fs else None,
+        "prediction_roc_auc": auc(test_fs, "roc"),
+        "prediction_landslides": test_fs.landslides if test_fs else 0,
+        "pf_success_auc": auc(all_pf),
+        "pf_prediction_auc": auc(test_pf),
+        "landslide_cells_on_no_data": on_no_data,
+    }
+    rows = density_rows(name, inv, v, total["unit_class_m2"], unit_keys, class_names)
+    return ScenarioScore(name, record, groups, rows, warnings)
+
+
+def density_rows(
+    name: str,
+    inv: Inventory,
+    v: dict[str, np.ndarray],
+    unit_class_m2: np.ndarray,
+    unit_keys: list[str],
+    class_names: list[str],
+) -> list[dict[str, object]]:
+    """Per soil unit and in total, per FS class: area, landslides (each counted once, in
+    the class of its least stable scored cell), landslide cells, landslides per km2 and the
+    frequency ratio (share of landslide cells / share of area; 1 = as common as anywhere)."""
+    scored = np.flatnonzero(np.isfinite(v["fs"]))
+    order = scored[np.lexsort((v["fs"][scored], inv.slide[scored]))]
+    first = order[np.r_[True, inv.slide[order][1:] != inv.slide[order][:-1]]] if order.size else order
+    n_units, n_classes = len(unit_keys), len(class_names)
+    shape = (n_units + 1, n_classes + 1)
+    slides = np.zeros(shape)
+    np.add.at(slides, (v["code"][first], v["class"][first]), 1.0)
+    cells = np.zeros(shape)
+    np.add.at(cells, (v["code"][scored], v["class"][scored]), v["area"][scored])
+    rows: list[dict[str, object]] = []
+    for u, unit in [(i, k) for i, k in enumerate(unit_keys, start=1)] + [(0, "all")]:
+        area = unit_class_m2[1:, 1:].sum(axis=0) if u == 0 else unit_class_m2[u, 1:]
+        hits = slides[1:, 1:].sum(axis=0) if u == 0 else slides[u, 1:]
+        hit_area = cells[1:, 1:].sum(axis=0) if u == 0 else cells[u, 1:]
+        for c, cname in enumerate(class_names):
+            with np.errstate(invalid="ignore", divide="ignore"):
+                ratio = (hit_area[c] / hit_area.sum()) / (area[c] / area.sum())
+            rows.append(
+                {
+                    "scenario": name,
+                    "soil_unit": unit,
+                    "class": cname,
+                    "area_ha": round(float(area[c]) / 1e4, 4),
+                    "area_share": round(float(area[c] / area.sum()), 6) if area.sum() else "",
+                    "landslides": int(hits[c]),
+                    "landslide_cell_area_ha": round(float(hit_area[c]) / 1e4, 4),
+                    "landslide_cell_share": round(float(hit_area[c] / hit_area.sum()), 6)
+                    if hit_area.sum()
+                    else "",
+                    "landslides_per_km2": round(float(hits[c] / (area[c] / 1e6)), 4)
+                    if area[c]
+                    else "",
+                    "frequency_ratio": round(float(ratio), 4) if np.isfinite(ratio) else "",
+                }
+            )
+    return rows
