@@ -69,9 +69,7 @@ def value_at_failure(
     5.367
     """
     if parameter not in PARAMETERS:
-        raise InputError(
-            f"parameter {parameter!r}: must be one of {', '.join(PARAMETERS)}"
-        )
+        raise InputError(f"parameter {parameter!r}: must be one of {', '.join(PARAMETERS)}")
     common = dict(
         saturated_unit_weight_kn_m3=saturated_unit_weight_kn_m3,
         seismic_coefficient=seismic_coefficient,

@@ -47,6 +47,14 @@ def add_to(sub: Any) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import caution_block
+
+    execute(args)
+    print(caution_block())
+    return 0
+
+
+def execute(args: argparse.Namespace) -> None:
+    """The command's work and its lines of results (no cautions: the caller prints them)."""
     from slopescreen.cli.cmd_run import default_out
     from slopescreen.maps.backcalc import back_analyse
     from slopescreen.maps.finished_run import locked_run, record_results
@@ -64,8 +72,6 @@ def run(args: argparse.Namespace) -> int:
             f"soil table {_g(u['soil_table'])}"
         )
     print(f"written: {', '.join(str(out / f) for f in entry['tables'])}, {out / entry['figure']}")
-    print(caution_block())
-    return 0
 
 
 def _g(value: object) -> str:

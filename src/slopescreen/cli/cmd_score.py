@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import argparse
 import sys
-from pathlib import Path
 from typing import Any
 
 from slopescreen.cli.options import command_parser, run_folder_options
@@ -33,6 +32,14 @@ def add_to(sub: Any) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import caution_block
+
+    execute(args)
+    print(caution_block())
+    return 0
+
+
+def execute(args: argparse.Namespace) -> None:
+    """The command's work and its lines of results (no cautions: the caller prints them)."""
     from slopescreen.cli.cmd_run import default_out
     from slopescreen.maps.finished_run import locked_run, record_results
     from slopescreen.maps.inventory_scores import score_all
@@ -56,7 +63,6 @@ def run(args: argparse.Namespace) -> int:
             done.cfg, done.grid, done.soils.keys, out, scenarios, inv, progress=progress
         )
         target = record_results(done, "inventory", "", section, files)
-    print(f"scores: {out / 'inventory_scores.csv'}; report: {out / 'report.html'}; "
-          f"manifest: {target}")
-    print(caution_block())
-    return 0
+    print(
+        f"scores: {out / 'inventory_scores.csv'}; report: {out / 'report.html'}; manifest: {target}"
+    )

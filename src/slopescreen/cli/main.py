@@ -8,16 +8,28 @@ from collections.abc import Sequence
 
 from slopescreen.cli import (
     cmd_backcalc,
+    cmd_calibrate,
     cmd_check,
     cmd_demo,
     cmd_envelope,
     cmd_run,
     cmd_score,
+    cmd_sensitivity,
     cmd_slope,
 )
 from slopescreen.errors import InputError
 
-COMMANDS = (cmd_slope, cmd_envelope, cmd_run, cmd_check, cmd_score, cmd_backcalc, cmd_demo)
+COMMANDS = (
+    cmd_slope,
+    cmd_envelope,
+    cmd_run,
+    cmd_check,
+    cmd_score,
+    cmd_backcalc,
+    cmd_calibrate,
+    cmd_sensitivity,
+    cmd_demo,
+)
 EXIT_USER_ERROR = 2
 
 

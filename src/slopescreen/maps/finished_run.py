@@ -90,9 +90,7 @@ def inventory_spec(cfg: Config, path: Path | None) -> InventorySpec:
     """The scenario file's [inventory], its path replaced by ``--inventory`` when given."""
     if path is None:
         if cfg.inventory is None:
-            raise InputError(
-                f"{cfg.path}: no [inventory] table; give --inventory FILE or add one"
-            )
+            raise InputError(f"{cfg.path}: no [inventory] table; give --inventory FILE or add one")
         return cfg.inventory
     if not path.is_file():
         raise InputError(f"--inventory {path}: file not found")
@@ -100,7 +98,9 @@ def inventory_spec(cfg: Config, path: Path | None) -> InventorySpec:
     return spec.with_path(path.resolve())
 
 
-def record_results(run: FinishedRun, key: str, entry: str, value: object, files: list[Path]) -> Path:
+def record_results(
+    run: FinishedRun, key: str, entry: str, value: object, files: list[Path]
+) -> Path:
     """Add ``value`` to the manifest under ``key`` (as ``entry`` within it, or the whole
     key when ``entry`` is empty), record the files' SHA-256 and rewrite the report's
     validation section."""
@@ -132,7 +132,9 @@ def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
     text = report.read_text(encoding="utf-8")
     start, end = text.find(SECTION_START), text.find(SECTION_END)
     if start < 0 or end < start:
-        raise InputError(f"{report}: no validation section (written by an older version); run again")
+        raise InputError(
+            f"{report}: no validation section (written by an older version); run again"
+        )
     section = validation_section(manifest, out)
     write_text(report, text[: start + len(SECTION_START)] + section + text[end:])
 

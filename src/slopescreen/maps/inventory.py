@@ -57,7 +57,10 @@ class Inventory:
             return np.zeros(np.broadcast(rows, cols).shape, bool)
         br, bc = self.block_cells
         return held_out_blocks(
-            np.asarray(rows) // br, np.asarray(cols) // bc, self.spec.test_share, self.spec.random_state
+            np.asarray(rows) // br,
+            np.asarray(cols) // bc,
+            self.spec.test_share,
+            self.spec.random_state,
         )
 
     def cell_is_test(self) -> np.ndarray:
@@ -258,8 +261,8 @@ def _split(inv: Inventory, grid: Grid) -> None:
         inv.test_slide = np.array([d is not None and d >= cutoff for d in inv.dates])
         inv.split_note = (
             f"by date: scored on the {int(inv.test_slide.sum())} landslides dated {cutoff} or "
-            f"later, against {len(known) - int(inv.test_slide.sum())} older ones "
-            f"({order[0]} to {order[-1]})"
+            f"later, against {len(known) - int(inv.test_slide.sum())} older ones (dates "
+            f"{order[0]} to {order[-1]})"
         )
         return
     du0, du1, dv0, dv1 = grid.ground.ground_spacing_m()

@@ -64,13 +64,17 @@ def score_all(
         warnings += score.warnings
         r = score.record
         echo(
-            f"scenario {name}: success AUC {r['success_auc']}, prediction AUC "
-            f"{r['prediction_auc']} ({r['landslides']} landslides, {r['cells']} cells); "
+            f"scenario {name}: success AUC {_3(r['success_auc'])}, prediction AUC "
+            f"{_3(r['prediction_auc'])} ({r['landslides']} landslides, {r['cells']} cells); "
             f"{_pct(r['flagged_share'])} of the area flagged FS < 1 holds "
             f"{_pct(r['captured_share'])} of the landslide cells"
         )
     top = [{k: rec[k] for k in RUN_COLUMNS} for rec in records]
-    files.append(write_summary([{k: _cell(v) for k, v in row.items()} for row in top], out / "inventory_scores.csv"))
+    files.append(
+        write_summary(
+            [{k: _cell(v) for k, v in row.items()} for row in top], out / "inventory_scores.csv"
+        )
+    )
     for w in warnings:
         echo(f"WARNING: {w}")
     spec = inv.spec
@@ -82,7 +86,12 @@ def score_all(
         "landslides": inv.landslides,
         "landslides_outside_dem": inv.outside,
         "landslide_cells": int(inv.rows.size),
-        "part": spec.part if inv.kind == "polygons" else "point cell",
+        "part": {
+            "scarp": "the highest 20% of each polygon's cells by elevation",
+            "whole": "every cell of each polygon",
+        }[spec.part]
+        if inv.kind == "polygons"
+        else "the cell holding each point",
         "key": spec.key,
         "date_field": spec.date_field,
         "split": spec.split,
@@ -91,6 +100,10 @@ def score_all(
         "warnings": warnings,
     }
     return section, files
+
+
+def _3(value: object) -> str:
+    return f"{float(value):.3f}" if isinstance(value, int | float) else "-"
 
 
 def _pct(value: object) -> str:

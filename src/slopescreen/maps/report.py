@@ -362,9 +362,9 @@ def write_report(
 ) -> Path:
     """The report; ``validation`` is the known-landslides section (HTML), kept between
     markers so the inventory commands can rewrite it in place."""
-    from slopescreen.maps.finished_run import SECTION_END, SECTION_START
-
     import tempfile
+
+    from slopescreen.maps.finished_run import SECTION_END, SECTION_START
 
     extras = extras or Extras()
     ran = ", ".join(s.name for s in scenarios)

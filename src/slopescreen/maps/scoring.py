@@ -185,9 +185,7 @@ def score_scenario(
         n_classes=len(class_names),
     )
     v = landslide_scores(grid, base, inv)
-    thresholds = {
-        (s, g): np.unique(v[s][_cells_of(inv, v, s, g)]) for s in SCORES for g in GROUPS
-    }
+    thresholds = {(s, g): np.unique(v[s][_cells_of(inv, v, s, g)]) for s in SCORES for g in GROUPS}
     job = ScoreJob(**{**base.__dict__, "thresholds": thresholds})
     tiles = [(job, rows, cols) for rows, cols in windows(grid)]
     results: Iterable[dict] = runner(score_tile, tiles)
@@ -284,7 +282,9 @@ def density_rows(
     frequency ratio (share of landslide cells / share of area; 1 = as common as anywhere)."""
     scored = np.flatnonzero(np.isfinite(v["fs"]))
     order = scored[np.lexsort((v["fs"][scored], inv.slide[scored]))]
-    first = order[np.r_[True, inv.slide[order][1:] != inv.slide[order][:-1]]] if order.size else order
+    first = (
+        order[np.r_[True, inv.slide[order][1:] != inv.slide[order][:-1]]] if order.size else order
+    )
     n_units, n_classes = len(unit_keys), len(class_names)
     shape = (n_units + 1, n_classes + 1)
     slides = np.zeros(shape)

@@ -83,10 +83,12 @@ def histogram_figure(
     fig, axes = plt.subplots(n, 1, figsize=(6.4, 1.6 + 1.5 * n), squeeze=False)
     for ax, unit in zip(axes[:, 0], units, strict=False):
         values = per_unit[unit]
-        ax.hist(values, bins=min(30, max(5, values.size // 3)), color=VIOLET, alpha=0.75)
+        ax.hist(values, bins=min(30, max(5, values.size // 3)), color=VIOLET, alpha=0.8, zorder=2)
         q1, med, q3 = np.percentile(values, [25, 50, 75])
         ax.axvline(med, color="k", lw=1.2, label=f"median {med:.3g}")
-        ax.axvspan(q1, q3, color="0.5", alpha=0.15, label=f"quartiles {q1:.3g} to {q3:.3g}")
+        ax.axvspan(
+            q1, q3, color="0.5", alpha=0.2, zorder=0, label=f"quartiles {q1:.3g} to {q3:.3g}"
+        )
         given = table_value.get(unit)
         if given is not None and np.isfinite(given):
             ax.axvline(given, color=RUST, ls="--", lw=1.2, label=f"soil table {given:.3g}")
@@ -96,28 +98,46 @@ def histogram_figure(
     if not units:
         axes[0, 0].text(0.5, 0.5, "no landslide cell has a solution", ha="center")
     axes[-1, 0].set_xlabel(label)
-    axes[0, 0].set_title(title, fontsize=10)
+    import textwrap
+
+    axes[0, 0].set_title(textwrap.fill(title, 80), fontsize=9)
     return _save(fig, target, 0.08)
 
 
 def tornado_figure(
-    target: Path, unit: str, base_fs: float, bars: list[tuple[str, float, float, str]], title: str
+    target: Path, units: dict[str, tuple[float, list[tuple[str, float, float, str]]]], title: str
 ) -> Path:
-    """One unit's tornado: FS at each parameter's low and high value, widest bar on top."""
+    """Per soil unit a tornado: FS at each parameter's low and high value (others held),
+    the widest bar on top; ``units`` maps unit -> (base FS, [(parameter, FS low, FS high,
+    how the range was set)])."""
     plt = _pyplot()
-    bars = sorted(bars, key=lambda b: abs(b[2] - b[1]))
-    fig, ax = plt.subplots(figsize=(6.4, 1.4 + 0.42 * len(bars)))
-    for i, (name, low, high, how) in enumerate(bars):
-        ax.barh(i, low - base_fs, left=base_fs, color=RUST, height=0.6)
-        ax.barh(i, high - base_fs, left=base_fs, color=VIOLET, height=0.6)
-        ax.text(max(low, high), i, f"  {low:.2f} / {high:.2f}", va="center", fontsize=7)
-    ax.set_yticks(range(len(bars)), [f"{b[0]} ({b[3]})" for b in bars], fontsize=7)
-    ax.axvline(base_fs, color="k", lw=1)
-    ax.axvline(1.0, color="0.4", ls=":", lw=1)
-    ax.set_xlabel(f"FS at the parameter's low (rust) and high (violet) value; base {base_fs:.2f}")
-    ax.set_title(f"{title}: {unit}", fontsize=10)
-    ax.tick_params(axis="x", labelsize=7)
-    lo = min([base_fs, 1.0] + [min(b[1], b[2]) for b in bars])
-    hi = max([base_fs] + [max(b[1], b[2]) for b in bars])
-    ax.set_xlim(lo - 0.05 * (hi - lo + 0.1), hi + 0.25 * (hi - lo + 0.1))
-    return _save(fig, target, 0.16)
+    heights = [max(len(b), 1) for _, b in units.values()]
+    fig, axes = plt.subplots(
+        len(units),
+        1,
+        figsize=(7.0, 1.3 + 0.36 * sum(heights) + 0.5 * len(units)),
+        squeeze=False,
+        gridspec_kw={"height_ratios": [h + 1 for h in heights]},
+    )
+    for ax, (unit, (base_fs, bars)) in zip(axes[:, 0], units.items(), strict=True):
+        bars = sorted(bars, key=lambda b: abs(b[2] - b[1]))
+        for i, (_, low, high, _how) in enumerate(bars):
+            ax.barh(i, low - base_fs, left=base_fs, color=RUST, height=0.6)
+            ax.barh(i, high - base_fs, left=base_fs, color=VIOLET, height=0.6)
+            ax.text(
+                max(low, high, base_fs), i, f"  {low:.2f} / {high:.2f}", va="center", fontsize=7
+            )
+        ax.set_yticks(range(len(bars)), [f"{b[0]} ({b[3]})" for b in bars], fontsize=7)
+        ax.axvline(base_fs, color="k", lw=1)
+        ax.axvline(1.0, color="0.4", ls=":", lw=1)
+        ax.set_title(
+            f"{unit}: FS {base_fs:.2f} at the unit's median slope and catchment", fontsize=8
+        )
+        ax.tick_params(axis="x", labelsize=7)
+        lo = min([base_fs, 1.0] + [min(b[1], b[2]) for b in bars])
+        hi = max([base_fs] + [max(b[1], b[2]) for b in bars])
+        pad = 0.05 * (hi - lo) + 0.02
+        ax.set_xlim(lo - pad, hi + 0.3 * (hi - lo) + 0.1)
+    axes[-1, 0].set_xlabel("FS with the parameter at its low (rust) or high (violet) value")
+    fig.suptitle(title, fontsize=10)
+    return _save(fig, target, 0.05)

@@ -23,15 +23,16 @@ def validation_section(manifest: dict[str, Any], out: Path) -> str:
         parts += _sensitivity(entry, out)
     if not parts:
         return ""
-    return "<h2 id='inventory'>Known landslides: scores, back-analysis, sensitivity</h2>" + "\n".join(
-        parts
+    return (
+        "<h2 id='inventory'>Known landslides: scores, back-analysis, sensitivity</h2>"
+        + "\n".join(parts)
     )
 
 
 def _scores(inv: dict[str, Any], out: Path) -> list[str]:
     parts = [
         f"<p>Scored against <code>{_e(Path(inv['source']).name)}</code>: {inv['landslides']} "
-        f"landslides ({_e(inv['kind'])}, {_e(inv['part'])}), {inv['landslide_cells']} cells; "
+        f"landslides ({_e(inv['kind'])}: {_e(inv['part'])}), {inv['landslide_cells']} cells; "
         f"held out {_e(inv['split_note'])}. The success rate ranks every mapped cell from the "
         "least to the most stable and follows the share of landslide cells against the share "
         "of area (Chung &amp; Fabbri 2003); 0.5 is no better than chance, 1 puts every "
@@ -93,8 +94,9 @@ def _scores(inv: dict[str, Any], out: Path) -> list[str]:
         classes = [d["class"] for d in density]
         by = {(d["soil_unit"], d["class"]): d for d in r["density"]}
         parts.append(
-            "<p>Frequency ratio by soil unit (- where the unit has no area in the class or no "
-            "landslide).</p>"
+            "<p>Frequency ratio within each soil unit (the unit's share of landslide cells in "
+            "the class over its share of area there; - where the unit has no area in the class "
+            "or no landslide).</p>"
             + _table(
                 ["soil unit", *classes, "landslides"],
                 [
@@ -134,9 +136,7 @@ def _back_analysis(entry: dict[str, Any], out: Path) -> list[str]:
         f"({_e(entry['method'])}). Cells with no solution: {_e(entry['no_solution_note'])}. "
         "Medians well away from the table's value question the table, the wetness or the "
         "inventory.</p>",
-        _table(
-            ["soil unit", "cells", "median", "quartiles", "no solution", "soil table"], rows
-        ),
+        _table(["soil unit", "cells", "median", "quartiles", "no solution", "soil table"], rows),
         _image(out / entry["figure"], f"back-analysed {entry['parameter']}"),
     ]
 
@@ -156,8 +156,18 @@ def _calibration(entry: dict[str, Any], out: Path) -> list[str]:
     summary = _table(
         ["", "success AUC (training)", "prediction AUC (held out)", "flagged FS < 1"],
         [
-            ["before", _num(b["train_auc"], ".3f"), _num(b["test_auc"], ".3f"), _pct(b["flagged_share"])],
-            ["after", _num(a["train_auc"], ".3f"), _num(a["test_auc"], ".3f"), _pct(a["flagged_share"])],
+            [
+                "before",
+                _num(b["train_auc"], ".3f"),
+                _num(b["test_auc"], ".3f"),
+                _pct(b["flagged_share"]),
+            ],
+            [
+                "after",
+                _num(a["train_auc"], ".3f"),
+                _num(a["test_auc"], ".3f"),
+                _pct(a["flagged_share"]),
+            ],
         ],
     )
     return [
@@ -169,13 +179,22 @@ def _calibration(entry: dict[str, Any], out: Path) -> list[str]:
         f"over. Calibrated soil table: <code>{_e(entry['soil_table'])}</code> (the input is "
         "left as it was). A calibrated value is a screening estimate, not a design "
         "strength.</p>",
-        _table(["soil unit", "before", "multiplier", "after", "note"], rows),
+        _table(["soil unit", "before", "multiplier", "after", "note"], rows, wrap_last=True),
         summary,
     ]
 
 
 def _sensitivity(entry: dict[str, Any], out: Path) -> list[str]:
-    head = ["soil unit", "parameter", "low", "high", "FS low", "FS high", "class changes (low)", "class changes (high)"]
+    head = [
+        "soil unit",
+        "parameter",
+        "low",
+        "high",
+        "FS low",
+        "FS high",
+        "class changes (low)",
+        "class changes (high)",
+    ]
     rows = [
         [
             _e(r["soil_unit"]),
