@@ -3,9 +3,9 @@
 Writes quillbrook_dem.tif (450 x 450 cells at 10 m), soil_units.gpkg (five soil units),
 soil_parameters.csv and mapped_landslides.gpkg (an invented inventory of slides drawn from
 a hidden soil table, see HIDDEN_CHANGES) beside this file. The terrain is synthetic: a
-valley draining south, fractal relief by spectral synthesis, then a few thousand years of stream incision and
-hillslope diffusion so that tributaries, hollows and spurs form as on real ground, all
-from the formulas below (numpy only; the same numbers every run). It is placed at
+valley draining south, fractal relief by spectral synthesis, then a few thousand years of
+stream incision and hillslope diffusion so that tributaries, hollows and spurs form as on
+real ground, all from the formulas below (numpy only; the same numbers every run). It is placed at
 sea, off any coast, in UTM zone 25S so it cannot be mistaken for real ground.
 
     python demo_region/make_demo_region.py
