@@ -82,7 +82,10 @@ def test_slope_json_and_demo_record_share_one_layout(tmp_path, capsys):
     }
 
 
-@pytest.mark.parametrize("command", ["slope", "envelope", "run", "check", "demo"])
+@pytest.mark.parametrize(
+    "command",
+    ["slope", "envelope", "run", "check", "score", "backcalc", "calibrate", "sensitivity", "demo"],
+)
 def test_help_is_plain_text_with_defaults(command, capsys):
     with pytest.raises(SystemExit):
         main([command, "--help"])
@@ -90,6 +93,8 @@ def test_help_is_plain_text_with_defaults(command, capsys):
     assert "``" not in text and "::" not in text and ":mod:" not in text
     if command == "slope":
         assert "(default 9.81)" in text
+    if command == "calibrate":
+        assert "(default 0.2)" in text and "0.5:1.5:0.05" in text
     if command == "run":
         from slopescreen.maps.output_names import RUN_OUTPUTS, SCENARIO_OUTPUTS, TERRAIN_OUTPUTS
 

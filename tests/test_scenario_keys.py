@@ -7,6 +7,7 @@ import numpy as np
 import pytest
 import rasterio
 from region_files import PARAMS, _dem, _polygons
+from shapely.geometry import box
 
 from slopescreen.maps.config import SOIL_FIELDS, STORM_KEYS
 from slopescreen.maps.engine import run
@@ -200,3 +201,43 @@ def test_transmissivity_alone_is_refused_for_a_storm(region, tmp_path):
     text = _text("storm", soil="transmissivity_m2_day = 0.05")
     with pytest.raises(InputError, match="storm scenario 's' needs hydraulic_conductivity_m_s"):
         _run(region, tmp_path, "refused", text)
+
+
+INVENTORY_CHANGES = {
+    "path": 'path = "slides2.geojson"',
+    "key": 'key = "name"',
+    "date_field": 'date_field = "year"',
+    "part": 'part = "whole"',
+    "block_size_m": "block_size_m = 50.0",
+    "test_share": "test_share = 0.6",
+    "random_state": "random_state = 3",
+}
+
+
+def test_every_inventory_key_changes_the_outputs(region, tmp_path):
+    from slopescreen.maps.scenario_schema import allowed
+
+    assert set(INVENTORY_CHANGES) == allowed("inventory")
+    rng = np.random.default_rng(4)
+    for name, n in (("slides.geojson", 40), ("slides2.geojson", 30)):
+        x = 500000.0 + 10.0 * rng.integers(0, 46, n)
+        y = 5000000.0 + 10.0 * rng.integers(4, 40, n)
+        frame = gpd.GeoDataFrame(
+            {"name": [f"S{i // 2}" for i in range(n)], "year": 2000 + np.arange(n) % 9},
+            geometry=[box(a, b, a + 30.0, b + 40.0) for a, b in zip(x, y, strict=True)],
+            crs="EPSG:32633",
+        )
+        frame.to_file(region / name, driver="GeoJSON")
+    base_text = _text("recharge") + '\n[inventory]\npath = "slides.geojson"\n'
+    base = _run(region, tmp_path, "inv_base", base_text)
+    assert "inventory_scores.csv" in base
+    unchanged = []
+    for key, line in INVENTORY_CHANGES.items():
+        text = (
+            base_text.replace('path = "slides.geojson"', line)
+            if key == "path"
+            else base_text + line + "\n"
+        )
+        if _run(region, tmp_path, f"inv_{key}", text) == base:
+            unchanged.append(key)
+    assert unchanged == []

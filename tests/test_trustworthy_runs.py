@@ -149,6 +149,86 @@ def _huge_vrt(folder):
 
 
 MC = '[reliability]\nmethod = "monte_carlo"\n'
+
+
+def _inventory(table, frame=None, data=None, name="slides.geojson"):
+    """An [inventory] table and its file (a GeoDataFrame, or raw bytes)."""
+
+    def change(folder):
+        (folder / "scenarios.toml").write_text(
+            (folder / "scenarios.toml").read_text() + f'\n[inventory]\npath = "{name}"\n{table}'
+        )
+        if frame is not None:
+            frame.to_file(folder / name, driver="GeoJSON")
+        elif data is not None:
+            (folder / name).write_bytes(data)
+
+    return change
+
+
+def _slides(n=3, **fields):
+    from shapely.geometry import Point
+
+    points = [Point(500105.0 + 30.0 * i, 5000195.0) for i in range(n)]
+    return gpd.GeoDataFrame(
+        {"name": [f"S{i}" for i in range(n)], **fields}, geometry=points, crs="EPSG:32633"
+    )
+
+
+INVENTORY_INPUTS = {
+    "inventory empty": (
+        _inventory("", data=b'{"type": "FeatureCollection", "features": []}'),
+        "slides.geojson: landslide inventory is empty",
+    ),
+    "inventory without geometry": (
+        _inventory("", data=b"name,year\nS1,2001\n", name="slides.csv"),
+        "slides.csv: no geometry",
+    ),
+    "inventory key missing": (
+        _inventory('key = "slide_id"\n', _slides()),
+        "no field 'slide_id' (key); fields: name",
+    ),
+    "inventory date field missing": (
+        _inventory('date_field = "when"\n', _slides()),
+        "no field 'when' (date_field)",
+    ),
+    "inventory date not a date": (
+        _inventory('date_field = "when"\n', _slides(when=["2001-03-01", "soon", "2003"])),
+        "feature 1: field 'when' (date_field) holds 'soon', not a date",
+    ),
+    "inventory lines": (
+        _inventory(
+            "",
+            gpd.GeoDataFrame(
+                geometry=gpd.GeoSeries.from_wkt(["LINESTRING (500100 5000200, 500200 5000100)"]),
+                crs="EPSG:32633",
+            ),
+        ),
+        "geometry must be all points or all polygons, found LineString",
+    ),
+    "inventory part with points": (
+        _inventory('part = "whole"\n', _slides()),
+        "part = 'whole' applies to polygons; this inventory holds points",
+    ),
+    "inventory part unknown": (_inventory('part = "top"\n', _slides()), 'must be "scarp"'),
+    "inventory off the DEM": (
+        _inventory("", _slides().set_geometry(_slides().geometry.translate(1e5, 0))),
+        "no landslide of the inventory lies on the DEM",
+    ),
+    "inventory block size with dates": (
+        _inventory('date_field = "year"\nblock_size_m = 100.0\n', _slides(year=[1, 2, 3])),
+        "[inventory] block_size_m: applies to the spatial-block split only",
+    ),
+    "inventory test share": (
+        _inventory("test_share = 0.99\n", _slides()),
+        "[inventory] test_share: ",
+    ),
+    "inventory file missing": (_inventory("", None), "[inventory] path: file not found"),
+    "inventory unknown key": (
+        _inventory("date_feild = 1\n", _slides()),
+        "unknown key (did you mean date_field?)",
+    ),
+}
 LATIN1_TOML = SCENARIO_TEXT.replace("test region", "Rég").encode("latin-1")
 BAD_INPUTS = {
     # text files in encodings other than UTF-8 (with or without BOM) or UTF-16 with BOM
@@ -312,6 +392,7 @@ BAD_INPUTS = {
         "m.tif: cannot read saturation raster",
     ),
 }
+BAD_INPUTS.update(INVENTORY_INPUTS)
 BAD_OPTIONS = {
     "scheduler not a url": (["--scheduler", "not a url"], "--scheduler 'not a url'"),
     "scheduler port": (["--scheduler", "tcp://127.0.0.1:99999"], "port 1-65535"),

@@ -10,6 +10,9 @@ from slopescreen.validation import (
     auc_standard_error,
     failing_confusion,
     frequency_ratio,
+    grouped_curves,
+    held_out_blocks,
+    masses_around,
     rank_curves,
 )
 
@@ -89,3 +92,39 @@ def test_bad_inputs_are_one_line_errors():
         rank_curves([1.0, 2.0], [True])
     with pytest.raises(InputError, match="at least one cell with and one without"):
         rank_curves([1.0, 2.0], [False, False])
+
+
+def test_tile_by_tile_masses_give_scikit_learns_area():
+    # the reduction a large map goes through: masses around the landslide scores, summed
+    # over tiles of any size, give sklearn.metrics.roc_auc_score's area (ties one half)
+    fs, slide, area = _cells()
+    thresholds = np.unique(fs[slide])
+    between = np.zeros(thresholds.size + 1)
+    tied = np.zeros(thresholds.size)
+    for part in np.array_split(np.arange(fs.size), 7):
+        b, t = masses_around(fs[part], area[part], thresholds)
+        between += b
+        tied += t
+    hit = np.bincount(np.searchsorted(thresholds, fs[slide]), area[slide], thresholds.size)
+    curves = grouped_curves(between, tied, hit)
+    expected = roc_auc_score(slide, -fs, sample_weight=area)
+    assert curves.roc_auc == pytest.approx(expected, abs=1e-12)
+    assert curves.success_auc == pytest.approx(rank_curves(fs, slide, area).success_auc, abs=1e-12)
+
+
+def test_masses_against_a_count_by_hand():
+    b, t = masses_around([0.5, 1.0, 1.0, 1.5, 2.0, np.nan], 1.0, [1.0, 2.0])
+    assert b.tolist() == [1.0, 1.0, 0.0] and t.tolist() == [2.0, 1.0]
+
+
+def test_held_out_blocks_draw_their_share_and_repeat():
+    rows, cols = np.meshgrid(np.arange(200), np.arange(200), indexing="ij")
+    held = held_out_blocks(rows, cols, 0.3, 7)
+    # 40,000 independent draws: the share is within 4 binomial standard errors of 0.3
+    assert abs(held.mean() - 0.3) < 4.0 * np.sqrt(0.3 * 0.7 / held.size)
+    assert np.array_equal(held, held_out_blocks(rows, cols, 0.3, 7))  # same number, same split
+    assert not np.array_equal(held, held_out_blocks(rows, cols, 0.3, 8))
+    # any window labelled on its own agrees with the whole
+    assert np.array_equal(
+        held[50:90, 120:170], held_out_blocks(rows[50:90, 120:170], cols[50:90, 120:170], 0.3, 7)
+    )

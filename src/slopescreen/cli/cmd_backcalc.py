@@ -20,7 +20,7 @@ from __future__ import annotations
 import argparse
 from typing import Any
 
-from slopescreen.cli.options import command_parser, run_folder_options
+from slopescreen.cli.options import command_parser, run_folder_options, with_cautions
 
 PARAMETER_NAMES = (
     "cohesion_kpa",
@@ -46,11 +46,7 @@ def add_to(sub: Any) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from slopescreen.cautions import caution_block
-
-    execute(args)
-    print(caution_block())
-    return 0
+    return with_cautions(execute, args)
 
 
 def execute(args: argparse.Namespace) -> None:

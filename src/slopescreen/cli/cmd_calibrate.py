@@ -23,7 +23,12 @@ from __future__ import annotations
 import argparse
 from typing import Any
 
-from slopescreen.cli.options import command_parser, run_folder_options
+from slopescreen.cli.options import (
+    command_parser,
+    run_folder_options,
+    with_cautions,
+    workers_option,
+)
 
 
 def add_to(sub: Any) -> None:
@@ -35,6 +40,7 @@ def add_to(sub: Any) -> None:
         run,
     )
     run_folder_options(parser, scenario=True)
+    workers_option(parser)
     parser.add_argument(
         "--parameter",
         default="cohesion_kpa",
@@ -60,22 +66,24 @@ def add_to(sub: Any) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from slopescreen.cautions import caution_block
-
-    execute(args)
-    print(caution_block())
-    return 0
+    return with_cautions(execute, args)
 
 
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
     from slopescreen.cli.cmd_run import default_out
+    from slopescreen.cli.options import check_workers
     from slopescreen.maps.calibration import calibrate, parse_grid
+    from slopescreen.maps.engine import tile_runner
     from slopescreen.maps.finished_run import locked_run, record_results
 
     candidates = parse_grid(args.multipliers)
     out = args.out or default_out(args.scenarios)
-    with locked_run(args.scenarios, out, args.inventory) as (done, inv):
+    check_workers(getattr(args, "workers", 0))
+    with (
+        locked_run(args.scenarios, out, args.inventory) as (done, inv),
+        tile_runner(getattr(args, "workers", 0), None, print) as (runner, _),
+    ):
         sc = done.scenario(args.scenario)
         print(f"calibrating {args.parameter} under {sc.name} against {inv.spec.path.name}:")
         entry, files = calibrate(
@@ -86,6 +94,7 @@ def execute(args: argparse.Namespace) -> None:
             args.max_flagged_share,
             candidates,
             args.units,
+            runner=runner,
             reference=getattr(args, "reference", ""),
         )
         record_results(done, "calibration", f"{sc.name}:{args.parameter}", entry, files)

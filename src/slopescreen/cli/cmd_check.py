@@ -59,12 +59,26 @@ def run(args: argparse.Namespace) -> int:
             f"  probability of failure: {cfg.reliability.method.replace('_', ' ')} for units "
             f"{', '.join(soils.keys[c - 1] for c in sorted(soils.spreads))}"
         )
-    settings = {"zones": cfg.zones, "maps": cfg.quicklook_map, "spreads": spreads}
+    inv = inputs.inventory
+    if inv is not None:
+        print(
+            f"  landslide inventory {inv.spec.path.name}: {inv.landslides} landslides "
+            f"({inv.kind}), {inv.rows.size} cells on the DEM; held out {inv.split_note}"
+        )
+        for w in inv.warnings:
+            print(f"  WARNING: {w}")
+    settings = {
+        "zones": cfg.zones,
+        "maps": cfg.quicklook_map,
+        "spreads": spreads,
+        "inventory": inv is not None,
+    }
     wanted = written(SCENARIO_OUTPUTS, storm=False, **settings)
     print(f"  per scenario: {', '.join(wanted)}")
     if any(sc.storm for sc in cfg.scenarios):
         extra = [f for f in written(SCENARIO_OUTPUTS, storm=True, **settings) if f not in wanted]
         print(f"  storm scenarios also: {', '.join(extra)}")
     across = "comparison/, report.html, " if cfg.report else ""
+    across += "inventory_scores.csv, " if inv is not None else ""
     print(f"  across scenarios: {across}manifest.json")
     return 0

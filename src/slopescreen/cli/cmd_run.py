@@ -64,11 +64,10 @@ def default_out(scenarios: Path) -> Path:
 
 def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import caution_block
-    from slopescreen.errors import InputError
+    from slopescreen.cli.options import check_workers
     from slopescreen.maps.engine import run as run_engine
 
-    if not 0 <= args.workers <= 256:
-        raise InputError(f"--workers {args.workers}: must be 0 (no cluster) to 256")
+    check_workers(args.workers)
     out = args.out or default_out(args.scenarios)
     run_engine(
         args.scenarios,

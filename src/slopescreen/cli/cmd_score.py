@@ -19,7 +19,12 @@ import argparse
 import sys
 from typing import Any
 
-from slopescreen.cli.options import command_parser, run_folder_options
+from slopescreen.cli.options import (
+    command_parser,
+    run_folder_options,
+    with_cautions,
+    workers_option,
+)
 
 
 def add_to(sub: Any) -> None:
@@ -27,25 +32,28 @@ def add_to(sub: Any) -> None:
         sub, "score", "score a finished run's maps against known landslides", __doc__, run
     )
     run_folder_options(parser)
+    workers_option(parser)
     parser.add_argument("--quiet", action="store_true", help="no progress bars")
 
 
 def run(args: argparse.Namespace) -> int:
-    from slopescreen.cautions import caution_block
-
-    execute(args)
-    print(caution_block())
-    return 0
+    return with_cautions(execute, args)
 
 
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
     from slopescreen.cli.cmd_run import default_out
+    from slopescreen.cli.options import check_workers
+    from slopescreen.maps.engine import tile_runner
     from slopescreen.maps.finished_run import locked_run, record_results
     from slopescreen.maps.inventory_scores import score_all
 
     out = args.out or default_out(args.scenarios)
-    with locked_run(args.scenarios, out, args.inventory) as (done, inv):
+    check_workers(args.workers)
+    with (
+        locked_run(args.scenarios, out, args.inventory) as (done, inv),
+        tile_runner(args.workers, None, print) as (runner, _),
+    ):
         scenarios = list(done.manifest["scenarios_finished"])
         for name in scenarios:
             for f in ("fs.tif", "stability_class.tif", "probability_of_failure.tif"):
@@ -60,7 +68,14 @@ def execute(args: argparse.Namespace) -> None:
             return tqdm(items, total=total, desc=label, disable=not enabled, leave=False)
 
         section, files = score_all(
-            done.cfg, done.grid, done.soils.keys, out, scenarios, inv, progress=progress
+            done.cfg,
+            done.grid,
+            done.soils.keys,
+            out,
+            scenarios,
+            inv,
+            runner,
+            progress=progress,
         )
         target = record_results(done, "inventory", "", section, files)
     print(

@@ -18,50 +18,30 @@ Example::
 from __future__ import annotations
 
 import argparse
-from pathlib import Path
 from typing import Any
 
-from slopescreen.cli.options import command_parser
+from slopescreen.cli.options import command_parser, run_folder_options, with_cautions
 
 
 def add_to(sub: Any) -> None:
     parser = command_parser(
         sub, "sensitivity", "which soil parameter drives the map (tornado per unit)", __doc__, run
     )
-    parser.add_argument("scenarios", type=Path, metavar="SCENARIOS.toml")
-    parser.add_argument(
-        "--out",
-        type=Path,
-        default=None,
-        help="the run's output folder (default: <scenario file name>_output)",
-    )
-    parser.add_argument("--scenario", required=True, metavar="NAME", help="the scenario")
+    run_folder_options(parser, scenario=True, inventory=False)
 
 
 def run(args: argparse.Namespace) -> int:
-    from slopescreen.cautions import caution_block
-
-    execute(args)
-    print(caution_block())
-    return 0
+    return with_cautions(execute, args)
 
 
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
-    import os
-
     from slopescreen.cli.cmd_run import default_out
-    from slopescreen.errors import InputError
-    from slopescreen.maps.engine import utc_now
-    from slopescreen.maps.finished_run import open_run, record_results
-    from slopescreen.maps.locks import folder_lock
+    from slopescreen.maps.finished_run import locked_run, record_results
     from slopescreen.maps.sensitivity_map import sensitivity
 
     out = args.out or default_out(args.scenarios)
-    if not (out / "manifest.json").is_file():
-        raise InputError(f"{out / 'manifest.json'}: no run here; run the scenario file first")
-    with folder_lock(out, f"PID {os.getpid()}, started {utc_now()}"):
-        done = open_run(args.scenarios, out)
+    with locked_run(args.scenarios, out, None, read=False) as (done, _):
         sc = done.scenario(args.scenario)
         entry, files = sensitivity(done, sc)
         record_results(done, "sensitivity", sc.name, entry, files)

@@ -103,7 +103,9 @@ def dump_json(obj: object) -> str:
     return json.dumps(obj, indent=2, allow_nan=False)
 
 
-def run_folder_options(parser: argparse.ArgumentParser, scenario: bool = False) -> None:
+def run_folder_options(
+    parser: argparse.ArgumentParser, scenario: bool = False, inventory: bool = True
+) -> None:
     """SCENARIOS.toml, --out and --inventory: the options of the commands that work on a
     finished run's folder (score, backcalc, calibrate, sensitivity)."""
     from pathlib import Path
@@ -115,14 +117,42 @@ def run_folder_options(parser: argparse.ArgumentParser, scenario: bool = False) 
         default=None,
         help="the run's output folder (default: <scenario file name>_output)",
     )
-    parser.add_argument(
-        "--inventory",
-        type=Path,
-        default=None,
-        metavar="FILE",
-        help="landslide points or polygons (default: [inventory] path of the scenario file)",
-    )
+    if inventory:
+        parser.add_argument(
+            "--inventory",
+            type=Path,
+            default=None,
+            metavar="FILE",
+            help="landslide points or polygons (default: [inventory] path of the scenario file)",
+        )
     if scenario:
         parser.add_argument(
             "--scenario", required=True, metavar="NAME", help="the scenario to work on"
         )
+
+
+def with_cautions(execute: Any, args: argparse.Namespace) -> int:
+    """Run a command's work, then print the cautions once."""
+    from slopescreen.cautions import caution_block
+
+    execute(args)
+    print(caution_block())
+    return 0
+
+
+def workers_option(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument(
+        "--workers",
+        type=int,
+        default=0,
+        metavar="N",
+        help="run the tiles on a local dask cluster of N worker processes (default: in "
+        "this process)",
+    )
+
+
+def check_workers(workers: int) -> None:
+    from slopescreen.errors import InputError
+
+    if not 0 <= workers <= 256:
+        raise InputError(f"--workers {workers}: must be 0 (no cluster) to 256")

@@ -171,8 +171,8 @@ class InventorySpec:
     path: Path
     key: str | None = None  # field naming each landslide; features sharing a key are one
     date_field: str | None = None
-    part: str = "scarp"  # polygons: "scarp" (highest share of cells) or "whole"
-    split: str = "blocks"  # held-out part: "date" (newest) or "blocks" (spatial blocks)
+    part: str | None = None  # polygons: "scarp" (the default: highest cells) or "whole"
+    split: str = "blocks"  # held out: "date" (the newest, with date_field) or spatial "blocks"
     block_size_m: float = 500.0
     test_share: float = 0.3
     random_state: int = 0
@@ -184,7 +184,6 @@ class InventorySpec:
 
 
 SCARP_SHARE = 0.2  # polygons, part = "scarp": the highest 20% of the cells by elevation
-SPLITS = ("date", "blocks")
 
 
 @dataclass(frozen=True)
@@ -469,19 +468,19 @@ def _inventory(r: _Reader, data: Any) -> InventorySpec:
     if not isinstance(data, dict):
         raise r.fail("", "inventory", f"must be a table ([inventory]), got {_shown(data)}")
     r.known("inventory", data, allowed("inventory"))
-    part = r.text("inventory", data, "part", "scarp")
-    if part not in ("scarp", "whole"):
+    part = r.text("inventory", data, "part") if "part" in data else None
+    if part not in (None, "scarp", "whole"):
         raise r.fail("inventory", "part", f'must be "scarp" or "whole", got {_shown(part)}')
     date_field = r.text("inventory", data, "date_field") if "date_field" in data else None
-    split = r.text("inventory", data, "split", "date" if date_field else "blocks")
-    if split not in SPLITS:
-        raise r.fail("inventory", "split", f'must be "date" or "blocks", got {_shown(split)}')
-    if split == "date" and date_field is None:
-        raise r.fail("inventory", "split", 'split = "date" needs date_field')
+    split = "date" if date_field else "blocks"  # held out: the newest, or spatial blocks
     if split == "date":
         for key in ("block_size_m", "random_state"):
             if key in data:
-                raise r.fail("inventory", key, 'applies to split = "blocks" only; remove it')
+                raise r.fail(
+                    "inventory",
+                    key,
+                    "applies to the spatial-block split only (without date_field); remove it",
+                )
     share = r.number("inventory", data, "test_share", 0.05, 0.95, 0.3)
     return InventorySpec(
         path=r.file("inventory", data, "path"),

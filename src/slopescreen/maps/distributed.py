@@ -40,15 +40,9 @@ def dask_runner(
     echo(f"dask: {n} workers at {client.scheduler.address}")
 
     def runner(fn: Callable[..., dict], jobs: list[tuple]) -> Iterator[dict]:
-        wave = 2 * n
-        pending = [client.submit(fn, *args, pure=False) for args in jobs[:wave]]
-        next_job = wave
-        while pending:
-            result = pending.pop(0).result()
-            if next_job < len(jobs):
-                pending.append(client.submit(fn, *jobs[next_job], pure=False))
-                next_job += 1
-            yield result
+        from slopescreen.maps.scenario_tiles import in_order
+
+        yield from in_order(lambda *args: client.submit(fn, *args, pure=False), jobs, 2 * n)
 
     try:
         yield runner

@@ -246,7 +246,7 @@ def run(
         remove_stale_work(out, skip=cache.resolve())
         with (
             private_folder(out) as staging,
-            _runner(workers, scheduler, echo) as (runner, numba_threads),
+            tile_runner(workers, scheduler, echo) as (runner, numba_threads),
         ):
             inputs = prepare(cfg, codes_target=staging / "soil_unit.tif")
             timings.add("read and check inputs", started)
@@ -516,7 +516,7 @@ def _unfinished_report(cfg: Config, state: RunState) -> str:
 
 
 @contextmanager
-def _runner(workers: int, scheduler: str | None, echo: Echo) -> Iterator[tuple[Runner, int]]:
+def tile_runner(workers: int, scheduler: str | None, echo: Echo) -> Iterator[tuple[Runner, int]]:
     """(runner, numba threads per task): serial here, or on a dask.distributed cluster."""
     if not workers and not scheduler:
         yield serial_runner, 0

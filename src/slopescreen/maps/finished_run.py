@@ -141,9 +141,10 @@ def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
 
 @contextmanager
 def locked_run(
-    config_path: Path, out: Path, inventory: Path | None
-) -> Iterator[tuple[FinishedRun, Inventory]]:
-    """The finished run and its inventory, the output folder held by this command alone."""
+    config_path: Path, out: Path, inventory: Path | None, read: bool = True
+) -> Iterator[tuple[FinishedRun, Inventory | None]]:
+    """The finished run and (with ``read``) its inventory, the output folder held by this
+    command alone."""
     import os
 
     from slopescreen.maps.engine import utc_now
@@ -154,5 +155,8 @@ def locked_run(
         raise InputError(f"{out / 'manifest.json'}: no run here; run the scenario file first")
     with folder_lock(out, f"PID {os.getpid()}, started {utc_now()}"):
         done = open_run(config_path, out)
+        if not read:
+            yield done, None
+            return
         spec = inventory_spec(done.cfg, inventory)
         yield done, read_inventory(spec, done.grid, done.cfg.region.dem_elevation_unit)

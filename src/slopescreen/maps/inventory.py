@@ -190,8 +190,10 @@ def read_inventory(spec: InventorySpec, grid: Grid, dem_elevation_unit: str = "m
     """The landslide cells of an inventory on ``grid``; InputError (one line naming the
     file and the field) for an unreadable, empty or non-geometry file or a missing field."""
     frame, kind = _read_frame(spec)
-    if kind == "points" and spec.part != "scarp":
-        raise _fail(spec.path, 'part = "whole" applies to polygons; this inventory holds points')
+    if kind == "points" and spec.part is not None:
+        raise _fail(
+            spec.path, f"part = {spec.part!r} applies to polygons; this inventory holds points"
+        )
     dates = _dates(spec, frame)
     names = (
         [str(v).strip() for v in frame[spec.key]]
@@ -203,7 +205,7 @@ def read_inventory(spec: InventorySpec, grid: Grid, dem_elevation_unit: str = "m
         per_feature = _point_cells(grid, frame.geometry)
     else:
         per_feature = _polygon_cells(
-            grid, frame.geometry, spec.part == "scarp", grid.path, dem_elevation_unit
+            grid, frame.geometry, spec.part != "whole", grid.path, dem_elevation_unit
         )
     slide_of: dict[str, int] = {}
     slide_names: list[str] = []

@@ -49,7 +49,17 @@ def score_all(
     for name in scenarios:
         folder = out / name
         score = score_scenario(
-            name, grid, folder, out / "terrain", inv, unit_keys, names, runner, progress
+            name,
+            grid,
+            folder,
+            out / "terrain",
+            inv,
+            unit_keys,
+            names,
+            runner,
+            progress,
+            cfg.fs_breaks,
+            cfg.fs_cap,
         )
         files.append(write_summary(score.density_rows, folder / "inventory_scores.csv"))
         files.append(
@@ -89,7 +99,7 @@ def score_all(
         "part": {
             "scarp": "the highest 20% of each polygon's cells by elevation",
             "whole": "every cell of each polygon",
-        }[spec.part]
+        }[spec.part or "scarp"]
         if inv.kind == "polygons"
         else "the cell holding each point",
         "key": spec.key,

@@ -116,3 +116,71 @@ def steady_saturation_by_unit(
             out[i] = m if m < 1.0 else 1.0
         else:
             out[i] = 1.0 if r * sca[i] > 0.0 else 0.0
+
+
+@numba.njit(cache=True, nogil=True)
+def add_masses(score, weight, keep, thresholds, between, tied):
+    """:func:`slopescreen.validation.masses_around` in one compiled pass, added to
+    ``between`` and ``tied``; returns the number of cells counted. ``keep`` is a mask of
+    the cells to count, or an empty array for all. Each counted cell (finite score) is
+    placed among the sorted thresholds (the first not below it) through a table of
+    equal-width buckets over their range, then a short walk, so the cost per cell does not
+    grow with their number (a bisection mispredicts a branch at every step)."""
+    k = thresholds.size
+    masked = keep.size == score.size
+    counted = 0
+    if k == 0:
+        for i in range(score.size):
+            if (not masked or keep[i]) and score[i] == score[i]:
+                between[0] += weight[i]
+                counted += 1
+        return counted
+    low, high = thresholds[0], thresholds[k - 1]
+    buckets = min(max(8 * k, 256), 1 << 22)
+    scale = buckets / (high - low) if high > low else 0.0
+    edges = low + np.arange(buckets + 1) / scale if scale > 0.0 else np.full(buckets + 1, low)
+    start = np.searchsorted(thresholds, edges)
+    for i in range(score.size):
+        s = np.float64(score[i])
+        if (masked and not keep[i]) or s != s:
+            continue
+        counted += 1
+        if s < low:
+            between[0] += weight[i]
+            continue
+        if s > high:
+            between[k] += weight[i]
+            continue
+        j = start[min(int((s - low) * scale), buckets)]
+        while j > 0 and thresholds[j - 1] >= s:  # rounding at a bucket edge
+            j -= 1
+        while j < k and thresholds[j] < s:
+            j += 1
+        if j < k and thresholds[j] == s:
+            tied[j] += weight[i]
+        else:
+            between[j] += weight[i]
+    return counted
+
+
+@numba.njit(cache=True, nogil=True)
+def add_class_areas(fs, codes, area, breaks, classes, table):
+    """Add each cell's area to table[unit code, FS class] (class 1 = FS below the first
+    break ... len(breaks) + 1), taking the class from ``classes`` where given (a raster of
+    the same shape) else from ``fs`` (NaN: no data, left out); returns the area with FS < 1."""
+    flagged = 0.0
+    given = classes.size == fs.size
+    for i in range(fs.size):
+        f = np.float64(fs[i])
+        if f != f:
+            continue
+        if given:
+            c = classes[i]
+        else:
+            c = 1
+            while c <= breaks.size and f >= breaks[c - 1]:
+                c += 1
+        table[codes[i], c] += area[i]
+        if f < 1.0:
+            flagged += area[i]
+    return flagged

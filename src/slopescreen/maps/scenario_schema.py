@@ -63,22 +63,21 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
     "inventory": [
         ("path", "path", "required", "known landslides: points or polygons geopandas reads"),
         ("key", "text", "feature number", "field naming each landslide (same key: one slide)"),
-        ("date_field", "text", "none", "field with each landslide's date (ISO date or year)"),
+        (
+            "date_field",
+            "text",
+            "none",
+            "each landslide's date (ISO or year): the newest are held out, not blocks",
+        ),
         (
             "part",
             '"scarp" or "whole"',
             '"scarp"',
             "polygons: the highest 20% of their cells by elevation, or all of them",
         ),
-        (
-            "split",
-            '"date" or "blocks"',
-            '"date" with date_field, else "blocks"',
-            "held-out part for the prediction rate: the newest landslides, or spatial blocks",
-        ),
-        ("block_size_m", "10 to 1e6", "500", 'split = "blocks": block side on the ground'),
+        ("block_size_m", "10 to 1e6", "500", "no date_field: held-out blocks' side on the ground"),
         ("test_share", "0.05 to 0.95", "0.3", "share of landslides (date) or blocks held out"),
-        ("random_state", "0 to 2^32 - 1", "0", 'split = "blocks": same number, same blocks'),
+        ("random_state", "0 to 2^32 - 1", "0", "no date_field: same number, same blocks"),
     ],
     "scenario": [
         ("name", "1-64 letters, digits, _ . -", "required", "names the scenario's folder"),

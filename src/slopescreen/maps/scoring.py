@@ -12,7 +12,7 @@ half) at any map size, and the tiles run wherever the run's tiles run (the same
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -21,16 +21,12 @@ import numpy as np
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.inventory import FEW_CELLS, Inventory
 from slopescreen.maps.rasters import read_block, windows
-from slopescreen.maps.scenario_tiles import Runner, serial_runner
-from slopescreen.maps.summary import add_areas
+from slopescreen.maps.scenario_tiles import Runner, serial_runner, threaded_runner
 from slopescreen.maps.terrain_cache import NODATA_F32
-from slopescreen.validation import (
-    RankCurves,
-    auc_standard_error,
-    grouped_curves,
-    masses_around,
-)
+from slopescreen.stability_classes import classify
+from slopescreen.validation import RankCurves, auc_standard_error, grouped_curves, held_out_blocks
 
+KEEP_CELLS = 2**27  # maps up to this size keep the first pass's tiles (4 B a cell, 8 with P_f)
 GROUPS = ("all", "test")  # success rate on every landslide; prediction rate on the held out
 SCORES = ("fs", "pf")  # FS ascending; P_f descending (scored as -P_f)
 
@@ -50,24 +46,34 @@ class ScoreJob:
     test_share: float
     random_state: int
     n_units: int
-    n_classes: int
+    fs_breaks: tuple[float, ...]
+    class_from_fs: bool  # fs_cap >= the last break: the class follows from fs.tif
 
 
-def read_scores(grid: Grid, job: ScoreJob, rows: slice, cols: slice) -> dict[str, np.ndarray]:
-    """FS, -P_f (NaN where none), class, unit code and cell area of a window."""
-    fs = read_block(job.fs, rows, cols).astype(np.float64)
-    valid = fs != NODATA_F32
-    out = {
-        "fs": np.where(valid, fs, np.nan),
-        "class": read_block(job.classes, rows, cols).astype(np.int64),
-        "code": read_block(job.codes, rows, cols).astype(np.int64),
-        "area": np.broadcast_to(grid.ground.cell_area_m2(rows, cols), fs.shape),
-    }
-    if job.probability is not None:
-        pf = read_block(job.probability, rows, cols).astype(np.float64)
-        out["pf"] = np.where(valid & (pf != NODATA_F32), -pf, np.nan)
+def read_scores(
+    job: ScoreJob, rows: slice, cols: slice, classes: bool = True, kept: dict | None = None
+) -> dict[str, np.ndarray]:
+    """FS and -P_f (NaN where none) of a window, float32 as stored (or as ``kept`` from
+    the first pass); with ``classes`` also the unit code, the cell area and, where it does
+    not follow from FS, the class raster."""
+    if kept is not None:
+        out = dict(kept)
     else:
-        out["pf"] = np.full(fs.shape, np.nan)
+        fs = read_block(job.fs, rows, cols)
+        valid = fs != NODATA_F32
+        fs[~valid] = np.nan
+        out = {"fs": fs}
+        if job.probability is not None:
+            pf = read_block(job.probability, rows, cols)
+            out["pf"] = np.where(valid & (pf != NODATA_F32), -pf, np.float32(np.nan))
+    fs = out["fs"]
+    if classes:
+        out["code"] = read_block(job.codes, rows, cols)
+        out["area"] = np.ascontiguousarray(
+            np.broadcast_to(job.grid.ground.cell_area_m2(rows, cols), fs.shape), np.float64
+        )
+        if not job.class_from_fs:
+            out["class"] = read_block(job.classes, rows, cols).astype(np.int64)
     return out
 
 
@@ -75,55 +81,85 @@ def _test_area(job: ScoreJob, rows: slice, cols: slice) -> np.ndarray | None:
     """Cells of held-out blocks in a window; None for a date split (all area scored)."""
     if job.split != "blocks":
         return None
-    from slopescreen.validation import held_out_blocks
+    br = np.arange(rows.start, rows.stop) // job.block_cells[0]
+    bc = np.arange(cols.start, cols.stop) // job.block_cells[1]
+    r0, c0 = br[0], bc[0]
+    held = held_out_blocks(
+        np.arange(r0, br[-1] + 1)[:, None], np.arange(c0, bc[-1] + 1)[None, :],
+        job.test_share, job.random_state,
+    )  # fmt: skip
+    return held[(br - r0)[:, None], (bc - c0)[None, :]]
 
-    r = np.arange(rows.start, rows.stop)[:, None] // job.block_cells[0]
-    c = np.arange(cols.start, cols.stop)[None, :] // job.block_cells[1]
-    return held_out_blocks(r, c, job.test_share, job.random_state)
 
-
-def score_tile(job: ScoreJob, rows: slice, cols: slice) -> dict[str, Any]:
+def score_tile(
+    job: ScoreJob,
+    rows: slice,
+    cols: slice,
+    cell_rows: np.ndarray,
+    cell_cols: np.ndarray,
+    kept: dict | None = None,
+) -> dict[str, Any]:
     """Area masses around the landslide scores, cell counts and the unit x class areas of
-    one tile."""
-    v = read_scores(job.grid, job, rows, cols)
+    one tile, and the unit (and class, where read) of the landslide cells (``cell_rows``,
+    ``cell_cols``) in it."""
+    from slopescreen.maps.kernels import add_class_areas, add_masses
+
+    v = read_scores(job, rows, cols, kept=kept)
     test = _test_area(job, rows, cols)
-    valid = np.isfinite(v["fs"])
+    area = v["area"].ravel()
     out: dict[str, Any] = {}
-    for score in SCORES:
-        for group in GROUPS:
-            keep = np.isfinite(v[score])
-            if group == "test" and test is not None:
-                keep &= test
-            out[(score, group, "masses")] = masses_around(
-                v[score][keep], v["area"][keep], job.thresholds[(score, group)]
-            )
-            out[(score, group, "cells")] = int(keep.sum())
-    table = np.zeros((job.n_units + 1, job.n_classes + 1))
-    add_areas(table, v["code"] * valid, v["class"] * valid, v["area"])
+    everywhere = np.zeros(0, bool)  # no mask: every cell
+    held = test.ravel() if test is not None else everywhere
+    for (score, group), t in job.thresholds.items():
+        between, tied = np.zeros(t.size + 1), np.zeros(t.size)
+        keep = held if group == "test" else everywhere
+        cells = add_masses(v[score].ravel(), area, keep, t, between, tied)
+        out[(score, group, "masses")] = (between, tied)
+        out[(score, group, "cells")] = int(cells)
+    table = np.zeros((job.n_units + 1, len(job.fs_breaks) + 2))
+    classes = v["class"].ravel() if "class" in v else np.zeros(0, np.int64)
+    breaks = np.asarray(job.fs_breaks, np.float64)
+    out["flagged_m2"] = add_class_areas(
+        v["fs"].ravel(), v["code"].ravel(), area, breaks, classes, table
+    )
     out["unit_class_m2"] = table
-    out["flagged_m2"] = float(v["area"][valid & (v["fs"] < 1.0)].sum())
+    r, c = cell_rows - rows.start, cell_cols - cols.start
+    out["slide_code"] = v["code"][r, c]
+    if "class" in v:
+        out["slide_class"] = v["class"][r, c]
     return out
 
 
-def landslide_scores(grid: Grid, job: ScoreJob, inv: Inventory) -> dict[str, np.ndarray]:
-    """The scores at every landslide cell (NaN where the map has no value), tile by tile."""
+def _in_window(inv: Inventory, rows: slice, cols: slice) -> np.ndarray:
+    return (
+        (inv.rows >= rows.start)
+        & (inv.rows < rows.stop)
+        & (inv.cols >= cols.start)
+        & (inv.cols < cols.stop)
+    )
+
+
+def landslide_scores(
+    grid: Grid, job: ScoreJob, inv: Inventory, kept: dict[int, dict] | None = None
+) -> dict[str, np.ndarray]:
+    """FS and -P_f at every landslide cell (NaN where the map has none), reading only the
+    tiles that hold one (a thread per core), and the cells' ground area. The tiles read are
+    kept in ``kept`` (by tile number) when it is given, for the second pass."""
     n = inv.rows.size
-    out = {k: np.full(n, np.nan) for k in ("fs", "pf", "area")}
-    out["class"] = np.zeros(n, np.int64)
-    out["code"] = np.zeros(n, np.int64)
-    for rows, cols in windows(grid):
-        inside = (
-            (inv.rows >= rows.start)
-            & (inv.rows < rows.stop)
-            & (inv.cols >= cols.start)
-            & (inv.cols < cols.stop)
-        )
-        if not inside.any():
-            continue
-        v = read_scores(grid, job, rows, cols)
+    out = {k: np.full(n, np.nan) for k in SCORES}
+    tiles = [
+        (i, rows, cols, inside)
+        for i, (rows, cols) in enumerate(windows(grid))
+        if (inside := _in_window(inv, rows, cols)).any()
+    ]
+    jobs = [(job, rows, cols, False) for _, rows, cols, _ in tiles]
+    for (i, rows, cols, inside), v in zip(tiles, threaded_runner(read_scores, jobs), strict=True):
+        if kept is not None:
+            kept[i] = v
         r, c = inv.rows[inside] - rows.start, inv.cols[inside] - cols.start
-        for key in out:
+        for key in v:
             out[key][inside] = v[key][r, c]
+    out["area"] = np.broadcast_to(grid.ground.cell_area_at(inv.rows, inv.cols), (n,)).copy()
     return out
 
 
@@ -167,8 +203,11 @@ def score_scenario(
     class_names: list[str],
     runner: Runner = serial_runner,
     progress: Any = None,
+    fs_breaks: tuple[float, ...] = (1.0, 1.3, 1.5),
+    fs_cap: float = 10.0,
 ) -> ScenarioScore:
-    """Every score of one scenario folder against the inventory."""
+    """Every score of one scenario folder against the inventory (``fs_breaks`` and
+    ``fs_cap`` as the run used them)."""
     pf_path = folder / "probability_of_failure.tif"
     base = ScoreJob(
         grid=grid,
@@ -182,17 +221,36 @@ def score_scenario(
         test_share=inv.spec.test_share,
         random_state=inv.spec.random_state,
         n_units=len(unit_keys),
-        n_classes=len(class_names),
+        fs_breaks=fs_breaks,
+        class_from_fs=fs_cap >= fs_breaks[-1],
     )
-    v = landslide_scores(grid, base, inv)
-    thresholds = {(s, g): np.unique(v[s][_cells_of(inv, v, s, g)]) for s in SCORES for g in GROUPS}
-    job = ScoreJob(**{**base.__dict__, "thresholds": thresholds})
-    tiles = [(job, rows, cols) for rows, cols in windows(grid)]
-    results: Iterable[dict] = runner(score_tile, tiles)
+    # serially, and where the map fits KEEP_CELLS, the tiles of the first pass are kept for
+    # the second (each read once); on a cluster each pass reads its own
+    kept: dict[int, dict] | None = (
+        {} if runner is serial_runner and grid.width * grid.height <= KEEP_CELLS else None
+    )
+    v = landslide_scores(grid, base, inv, kept)
+    scores = SCORES if base.probability is not None else ("fs",)
+    thresholds = {(s, g): np.unique(v[s][_cells_of(inv, v, s, g)]) for s in scores for g in GROUPS}
+    job = replace(base, thresholds=thresholds)
+    tiles = []
+    for i, (rows, cols) in enumerate(windows(grid)):
+        inside = _in_window(inv, rows, cols)
+        cached = kept.pop(i, None) if kept is not None else None
+        tiles.append((job, rows, cols, inv.rows[inside], inv.cols[inside], cached))
+    # in this process the tiles go to a thread per core (reads and kernels release the GIL)
+    run_tiles = threaded_runner if runner is serial_runner else runner
+    results: Iterable[dict] = run_tiles(score_tile, tiles)
     if progress is not None:
         results = progress(results, len(tiles), f"{name} scores")
     total: dict[Any, Any] = {}
-    for res in results:  # summed in tile order: the same sums whatever ran the tiles
+    v["class"] = classify(v["fs"], fs_breaks).astype(np.int64)  # unless read below
+    v["code"] = np.zeros(inv.rows.size, np.int64)
+    for (_, rows, cols, *_), res in zip(tiles, results, strict=True):
+        inside = _in_window(inv, rows, cols)  # summed in tile order: the same sums anywhere
+        v["code"][inside] = res.pop("slide_code")
+        if "slide_class" in res:
+            v["class"][inside] = res.pop("slide_class")
         for key, value in res.items():
             if key in total:
                 total[key] = (
@@ -204,7 +262,7 @@ def score_scenario(
                 total[key] = value
     groups: dict[tuple[str, str], GroupScore] = {}
     warnings: list[str] = []
-    for s in SCORES:
+    for s in scores:
         for g in GROUPS:
             keep = _cells_of(inv, v, s, g)
             t = thresholds[(s, g)]

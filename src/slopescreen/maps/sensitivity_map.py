@@ -178,7 +178,7 @@ def sensitivity(
             continue
         slope = _median(hist["slope"][code], SLOPE_BINS)
         sca = 10.0 ** _median(hist["sca"][code], SCA_BINS)
-        m = _median(hist["m"][code], M_BINS)
+        m = sc.saturation if sc.saturation is not None else _median(hist["m"][code], M_BINS)
         base = {name: float(tables[name][code]) for name in CORE_FIELDS}
 
         def fs_of(**p: float) -> float:
@@ -205,11 +205,11 @@ def sensitivity(
                     "range": how[(code, name)],
                     "low": round(low, 6),
                     "high": round(high, 6),
-                    "median_slope_deg": round(slope, 3),
-                    "median_sca_m": round(sca, 3),
-                    "fs_base": round(fs_base, 4),
-                    "fs_low": round(fs_low, 4),
-                    "fs_high": round(fs_high, 4),
+                    "median_slope_deg": round(slope, 6),
+                    "median_sca_m": round(sca, 6),
+                    "fs_base": round(fs_base, 6),
+                    "fs_low": round(fs_low, 6),
+                    "fs_high": round(fs_high, 6),
                     "class_change_low": round(
                         changes[(code, name, "low")] / changes["area"][code], 6
                     ),
