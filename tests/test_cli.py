@@ -68,6 +68,18 @@ def test_slope_json_and_demo_record_share_one_layout(tmp_path, capsys):
     assert main(["demo", "--region", str(ROOT / "demo_region"), "--out", str(out)]) == 0
     text = capsys.readouterr().out
     assert text.count("Screening level only") == 1  # the cautions once per command
+    # the demo's report shows every check against the invented landslides
+    report = (out / "report.html").read_text()
+    for part in (
+        "success and prediction rates",
+        "Landslide density by class",
+        "Back-analysis: effective cohesion",
+        "Demo check: the invented landslides were drawn from a hidden soil table",
+        "Calibration of cohesion_kpa under wet_season",
+        "Sensitivity under wet_season",
+    ):
+        assert part in report, part
+    assert "SLP: 4 x 0.7 = 2.8" in " ".join(text.split())  # calibration finds the hidden c'
     record = json.loads((out / "hillside_check.json").read_text())
     assert set(from_shell) == set(record) - {"envelope"}
     assert set(from_shell["results"]) == set(record["results"])

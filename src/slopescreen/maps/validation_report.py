@@ -170,8 +170,10 @@ def _calibration(entry: dict[str, Any], out: Path) -> list[str]:
             ],
         ],
     )
+    reference = entry.get("reference")
     return [
         f"<h3>Calibration of {_e(entry['parameter'])} under {_e(entry['scenario'])}</h3>",
+        f"<p><strong>{_e(reference)}</strong></p>" if reference else "",
         f"<p>Per soil unit a multiplier on {_e(entry['parameter'])}, searched on "
         f"{_e(entry['search'])}, keeping the flagged share (FS &lt; 1) at or below "
         f"{_pct(entry['max_flagged_share'])}, to maximise the success AUC on the training "
