@@ -4,9 +4,11 @@ landslide density and frequency ratio per class and soil unit, and the confusion
 
 Two passes over the rasters, tile by tile: the first reads the scores at the landslide
 cells, the second sums, for every tile, the ground area between and at those scores
-(:func:`slopescreen.validation.masses_around`), so the curves are exact (ties count one
-half) at any map size, and the tiles run wherever the run's tiles run (the same
-``Runner``).
+(:func:`slopescreen.validation.masses_around`, compiled as
+:func:`slopescreen.maps.kernels.add_masses`), so the curves are exact (ties count one half)
+at any map size. In this process the tiles run on a thread per core and, for maps of up to
+``KEEP_CELLS``, the first pass's tiles are kept for the second, so FS is read once; given a
+dask runner the second pass runs on its workers.
 """
 
 from __future__ import annotations
