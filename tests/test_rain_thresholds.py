@@ -1,0 +1,158 @@
+"""Critical rain intensity per column: against bisection on the storm factor of safety
+(Iverson 2000, as the core computes it), against a dense scan of its own closed form, and
+its limits (long storms: the steady critical recharge; short storms: no intensity)."""
+
+import itertools
+
+import numpy as np
+import pytest
+
+from slopescreen.rain_thresholds import (
+    FAILS_WITHOUT_RAIN,
+    NO_INTENSITY_FAILS,
+    _at_depth,
+    critical_intensity_mm_h,
+    peak_response,
+)
+from slopescreen.scenario import critical_recharge_mm_day
+from slopescreen.storm import response_function, storm_factor_of_safety
+
+
+def _cells(n, random_state):
+    rng = np.random.default_rng(random_state)
+    depth = rng.uniform(0.8, 2.5, n)
+    return {
+        "slope_deg": rng.uniform(30.0, 42.0, n),
+        "depth_m": depth,
+        "cohesion_kpa": rng.uniform(2.0, 8.0, n),
+        "friction_deg": rng.uniform(30.0, 38.0, n),
+        "unit_weight_kn_m3": rng.uniform(17.0, 20.0, n),
+        "water_table_depth_m": depth * rng.uniform(0.3, 1.0, n),
+        "hydraulic_conductivity_m_s": 10.0 ** rng.uniform(-5.5, -4.5, n),
+        "diffusivity_m2_s": 10.0 ** rng.uniform(-4.7, -3.7, n),
+    }
+
+
+def test_peak_response_against_a_dense_scan():
+    # the closed-form location of the peak of G against a 200,001-point scan of Iverson's
+    # response function (the core's own R(t*), checked against the paper in test_storm)
+    for storm, window in ((0.05, 50.0), (1.0, 100.0), (6.0, 9.0), (30.0, 31.0)):
+        t = np.linspace(0.0, window, 200_001)
+        g = response_function(t) - np.where(t > storm, response_function(t - storm), 0.0)
+        assert float(peak_response(storm, window)) == pytest.approx(g.max(), rel=1e-7, abs=1e-12)
+
+
+def test_against_bisection_on_the_storm_factor_of_safety():
+    # independent route: the core's storm_factor_of_safety on a grid of 160 planes x 240
+    # times, and bisection on the intensity until its minimum is 1. The grid can only miss
+    # the true minimum upwards, so bisection's intensity is an upper bound; 1.5% is what
+    # its grid spacing allows on these cells.
+    cells = _cells(90, 5)
+    duration, after = 12.0, 12.0
+    exact = critical_intensity_mm_h(duration, after_h=after, **cells)
+    keep = exact > 0.0
+    assert keep.sum() > 25
+    kw = {k: v[keep][:, None, None] for k, v in cells.items()}
+    z = kw.pop("depth_m") * np.linspace(1e-3, 1.0, 160)[None, :, None]
+    t = np.linspace(0.0, duration + after, 240)[None, None, :]
+    lo = np.zeros(keep.sum())
+    hi = kw["hydraulic_conductivity_m_s"][:, 0, 0] * 3.6e6  # K_z in mm/h
+    for _ in range(30):  # K_z / 2^30: far below the 1.5% the grid allows
+        mid = 0.5 * (lo + hi)
+        fs = storm_factor_of_safety(z, t, rain_mm_h=mid[:, None, None], duration_h=duration, **kw)
+        fails = fs.min(axis=(1, 2)) <= 1.0
+        hi = np.where(fails, mid, hi)
+        lo = np.where(fails, lo, mid)
+    assert np.all(exact[keep] <= hi * (1.0 + 1e-6))
+    assert np.all(exact[keep] >= hi * (1.0 - 0.015))
+
+
+def test_depth_minimum_against_a_dense_scan_of_the_closed_form():
+    # the bracket-and-refine minimum over depth against 20,000 planes of the same formula:
+    # never above it (beyond rounding) and within 1e-4 below
+    cells = _cells(100, 8)
+    exact = critical_intensity_mm_h(12.0, after_h=24.0, **cells)
+    keep = exact > 0.0
+    p = _params(cells, keep, 12.0, 24.0)
+    z = cells["depth_m"][keep][None, :] * np.linspace(1e-3, 1.0, 20_000)[:, None]
+    dense = np.nanmin(_at_depth(z, p), axis=0) * 3.6e6
+    assert np.all(exact[keep] <= dense * (1.0 + 1e-9))
+    assert np.all(exact[keep] >= dense * (1.0 - 1e-4))
+
+
+def _params(cells, keep, duration_h, after_h):
+    c = {k: v[keep] for k, v in cells.items()}
+    cos2 = np.cos(np.radians(c["slope_deg"])) ** 2
+    return {
+        "slope": c["slope_deg"],
+        "cos2": cos2,
+        "c": c["cohesion_kpa"],
+        "phi": c["friction_deg"],
+        "gamma": c["unit_weight_kn_m3"],
+        "gamma_sat": None,
+        "c_root": 0.0,
+        "seismic": 0.0,
+        "d": c["water_table_depth_m"],
+        "beta": cos2,
+        "k": c["hydraulic_conductivity_m_s"],
+        "d_hat": 4.0 * c["diffusivity_m2_s"] * cos2,
+        "duration_s": duration_h * 3600.0,
+        "window_s": (duration_h + after_h) * 3600.0,
+        "z_soil": c["depth_m"],
+        "sca": None,
+    }
+
+
+def test_limits_long_storms_reach_the_steady_threshold_short_ones_none():
+    # derived correspondence (module docstring): a storm long enough acts as steady
+    # recharge R = I, so I_c -> critical steady recharge (mm/day) / 24 where the soil's
+    # base governs; here cohesionless soil with the water table at the base
+    soil = dict(
+        slope_deg=np.array([30.0, 33.0]),
+        depth_m=1.5,
+        cohesion_kpa=0.0,
+        friction_deg=36.0,
+        unit_weight_kn_m3=19.0,
+        hydraulic_conductivity_m_s=1e-5,
+    )
+    sca = np.array([40.0, 80.0])
+    steady = (
+        critical_recharge_mm_day(
+            soil["slope_deg"], sca, **{k: v for k, v in soil.items() if k != "slope_deg"}
+        )
+        / 24.0
+    )
+    long = critical_intensity_mm_h(
+        1e6,
+        water_table_depth_m=1.5,
+        diffusivity_m2_s=1e-4,
+        specific_catchment_area_m=sca,
+        **soil,
+    )
+    assert np.all(steady > 0.0)
+    np.testing.assert_allclose(long, steady, rtol=1e-6)
+    short = critical_intensity_mm_h(
+        0.01, water_table_depth_m=1.5, diffusivity_m2_s=1e-4, specific_catchment_area_m=sca, **soil
+    )
+    assert np.all(short == NO_INTENSITY_FAILS)
+    # longer storms need less rain (intensity-duration thresholds fall with duration)
+    series = [
+        critical_intensity_mm_h(d, water_table_depth_m=1.0, diffusivity_m2_s=1e-4, **soil)[0]
+        for d in (3.0, 6.0, 12.0, 24.0, 48.0)
+    ]
+    assert all(a > b > 0.0 for a, b in itertools.pairwise(series))
+
+
+def test_codes_for_failing_before_the_storm():
+    dry_fail = critical_intensity_mm_h(
+        6.0,
+        slope_deg=40.0,
+        depth_m=1.0,
+        cohesion_kpa=0.0,
+        friction_deg=30.0,
+        unit_weight_kn_m3=19.0,
+        water_table_depth_m=1.0,
+        hydraulic_conductivity_m_s=1e-5,
+        diffusivity_m2_s=1e-4,
+    )
+    assert dry_fail == FAILS_WITHOUT_RAIN  # tan 30 < tan 40: fails dry (common practice)
