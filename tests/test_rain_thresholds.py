@@ -156,3 +156,13 @@ def test_codes_for_failing_before_the_storm():
         diffusivity_m2_s=1e-4,
     )
     assert dry_fail == FAILS_WITHOUT_RAIN  # tan 30 < tan 40: fails dry (common practice)
+
+
+def test_tabulated_peak_equals_bisection():
+    from slopescreen.rain_thresholds import _peak_time_by_bisection
+
+    storm = 10.0 ** np.random.default_rng(1).uniform(-9.5, 9.5, 5000)
+    window = storm + 1e9
+    exact_t = _peak_time_by_bisection(storm)
+    exact = response_function(exact_t) - response_function(exact_t - storm)
+    np.testing.assert_allclose(peak_response(storm, window), exact, rtol=1e-11, atol=1e-15)

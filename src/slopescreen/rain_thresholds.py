@@ -28,7 +28,7 @@ tends to 0 and I_c exceeds K_z (code ``NO_INTENSITY_FAILS``).
 The minimum over depth is bracketed on ``DEPTH_SCAN`` planes (from ``SURFACE_FRACTION`` of
 the soil depth to its base) and refined by golden-section search within the bracket of the
 lowest scanned plane (``REFINE_STEPS`` steps: the bracket of two plane spacings shrinks by
-0.618^40, about 4e-9); tested against a dense scan of the same closed form and against
+0.618^30, about 5e-7); tested against a dense scan of the same closed form and against
 bisection on :func:`slopescreen.storm.storm_factor_of_safety`.
 
 References
@@ -53,7 +53,7 @@ from slopescreen.storm import SECONDS_PER_HOUR, response_function
 FAILS_WITHOUT_RAIN = -1.0  # FS < 1 somewhere before the storm
 NO_INTENSITY_FAILS = -2.0  # no intensity up to K_z (or the steady cap) brings FS to 1
 DEPTH_SCAN = 48
-REFINE_STEPS = 40
+REFINE_STEPS = 30
 SURFACE_FRACTION = 1e-3
 GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0
 
@@ -69,8 +69,29 @@ def response_rate(t_star: ArrayLike) -> np.ndarray:
     return np.where(t > 0.0, np.exp(-1.0 / safe) / (2.0 * np.sqrt(np.pi * safe)), 0.0)
 
 
+def _peak_time_by_bisection(storm_star: np.ndarray) -> np.ndarray:
+    """t* of the peak of G: the root of r(t*) = r(t* - T*) in (max(T*, 2), T* + 2), where
+    dG/dt* falls strictly (bisection to machine precision)."""
+    lo = np.maximum(storm_star, 2.0)
+    hi = storm_star + 2.0
+    for _ in range(64):
+        mid = 0.5 * (lo + hi)
+        rising = response_rate(mid) > response_rate(mid - storm_star)
+        lo = np.where(rising, mid, lo)
+        hi = np.where(rising, hi, mid)
+    return 0.5 * (lo + hi)
+
+
+# t_peak - T* is a smooth function of log T* (2 for short storms, falling slowly for long
+# ones): tabulated once by bisection and interpolated; an error e in the peak's time moves
+# G_max by about G'' e^2 / 2 (G' = 0 there): relative 1e-11 at most on this grid (tested)
+_LOG_STORM = np.linspace(-10.0, 10.0, 4001)
+_PEAK_OFFSET = _peak_time_by_bisection(10.0**_LOG_STORM) - 10.0**_LOG_STORM
+
+
 def peak_response(storm_star: ArrayLike, window_star: ArrayLike) -> np.ndarray:
-    """max of G(t*) = R(t*) - R(t* - T*) H(t* - T*) over 0 <= t* <= window (>= T*).
+    """max of G(t*) = R(t*) - R(t* - T*) H(t* - T*) over 0 <= t* <= window (>= T*): G
+    rises to its peak and falls after, so the maximum is at the peak or the window's end.
 
     >>> round(float(peak_response(1.0, 100.0)), 6) == round(float(
     ...     max(response_function(t) - response_function(t - 1.0) for t in
@@ -79,16 +100,12 @@ def peak_response(storm_star: ArrayLike, window_star: ArrayLike) -> np.ndarray:
     """
     big_t = np.asarray(storm_star, dtype=float)
     window = np.asarray(window_star, dtype=float)
-    lo = np.maximum(big_t, 2.0)
-    hi = big_t + 2.0
-    lo, hi = np.broadcast_arrays(lo, hi)
-    lo, hi = lo.copy(), hi.copy()
-    for _ in range(64):  # dG/dt* falls strictly across the bracket
-        mid = 0.5 * (lo + hi)
-        rising = response_rate(mid) > response_rate(mid - big_t)
-        lo = np.where(rising, mid, lo)
-        hi = np.where(rising, hi, mid)
-    t_peak = np.minimum(0.5 * (lo + hi), window)
+    log_t = np.log10(np.maximum(big_t, 1e-300))
+    inside = (log_t >= _LOG_STORM[0]) & (log_t <= _LOG_STORM[-1])
+    t_peak = big_t + np.interp(log_t, _LOG_STORM, _PEAK_OFFSET)
+    if not inside.all():  # outside the table: bisection
+        t_peak = np.where(inside, t_peak, _peak_time_by_bisection(big_t))
+    t_peak = np.minimum(t_peak, window)
     return response_function(t_peak) - np.where(
         t_peak > big_t, response_function(t_peak - big_t), 0.0
     )
