@@ -166,3 +166,60 @@ def test_tabulated_peak_equals_bisection():
     exact_t = _peak_time_by_bisection(storm)
     exact = response_function(exact_t) - response_function(exact_t - storm)
     np.testing.assert_allclose(peak_response(storm, window), exact, rtol=1e-11, atol=1e-15)
+
+
+def test_compiled_kernel_equals_the_numpy_core():
+    from slopescreen.maps.kernels import critical_intensity_by_unit
+    from slopescreen.rain_thresholds import (
+        _LOG_STORM,
+        _PEAK_OFFSET,
+        DEPTH_SCAN,
+        REFINE_STEPS,
+        SURFACE_FRACTION,
+    )
+
+    rng = np.random.default_rng(12)
+    n = 3000
+    slope = rng.uniform(25.0, 42.0, n)
+    codes = rng.integers(1, 4, n)
+    unit = {  # three units, index 0 unused (the map engine's tables by code)
+        "depth": np.array([np.nan, 1.2, 2.0, 0.8]),
+        "c": np.array([np.nan, 3.0, 6.0, 1.0]),
+        "phi": np.array([np.nan, 33.0, 36.0, 31.0]),
+        "gamma": np.array([np.nan, 18.5, 19.5, 18.0]),
+        "gamma_sat": np.array([np.nan, 20.0, 21.0, 19.5]),
+        "k": np.array([np.nan, 1e-5, 3e-6, 5e-5]),
+        "d0": np.array([np.nan, 5e-5, 1e-5, 1e-4]),
+        "t": np.array([np.nan, np.nan, np.nan, 0.2]),
+    }
+    sca = rng.uniform(5.0, 300.0, n)
+    for capped in (False, True):
+        out = np.empty(n)
+        critical_intensity_by_unit(
+            12.0 * 3600.0, 36.0 * 3600.0, np.tan(np.radians(slope)),
+            sca if capped else np.empty(0), codes, unit["depth"], unit["c"],
+            np.tan(np.radians(unit["phi"])), unit["gamma"], unit["gamma_sat"], unit["k"],
+            unit["d0"], unit["t"], 0.7, 0.0, 0.0, 9.81, DEPTH_SCAN, REFINE_STEPS,
+            SURFACE_FRACTION, _LOG_STORM, _PEAK_OFFSET, -1.0, -2.0, out,
+        )  # fmt: skip
+        core = critical_intensity_mm_h(
+            12.0,
+            after_h=24.0,
+            slope_deg=slope,
+            depth_m=unit["depth"][codes],
+            cohesion_kpa=unit["c"][codes],
+            friction_deg=unit["phi"][codes],
+            unit_weight_kn_m3=unit["gamma"][codes],
+            saturated_unit_weight_kn_m3=unit["gamma_sat"][codes],
+            water_table_depth_m=0.7,
+            hydraulic_conductivity_m_s=unit["k"][codes],
+            diffusivity_m2_s=unit["d0"][codes],
+            specific_catchment_area_m=sca if capped else None,
+            transmissivity_m2_day=unit["t"][codes] if capped else None,
+        )
+        assert set(np.unique(core[core < 0])) <= {-1.0, -2.0}
+        assert (out > 0).sum() > 300
+        np.testing.assert_array_equal(out < 0, core < 0)
+        # the two searches take slightly different paths (math.erfc against the core's erfc,
+        # cos^2 from tan): they agree to the golden-section tolerance
+        np.testing.assert_allclose(out, core, rtol=1e-6)

@@ -184,3 +184,176 @@ def add_class_areas(fs, codes, area, breaks, classes, table):
         if f < 1.0:
             flagged += area[i]
     return flagged
+
+
+@numba.njit(inline="always")
+def _critical_m(tan_b, z, c_total, tan_phi, gamma, gamma_sat, seismic, gamma_w):
+    """Saturation bringing FS to 1 on the plane at depth z: the solution of
+    :func:`slopescreen.inverse._solve_linear` (target 1), from the core's stresses at m = 0
+    and m = 1 (linear in m); NaN where none (tested equal to critical_saturation)."""
+    cos_b = 1.0 / math.sqrt(1.0 + tan_b * tan_b)
+    sin_b = tan_b * cos_b
+    sg0, u0, t0 = _terms(cos_b, sin_b, z, gamma, gamma_sat, 0.0, 0.0, seismic, gamma_w)
+    sg1, u1, t1 = _terms(cos_b, sin_b, z, gamma, gamma_sat, 1.0, 0.0, seismic, gamma_w)
+    s0 = sg0 - u0
+    s1 = (sg1 - u1) - s0
+    t1 = t1 - t0
+    den = s1 * tan_phi - t1
+    if den != 0.0:
+        x = (t0 - c_total - s0 * tan_phi) / den
+        scale = max(abs(s0) + abs(s1 * x), 1.0)
+        if math.isfinite(x) and s0 + s1 * x >= -1e-9 * scale and t0 + t1 * x > 0.0:
+            return x
+    if t1 != 0.0:
+        x = (c_total - t0) / t1
+        if math.isfinite(x) and s0 + s1 * x <= 1e-9 * max(abs(s0), 1.0) and t0 + t1 * x > 0.0:
+            return x
+    return math.nan
+
+
+@numba.njit(inline="always")
+def _response(t):
+    """Iverson's R(t*) (as slopescreen.storm.response_function)."""
+    if t <= 0.0:
+        return 0.0
+    return math.sqrt(t / math.pi) * math.exp(-1.0 / t) - math.erfc(1.0 / math.sqrt(t))
+
+
+@numba.njit(inline="always")
+def _rate(t):
+    return math.exp(-1.0 / t) / (2.0 * math.sqrt(math.pi * t)) if t > 0.0 else 0.0
+
+
+@numba.njit(inline="always")
+def _peak(storm, window, log_grid, offsets):
+    """max of G over [0, window] (as slopescreen.rain_thresholds.peak_response)."""
+    lt = math.log10(max(storm, 1e-300))
+    if log_grid[0] <= lt <= log_grid[-1]:
+        t_peak = storm + np.interp(lt, log_grid, offsets)
+    else:
+        lo, hi = max(storm, 2.0), storm + 2.0
+        for _ in range(64):
+            mid = 0.5 * (lo + hi)
+            if _rate(mid) > _rate(mid - storm):
+                lo = mid
+            else:
+                hi = mid
+        t_peak = 0.5 * (lo + hi)
+    t_peak = min(t_peak, window)
+    g = _response(t_peak)
+    if t_peak > storm:
+        g -= _response(t_peak - storm)
+    return g
+
+
+@numba.njit(inline="always")
+def _intensity_at(z, cell, log_grid, offsets):
+    """I_c (m/s) at depth z, or +inf where none (rain_thresholds._at_depth)."""
+    (tan_b, z_soil, c_total, tan_phi, gamma, gamma_sat, k, d_hat, d, beta, seismic, gamma_w,
+     duration, window, sca, t_m2_s) = cell  # fmt: skip
+    cos2 = 1.0 / (1.0 + tan_b * tan_b)
+    m_c = _critical_m(tan_b, z, c_total, tan_phi, gamma, gamma_sat, seismic, gamma_w)
+    if not (m_c >= 0.0):
+        return math.inf
+    psi_c = m_c * z * cos2
+    if psi_c > beta * z:
+        return math.inf
+    g = _peak(duration * d_hat / (z * z), window * d_hat / (z * z), log_grid, offsets)
+    if not (g > 0.0):
+        return math.inf
+    i_c = k * (psi_c - (z - d) * beta) / (z * g)
+    if sca > 0.0:
+        need = (psi_c / cos2 - z + z_soil) / z_soil
+        if need > 1.0:
+            return math.inf
+        i_c = max(i_c, need * t_m2_s * math.sqrt(1.0 - cos2) / sca)
+    if not (i_c <= k):
+        return math.inf
+    return max(i_c, 0.0)
+
+
+@numba.njit(parallel=True, cache=True)
+def critical_intensity_by_unit(
+    duration_s,
+    window_s,
+    tan_slope,
+    sca,
+    codes,
+    depth,
+    c_total,
+    tan_phi,
+    gamma,
+    gamma_sat,
+    conductivity,
+    diffusivity,
+    transmissivity_m2_day,
+    water_table_depth,
+    long_term_infiltration,
+    seismic,
+    gamma_w,
+    scan,
+    refine_steps,
+    surface_fraction,
+    log_grid,
+    offsets,
+    fails_code,
+    none_code,
+    out,
+):
+    """:func:`slopescreen.rain_thresholds.critical_intensity_mm_h` per cell (mm/h), the
+    soil looked up by unit code; ``sca`` an empty array for no steady cap. The same scan of
+    ``scan`` planes and golden refinement (tested equal to the numpy core)."""
+    golden = (math.sqrt(5.0) - 1.0) / 2.0
+    capped = sca.size == tan_slope.size
+    for i in numba.prange(tan_slope.size):
+        j = codes[i]
+        tb = np.float64(tan_slope[i])
+        cos2 = 1.0 / (1.0 + tb * tb)
+        k = conductivity[j]
+        z_soil = depth[j]
+        t_day = transmissivity_m2_day[j]
+        t_m2_s = k * z_soil * math.sqrt(cos2) if math.isnan(t_day) else t_day / 86400.0
+        beta = cos2 - long_term_infiltration / k
+        cell = (
+            tb, z_soil, c_total[j], tan_phi[j], gamma[j], gamma_sat[j], k,
+            4.0 * diffusivity[j] * cos2, water_table_depth, beta, seismic, gamma_w,
+            duration_s, window_s, np.float64(sca[i]) if capped else 0.0, t_m2_s,
+        )  # fmt: skip
+        step = (1.0 - surface_fraction) / (scan - 1)
+        best, best_f, fails = math.inf, 0.0, False
+        for p in range(scan):
+            f = surface_fraction + p * step
+            z = f * z_soil
+            m_c = _critical_m(tb, z, c_total[j], tan_phi[j], gamma[j], gamma_sat[j], seismic,
+                              gamma_w)  # fmt: skip
+            m0 = min(max(max((z - water_table_depth) * beta, 0.0) / (z * cos2), 0.0), 1.0)
+            if math.isfinite(m_c) and m0 >= m_c:
+                fails = True
+            v = _intensity_at(z, cell, log_grid, offsets)
+            if v < best:
+                best, best_f = v, f
+        if fails:
+            out[i] = fails_code
+            continue
+        a = max(best_f - step, surface_fraction) * z_soil
+        b = min(best_f + step, 1.0) * z_soil
+        x1, x2 = b - golden * (b - a), a + golden * (b - a)
+        f1, f2 = (
+            _intensity_at(x1, cell, log_grid, offsets),
+            _intensity_at(x2, cell, log_grid, offsets),
+        )
+        best = min(best, f1, f2)
+        for _ in range(refine_steps):
+            if f1 <= f2:
+                b = x2
+                x2, f2 = x1, f1
+                x1 = b - golden * (b - a)
+                f1 = _intensity_at(x1, cell, log_grid, offsets)
+                best = min(best, f1)
+            else:
+                a = x1
+                x1, f1 = x2, f2
+                x2 = a + golden * (b - a)
+                f2 = _intensity_at(x2, cell, log_grid, offsets)
+                best = min(best, f2)
+        out[i] = best * 1000.0 * 3600.0 if math.isfinite(best) else none_code
