@@ -387,6 +387,31 @@ def landslide_inventory(transform: object) -> object:
     )
 
 
+# Invented design rainfall for the demo: i = a T^m / (D + b)^n (a common IDF form) with
+# invented coefficients, on the durations and return periods an agency might tabulate.
+IDF_COEFFICIENTS = {"a": 30.0, "m": 0.2, "b": 0.3, "n": 0.75}
+IDF_DURATIONS_H = (1, 3, 6, 12, 24, 48, 72)
+IDF_RETURN_PERIODS_YR = (2, 5, 10, 25, 50, 100, 200, 500)
+
+
+def design_rainfall() -> None:
+    """quillbrook_design_rainfall.csv: intensity (mm/h) per duration and return period."""
+    from slopescreen.rainfall_frequency import idf_formula
+
+    grid = idf_formula(IDF_DURATIONS_H, IDF_RETURN_PERIODS_YR, **IDF_COEFFICIENTS)
+    c = IDF_COEFFICIENTS
+    lines = [
+        "# Invented design rainfall for the fictitious Quillbrook catchment (demo data only):",
+        f"# intensity = {c['a']:g} T^{c['m']:g} / (D + {c['b']:g})^{c['n']:g} mm/h, "
+        "D in hours, T in years",
+        "duration_h,return_period_yr,intensity_mm_h",
+    ]
+    for i, d in enumerate(IDF_DURATIONS_H):
+        for j, t in enumerate(IDF_RETURN_PERIODS_YR):
+            lines.append(f"{d},{t},{grid[i, j]:.3f}")
+    (HERE / "quillbrook_design_rainfall.csv").write_text("\n".join(lines) + "\n")
+
+
 def main() -> None:
     import geopandas as gpd
     import rasterio
@@ -438,6 +463,7 @@ def main() -> None:
         )
         writer.writerow(COLUMNS)
         writer.writerows(UNITS)
+    design_rainfall()
     slides = landslide_inventory(transform)
     target = HERE / "mapped_landslides.gpkg"
     if target.exists():

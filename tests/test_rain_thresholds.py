@@ -223,3 +223,75 @@ def test_compiled_kernel_equals_the_numpy_core():
         # the two searches take slightly different paths (math.erfc against the core's erfc,
         # cos^2 from tan): they agree to the golden-section tolerance
         np.testing.assert_allclose(out, core, rtol=1e-6)
+
+
+def test_rainfall_scenario_maps_equal_the_core(tmp_path):
+    """A run's critical-intensity, return-period and hazard rasters against the numpy core
+    at every mapped cell (the engine's compiled kernel, its tiles and its storage)."""
+    import rasterio
+    from region_files import SCENARIO_TEXT, _dem, _polygons
+
+    from slopescreen.maps.engine import run
+    from slopescreen.rainfall_frequency import (
+        annual_probability,
+        hazard_class,
+        idf_formula,
+        return_period_yr,
+        triggering_return_period_yr,
+    )
+
+    _dem(tmp_path / "dem.tif")
+    import geopandas as gpd
+
+    _polygons(tmp_path / "soils.geojson")
+    frame = gpd.read_file(tmp_path / "soils.geojson")
+    frame["diffusivity_m2_s"] = 5e-5
+    frame.to_file(tmp_path / "soils.geojson", driver="GeoJSON")
+    durations, periods = (1.0, 6.0, 24.0), (2.0, 10.0, 100.0)
+    grid = idf_formula(durations, periods, 60.0, 0.2, 0.3, 0.75)
+    rows = [f"{d:g},{t:g},{grid[i, j]:.6f}" for i, d in enumerate(durations)
+            for j, t in enumerate(periods)]  # fmt: skip
+    head_row = "duration_h,return_period_yr,intensity_mm_h\n"
+    (tmp_path / "idf.csv").write_text(head_row + "\n".join(rows))
+    head = SCENARIO_TEXT.split("[[scenario]]")[0]
+    (tmp_path / "s.toml").write_text(
+        head + '[[scenario]]\nname = "r"\n[scenario.rainfall]\ninitial_water_table_depth_m = '
+        '0.9\nuplift = 1.1\n[rainfall_frequency]\nidf_table = "idf.csv"\nafter_h = 12.0\n'
+    )
+    run(tmp_path / "s.toml", tmp_path / "out", progress=False, echo=lambda s: None)
+
+    def read(name):
+        with rasterio.open(tmp_path / "out" / name) as src:
+            return src.read(1).astype(float)
+
+    slope, sca = read("terrain/slope_deg.tif"), read("terrain/specific_catchment_area_m.tif")
+    codes = read("terrain/soil_unit.tif").astype(int)
+    ok = codes > 0
+    cohesion = np.where(codes == 1, 2.0, 5.0)[ok]  # region_files: unit A 2 kPa, B 5 kPa
+    periods_by_duration = []
+    for d in durations:
+        core = critical_intensity_mm_h(
+            d,
+            after_h=12.0,
+            slope_deg=slope[ok],
+            depth_m=1.5,
+            cohesion_kpa=cohesion,
+            friction_deg=30.0,
+            unit_weight_kn_m3=18.0,
+            saturated_unit_weight_kn_m3=18.0,
+            water_table_depth_m=0.9,
+            hydraulic_conductivity_m_s=1e-5,
+            diffusivity_m2_s=5e-5,
+            specific_catchment_area_m=sca[ok],
+        )
+        mapped = read(f"r/critical_intensity_{d:g}h_mm_h.tif")[ok]
+        np.testing.assert_array_equal(mapped < 0, core < 0)
+        np.testing.assert_allclose(mapped, core, rtol=2e-6)  # float32 storage, search tolerance
+        row = durations.index(d)
+        periods_by_duration.append(return_period_yr(mapped, periods, grid[row], 1.1))
+    expected = triggering_return_period_yr(np.array(periods_by_duration))
+    np.testing.assert_allclose(read("r/triggering_return_period_yr.tif")[ok], expected, rtol=1e-6)
+    p = annual_probability(expected, 2.0)
+    np.testing.assert_allclose(read("r/annual_failure_probability.tif")[ok], p, rtol=1e-6)
+    assert np.array_equal(read("r/hazard_class.tif")[ok], hazard_class(p))
+    assert (expected > 0).any()  # some cells have a return period inside the table

@@ -241,3 +241,48 @@ def test_every_inventory_key_changes_the_outputs(region, tmp_path):
         if _run(region, tmp_path, f"inv_{key}", text) == base:
             unchanged.append(key)
     assert unchanged == []
+
+
+RAINFALL = (
+    '[[scenario]]\nname = "r"\n[scenario.rainfall]\ninitial_water_table_depth_m = 0.8\n{extra}\n'
+    '[rainfall_frequency]\nidf_table = "idf.csv"\n{table}\n'
+)
+RAINFALL_CHANGES = {
+    "idf_table": ('idf_table = "idf.csv"', 'idf_table = "idf2.csv"'),
+    "aep_breaks": ("", "aep_breaks = [0.2, 0.05]"),
+    "after_h": ("", "after_h = 2.0"),
+    "initial_water_table_depth_m": (
+        "initial_water_table_depth_m = 0.8",
+        "initial_water_table_depth_m = 0.3",
+    ),
+    "long_term_infiltration_mm_day": ("", "long_term_infiltration_mm_day = 5.0"),
+    "uplift": ("", "uplift = 1.5"),
+}
+
+
+def test_every_rainfall_key_changes_the_outputs(region, tmp_path):
+    from slopescreen.maps.scenario_schema import allowed
+    from slopescreen.rainfall_frequency import idf_formula
+
+    assert set(RAINFALL_CHANGES) == allowed("rainfall_frequency") | allowed("scenario.rainfall")
+    for name, a in (("idf.csv", 18.0), ("idf2.csv", 30.0)):
+        durations, periods = (1.0, 6.0, 24.0), (2.0, 10.0, 100.0)
+        grid = idf_formula(durations, periods, a, 0.2, 0.3, 0.75)
+        rows = [f"{d:g},{t:g},{grid[i, j]:.4f}" for i, d in enumerate(durations)
+                for j, t in enumerate(periods)]  # fmt: skip
+        (region / name).write_text("duration_h,return_period_yr,intensity_mm_h\n" + "\n".join(rows))
+    head = _text("uniform").split("[[scenario]]")[0]
+    base_text = head + RAINFALL.format(extra="", table="")
+    base = _run(region, tmp_path, "rain_base", base_text)
+    assert "r/hazard_class.tif" in base
+    unchanged = []
+    for key, (old, new) in RAINFALL_CHANGES.items():
+        if old:
+            text = base_text.replace(old, new)
+        elif key in allowed("scenario.rainfall"):
+            text = head + RAINFALL.format(extra=new, table="")
+        else:
+            text = head + RAINFALL.format(extra="", table=new)
+        if _run(region, tmp_path, f"rain_{key}", text) == base:
+            unchanged.append(key)
+    assert unchanged == []

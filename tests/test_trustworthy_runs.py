@@ -392,7 +392,59 @@ BAD_INPUTS = {
         "m.tif: cannot read saturation raster",
     ),
 }
+IDF_HEAD = "duration_h,return_period_yr,intensity_mm_h\n"
+IDF_GOOD = IDF_HEAD + "1,2,30\n1,10,40\n6,2,10\n6,10,14\n"
+RAIN_SCENARIO = (
+    '\n[[scenario]]\nname = "r"\n[scenario.rainfall]\ninitial_water_table_depth_m = 1.0\n'
+)
+
+
+def _rainfall(idf=IDF_GOOD, table='idf_table = "idf.csv"\n', scenario=RAIN_SCENARIO):
+    def change(folder):
+        text = (folder / "scenarios.toml").read_text() + scenario
+        if table is not None:
+            text += f"\n[rainfall_frequency]\n{table}"
+        (folder / "scenarios.toml").write_text(text)
+        (folder / "idf.csv").write_text(idf)
+
+    return change
+
+
+RAINFALL_INPUTS = {
+    "idf not rising with return period": (
+        _rainfall(IDF_GOOD.replace("1,10,40", "1,10,25")),
+        "idf.csv: duration 1 h: intensity must rise with return period",
+    ),
+    "idf not falling with duration": (
+        _rainfall(IDF_GOOD.replace("6,2,10", "6,2,35").replace("6,10,14", "6,10,45")),
+        "idf.csv: return period 2 yr: intensity must fall with duration",
+    ),
+    "idf missing a row": (
+        _rainfall(IDF_GOOD.replace("6,10,14\n", "")),
+        "idf.csv: no row for duration 6 h and return period 10 yr",
+    ),
+    "idf negative": (_rainfall(IDF_GOOD.replace("6,2,10", "6,2,-1")), "must be a number > 0"),
+    "idf two amount columns": (
+        _rainfall("duration_h,return_period_yr,intensity_mm_h,depth_mm\n1,2,3,3\n"),
+        "one of intensity_mm_h or depth_mm",
+    ),
+    "rainfall without table": (_rainfall(table=None), "add a [rainfall_frequency] table"),
+    "rainfall table unused": (_rainfall(scenario=""), "no scenario uses it"),
+    "aep breaks rising": (
+        _rainfall(table='idf_table = "idf.csv"\naep_breaks = [0.01, 0.1]\n'),
+        "[rainfall_frequency] aep_breaks: must be a list of 1 to 8 falling",
+    ),
+    "rainfall without water table": (
+        _rainfall(scenario='\n[[scenario]]\nname = "r"\n[scenario.rainfall]\nuplift = 1.2\n'),
+        "rainfall needs initial_water_table_depth_m",
+    ),
+    "rainfall without diffusivity": (
+        _rainfall(),
+        "rainfall scenario 'r' needs diffusivity_m2_s (or moisture_capacity_per_m)",
+    ),
+}
 BAD_INPUTS.update(INVENTORY_INPUTS)
+BAD_INPUTS.update(RAINFALL_INPUTS)
 BAD_OPTIONS = {
     "scheduler not a url": (["--scheduler", "not a url"], "--scheduler 'not a url'"),
     "scheduler port": (["--scheduler", "tcp://127.0.0.1:99999"], "port 1-65535"),

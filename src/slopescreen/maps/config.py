@@ -71,7 +71,12 @@ UNCERTAIN_FIELDS = (
     "transmissivity_m2_day",
 )
 SPREAD_SUFFIXES = ("_sd", "_cov", "_low", "_mode", "_high", "_distribution")
-WETNESS_KEYS = ("saturation", "saturation_raster", "recharge_mm_day", "storm")
+WETNESS_KEYS = ("saturation", "saturation_raster", "recharge_mm_day", "storm", "rainfall")
+RAINFALL_KEYS: dict[str, tuple[float, float]] = {
+    "initial_water_table_depth_m": (0.0, 100.0),
+    "long_term_infiltration_mm_day": (0.0, 1000.0),
+    "uplift": (0.1, 10.0),
+}
 STORM_KEYS: dict[str, tuple[float, float]] = {
     "rain_mm_h": (0.0, 1000.0),
     "duration_h": (0.01, 1000.0),
@@ -108,6 +113,28 @@ class StormSpec:
 
 
 @dataclass(frozen=True)
+class RainfallSpec:
+    """A rainfall-frequency scenario: critical intensities for the table's durations from
+    this antecedent water table, then how often they are reached."""
+
+    initial_water_table_depth_m: float
+    long_term_infiltration_mm_day: float = 0.0
+    uplift: float = 1.0  # every tabulated intensity times this (a climate scenario)
+
+
+@dataclass(frozen=True)
+class RainfallFrequency:
+    """[rainfall_frequency]: the design-rainfall table and the hazard-class breaks."""
+
+    idf_table: Path
+    durations_h: tuple[float, ...]
+    return_periods_yr: tuple[float, ...]
+    intensity_mm_h: tuple[tuple[float, ...], ...]  # durations x return periods
+    aep_breaks: tuple[float, ...] = (0.1, 0.01, 0.001)
+    after_h: float = 24.0  # each storm is followed this long for the minimum FS
+
+
+@dataclass(frozen=True)
 class ReliabilitySpec:
     method: str = "taylor"
     samples: int = 1000
@@ -125,10 +152,18 @@ class Scenario:
     seismic_coefficient: float
     soil_overrides: dict[str, dict[str, float]] = field(default_factory=dict)
     storm: StormSpec | None = None
+    rainfall: RainfallSpec | None = None
 
     @property
     def wetness(self) -> str:
         """A one-line description of how wetness is set."""
+        if self.rainfall is not None:
+            rf = self.rainfall
+            uplift = f", design rain x {rf.uplift:g}" if rf.uplift != 1.0 else ""
+            return (
+                f"rainfall frequency: critical storms of every tabulated duration on a water "
+                f"table initially {rf.initial_water_table_depth_m:g} m deep{uplift}"
+            )
         if self.storm is not None:
             st = self.storm
             return (
@@ -203,6 +238,7 @@ class Config:
     deprecations: tuple[str, ...] = ()
     comparison: ComparisonSpec = ComparisonSpec()
     inventory: InventorySpec | None = None
+    rainfall_frequency: RainfallFrequency | None = None
 
 
 # old names still read for one release: (table, key or "") -> new name
@@ -460,6 +496,49 @@ def load_config(path: str | Path) -> Config:
         deprecations=tuple(notes),
         comparison=_comparison(r, r.table("", data, "comparison"), [s.name for s in scenarios]),
         inventory=_inventory(r, data["inventory"]) if "inventory" in data else None,
+        rainfall_frequency=_rainfall_frequency(r, data, scenarios),
+    )
+
+
+def _rainfall_frequency(
+    r: _Reader, data: dict[str, Any], scenarios: list[Scenario]
+) -> RainfallFrequency | None:
+    """[rainfall_frequency]: required by, and only with, [scenario.rainfall] scenarios."""
+    users = [s.name for s in scenarios if s.rainfall is not None]
+    if "rainfall_frequency" not in data:
+        if users:
+            raise r.fail(
+                "", "scenario", f"scenario {users[0]!r} uses [scenario.rainfall]: add a "
+                "[rainfall_frequency] table naming the design-rainfall table (idf_table)"
+            )  # fmt: skip
+        return None
+    table = r.table("", data, "rainfall_frequency")
+    if not users:
+        raise r.fail(
+            "rainfall_frequency", "", "no scenario uses it ([scenario.rainfall]); remove it"
+        )
+    r.known("rainfall_frequency", table, allowed("rainfall_frequency"))
+    from slopescreen.maps.idf_table import read_idf
+
+    path = r.file("rainfall_frequency", table, "idf_table")
+    durations, periods, grid = read_idf(path)
+    breaks = table.get("aep_breaks", [0.1, 0.01, 0.001])
+    shape = "a list of 1 to 8 falling annual probabilities in (0, 1)"
+    if (
+        not isinstance(breaks, list)
+        or not 1 <= len(breaks) <= 8
+        or not all(isinstance(b, int | float) and not isinstance(b, bool) for b in breaks)
+        or not all(0.0 < b < 1.0 for b in breaks)
+        or any(b <= a for a, b in zip(breaks[1:], breaks, strict=False))
+    ):
+        raise r.fail("rainfall_frequency", "aep_breaks", f"must be {shape}, got {_shown(breaks)}")
+    return RainfallFrequency(
+        idf_table=path,
+        durations_h=tuple(float(d) for d in durations),
+        return_periods_yr=tuple(float(t) for t in periods),
+        intensity_mm_h=tuple(tuple(float(x) for x in row) for row in grid),
+        aep_breaks=tuple(float(b) for b in breaks),
+        after_h=float(r.number("rainfall_frequency", table, "after_h", 0.0, 1000.0, 24.0)),
     )
 
 
@@ -564,7 +643,7 @@ def _refuse_unused_reliability(
         )
 
 
-STORM_ONLY_FIELDS = ("diffusivity_m2_s", "moisture_capacity_per_m")
+STORM_ONLY_FIELDS = ("diffusivity_m2_s", "moisture_capacity_per_m")  # storms and rainfall
 
 
 def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Scenario:
@@ -603,8 +682,8 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
             raise r.fail(sub, "", f"soil override for unit {unit!r} must be a table")
         r.known(sub, fields, set(SOIL_FIELDS))
         for key in STORM_ONLY_FIELDS:
-            if key in fields and "storm" not in sc:
-                raise r.fail(sub, key, "applies to storm scenarios only; remove it")
+            if key in fields and "storm" not in sc and "rainfall" not in sc:
+                raise r.fail(sub, key, "applies to storm and rainfall scenarios only; remove it")
         overrides[str(unit)] = {k: r.number(sub, fields, k, *SOIL_FIELDS[k][:2]) for k in fields}  # type: ignore[misc]
     storm = None
     if "storm" in sc:
@@ -625,7 +704,18 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
                 f"must not be before the end of the storm ({values['duration_h']:g} h)",
             )
         storm = StormSpec(**values)  # type: ignore[arg-type]
+    rainfall = None
+    if "rainfall" in sc:
+        sub = f"{table}.rainfall"
+        raw = sc["rainfall"]
+        if not isinstance(raw, dict):
+            raise r.fail(table, "rainfall", "must be a table")
+        r.known(sub, raw, allowed("scenario.rainfall"))
+        if "initial_water_table_depth_m" not in raw:
+            raise r.fail(sub, "", "rainfall needs initial_water_table_depth_m")
+        rainfall = RainfallSpec(**{k: r.number(sub, raw, k, *RAINFALL_KEYS[k]) for k in raw})  # type: ignore[arg-type]
     return Scenario(
+        rainfall=rainfall,
         storm=storm,
         name=name,
         description=r.text(table, sc, "description", "-") if "description" in sc else "",

@@ -31,6 +31,17 @@ SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     ("storm_failure_depth_m.tif", "storm", "depth of the lowest FS"),
     ("storm_time_to_failure_h.tif", "storm", "hours until FS first falls below 1; -1 never"),
     ("storm_time_to_failure_h.png", "storm, maps on", "map of the time to failure"),
+    (
+        "critical_intensity_<D>h_mm_h.tif",
+        "rainfall",
+        "rain intensity of a D-hour storm bringing FS to 1; codes -1, -2",
+    ),
+    ("triggering_return_period_yr.tif", "rainfall", "return period of the rain starting failure"),
+    ("annual_failure_probability.tif", "rainfall", "1 - exp(-1/T): how often, per year"),
+    ("hazard_class.tif", "rainfall", "classes by annual probability, colour table"),
+    ("hazard_class.png", "rainfall, maps on", "map of the hazard classes"),
+    ("triggering_return_period_yr.png", "rainfall, maps on", "map of the return period"),
+    ("rainfall_thresholds.png", "rainfall, maps on", "critical intensity-duration per unit"),
     ("inventory_scores.csv", "inventory given", "landslide density and frequency ratio"),
     ("success_rate.png", "inventory given", "success and prediction rates with AUC"),
 )
@@ -78,6 +89,7 @@ def written(
     storm: bool,
     report: bool = True,
     inventory: bool = False,
+    rainfall: bool = False,
 ) -> list[str]:
     """The files of ``table`` a run with these settings writes."""
     conditions = {
@@ -88,6 +100,7 @@ def written(
         "storm": storm,
         "report on": report,
         "inventory given": inventory,
+        "rainfall": rainfall,
     }
     out = []
     for name, when, _ in table:

@@ -179,6 +179,20 @@ def _scenario_section(s: ScenarioSummary, class_names: list[str], unit_keys: lis
         ["<strong>all</strong>", *(_ha(a, mapped) for a in s.class_areas_ha), f"{mapped:,.2f} ha"]
     )
     parts.append("<h3>Area by soil unit</h3>" + _table(["soil unit", *class_names, "mapped"], rows))
+    if s.hazard_areas_ha is not None:
+        parts.append(
+            "<h3>Hazard: how often rain starts failure</h3><p>Ground area by the annual "
+            "probability that a storm of any tabulated duration brings FS below 1 (a "
+            "<em>hazard</em> in the zoning sense: it carries a frequency). Cells already "
+            "below FS 1 before the rain count in the most frequent class.</p>"
+            + _table(
+                ["class", "area"],
+                [
+                    [_e(n), _ha(a, mapped)]
+                    for n, a in zip(s.hazard_names, s.hazard_areas_ha, strict=True)
+                ],
+            )
+        )
     if s.cut_off_ha and mapped:
         parts.append(
             f"<p>{s.cut_off_ha:,.2f} ha ({100 * s.cut_off_ha / mapped:.1f}% of the mapped area) "

@@ -26,6 +26,7 @@ from slopescreen.maps.scenario_tiles import (
     Runner,
     TileJob,
     compute_tile,
+    intensity_name,
     serial_runner,
 )
 from slopescreen.maps.soils import SoilUnits
@@ -55,6 +56,8 @@ class ScenarioSummary:
     loads: str = ""  # every load that changes the result, in words
     unit_class_areas_ha: list[list[float]] = field(default_factory=list)  # unit x class
     zones: list[dict[str, object]] = field(default_factory=list)  # largest, by area
+    hazard_areas_ha: list[float] | None = None  # per hazard class (rainfall scenarios)
+    hazard_names: list[str] = field(default_factory=list)
 
 
 def _sinks(
@@ -128,6 +131,8 @@ def _sinks(
             units="hours from the start of the storm until FS first drops below 1",
             code_no_failure=f"{NO_FAILURE_CODE:g} (FS stays >= 1 up to {sc.storm.later_h:g} h)",
         )
+    if sc.rainfall is not None and cfg.rainfall_frequency is not None:
+        sinks |= rainfall_sinks(cfg, sc, grid, out, base)
     if with_probability:
         conventions = probability_conventions(cfg, sc)
         sinks["probability"] = f32(
@@ -139,6 +144,71 @@ def _sinks(
             cap=f"stored within +-{BETA_CAP:g}",
             **conventions,
         )
+    return sinks
+
+
+def rainfall_sinks(
+    cfg: Config, sc: Scenario, grid: Grid, out: Path, base: dict[str, str]
+) -> dict[str, RasterSink]:
+    """The rasters of a rainfall-frequency scenario: critical intensity per duration,
+    triggering return period, annual probability of failure, hazard classes."""
+    from slopescreen import rainfall_frequency as rf
+    from slopescreen.maps.quicklook import colour_table
+
+    table = cfg.rainfall_frequency
+    assert table is not None and sc.rainfall is not None
+    window = f"minimum FS over depth and over the storm and {table.after_h:g} h after it"
+    codes = {
+        "code_fails_without_rain": "-1 (FS < 1 before any rain)",
+        "code_no_intensity": "-2 (no intensity up to K_z brings FS to 1)",
+    }
+
+    def f32(name: str, **tags: str) -> RasterSink:
+        return RasterSink(out / name, grid, "float32", NODATA_F32, tags=base | tags)
+
+    sinks = {
+        f"intensity_{d:g}": f32(
+            intensity_name(d),
+            units=f"mm/h: the constant intensity of a {d:g}-hour storm bringing the {window} "
+            "to 1 (Iverson 2000)",
+            **codes,
+        )
+        for d in table.durations_h
+    }
+    names = rf.hazard_class_names(table.aep_breaks)
+    period_codes = {
+        "code_more_frequent": f"{rf.MORE_FREQUENT:g} (triggered by rain more frequent than "
+        f"{table.return_periods_yr[0]:g} yr)",
+        "code_rarer": f"{rf.RARER:g} (no tabulated storm triggers failure)",
+        "code_fails_without_rain": f"{rf.FAILS_WITHOUT_RAIN:g}",
+        "code_no_intensity": f"{rf.NO_INTENSITY_FAILS:g}",
+    }
+    frequency = {
+        "idf_table": table.idf_table.name,
+        "uplift": f"{sc.rainfall.uplift:g}",
+        "interpolation": "log intensity linear in log return period between table rows",
+    }
+    sinks["return_period"] = f32(
+        "triggering_return_period_yr.tif",
+        units="years: the most frequent tabulated storm (any duration) that starts failure",
+        **period_codes,
+        **frequency,
+    )
+    sinks["annual_probability"] = f32(
+        "annual_failure_probability.tif",
+        units="p = 1 - exp(-1/T) per year",
+        more_frequent="the shortest tabulated period's p (a lower bound)",
+        **frequency,
+    )
+    sinks["hazard_classes"] = RasterSink(
+        out / "hazard_class.tif",
+        grid,
+        "uint8",
+        0,
+        resampling="nearest",
+        colormap=colour_table(len(names)),
+        tags=base | {f"class_{i}": n for i, n in enumerate(names, start=1)} | frequency,
+    )
     return sinks
 
 
@@ -232,10 +302,11 @@ def run_scenario(
         reliability=cfg.reliability,
         n_units=len(units.keys),
         numba_threads=numba_threads,
+        rainfall=cfg.rainfall_frequency if sc.rainfall is not None else None,
     )
     with_probability = bool(units.spreads)
     sinks = _sinks(cfg, sc, grid, out, names, with_probability)
-    tables, pf_tables, cut_tables = [], [], []
+    tables, pf_tables, cut_tables, hazard_tables = [], [], [], []
     missing = 0
     with all_or_nothing(*sinks.values()):
         tiles = [(job, rows, cols) for rows, cols in windows(grid)]
@@ -247,6 +318,8 @@ def run_scenario(
             cut_tables.append(res["cut_table"])
             if with_probability:
                 pf_tables.append(res["pf_table"])
+            if "hazard_table" in res:
+                hazard_tables.append(res["hazard_table"])
             missing += res["missing_wetness"]
     if not cached:  # the output holds exactly the cached values; its tags are this scenario's
         info = {"seismic_coefficient": sc.seismic_coefficient, "terrain_key": terrain_key}
@@ -282,6 +355,16 @@ def run_scenario(
             pf_table, units.keys, list(PF_CLASS_NAMES), sc.name, "probability_of_failure"
         )
         pf_areas = [float(a) / 10_000.0 for a in pf_table[1:, 1:].sum(axis=0)]
+    hazard_areas, hazard_names = None, []
+    if hazard_tables and cfg.rainfall_frequency is not None:
+        from slopescreen.rainfall_frequency import hazard_class_names
+
+        hazard_table = np.sum(hazard_tables, axis=0)
+        hazard_names = hazard_class_names(cfg.rainfall_frequency.aep_breaks)
+        rows_out += summary_rows(
+            hazard_table, units.keys, hazard_names, sc.name, "annual_failure_probability"
+        )
+        hazard_areas = hazard_table[1:, 1:] / 10_000.0
     write_summary(rows_out, out / "summary.csv")
     largest: list[dict[str, object]] = []
     if cfg.zones:
@@ -301,6 +384,9 @@ def run_scenario(
     maps: dict[str, Path] = {}
     if cfg.quicklook_map:
         maps = draw_scenario_maps(cfg, sc, grid, units.keys, names, terrain_dir, out, unit_areas)
+        if hazard_areas is not None:
+            maps |= draw_rainfall_maps(cfg, sc, grid, units.keys, terrain_dir, out, hazard_areas)
+            maps["rainfall thresholds"] = draw_thresholds(cfg, sc, grid, units, terrain_dir, out)
     areas = [float(a) / 10_000.0 for a in table[1:, 1:].sum(axis=0)]
     written = {s.target.name for s in sinks.values()} | {"summary.csv"}
     written |= {p.name for p in maps.values()}
@@ -308,6 +394,9 @@ def run_scenario(
         written.add("low_margin_zones.gpkg")
     for stale in set(SCENARIO_FILES) - written:  # left by an earlier run of another config
         (out / stale).unlink(missing_ok=True)
+    for stale in out.glob("critical_intensity_*h_mm_h.tif"):
+        if stale.name not in written:
+            stale.unlink()
     outputs = sorted(written)
     return ScenarioSummary(
         sc.name,
@@ -324,6 +413,8 @@ def run_scenario(
         sc.loads,
         unit_areas.tolist(),
         largest,
+        hazard_areas.sum(axis=0).tolist() if hazard_areas is not None else None,
+        hazard_names,
     ), rows_out
 
 
@@ -420,3 +511,133 @@ def draw_scenario_maps(
             value_range=(0.0, sc.storm.later_h),
         )
     return maps
+
+
+def draw_rainfall_maps(
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    unit_keys: list[str],
+    terrain_dir: Path,
+    out: Path,
+    hazard_areas: np.ndarray,
+) -> dict[str, Path]:
+    """The hazard-class and return-period maps of a rainfall scenario."""
+    from slopescreen import rainfall_frequency as rf
+    from slopescreen.maps.palette import CLASS_HEX, FAILS_DRY_HEX, HOLDS_HEX, NO_RAIN_HEX
+    from slopescreen.maps.quicklook import (
+        MapFrame,
+        Special,
+        draw_classes,
+        draw_values,
+        read_for_map,
+    )
+
+    table = cfg.rainfall_frequency
+    assert table is not None
+
+    def frame(what: str, inset: bool = False) -> MapFrame:
+        return MapFrame(
+            grid,
+            terrain_dir / "hillshade.tif",
+            f"{cfg.region.name}: {what}",
+            f"scenario {sc.name}: {sc.loads}; design rain {table.idf_table.name}",
+            soil_codes=terrain_dir / "soil_unit.tif",
+            inset=(unit_keys, hazard_areas) if inset else None,
+        )
+
+    f = frame("hazard: annual probability that rain starts failure", inset=True)
+    maps = {
+        "hazard classes": draw_classes(
+            out / "hazard_class.png",
+            f,
+            read_for_map(out / "hazard_class.tif", f),
+            rf.hazard_class_names(table.aep_breaks),
+            "how often rain starts failure",
+        )
+    }
+    f = frame("return period of the rain that starts failure")
+    t0, t1 = table.return_periods_yr[0], table.return_periods_yr[-1]
+    maps["triggering return period"] = draw_values(
+        out / "triggering_return_period_yr.png",
+        f,
+        out / "triggering_return_period_yr.tif",
+        "return period of the triggering storm (years, log scale)",
+        log=True,
+        specials=(
+            Special(rf.FAILS_WITHOUT_RAIN, FAILS_DRY_HEX, "fails before any rain (code -3)"),
+            Special(rf.MORE_FREQUENT, CLASS_HEX[0], f"more often than 1 in {t0:g} yr (code -1)"),
+            Special(rf.RARER, HOLDS_HEX, f"rarer than 1 in {t1:g} yr (code -2)"),
+            Special(rf.NO_INTENSITY_FAILS, NO_RAIN_HEX, "no rain starts failure (code -4)"),
+        ),
+        value_range=(t0, t1),
+    )
+    return maps
+
+
+def draw_thresholds(
+    cfg: Config, sc: Scenario, grid: Grid, units: SoilUnits, terrain_dir: Path, out: Path
+) -> Path:
+    """rainfall_thresholds.png: each unit's critical intensity against duration at its
+    median slope and specific catchment area, over the design-rainfall curves."""
+    from slopescreen.maps.sensitivity_map import SensitivityJob, unit_medians
+    from slopescreen.maps.validation_plots import threshold_figure
+    from slopescreen.rain_thresholds import critical_intensity_mm_h
+
+    table, spec = cfg.rainfall_frequency, sc.rainfall
+    assert table is not None and spec is not None
+    p = units.parameters
+    job = SensitivityJob(
+        grid=grid,
+        slope_deg=terrain_dir / "slope_deg.tif",
+        sca=terrain_dir / "specific_catchment_area_m.tif",
+        saturation=out / "saturation.tif",
+        codes=terrain_dir / "soil_unit.tif",
+        tables={},
+        ranges={},
+        recharge_mm_day=None,
+        seismic=float(sc.seismic_coefficient),
+        fs_breaks=cfg.fs_breaks,
+        n_units=len(units.keys),
+    )
+    medians, steep = unit_medians(job), unit_medians(job, share=0.9)
+    thresholds: dict[str, np.ndarray] = {}
+    for code, (slope, sca, _) in medians.items():
+        t_day = p["transmissivity_m2_day"][code]
+        for label, slope_deg in (("median", slope), ("steep 10%", steep[code][0])):
+            thresholds[f"{units.keys[code - 1]} ({label} slope {slope_deg:.0f} deg)"] = np.array(
+                [
+                    float(
+                        critical_intensity_mm_h(
+                            d,
+                            after_h=table.after_h,
+                            slope_deg=slope_deg,
+                            depth_m=p["depth_m"][code],
+                            cohesion_kpa=p["cohesion_kpa"][code],
+                            friction_deg=p["friction_deg"][code],
+                            unit_weight_kn_m3=p["unit_weight_kn_m3"][code],
+                            saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"][code],
+                            root_cohesion_kpa=p["root_cohesion_kpa"][code],
+                            water_table_depth_m=spec.initial_water_table_depth_m,
+                            hydraulic_conductivity_m_s=p["hydraulic_conductivity_m_s"][code],
+                            diffusivity_m2_s=p["diffusivity_m2_s"][code],
+                            long_term_infiltration_m_s=spec.long_term_infiltration_mm_day / 8.64e7,
+                            seismic_coefficient=sc.seismic_coefficient,
+                            specific_catchment_area_m=sca,
+                            transmissivity_m2_day=None if np.isnan(t_day) else t_day,
+                        )
+                    )
+                    for d in table.durations_h
+                ]
+            )
+    intensity = np.array(table.intensity_mm_h) * spec.uplift
+    return threshold_figure(
+        out / "rainfall_thresholds.png",
+        table.durations_h,
+        thresholds,
+        table.return_periods_yr,
+        intensity,
+        f"{cfg.region.name}: {sc.name}. Critical rain per soil unit at its median and its "
+        f"steepest 10% slope (median catchment), water table {spec.initial_water_table_depth_m:g}"
+        " m deep",
+    )

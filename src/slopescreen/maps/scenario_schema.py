@@ -79,6 +79,21 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
         ("test_share", "0.05 to 0.95", "0.3", "share of landslides (date) or blocks held out"),
         ("random_state", "0 to 2^32 - 1", "0", "no date_field: same number, same blocks"),
     ],
+    "rainfall_frequency": [
+        (
+            "idf_table",
+            "path",
+            "required",
+            "CSV: duration_h, return_period_yr, intensity_mm_h (or depth_mm), full grid",
+        ),
+        (
+            "aep_breaks",
+            "1 to 8 falling numbers in (0, 1)",
+            "[0.1, 0.01, 0.001]",
+            "annual-probability breaks of the hazard classes",
+        ),
+        ("after_h", "0 to 1000", "24", "each storm is followed this long after its end"),
+    ],
     "scenario": [
         ("name", "1-64 letters, digits, _ . -", "required", "names the scenario's folder"),
         ("description", "text", "none", "shown in the report and the manifest"),
@@ -86,6 +101,12 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
         ("saturation_raster", "path", "-", "raster of m on any grid (one wetness key)"),
         ("recharge_mm_day", "0 to 10000", "-", "steady recharge R, mm/day (one wetness key)"),
         ("storm", "table", "-", "a design storm, [scenario.storm] (one wetness key)"),
+        (
+            "rainfall",
+            "table",
+            "-",
+            "critical storms and how often they come, [scenario.rainfall] (one wetness key)",
+        ),
         (
             "seismic_coefficient",
             f"{RANGES['seismic_coefficient'][0]:g} to {RANGES['seismic_coefficient'][1]:g}",
@@ -101,6 +122,11 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
         ("initial_water_table_depth_m", "0 to 100", "required", "water table before the storm"),
         ("long_term_infiltration_mm_day", "0 to 1000", "0", "steady infiltration before it"),
     ],
+    "scenario.rainfall": [
+        ("initial_water_table_depth_m", "0 to 100", "required", "water table before the rain"),
+        ("long_term_infiltration_mm_day", "0 to 1000", "0", "steady infiltration before it"),
+        ("uplift", "0.1 to 10", "1", "every tabulated intensity times this (climate scenario)"),
+    ],
 }
 
 SOIL_MEANINGS = {
@@ -112,8 +138,8 @@ SOIL_MEANINGS = {
     "root_cohesion_kpa": "apparent root cohesion (kPa, default 0)",
     "hydraulic_conductivity_m_s": "K (m/s): steady wetness T = K z cos(beta), and storms",
     "transmissivity_m2_day": "T (m2/day) instead of K, for steady wetness",
-    "diffusivity_m2_s": "hydraulic diffusivity D0 (m2/s), storms",
-    "moisture_capacity_per_m": "C0 (1/m), storms: D0 = K / C0 where D0 is not given",
+    "diffusivity_m2_s": "hydraulic diffusivity D0 (m2/s), storms and rainfall",
+    "moisture_capacity_per_m": "C0 (1/m), storms and rainfall: D0 = K / C0 if D0 not given",
 }
 
 

@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 
 from slopescreen.errors import InputError
-from slopescreen.maps.config import ReliabilitySpec, Scenario
+from slopescreen.maps.config import RainfallFrequency, ReliabilitySpec, Scenario
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.rasters import read_block, read_saturation
 from slopescreen.maps.soils import SoilUnits
@@ -69,6 +69,7 @@ class TileJob:
     reliability: ReliabilitySpec
     n_units: int
     numba_threads: int = 0  # 0: numba's default (all cores)
+    rainfall: RainfallFrequency | None = None  # the design-rainfall table (rainfall scenarios)
 
 
 def core_storm(sc: Scenario) -> Storm | None:
@@ -85,14 +86,16 @@ def core_storm(sc: Scenario) -> Storm | None:
 
 
 def check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
-    if sc.storm is None:
+    if sc.storm is None and sc.rainfall is None:
         return
+    kind = "storm" if sc.storm is not None else "rainfall"
     for code, key in enumerate(units.keys, start=1):
         for name in ("hydraulic_conductivity_m_s", "diffusivity_m2_s"):
             if np.isnan(units.parameters[name][code]):
                 extra = " (or moisture_capacity_per_m)" if name == "diffusivity_m2_s" else ""
                 raise InputError(
-                    f"{where}: storm scenario {sc.name!r} needs {name}{extra} for soil unit {key!r}"
+                    f"{where}: {kind} scenario {sc.name!r} needs {name}{extra} for soil unit "
+                    f"{key!r}"
                 )
 
 
@@ -243,6 +246,9 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
                 t["transmissivity_m2_day"],
                 m,
             )
+        elif sc.rainfall is not None:  # before the rain: the water table d below the ground
+            depth = t["depth_m"][c]
+            m = np.clip((depth - sc.rainfall.initial_water_table_depth_m) / depth, 0.0, 1.0)
         elif m_grid is not None:
             m = m_grid[valid]
             bad = (m < 0.0) | (m > 1.0)
@@ -273,14 +279,13 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     values["saturation"] = block["saturation"]
     if job.spreads:
         values["probability"], values["reliability"] = probability(job, block)
+    if sc.rainfall is not None and job.rainfall is not None:
+        values |= rainfall_tile(job, block)
     shape = codes.shape
     for name, v in values.items():
-        full = (
-            np.zeros(shape, np.uint8)
-            if name == "classes"
-            else np.full(shape, NODATA_F32, np.float32)
-        )
-        full[valid] = v if name == "classes" else np.nan_to_num(v, nan=NODATA_F32)
+        whole = name in ("classes", "hazard_classes")
+        full = np.zeros(shape, np.uint8) if whole else np.full(shape, NODATA_F32, np.float32)
+        full[valid] = v if whole else np.nan_to_num(v, nan=NODATA_F32)
         out[name] = full
     out["recharge"] = (
         read_block(job.recharge_cache, rows, cols)
@@ -295,12 +300,76 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     cut = read_block(job.cut_off, rows, cols) == 1
     add_areas(cut_table, codes * (valid & cut), out["classes"], cell_area)
     out["cut_table"] = cut_table
+    if "hazard_classes" in out:
+        hazard_table = np.zeros((job.n_units + 1, len(job.rainfall.aep_breaks) + 2))  # type: ignore[union-attr]
+        add_areas(hazard_table, codes * valid, out["hazard_classes"], cell_area)
+        out["hazard_table"] = hazard_table
     if job.spreads:
         pf_table = np.zeros((job.n_units + 1, len(PF_CLASS_NAMES) + 1))
         pf_classes = np.zeros(shape, np.uint8)
         pf_classes[valid] = classify_probability(values["probability"])
         add_areas(pf_table, codes * valid, pf_classes, cell_area)
         out["pf_table"] = pf_table
+    return out
+
+
+def intensity_name(duration_h: float) -> str:
+    """The raster of the critical intensity of one duration."""
+    return f"critical_intensity_{duration_h:g}h_mm_h.tif"
+
+
+def rainfall_tile(job: TileJob, block: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """Critical intensity per tabulated duration (mm/h, codes -1 and -2), the triggering
+    return period, the annual probability of failure and the hazard class of a tile's
+    cells (see :mod:`slopescreen.rain_thresholds`, :mod:`slopescreen.rainfall_frequency`)."""
+    from slopescreen import rain_thresholds as rt
+    from slopescreen import rainfall_frequency as rf
+    from slopescreen.maps.kernels import critical_intensity_by_unit
+
+    spec, table, t = job.scenario.rainfall, job.rainfall, job.tables
+    assert spec is not None and table is not None
+    c = block["codes"]
+    out: dict[str, np.ndarray] = {}
+    periods = []
+    intensity = np.empty(c.size)
+    for row, duration in enumerate(table.durations_h):
+        critical_intensity_by_unit(
+            duration * 3600.0,
+            (duration + table.after_h) * 3600.0,
+            block["tan"],
+            block["sca"],
+            c,
+            t["depth_m"],
+            t["cohesion_kpa"] + t["root_cohesion_kpa"],
+            np.tan(np.radians(t["friction_deg"])),
+            t["unit_weight_kn_m3"],
+            t["saturated_unit_weight_kn_m3"],
+            t["hydraulic_conductivity_m_s"],
+            t["diffusivity_m2_s"],
+            t["transmissivity_m2_day"],
+            spec.initial_water_table_depth_m,
+            spec.long_term_infiltration_mm_day / 1000.0 / 86400.0,
+            float(job.scenario.seismic_coefficient),
+            9.81,
+            rt.DEPTH_SCAN,
+            rt.REFINE_STEPS,
+            rt.SURFACE_FRACTION,
+            rt._LOG_STORM,
+            rt._PEAK_OFFSET,
+            rt.FAILS_WITHOUT_RAIN,
+            rt.NO_INTENSITY_FAILS,
+            intensity,
+        )
+        out[f"intensity_{duration:g}"] = intensity.copy()
+        periods.append(
+            rf.return_period_yr(
+                intensity, table.return_periods_yr, table.intensity_mm_h[row], spec.uplift
+            )
+        )
+    period = rf.triggering_return_period_yr(np.array(periods))
+    out["return_period"] = period
+    out["annual_probability"] = rf.annual_probability(period, table.return_periods_yr[0])
+    out["hazard_classes"] = rf.hazard_class(out["annual_probability"], table.aep_breaks)
     return out
 
 

@@ -113,11 +113,29 @@ def class_change_tile(job: SensitivityJob, rows: slice, cols: slice) -> dict[str
     return out
 
 
-def _median(hist: np.ndarray, bins: np.ndarray) -> float:
+def unit_medians(
+    job: SensitivityJob, runner: Runner = serial_runner, share: float = 0.5
+) -> dict[int, tuple[float, float, float]]:
+    """Per unit code with mapped cells: median (or another quantile ``share`` of the area)
+    slope (degrees), specific catchment area (m) and saturation m, from area histograms
+    gathered tile by tile (half a bin exact)."""
+    hist = _sum(runner(histogram_tile, [(job, r, c) for r, c in windows(job.grid)]))
+    out = {}
+    for code in range(1, job.n_units + 1):
+        if hist["slope"][code].sum() > 0:
+            out[code] = (
+                _median(hist["slope"][code], SLOPE_BINS, share),
+                10.0 ** _median(hist["sca"][code], SCA_BINS, share),
+                _median(hist["m"][code], M_BINS, share),
+            )
+    return out
+
+
+def _median(hist: np.ndarray, bins: np.ndarray, share: float = 0.5) -> float:
     cum = np.cumsum(hist)
     if cum[-1] <= 0:
         return float("nan")
-    i = int(np.searchsorted(cum, cum[-1] / 2.0))
+    i = int(np.searchsorted(cum, cum[-1] * share))
     return float((bins[i] + bins[i + 1]) / 2.0)
 
 
@@ -169,16 +187,15 @@ def sensitivity(
         n_units=len(units.keys),
     )
     tiles = [(job, r, c) for r, c in windows(done.grid)]
-    hist = _sum(runner(histogram_tile, tiles))
+    medians = unit_medians(job, runner)
     changes = _sum(runner(class_change_tile, tiles))
     rows: list[dict[str, object]] = []
     tornado: dict[str, tuple[float, list[tuple[str, float, float, str]]]] = {}
     for code, key in enumerate(units.keys, start=1):
-        if changes["area"][code] <= 0:
+        if changes["area"][code] <= 0 or code not in medians:
             continue
-        slope = _median(hist["slope"][code], SLOPE_BINS)
-        sca = 10.0 ** _median(hist["sca"][code], SCA_BINS)
-        m = sc.saturation if sc.saturation is not None else _median(hist["m"][code], M_BINS)
+        slope, sca, m_median = medians[code]
+        m = sc.saturation if sc.saturation is not None else m_median
         base = {name: float(tables[name][code]) for name in CORE_FIELDS}
 
         def fs_of(**p: float) -> float:

@@ -141,3 +141,46 @@ def tornado_figure(
     axes[-1, 0].set_xlabel("FS with the parameter at its low (rust) or high (violet) value")
     fig.suptitle(title, fontsize=10)
     return _save(fig, target, 0.05)
+
+
+def threshold_figure(
+    target: Path,
+    durations_h: tuple[float, ...],
+    thresholds: dict[str, np.ndarray],
+    return_periods_yr: tuple[float, ...],
+    intensity_mm_h: np.ndarray,
+    title: str,
+) -> Path:
+    """Intensity-duration thresholds per soil unit (log-log, the usual form of rainfall
+    thresholds, e.g. Caine 1980) against the design-rainfall curves of each return period."""
+    plt = _pyplot()
+    fig, ax = plt.subplots(figsize=(7.0, 5.4))
+    d = np.asarray(durations_h, float)
+    for j, t in enumerate(return_periods_yr):
+        shade = 0.35 + 0.5 * j / max(len(return_periods_yr) - 1, 1)
+        ax.plot(d, intensity_mm_h[:, j], color=str(shade), lw=0.9, ls="--")
+        ax.annotate(f"{t:g} yr", (d[-1], intensity_mm_h[-1, j]), fontsize=6, color="0.3",
+                    xytext=(3, 0), textcoords="offset points", va="center")  # fmt: skip
+    colours = [VIOLET, RUST, "#8a6d1f", "#1f4e79", "#4d4d4d", "#7b3f61", "#2f6b3f", "#6b5a2f"]
+    for i, (label, values) in enumerate(thresholds.items()):
+        ok = values > 0
+        colour = colours[(i // 2) % len(colours)]  # a unit's median and steep curves alike
+        style = "-" if i % 2 == 0 else ":"
+        if ok.any():
+            ax.plot(d[ok], values[ok], color=colour, lw=2.0, ls=style, marker="o", ms=3,
+                    label=label)  # fmt: skip
+        else:
+            why = "fails before rain" if (values == -1).any() else "no rain up to K_z fails it"
+            ax.plot([], [], color=colour, ls=style, label=f"{label}: {why}")
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    ax.set_xlabel("storm duration (h)")
+    ax.set_ylabel("rain intensity (mm/h)")
+    import textwrap
+
+    ax.set_title(textwrap.fill(title, 90), fontsize=9)
+    ax.grid(alpha=0.3, which="both")
+    ax.legend(fontsize=6, loc="center left", bbox_to_anchor=(1.08, 0.5),
+              title="grey dashed: design rainfall", title_fontsize=7)  # fmt: skip
+    fig.set_size_inches(10.5, 5.6)
+    return _save(fig, target, 0.08)
