@@ -295,3 +295,27 @@ def test_rainfall_scenario_maps_equal_the_core(tmp_path):
     np.testing.assert_allclose(read("r/annual_failure_probability.tif")[ok], p, rtol=1e-6)
     assert np.array_equal(read("r/hazard_class.tif")[ok], hazard_class(p))
     assert (expected > 0).any()  # some cells have a return period inside the table
+
+
+def test_demo_uplift_only_makes_failure_more_frequent(demo_out):
+    """The demo's two rainfall scenarios differ only by a 20% uplift of the design rain, so
+    no cell's return period can grow and none can move to a less frequent class."""
+    import rasterio
+
+    out, _ = demo_out
+
+    def read(name):
+        with rasterio.open(out / name) as src:
+            return src.read(1).astype(float)
+
+    today = read("rain_frequency/triggering_return_period_yr.tif")
+    lifted = read("rain_frequency_uplift/triggering_return_period_yr.tif")
+    both = (today > 0) & (lifted > 0)
+    assert both.sum() > 100
+    assert np.all(lifted[both] <= today[both] * (1 + 1e-6))
+    assert np.all(
+        read("rain_frequency_uplift/hazard_class.tif") <= read("rain_frequency/hazard_class.tif")
+    )
+    report = (out / "report.html").read_text()
+    assert "ha less frequent" in report and " 0.0 ha less frequent" in report
+    assert (out / "comparison" / "rain_frequency_vs_rain_frequency_uplift_hazard.png").exists()

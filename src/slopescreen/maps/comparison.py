@@ -23,6 +23,8 @@ from slopescreen.outputs import replacing
 
 FOLDER = "comparison"
 CHANGE_NAMES = ("less stable", "more stable", "same class")
+# hazard classes run from the most frequent: a lower class number is more frequent
+HAZARD_CHANGE_NAMES = ("more frequent", "less frequent", "same class")
 # less stable: the least stable class colour; more stable: a slate blue; same: pale
 CHANGE_HEX = ("#5a1a78", "#4f86b0", "#f2f2ef")
 
@@ -33,6 +35,7 @@ class ClassChange:
     second: str
     areas_ha: tuple[float, float, float]  # less stable, more stable, same (in both mapped)
     png: Path | None = None
+    names: tuple[str, str, str] = CHANGE_NAMES  # or HAZARD_CHANGE_NAMES for hazard classes
 
 
 def class_change(
@@ -58,14 +61,21 @@ def class_change(
     return small, areas  # type: ignore[return-value]
 
 
-def draw_change(target: Path, frame: MapFrame, change: np.ndarray, first: str, second: str) -> Path:
+def draw_change(
+    target: Path,
+    frame: MapFrame,
+    change: np.ndarray,
+    first: str,
+    second: str,
+    names: tuple[str, str, str] = CHANGE_NAMES,
+) -> Path:
     """The class-change map (from :func:`class_change`) in the house style."""
     colours = np.array([hex_rgb(h) for h in CHANGE_HEX])
     return draw_classes(
         target,
         frame,
         change,
-        list(CHANGE_NAMES),
+        list(names),
         f"{second}\ncompared with {first}",
         colours=colours,
     )

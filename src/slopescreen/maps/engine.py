@@ -341,6 +341,9 @@ def _comparison(
             png = draw_change(folder / f"{first}_vs_{second}.png", frame, step_map, first, second)
             written.append(png)
         changes.append(ClassChange(first, second, areas, png))
+        hazard = [out / name / "hazard_class.tif" for name in (first, second)]
+        if all(path in written_rasters(state, out) for path in hazard):
+            changes.append(_hazard_change(cfg, grid, out, first, second, folder, written))
     for stale in set(folder.iterdir()) - set(written):
         if stale.is_file() and stale.suffix == ".png":
             stale.unlink()
@@ -374,6 +377,42 @@ def _known_landslides(cfg: Config, inputs: Inputs, out: Path, steps: _Steps) -> 
     steps.state.validation["inventory"] = section
     steps.state.outputs += [f.relative_to(out).as_posix() for f in files]
     steps.timings.add("inventory scores", started)
+
+
+def written_rasters(state: RunState, out: Path) -> set[Path]:
+    return {out / name for name in state.outputs if name.endswith(".tif")}
+
+
+def _hazard_change(
+    cfg: Config, grid: Grid, out: Path, first: str, second: str, folder: Path, written: list[Path]
+) -> ClassChange:
+    """Where the hazard class changes between two rainfall scenarios (e.g. today's design
+    rainfall and an uplifted one): the area that becomes more or less frequent."""
+    from slopescreen.maps.comparison import HAZARD_CHANGE_NAMES, class_change, draw_change
+    from slopescreen.maps.quicklook import MapFrame
+
+    frame = MapFrame(
+        grid,
+        out / "terrain" / "hillshade.tif",
+        f"{cfg.region.name}: where the hazard class changes from {first} to {second}",
+        f"{first}: {_loads(cfg, first)}\n{second}: {_loads(cfg, second)}",
+        soil_codes=out / "terrain" / "soil_unit.tif",
+    )
+    step_map, areas = class_change(
+        grid, out / first / "hazard_class.tif", out / second / "hazard_class.tif", frame.step
+    )
+    png = None
+    if cfg.quicklook_map:
+        png = draw_change(
+            folder / f"{first}_vs_{second}_hazard.png",
+            frame,
+            step_map,
+            first,
+            second,
+            HAZARD_CHANGE_NAMES,
+        )
+        written.append(png)
+    return ClassChange(first, second, areas, png, HAZARD_CHANGE_NAMES)
 
 
 def _loads(cfg: Config, name: str) -> str:

@@ -153,11 +153,13 @@ def _comparison(
     parts.append(_table(["class", *names], rows))
     for ch in changes:
         less, more, same = ch.areas_ha
+        worse, better, _ = ch.names
+        what = "hazard class" if worse == "more frequent" else "class"
         parts.append(
-            f"<h3>Where the class changes: {_e(ch.first)} to {_e(ch.second)}</h3><p>"
-            f"{less:,.1f} ha less stable, {more:,.1f} ha more stable and {same:,.1f} ha in the "
+            f"<h3>Where the {what} changes: {_e(ch.first)} to {_e(ch.second)}</h3><p>"
+            f"{less:,.1f} ha {worse}, {more:,.1f} ha {better} and {same:,.1f} ha in the "
             f"same class in {_e(ch.second)} than in {_e(ch.first)}.</p>"
-            + _image(ch.png, f"class change {ch.first} to {ch.second}")
+            + _image(ch.png, f"{what} change {ch.first} to {ch.second}")
         )
     return parts
 
