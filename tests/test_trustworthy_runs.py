@@ -361,7 +361,7 @@ BAD_INPUTS = {
     ),
     "diffusivity override without storm": (
         _text("saturation = 0.0", "saturation = 0.0\n[scenario.soil.A]\ndiffusivity_m2_s = 1e-4"),
-        "diffusivity_m2_s: applies to storm scenarios only",
+        "diffusivity_m2_s: applies to storm and rainfall scenarios only",
     ),
     # files the run cannot use
     "soil polygon without unit": (_null_unit, "has no value in field 'unit'"),
