@@ -225,24 +225,15 @@ def test_compiled_kernel_equals_the_numpy_core():
         np.testing.assert_allclose(out, core, rtol=1e-6)
 
 
-def test_rainfall_scenario_maps_equal_the_core(tmp_path):
-    """A run's critical-intensity, return-period and hazard rasters against the numpy core
-    at every mapped cell (the engine's compiled kernel, its tiles and its storage)."""
-    import rasterio
+def _rain_region(tmp_path, uplift=1.1, water_table=0.9):
+    """The test region with one rainfall scenario; returns (scenario file, IDF grid)."""
+    import geopandas as gpd
     from region_files import SCENARIO_TEXT, _dem, _polygons
 
-    from slopescreen.maps.engine import run
-    from slopescreen.rainfall_frequency import (
-        annual_probability,
-        hazard_class,
-        idf_formula,
-        return_period_yr,
-        triggering_return_period_yr,
-    )
+    from slopescreen.rainfall_frequency import idf_formula
 
+    tmp_path.mkdir(parents=True, exist_ok=True)
     _dem(tmp_path / "dem.tif")
-    import geopandas as gpd
-
     _polygons(tmp_path / "soils.geojson")
     frame = gpd.read_file(tmp_path / "soils.geojson")
     frame["diffusivity_m2_s"] = 5e-5
@@ -256,9 +247,28 @@ def test_rainfall_scenario_maps_equal_the_core(tmp_path):
     head = SCENARIO_TEXT.split("[[scenario]]")[0]
     (tmp_path / "s.toml").write_text(
         head + '[[scenario]]\nname = "r"\n[scenario.rainfall]\ninitial_water_table_depth_m = '
-        '0.9\nuplift = 1.1\n[rainfall_frequency]\nidf_table = "idf.csv"\nafter_h = 12.0\n'
+        f'{water_table}\nuplift = {uplift}\n[rainfall_frequency]\nidf_table = "idf.csv"\n'
+        "after_h = 12.0\n"
     )
-    run(tmp_path / "s.toml", tmp_path / "out", progress=False, echo=lambda s: None)
+    return tmp_path / "s.toml", grid
+
+
+def test_rainfall_scenario_maps_equal_the_core(tmp_path):
+    """A run's critical-intensity, return-period and hazard rasters against the numpy core
+    at every mapped cell (the engine's compiled kernel, its tiles and its storage)."""
+    import rasterio
+
+    from slopescreen.maps.engine import run
+    from slopescreen.rainfall_frequency import (
+        annual_probability,
+        hazard_class,
+        return_period_yr,
+        triggering_return_period_yr,
+    )
+
+    toml, grid = _rain_region(tmp_path)
+    durations, periods = (1.0, 6.0, 24.0), (2.0, 10.0, 100.0)
+    run(toml, tmp_path / "out", progress=False, echo=lambda s: None)
 
     def read(name):
         with rasterio.open(tmp_path / "out" / name) as src:
@@ -319,3 +329,38 @@ def test_demo_uplift_only_makes_failure_more_frequent(demo_out):
     report = (out / "report.html").read_text()
     assert "ha less frequent" in report and " 0.0 ha less frequent" in report
     assert (out / "comparison" / "rain_frequency_vs_rain_frequency_uplift_hazard.png").exists()
+
+
+def test_a_new_uplift_reuses_the_critical_intensities(tmp_path):
+    """The agency's rerun: a new climate scenario (uplift) reuses the verified critical
+    intensities and gives the same bytes as a cold run; a new water table does not."""
+    from slopescreen.maps.engine import run
+
+    def outputs(out):
+        return {
+            p.relative_to(out).as_posix(): p.read_bytes()
+            for p in sorted(out.rglob("*"))
+            if p.is_file()
+            and p.name != "manifest.json"
+            and ".cache" not in p.parts
+            and p.name != "report.html"
+        }
+
+    toml, _ = _rain_region(tmp_path / "a", uplift=1.1)
+    lines: list[str] = []
+    run(toml, tmp_path / "warm", progress=False, echo=lines.append)
+    assert not any("reused from cache" in x for x in lines if "critical intensities" in x)
+    toml.write_text(toml.read_text().replace("uplift = 1.1", "uplift = 1.5"))
+    lines.clear()
+    run(toml, tmp_path / "warm", progress=False, echo=lines.append)
+    assert "scenario r: critical intensities reused from cache (verified)" in lines
+    run(toml, tmp_path / "cold", progress=False, echo=lambda s: None)  # its own cache
+    assert outputs(tmp_path / "warm") == outputs(tmp_path / "cold")
+    toml.write_text(
+        toml.read_text().replace(
+            "initial_water_table_depth_m = 0.9", "initial_water_table_depth_m = 0.5"
+        )
+    )
+    lines.clear()
+    run(toml, tmp_path / "warm", progress=False, echo=lines.append)
+    assert not any("critical intensities reused" in x for x in lines)

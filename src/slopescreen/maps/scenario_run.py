@@ -260,6 +260,29 @@ def recharge_key(units: SoilUnits, sc: Scenario, terrain_key: str) -> str:
     return content_key(*parts)
 
 
+def intensity_key(units: SoilUnits, sc: Scenario, terrain_key: str, cfg: Config) -> str:
+    """Content key of a rainfall scenario's critical intensities: everything but the
+    design-rainfall table, the uplift and the class breaks (a new table or climate scenario
+    reuses them): terrain, soil units and parameters, the seismic load, the antecedent
+    water table, the durations and window, the search's settings and the program version."""
+    from slopescreen import rain_thresholds as rt
+
+    table, spec = cfg.rainfall_frequency, sc.rainfall
+    assert table is not None and spec is not None
+    parts: list[str | bytes] = [terrain_key, units.codes_sha256, __version__]
+    for name in CORE_FIELDS:
+        parts += [name, np.ascontiguousarray(units.parameters[name], np.float64).tobytes()]
+    parts += [
+        repr(float(sc.seismic_coefficient)),
+        repr(spec.initial_water_table_depth_m),
+        repr(spec.long_term_infiltration_mm_day),
+        repr(table.durations_h),
+        repr(table.after_h),
+        repr((rt.DEPTH_SCAN, rt.REFINE_STEPS, rt.SURFACE_FRACTION)),
+    ]
+    return content_key(*parts)
+
+
 def run_scenario(
     cfg: Config,
     sc: Scenario,
@@ -285,6 +308,12 @@ def run_scenario(
     entry = usable_entry(terrain_cache.parent, entry_name, echo)
     cached = entry is not None
     recharge_file = entry / RECHARGE if entry is not None else None
+    intensity_entry, intensity_cached = None, None
+    if sc.rainfall is not None and cfg.rainfall_frequency is not None:
+        intensity_entry = f"critical_intensity-{intensity_key(units, sc, terrain_key, cfg)}"
+        intensity_cached = usable_entry(terrain_cache.parent, intensity_entry, echo)
+        if intensity_cached is not None:
+            echo(f"scenario {sc.name}: critical intensities reused from cache (verified)")
     job = TileJob(
         grid=grid,
         scenario=sc,
@@ -303,6 +332,7 @@ def run_scenario(
         n_units=len(units.keys),
         numba_threads=numba_threads,
         rainfall=cfg.rainfall_frequency if sc.rainfall is not None else None,
+        intensity_cache=intensity_cached,
     )
     with_probability = bool(units.spreads)
     sinks = _sinks(cfg, sc, grid, out, names, with_probability)
@@ -325,6 +355,11 @@ def run_scenario(
         info = {"seismic_coefficient": sc.seismic_coefficient, "terrain_key": terrain_key}
         with building(terrain_cache.parent, entry_name, info) as work:
             shutil.copyfile(out / RECHARGE, work / RECHARGE)
+    if intensity_entry is not None and intensity_cached is None:
+        info = {"terrain_key": terrain_key, "durations_h": list(cfg.rainfall_frequency.durations_h)}  # type: ignore[union-attr]
+        with building(terrain_cache.parent, intensity_entry, info) as work:
+            for d in cfg.rainfall_frequency.durations_h:  # type: ignore[union-attr]
+                shutil.copyfile(out / intensity_name(d), work / intensity_name(d))
     table = np.sum(tables, axis=0)  # in tile order: the same sums whatever ran the tiles
     warnings: list[str] = []
     if missing:

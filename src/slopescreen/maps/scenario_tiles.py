@@ -70,6 +70,7 @@ class TileJob:
     n_units: int
     numba_threads: int = 0  # 0: numba's default (all cores)
     rainfall: RainfallFrequency | None = None  # the design-rainfall table (rainfall scenarios)
+    intensity_cache: Path | None = None  # verified critical intensities (rainfall scenarios)
 
 
 def core_storm(sc: Scenario) -> Storm | None:
@@ -280,7 +281,7 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     if job.spreads:
         values["probability"], values["reliability"] = probability(job, block)
     if sc.rainfall is not None and job.rainfall is not None:
-        values |= rainfall_tile(job, block)
+        values |= rainfall_tile(job, block, rows, cols, valid)
     shape = codes.shape
     for name, v in values.items():
         whole = name in ("classes", "hazard_classes")
@@ -318,10 +319,14 @@ def intensity_name(duration_h: float) -> str:
     return f"critical_intensity_{duration_h:g}h_mm_h.tif"
 
 
-def rainfall_tile(job: TileJob, block: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
-    """Critical intensity per tabulated duration (mm/h, codes -1 and -2), the triggering
-    return period, the annual probability of failure and the hazard class of a tile's
-    cells (see :mod:`slopescreen.rain_thresholds`, :mod:`slopescreen.rainfall_frequency`)."""
+def rainfall_tile(
+    job: TileJob, block: dict[str, np.ndarray], rows: slice, cols: slice, valid: np.ndarray
+) -> dict[str, np.ndarray]:
+    """Critical intensity per tabulated duration (mm/h, codes -1 and -2; from the verified
+    cache where there is one), the triggering return period, the annual probability of
+    failure and the hazard class of a tile's cells (see :mod:`slopescreen.rain_thresholds`,
+    :mod:`slopescreen.rainfall_frequency`). Intensities enter the frequency step as float32,
+    as stored, so a cached rerun gives the same bytes as a computed one."""
     from slopescreen import rain_thresholds as rt
     from slopescreen import rainfall_frequency as rf
     from slopescreen.maps.kernels import critical_intensity_by_unit
@@ -333,6 +338,18 @@ def rainfall_tile(job: TileJob, block: dict[str, np.ndarray]) -> dict[str, np.nd
     periods = []
     intensity = np.empty(c.size)
     for row, duration in enumerate(table.durations_h):
+        if job.intensity_cache is not None:
+            cached = read_block(job.intensity_cache / intensity_name(duration), rows, cols)
+            out[f"intensity_{duration:g}"] = cached[valid].astype(np.float64)
+            periods.append(
+                rf.return_period_yr(
+                    out[f"intensity_{duration:g}"],
+                    table.return_periods_yr,
+                    table.intensity_mm_h[row],
+                    spec.uplift,
+                )
+            )
+            continue
         critical_intensity_by_unit(
             duration * 3600.0,
             (duration + table.after_h) * 3600.0,
@@ -360,10 +377,13 @@ def rainfall_tile(job: TileJob, block: dict[str, np.ndarray]) -> dict[str, np.nd
             rt.NO_INTENSITY_FAILS,
             intensity,
         )
-        out[f"intensity_{duration:g}"] = intensity.copy()
+        out[f"intensity_{duration:g}"] = intensity.astype(np.float32).astype(np.float64)
         periods.append(
             rf.return_period_yr(
-                intensity, table.return_periods_yr, table.intensity_mm_h[row], spec.uplift
+                out[f"intensity_{duration:g}"],
+                table.return_periods_yr,
+                table.intensity_mm_h[row],
+                spec.uplift,
             )
         )
     period = rf.triggering_return_period_yr(np.array(periods))
