@@ -41,21 +41,18 @@ control on shallow landsliding. Water Resources Research 30(4), 1153-1171.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 from numpy.typing import ArrayLike
 
 from slopescreen._checks import checked
 from slopescreen.inverse import critical_saturation
-from slopescreen.storm import SECONDS_PER_HOUR, response_function
+from slopescreen.storm import SECONDS_PER_HOUR, _golden_minimum, response_function
 
 FAILS_WITHOUT_RAIN = -1.0  # FS < 1 somewhere before the storm
 NO_INTENSITY_FAILS = -2.0  # no intensity up to K_z (or the steady cap) brings FS to 1
 DEPTH_SCAN = 48
 REFINE_STEPS = 30
 SURFACE_FRACTION = 1e-3
-GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0
 
 
 def response_rate(t_star: ArrayLike) -> np.ndarray:
@@ -235,29 +232,12 @@ def critical_intensity_mm_h(
     frac = fractions[best]
     lo = np.maximum(frac - step, SURFACE_FRACTION) * z_soil
     hi = np.minimum(frac + step, 1.0) * z_soil
-    refined = _golden(lambda z: np.where(np.isnan(v := _at_depth(z, p)), np.inf, v), lo, hi)
+    refined, _ = _golden_minimum(
+        lambda z: np.where(np.isnan(v := _at_depth(z, p)), np.inf, v),
+        np.asarray(lo, float),
+        np.asarray(hi, float),
+        REFINE_STEPS,
+    )
     result = np.minimum(lowest, refined) * 1000.0 * SECONDS_PER_HOUR
     out = np.where(np.isfinite(result), result, NO_INTENSITY_FAILS)
     return np.where(fails_now, FAILS_WITHOUT_RAIN, out)
-
-
-def _golden(fn, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """Smallest value of ``fn`` seen by golden-section search on [lo, hi] (vectorised)."""
-    a, b = np.array(lo, float), np.array(hi, float)
-    x1, x2 = b - GOLDEN * (b - a), a + GOLDEN * (b - a)
-    f1, f2 = fn(x1), fn(x2)
-    best = np.minimum(f1, f2)
-    for _ in range(REFINE_STEPS):
-        left = f1 <= f2
-        b = np.where(left, x2, b)
-        a = np.where(left, a, x1)
-        x_new = np.where(left, b - GOLDEN * (b - a), a + GOLDEN * (b - a))
-        f_new = fn(x_new)
-        x1, x2, f1, f2 = (
-            np.where(left, x_new, x2),
-            np.where(left, x1, x_new),
-            np.where(left, f_new, f2),
-            np.where(left, f1, f_new),
-        )
-        best = np.minimum(best, f_new)
-    return best
