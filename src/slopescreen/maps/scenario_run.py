@@ -636,35 +636,40 @@ def draw_thresholds(
         n_units=len(units.keys),
     )
     medians, steep = unit_medians(job), unit_medians(job, share=0.9)
-    thresholds: dict[str, np.ndarray] = {}
+    # one column per unit and slope (median, steepest 10%), all durations vectorised
+    labels, codes, slopes, scas = [], [], [], []
     for code, (slope, sca, _) in medians.items():
-        t_day = p["transmissivity_m2_day"][code]
         for label, slope_deg in (("median", slope), ("steep 10%", steep[code][0])):
-            thresholds[f"{units.keys[code - 1]} ({label} slope {slope_deg:.0f} deg)"] = np.array(
-                [
-                    float(
-                        critical_intensity_mm_h(
-                            d,
-                            after_h=table.after_h,
-                            slope_deg=slope_deg,
-                            depth_m=p["depth_m"][code],
-                            cohesion_kpa=p["cohesion_kpa"][code],
-                            friction_deg=p["friction_deg"][code],
-                            unit_weight_kn_m3=p["unit_weight_kn_m3"][code],
-                            saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"][code],
-                            root_cohesion_kpa=p["root_cohesion_kpa"][code],
-                            water_table_depth_m=spec.initial_water_table_depth_m,
-                            hydraulic_conductivity_m_s=p["hydraulic_conductivity_m_s"][code],
-                            diffusivity_m2_s=p["diffusivity_m2_s"][code],
-                            long_term_infiltration_m_s=spec.long_term_infiltration_mm_day / 8.64e7,
-                            seismic_coefficient=sc.seismic_coefficient,
-                            specific_catchment_area_m=sca,
-                            transmissivity_m2_day=None if np.isnan(t_day) else t_day,
-                        )
-                    )
-                    for d in table.durations_h
-                ]
+            labels.append(f"{units.keys[code - 1]} ({label} slope {slope_deg:.0f} deg)")
+            codes.append(code)
+            slopes.append(slope_deg)
+            scas.append(sca)
+    c = np.array(codes, int)
+    t_day = p["transmissivity_m2_day"][c]
+    columns = np.array(
+        [
+            critical_intensity_mm_h(
+                d,
+                after_h=table.after_h,
+                slope_deg=np.array(slopes),
+                depth_m=p["depth_m"][c],
+                cohesion_kpa=p["cohesion_kpa"][c],
+                friction_deg=p["friction_deg"][c],
+                unit_weight_kn_m3=p["unit_weight_kn_m3"][c],
+                saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"][c],
+                root_cohesion_kpa=p["root_cohesion_kpa"][c],
+                water_table_depth_m=spec.initial_water_table_depth_m,
+                hydraulic_conductivity_m_s=p["hydraulic_conductivity_m_s"][c],
+                diffusivity_m2_s=p["diffusivity_m2_s"][c],
+                long_term_infiltration_m_s=spec.long_term_infiltration_mm_day / 8.64e7,
+                seismic_coefficient=sc.seismic_coefficient,
+                specific_catchment_area_m=np.array(scas),
+                transmissivity_m2_day=t_day,
             )
+            for d in table.durations_h
+        ]
+    )  # durations x columns
+    thresholds = {label: columns[:, i] for i, label in enumerate(labels)}
     intensity = np.array(table.intensity_mm_h) * spec.uplift
     return threshold_figure(
         out / "rainfall_thresholds.png",
