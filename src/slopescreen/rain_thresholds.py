@@ -108,17 +108,24 @@ def peak_response(storm_star: ArrayLike, window_star: ArrayLike) -> np.ndarray:
     )
 
 
-def _at_depth(z: np.ndarray, p: dict) -> np.ndarray:
-    """I_c (m/s) at vertical depth z (arrays broadcast with the cells); NaN where none."""
-    cos2 = p["cos2"]
+def _critical_m(z: np.ndarray, p: dict) -> np.ndarray:
+    """Saturation bringing FS to 1 on the plane at depth z (raw; NaN where none)."""
     soil = {
         "saturated_unit_weight_kn_m3": p["gamma_sat"],
         "root_cohesion_kpa": p["c_root"],
         "seismic_coefficient": p["seismic"],
     }
-    m_c = np.asarray(
+    return np.asarray(
         critical_saturation(p["slope"], z, p["c"], p["phi"], p["gamma"], **soil), float
     )
+
+
+def _at_depth(z: np.ndarray, p: dict, m_c: np.ndarray | None = None) -> np.ndarray:
+    """I_c (m/s) at vertical depth z (arrays broadcast with the cells); NaN where none.
+    ``m_c`` is the plane's critical saturation where the caller has it already."""
+    cos2 = p["cos2"]
+    if m_c is None:
+        m_c = _critical_m(z, p)
     psi_c = m_c * z * cos2
     psi0 = (z - p["d"]) * p["beta"]
     scale = p["d_hat"] / (z * z)
@@ -207,24 +214,14 @@ def critical_intensity_mm_h(
     # before the storm: FS below 1 on some plane (dry above the water table, wet below)
     fractions = np.linspace(SURFACE_FRACTION, 1.0, DEPTH_SCAN)
     planes = [np.broadcast_to(f * z_soil, shape) for f in fractions]
-    scan = np.stack([_at_depth(z, p) for z in planes])  # (planes, cells...)
     fails_now = np.zeros(shape, bool)
-    for z in planes:
-        m_c = np.asarray(
-            critical_saturation(
-                slope,
-                z,
-                cohesion_kpa,
-                friction_deg,
-                unit_weight_kn_m3,
-                saturated_unit_weight_kn_m3=saturated_unit_weight_kn_m3,
-                root_cohesion_kpa=root_cohesion_kpa,
-                seismic_coefficient=seismic_coefficient,
-            ),
-            float,
-        )
+    scanned = []
+    for z in planes:  # one critical saturation per plane serves both questions
+        m_c = _critical_m(z, p)
         m0 = np.clip(np.maximum((z - d) * p["beta"], 0.0) / (z * cos2), 0.0, 1.0)
         fails_now |= np.isfinite(m_c) & (m0 >= m_c)
+        scanned.append(_at_depth(z, p, m_c))
+    scan = np.stack(scanned)  # (planes, cells...)
     filled = np.where(np.isnan(scan), np.inf, scan)
     best = np.argmin(filled, axis=0)
     lowest = np.take_along_axis(filled, best[None], axis=0)[0]

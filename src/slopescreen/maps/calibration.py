@@ -30,7 +30,7 @@ from slopescreen.maps.finished_run import VALIDATION_FOLDER, FinishedRun
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.inventory import FEW_CELLS, Inventory
 from slopescreen.maps.rasters import read_block, windows
-from slopescreen.maps.scenario_tiles import Runner, _fs_fast, serial_runner
+from slopescreen.maps.scenario_tiles import Runner, _fs_fast, add_tile, serial_runner
 from slopescreen.maps.terrain_cache import NODATA_F32
 from slopescreen.outputs import real_folder, write_text
 from slopescreen.validation import grouped_curves, held_out_blocks, masses_around
@@ -240,13 +240,7 @@ class Search:
         )
         total: dict[Any, Any] = {}
         for res in self.runner(calibration_tile, [(job, r, c) for r, c in windows(grid)]):
-            for key, value in res.items():
-                if key not in total:
-                    total[key] = value
-                elif isinstance(value, tuple):
-                    total[key] = tuple(a + b for a, b in zip(total[key], value, strict=True))
-                else:
-                    total[key] = total[key] + value
+            add_tile(total, res)
         self.evaluations += len(candidates)
         self.cells_recomputed += total["touched"] * len(candidates)
         results = []

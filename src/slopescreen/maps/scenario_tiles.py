@@ -413,6 +413,18 @@ def _recharge_tile(
     return full
 
 
+def add_tile(total: dict[Any, Any], result: dict[Any, Any]) -> None:
+    """Add one tile's sums to ``total`` (arrays and numbers added, tuples element by
+    element); called in tile order, so the sums are the same whatever ran the tiles."""
+    for key, value in result.items():
+        if key not in total:
+            total[key] = value
+        elif isinstance(value, tuple):
+            total[key] = tuple(a + b for a, b in zip(total[key], value, strict=True))
+        else:
+            total[key] = total[key] + value
+
+
 def serial_runner(fn: Callable[..., dict], jobs: list[tuple]) -> Iterator[dict]:
     for args in jobs:
         yield fn(*args)

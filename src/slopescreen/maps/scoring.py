@@ -23,7 +23,7 @@ import numpy as np
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.inventory import FEW_CELLS, Inventory
 from slopescreen.maps.rasters import read_block, windows
-from slopescreen.maps.scenario_tiles import Runner, serial_runner, threaded_runner
+from slopescreen.maps.scenario_tiles import Runner, add_tile, serial_runner, threaded_runner
 from slopescreen.maps.terrain_cache import NODATA_F32
 from slopescreen.stability_classes import classify
 from slopescreen.validation import RankCurves, auc_standard_error, grouped_curves, held_out_blocks
@@ -253,15 +253,7 @@ def score_scenario(
         v["code"][inside] = res.pop("slide_code")
         if "slide_class" in res:
             v["class"][inside] = res.pop("slide_class")
-        for key, value in res.items():
-            if key in total:
-                total[key] = (
-                    tuple(a + b for a, b in zip(total[key], value, strict=True))
-                    if isinstance(value, tuple)
-                    else total[key] + value
-                )
-            else:
-                total[key] = value
+        add_tile(total, res)
     groups: dict[tuple[str, str], GroupScore] = {}
     warnings: list[str] = []
     for s in scores:

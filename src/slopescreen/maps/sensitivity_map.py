@@ -22,7 +22,7 @@ from slopescreen.maps.config import Scenario
 from slopescreen.maps.finished_run import VALIDATION_FOLDER, FinishedRun
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.rasters import read_block, windows
-from slopescreen.maps.scenario_tiles import CORE_FIELDS, Runner, serial_runner
+from slopescreen.maps.scenario_tiles import CORE_FIELDS, Runner, add_tile, serial_runner
 from slopescreen.maps.summary import write_summary
 from slopescreen.maps.terrain_cache import NODATA_F32
 from slopescreen.maps.validation_plots import tornado_figure
@@ -142,8 +142,7 @@ def _median(hist: np.ndarray, bins: np.ndarray, share: float = 0.5) -> float:
 def _sum(results: Any) -> dict[Any, Any]:
     total: dict[Any, Any] = {}
     for res in results:  # in tile order
-        for key, value in res.items():
-            total[key] = total[key] + value if key in total else value
+        add_tile(total, res)
     return total
 
 
