@@ -22,6 +22,8 @@ KINDS = {
         "initial_water_table_depth_m = 1.0\nlong_term_infiltration_mm_day = 0.0"
     ),
 }
+KINDS["recharge_raster"] = 'recharge_mm_day = "rch.tif"'
+KINDS["storm_raster"] = KINDS["storm"].replace("rain_mm_h = 20.0", 'rain_mm_h = "rain.tif"')
 
 
 def _text(kind, region="", classes="", outputs="", reliability="", scenario="", soil=""):
@@ -65,6 +67,14 @@ def region(tmp_path_factory):
     for name, value in (("m.tif", 0.4), ("m2.tif", 0.7)):
         with rasterio.open(folder / name, "w", **profile) as dst:
             dst.write(np.full((1, 40, 50), value, np.float32))
+    coarse = profile | {"width": 30, "height": 30}  # 25 m cells over the DEM and beyond
+    coarse["transform"] = rasterio.transform.from_origin(499900.0, 5000500.0, 25.0, 25.0)
+    ramp = np.linspace(0.5, 1.5, 30)[None, None, :].repeat(30, axis=1)
+    for name, value in (("rch.tif", 40.0), ("rch2.tif", 5.0), ("rain.tif", 20.0)):
+        with rasterio.open(folder / name, "w", **coarse) as dst:
+            dst.write((value * ramp).astype(np.float32))
+    with rasterio.open(folder / "rain2.tif", "w", **coarse) as dst:
+        dst.write((50.0 * ramp[:, ::-1]).astype(np.float32))
     (folder / "table.csv").write_text(
         "unit,cohesion_kpa,friction_deg,unit_weight_kn_m3,depth_m,hydraulic_conductivity_m_s,"
         "diffusivity_m2_s,cohesion_kpa_sd\nA,3,31,18,1.5,1e-5,1e-4,0.5\nB,5,30,18,1.5,1e-5,"
@@ -143,6 +153,7 @@ WETNESS_CHANGES = {
     "uniform": ("saturation = 0.3", "saturation = 0.6"),
     "raster": ('saturation_raster = "m.tif"', 'saturation_raster = "m2.tif"'),
     "recharge": ("recharge_mm_day = 40.0", "recharge_mm_day = 5.0"),
+    "recharge_raster": ('recharge_mm_day = "rch.tif"', 'recharge_mm_day = "rch2.tif"'),
 }
 STORM_CHANGES = {
     "rain_mm_h": "rain_mm_h = 50.0",
@@ -182,13 +193,15 @@ def test_every_scenario_key_changes_the_outputs(kind, region, tmp_path):
         changes["wetness"] = _text(kind).replace(old, new)
     else:
         for key, line in STORM_CHANGES.items():
+            if kind == "storm_raster" and key == "rain_mm_h":
+                line = 'rain_mm_h = "rain2.tif"'
             changes[key] = _text(kind).replace(
-                next(x for x in KINDS["storm"].splitlines() if x.startswith(key)), line
+                next(x for x in KINDS[kind].splitlines() if x.startswith(key)), line
             )
     for field, value in SOIL_CHANGES.items():
-        if field in ("diffusivity_m2_s", "moisture_capacity_per_m") and kind != "storm":
+        if field in ("diffusivity_m2_s", "moisture_capacity_per_m") and "storm" not in kind:
             continue  # refused outside storms (test_trustworthy_runs: bad-input table)
-        if field == "transmissivity_m2_day" and kind == "storm":
+        if field == "transmissivity_m2_day" and "storm" in kind:
             continue  # it replaces the conductivity a storm needs: refused (test below)
         changes[f"soil.{field}"] = _text(kind, soil=f"{field} = {value}")
     unchanged = [k for k, text in changes.items() if _run(region, tmp_path, k, text) == base]

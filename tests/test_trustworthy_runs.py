@@ -392,6 +392,54 @@ BAD_INPUTS = {
         "m.tif: cannot read saturation raster",
     ),
 }
+
+
+def _recharge_raster(folder, values, origin=(500000.0, 5000400.0), cell=10.0):
+    write_raster(folder / "rch.tif", values, "EPSG:32633", from_origin(*origin, cell, cell), None)
+    _edit(folder / "scenarios.toml", "recharge_mm_day = 40.0", 'recharge_mm_day = "rch.tif"')
+
+
+def _storm_raster(folder, values):
+    _recharge_raster(folder, np.full((40, 50), 10.0))
+    frame = gpd.read_file(folder / "soils.geojson")
+    frame.assign(diffusivity_m2_s=1e-4).to_file(folder / "soils.geojson", driver="GeoJSON")
+    write_raster(
+        folder / "rain.tif",
+        values,
+        "EPSG:32633",
+        from_origin(500000.0, 5000400.0, 10.0, 10.0),
+        None,
+    )
+    _edit(
+        folder / "scenarios.toml",
+        'name = "dry"\nsaturation = 0.0',
+        'name = "dry"\n[scenario.storm]\nrain_mm_h = "rain.tif"\nduration_h = 2.0\n'
+        "initial_water_table_depth_m = 1.0",
+    )
+
+
+RAIN_RASTER_INPUTS = {
+    "recharge raster half the dem": (
+        lambda f: _recharge_raster(f, np.full((40, 25), 20.0)),
+        "rch.tif: recharge_mm_day raster does not cover the DEM dem.tif: no value at x = 500255",
+    ),
+    "recharge raster negative": (
+        lambda f: _recharge_raster(f, np.full((40, 50), -3.0)),
+        "rch.tif: recharge_mm_day values must be in [0, 10000], found -3",
+    ),
+    "recharge raster missing": (
+        _text("recharge_mm_day = 40.0", 'recharge_mm_day = "nosuch.tif"'),
+        "recharge_mm_day: file not found",
+    ),
+    "storm raster too strong": (
+        lambda f: _storm_raster(f, np.full((40, 50), 1500.0)),
+        "rain.tif: rain_mm_h values must be in [0, 1000], found 1500",
+    ),
+    "storm raster holes": (
+        lambda f: _storm_raster(f, np.where(np.eye(40, 50) > 0, np.nan, 5.0)),
+        "rain.tif: rain_mm_h raster does not cover the DEM dem.tif: no value at x = 500005",
+    ),
+}
 IDF_HEAD = "duration_h,return_period_yr,intensity_mm_h\n"
 IDF_GOOD = IDF_HEAD + "1,2,30\n1,10,40\n6,2,10\n6,10,14\n"
 RAIN_SCENARIO = (
@@ -445,6 +493,7 @@ RAINFALL_INPUTS = {
 }
 BAD_INPUTS.update(INVENTORY_INPUTS)
 BAD_INPUTS.update(RAINFALL_INPUTS)
+BAD_INPUTS.update(RAIN_RASTER_INPUTS)
 BAD_OPTIONS = {
     "scheduler not a url": (["--scheduler", "not a url"], "--scheduler 'not a url'"),
     "scheduler port": (["--scheduler", "tcp://127.0.0.1:99999"], "port 1-65535"),

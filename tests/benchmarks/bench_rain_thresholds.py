@@ -53,7 +53,7 @@ def main() -> None:
     best = {"steady scenario": float("inf"), "8 durations": float("inf")}
     for _ in range(args.repeat):
         started = time.perf_counter()
-        steady_saturation_by_unit(10.0, tan, sca, codes, depth, k, t, m)
+        steady_saturation_by_unit(np.array([10.0]), tan, sca, codes, depth, k, t, m)
         fs_by_unit(tan, codes, m, depth, c, tan_phi, gamma, gamma_sat, 0.0, 9.81, fs)
         best["steady scenario"] = min(best["steady scenario"], time.perf_counter() - started)
         started = time.perf_counter()

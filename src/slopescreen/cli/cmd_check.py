@@ -1,7 +1,8 @@
 """``slopescreen check``: validate every input of a scenario file and print what would run.
 
-Reads the DEM, the soil polygons and parameters and any saturation rasters, checks every
-field and range, reports coverage, and lists the scenarios and outputs, without computing.
+Reads the DEM, the soil polygons and parameters and any saturation or rain rasters, checks
+every field and range, reports coverage, and lists the scenarios and outputs, without
+computing.
 
 Example::
 

@@ -31,10 +31,11 @@ NO_SOLUTION = {
 
 
 def steady_only(sc: Scenario, what: str) -> None:
-    if sc.storm is not None:
+    if sc.storm is not None or sc.rainfall is not None:
+        kind = "a storm" if sc.storm is not None else "a rainfall-frequency scenario"
         raise InputError(
             f"--scenario {sc.name}: {what} needs a steady wetness (saturation, "
-            "saturation_raster or recharge_mm_day); this scenario is a storm"
+            f"saturation_raster or recharge_mm_day); this scenario is {kind}"
         )
 
 

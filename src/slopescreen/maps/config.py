@@ -22,7 +22,8 @@ Example (paths are relative to the scenario file)::
 
     [[scenario]]
     name = "wet_season"
-    recharge_mm_day = 40.0            # or saturation = 0.5, or saturation_raster = "m.tif"
+    recharge_mm_day = 40.0            # or "recharge.tif" (mm/day, any grid), or saturation
+                                      # = 0.5, or saturation_raster = "m.tif"
     seismic_coefficient = 0.0
     [scenario.soil.COL]               # optional per-unit overrides
     root_cohesion_kpa = 0.0
@@ -31,6 +32,7 @@ Example (paths are relative to the scenario file)::
 from __future__ import annotations
 
 import difflib
+import math
 import re
 import tomllib
 from collections.abc import Iterable
@@ -77,6 +79,7 @@ RAINFALL_KEYS: dict[str, tuple[float, float]] = {
     "long_term_infiltration_mm_day": (0.0, 1000.0),
     "uplift": (0.1, 10.0),
 }
+RECHARGE_RANGE = (0.0, 10000.0)
 STORM_KEYS: dict[str, tuple[float, float]] = {
     "rain_mm_h": (0.0, 1000.0),
     "duration_h": (0.01, 1000.0),
@@ -105,7 +108,7 @@ class Region:
 
 @dataclass(frozen=True)
 class StormSpec:
-    rain_mm_h: float
+    rain_mm_h: float  # NaN where the scenario's rain_raster gives it
     duration_h: float
     later_h: float  # when to look again, hours after the storm began (>= duration)
     initial_water_table_depth_m: float
@@ -153,6 +156,23 @@ class Scenario:
     soil_overrides: dict[str, dict[str, float]] = field(default_factory=dict)
     storm: StormSpec | None = None
     rainfall: RainfallSpec | None = None
+    # a raster in place of the rain number: recharge_mm_day (steady) or the storm's
+    # rain_mm_h, on any grid, resampled bilinearly onto the DEM's
+    rain_raster: Path | None = None
+
+    @property
+    def steady_recharge(self) -> bool:
+        """Wetness from a steady recharge, uniform or from a raster."""
+        return self.recharge_mm_day is not None or (
+            self.rain_raster is not None and self.storm is None
+        )
+
+    @property
+    def rain_unit(self) -> tuple[str, float, float]:
+        """(key, low, high) of the rain raster's values: mm/day for recharge, mm/h storms."""
+        if self.storm is not None:
+            return ("rain_mm_h", *STORM_KEYS["rain_mm_h"])
+        return ("recharge_mm_day", *RECHARGE_RANGE)
 
     @property
     def wetness(self) -> str:
@@ -166,13 +186,20 @@ class Scenario:
             )
         if self.storm is not None:
             st = self.storm
+            rain = (
+                f"rain from {self.rain_raster.name} (mm/h)"
+                if self.rain_raster is not None
+                else f"{st.rain_mm_h:g} mm/h"
+            )
             return (
-                f"design storm {st.rain_mm_h:g} mm/h for {st.duration_h:g} h, water table "
+                f"design storm {rain} for {st.duration_h:g} h, water table "
                 f"initially {st.initial_water_table_depth_m:g} m deep; FS the lowest over "
                 f"depth and time to {st.later_h:g} h"
             )
         if self.recharge_mm_day is not None:
             return f"steady recharge {self.recharge_mm_day:g} mm/day"
+        if self.rain_raster is not None:
+            return f"steady recharge from {self.rain_raster.name} (mm/day)"
         if self.saturation_raster is not None:
             return f"saturation raster {self.saturation_raster.name}"
         return f"uniform saturation m = {self.saturation:g}"
@@ -686,6 +713,7 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
                 raise r.fail(sub, key, "applies to storm and rainfall scenarios only; remove it")
         overrides[str(unit)] = {k: r.number(sub, fields, k, *SOIL_FIELDS[k][:2]) for k in fields}  # type: ignore[misc]
     storm = None
+    rain_raster = None
     if "storm" in sc:
         sub = f"{table}.storm"
         raw = sc["storm"]
@@ -695,7 +723,11 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
         for key in ("rain_mm_h", "duration_h", "initial_water_table_depth_m"):
             if key not in raw:
                 raise r.fail(sub, "", f"storm needs {key}")
+        if isinstance(raw["rain_mm_h"], str):  # a raster of intensities
+            rain_raster = r.file(sub, raw, "rain_mm_h")
+            raw = {k: v for k, v in raw.items() if k != "rain_mm_h"}
         values = {k: r.number(sub, raw, k, *STORM_KEYS[k]) for k in raw}
+        values.setdefault("rain_mm_h", math.nan)
         values.setdefault("later_h", values["duration_h"])
         if values["later_h"] < values["duration_h"]:
             raise r.fail(
@@ -705,6 +737,9 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
             )
         storm = StormSpec(**values)  # type: ignore[arg-type]
     rainfall = None
+    if isinstance(sc.get("recharge_mm_day"), str):  # a raster of recharge
+        rain_raster = r.file(table, sc, "recharge_mm_day")
+        sc = {k: v for k, v in sc.items() if k != "recharge_mm_day"}
     if "rainfall" in sc:
         sub = f"{table}.rainfall"
         raw = sc["rainfall"]
@@ -723,7 +758,8 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
         saturation_raster=r.file(table, sc, "saturation_raster")
         if "saturation_raster" in sc
         else None,
-        recharge_mm_day=r.number(table, sc, "recharge_mm_day", 0.0, 10000.0),
+        recharge_mm_day=r.number(table, sc, "recharge_mm_day", *RECHARGE_RANGE),
+        rain_raster=rain_raster,
         seismic_coefficient=float(
             r.number(table, sc, "seismic_coefficient", *RANGES["seismic_coefficient"][:2], 0.0)
         ),

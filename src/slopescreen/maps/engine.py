@@ -39,7 +39,7 @@ from slopescreen.maps.config import Config, Scenario, load_config
 from slopescreen.maps.grid import Grid, dem_files_sha256, read_elevations, read_grid
 from slopescreen.maps.inventory import Inventory
 from slopescreen.maps.locks import folder_lock
-from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_saturation
+from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_on_grid
 from slopescreen.maps.report import Extras, RunFacts, write_report
 from slopescreen.maps.scenario_run import ScenarioSummary, run_scenario
 from slopescreen.maps.scenario_tiles import Runner, check_storm_soils, serial_runner
@@ -136,12 +136,18 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
         voids["area_m2"] += float(area[~ok].sum())
         return ok
 
+    def dem_cells(rows: slice, cols: slice) -> np.ndarray:
+        return np.isfinite(read_elevations(cfg.region.dem, "m", rows, cols))
+
     soils = load_soils(cfg.region, grid)
     for sc in cfg.scenarios:  # everything is checked before anything is written
         where = f"{cfg.path}: scenario {sc.name}"
         check_storm_soils(soils.with_overrides(sc.soil_overrides, where), sc, where)
         if sc.saturation_raster is not None:
-            read_saturation(sc.saturation_raster, grid)
+            read_on_grid(sc.saturation_raster, grid, "saturation", (0.0, 1.0))
+        if sc.rain_raster is not None:  # rain must fall on every cell of the DEM
+            key, low, high = sc.rain_unit
+            read_on_grid(sc.rain_raster, grid, key, (low, high), needed=dem_cells)
     sink = None
     if codes_target is not None:
         tags = {f"unit_{i}": k for i, k in enumerate(soils.keys, start=1)}
@@ -173,6 +179,8 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     for sc in cfg.scenarios:
         if sc.saturation_raster is not None:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)
+        if sc.rain_raster is not None:
+            hashes[f"rain_raster:{sc.name}"] = file_sha256(sc.rain_raster)
     inventory = None
     if cfg.inventory is not None:
         from slopescreen.maps.inventory import read_inventory

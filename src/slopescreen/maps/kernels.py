@@ -102,9 +102,11 @@ def steady_saturation_by_unit(
     out,
 ):
     """Steady-state m = min(1, R (a/b) / (T sin beta)), T from the unit's transmissivity
-    where given, else K z cos(beta); flat cells saturate when R > 0."""
-    r = recharge_mm_day / 1000.0
+    where given, else K z cos(beta); flat cells saturate when R > 0. ``recharge_mm_day``:
+    one value, or one per cell."""
+    uniform = recharge_mm_day.size == 1
     for i in numba.prange(tan_slope.size):
+        r = (recharge_mm_day[0] if uniform else recharge_mm_day[i]) / 1000.0
         j = codes[i]
         tb = np.float64(tan_slope[i])
         cos_b = 1.0 / math.sqrt(1.0 + tb * tb)

@@ -13,7 +13,7 @@ import contextlib
 import os
 import shutil
 import tempfile
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 
 import numpy as np
@@ -137,24 +137,33 @@ def read_block(path: Path, rows: slice, cols: slice) -> np.ndarray:
         return src.read(1, window=window)
 
 
-def read_saturation(
-    path: Path, grid: Grid, rows: slice | None = None, cols: slice | None = None
+def read_on_grid(
+    path: Path,
+    grid: Grid,
+    what: str,
+    allowed: tuple[float, float],
+    rows: slice | None = None,
+    cols: slice | None = None,
+    needed: Callable[[slice, slice], np.ndarray] | None = None,
 ) -> np.ndarray:
-    """A window of the saturation raster resampled onto the DEM grid (bilinear, NaN where
-    it has no data); with no window, checks the whole raster tile by tile: it must be
-    readable, georeferenced, overlap the DEM and hold values in [0, 1] only."""
+    """A window of a raster on any grid (``what``: "saturation", "rain_mm_h" ...) resampled
+    onto the DEM grid (bilinear, NaN where it has no data). With no window, checks the whole
+    raster tile by tile: readable, georeferenced, values within ``allowed`` only, and
+    covering some cell of the DEM, or, with ``needed`` (tile -> mask of cells that must
+    have a value), every such cell."""
     import rasterio
     from rasterio.enums import Resampling
     from rasterio.vrt import WarpedVRT
     from rasterio.windows import Window
 
+    low, high = allowed
     try:
         src = rasterio.open(path)
     except rasterio.errors.RasterioIOError as exc:
-        raise InputError(f"{path}: cannot read saturation raster ({exc})") from None
+        raise InputError(f"{path}: cannot read {what} raster ({exc})") from None
     with src:
         if src.crs is None:
-            raise InputError(f"{path}: saturation raster has no coordinate reference system")
+            raise InputError(f"{path}: {what} raster has no coordinate reference system")
         with WarpedVRT(
             src,
             crs=grid.crs,
@@ -171,7 +180,7 @@ def read_saturation(
                 try:
                     return vrt.read(1, window=window).astype(np.float64)
                 except rasterio.errors.RasterioError as exc:
-                    raise InputError(f"{path}: cannot read saturation raster ({exc})") from None
+                    raise InputError(f"{path}: cannot read {what} raster ({exc})") from None
 
             if rows is not None and cols is not None:
                 return read(rows, cols)
@@ -179,15 +188,26 @@ def read_saturation(
             for r, c in windows(grid):
                 m = read(r, c)
                 finite = np.isfinite(m)
-                bad = finite & ((m < 0.0) | (m > 1.0))
+                bad = finite & ((m < low) | (m > high))
                 if bad.any():
                     raise InputError(
-                        f"{path}: saturation values must be in [0, 1], found {float(m[bad][0]):g}"
+                        f"{path}: {what} values must be in [{low:g}, {high:g}], found "
+                        f"{float(m[bad][0]):g}"
                     )
+                if needed is not None:
+                    gap = needed(r, c) & ~finite
+                    if gap.any():
+                        i, j = np.argwhere(gap)[0]
+                        x, y = grid.transform * (c.start + j + 0.5, r.start + i + 0.5)
+                        raise InputError(
+                            f"{path}: {what} raster does not cover the DEM {grid.path.name}: "
+                            f"no value at x = {x:.6g}, y = {y:.6g} (row {r.start + i}, "
+                            f"column {c.start + j})"
+                        )
                 covered += int(finite.sum())
             if covered == 0:
                 raise InputError(
-                    f"{path}: saturation raster covers no cell of the DEM {grid.path.name} "
+                    f"{path}: {what} raster covers no cell of the DEM {grid.path.name} "
                     "(after reprojection to the DEM's grid)"
                 )
             return np.empty(0)

@@ -338,6 +338,11 @@ def _methods(cfg: Config, scenarios: list[ScenarioSummary], soils: SoilUnits) ->
         )
     if any(sc.saturation_raster is not None for sc in ran):
         items.append("Saturation rasters: the user's m, resampled to the DEM's grid.")
+    if any(sc.rain_raster is not None for sc in ran):
+        items.append(
+            "Rain rasters (recharge or storm intensity): the user's grid resampled "
+            "bilinearly onto the DEM's grid; it covers every cell of the DEM."
+        )
     if soils.spreads and any(s.probability_areas_ha for s in scenarios):
         rel = cfg.reliability
         if rel.method == "taylor" or any(sc.storm is not None for sc in ran):

@@ -77,6 +77,10 @@ def _sinks(
         "seismic_coefficient": f"{sc.seismic_coefficient:g}",
         "ground_geometry": grid.ground.note,
     }
+    if sc.rain_raster is not None:
+        base["rain_raster"] = (
+            f"{sc.rain_raster.name} ({sc.rain_unit[0]}) resampled bilinearly onto the DEM grid"
+        )
 
     def f32(name: str, **tags: str) -> RasterSink:
         return RasterSink(out / name, grid, "float32", NODATA_F32, tags=base | tags)
@@ -365,8 +369,8 @@ def run_scenario(
     if missing:
         warnings.append(
             f"scenario {sc.name}: {missing} cells have no value in "
-            f"{sc.saturation_raster.name} and are left unmapped"
-        )  # type: ignore
+            f"{(sc.saturation_raster or sc.rain_raster).name} and are left unmapped"  # type: ignore[union-attr]
+        )
     if with_probability:
         without = [k for i, k in enumerate(units.keys, start=1) if i not in units.spreads]
         if without:

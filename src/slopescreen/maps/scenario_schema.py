@@ -99,7 +99,13 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
         ("description", "text", "none", "shown in the report and the manifest"),
         ("saturation", "0 to 1", "-", "uniform saturation ratio m (one wetness key)"),
         ("saturation_raster", "path", "-", "raster of m on any grid (one wetness key)"),
-        ("recharge_mm_day", "0 to 10000", "-", "steady recharge R, mm/day (one wetness key)"),
+        (
+            "recharge_mm_day",
+            "0 to 10000, or a raster path",
+            "-",
+            "steady recharge R, mm/day; a raster on any grid is resampled bilinearly "
+            "(one wetness key)",
+        ),
         ("storm", "table", "-", "a design storm, [scenario.storm] (one wetness key)"),
         (
             "rainfall",
@@ -116,7 +122,12 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
         ("soil", "table of units", "none", "[scenario.soil.UNIT]: any soil field below"),
     ],
     "scenario.storm": [
-        ("rain_mm_h", "0 to 1000", "required", "rain intensity"),
+        (
+            "rain_mm_h",
+            "0 to 1000, or a raster path",
+            "required",
+            "rain intensity; a raster on any grid (e.g. radar) is resampled bilinearly",
+        ),
         ("duration_h", "0.01 to 1000", "required", "storm duration"),
         ("later_h", "duration_h to 10000", "duration_h", "look again this long after the start"),
         ("initial_water_table_depth_m", "0 to 100", "required", "water table before the storm"),

@@ -19,7 +19,7 @@ import numpy as np
 from slopescreen.errors import InputError
 from slopescreen.maps.config import RainfallFrequency, ReliabilitySpec, Scenario
 from slopescreen.maps.grid import Grid
-from slopescreen.maps.rasters import read_block, read_saturation
+from slopescreen.maps.rasters import read_block, read_on_grid
 from slopescreen.maps.soils import SoilUnits
 from slopescreen.maps.summary import add_areas
 from slopescreen.maps.terrain_cache import NODATA_F32
@@ -73,12 +73,13 @@ class TileJob:
     intensity_cache: Path | None = None  # verified critical intensities (rainfall scenarios)
 
 
-def core_storm(sc: Scenario) -> Storm | None:
+def core_storm(sc: Scenario, rain_mm_h: np.ndarray | None = None) -> Storm | None:
+    """The scenario's storm for the core; ``rain_mm_h`` per cell where a raster gives it."""
     if sc.storm is None:
         return None
     st = sc.storm
     return Storm(
-        rain_mm_h=st.rain_mm_h,
+        rain_mm_h=st.rain_mm_h if rain_mm_h is None else rain_mm_h,  # type: ignore[arg-type]
         duration_h=st.duration_h,
         later_h=st.later_h,
         water_table_depth_m=st.initial_water_table_depth_m,
@@ -124,7 +125,7 @@ def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) ->
     """FS of a unit's cells for the reliability methods (samples broadcast over cells)."""
     if sc.storm is not None:  # at the critical plane and time of the mean parameters
         p.pop("specific_catchment_area_m")
-        storm = core_storm(sc)
+        storm = core_storm(sc, block.get("rain"))
         assert storm is not None
         return storm_fs_at(
             p.pop("slope_deg"),
@@ -136,7 +137,7 @@ def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) ->
         )
     slope = p.pop("slope_deg")
     sca = p.pop("specific_catchment_area_m")
-    if sc.recharge_mm_day is not None:
+    if sc.steady_recharge:
         from slopescreen.hydrology import steady_state_saturation
         from slopescreen.scenario import cell_transmissivity_m2_day
 
@@ -146,7 +147,8 @@ def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) ->
             p["depth_m"],
             slope,
         )
-        m = steady_state_saturation(sc.recharge_mm_day, sca, slope, t)
+        rain = block["rain"] if "rain" in block else sc.recharge_mm_day
+        m = steady_state_saturation(rain, sca, slope, t)
     else:
         m = block["saturation"]
     return _fs_fast(sc.seismic_coefficient, block["tan"], m, **p)
@@ -203,13 +205,22 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     terrain_ok = (codes > 0) & (tan != NODATA_F32) & (sca != NODATA_F32)
     valid = terrain_ok.copy()
     out: dict[str, Any] = {"rows": rows, "cols": cols, "missing_wetness": 0}
-    m_grid = None
+    m_grid = rain_grid = None
     if sc.saturation_raster is not None:
-        m_grid = read_saturation(job.scenario.saturation_raster, job.grid, rows, cols)
+        m_grid = read_on_grid(sc.saturation_raster, job.grid, "saturation", (0.0, 1.0), rows, cols)
         out["missing_wetness"] = int((valid & ~np.isfinite(m_grid)).sum())
         valid &= np.isfinite(m_grid)
+    if sc.rain_raster is not None:  # checked to cover every DEM cell before the run
+        key, low, high = sc.rain_unit
+        rain_grid = np.clip(
+            read_on_grid(sc.rain_raster, job.grid, key, (low, high), rows, cols), low, high
+        )
+        out["missing_wetness"] = int((valid & ~np.isfinite(rain_grid)).sum())
+        valid &= np.isfinite(rain_grid)
     c = codes[valid]
     block = {"tan": tan[valid], "sca": sca[valid], "codes": c}
+    if rain_grid is not None:
+        block["rain"] = rain_grid[valid]
     t = job.tables
     n = c.size
     values: dict[str, np.ndarray] = {}
@@ -217,7 +228,7 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
         block["slope"] = read_block(job.slope_deg, rows, cols)[valid].astype(np.float64)
     params = {name: t[name][c] for name in CORE_FIELDS} if sc.storm is not None else {}
     if sc.storm is not None:
-        storm = core_storm(sc)
+        storm = core_storm(sc, block.get("rain"))
         assert storm is not None
         summary, m = storm_response(
             block["slope"],
@@ -236,9 +247,9 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
         )
     else:
         m = np.empty(n)
-        if sc.recharge_mm_day is not None:
+        if sc.steady_recharge:
             steady_saturation_by_unit(
-                float(sc.recharge_mm_day),
+                block["rain"] if "rain" in block else np.array([sc.recharge_mm_day], float),
                 block["tan"],
                 block["sca"],
                 c,

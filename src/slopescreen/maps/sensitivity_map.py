@@ -151,6 +151,11 @@ def sensitivity(
 ) -> tuple[dict[str, object], list[Path]]:
     """The manifest entry and files of the sensitivity of one scenario."""
     steady_only(sc, "sensitivity")
+    if sc.rain_raster is not None:
+        raise InputError(
+            f"--scenario {sc.name}: sensitivity needs one recharge number or a saturation; "
+            f"this scenario reads recharge from {sc.rain_raster.name}"
+        )
     units = done.soils.with_overrides(sc.soil_overrides, f"scenario {sc.name}")
     tables = {name: units.parameters[name] for name in CORE_FIELDS}
     varied = list(VARIED)
