@@ -364,3 +364,56 @@ def test_a_new_uplift_reuses_the_critical_intensities(tmp_path):
     lines.clear()
     run(toml, tmp_path / "warm", progress=False, echo=lines.append)
     assert not any("critical intensities reused" in x for x in lines)
+
+
+def test_gridded_design_rainfall_gives_each_cell_its_own_return_period(tmp_path):
+    """Gridded design rainfall (a depth raster per duration and return period) whose
+    power-law coefficient a rises linearly eastward: bilinear resampling keeps a linear
+    field exact (analytic), so each cell's triggering return period is the closed-form
+    inversion T = (I_c (D + b)^n / (u a(x)))^(1/m) of its own critical intensities, the
+    shortest over the durations."""
+    import rasterio
+    from rasterio.transform import from_origin
+    from region_files import write_raster
+
+    from slopescreen.maps.engine import run
+
+    toml, _ = _rain_region(tmp_path)
+    durations, periods = (1.0, 6.0, 24.0), (2.0, 10.0, 100.0)
+    x = 499910.0 + 20.0 * np.arange(32)  # 20 m cells beyond the DEM on every side
+
+    def a_of(xs):
+        return 40.0 + 0.06 * (xs - 499900.0)
+
+    rows = ["duration_h,return_period_yr,depth_raster_mm"]
+    for d in durations:
+        for t in periods:
+            depth = d * a_of(x) * t**0.2 / (d + 0.3) ** 0.75
+            name = f"depth_{d:g}h_{t:g}yr.tif"
+            write_raster(
+                tmp_path / name,
+                np.repeat(depth[None, :], 26, axis=0),
+                transform=from_origin(499900.0, 5000460.0, 20.0, 20.0),
+            )
+            rows.append(f"{d:g},{t:g},{name}")
+    (tmp_path / "idf.csv").write_text("\n".join(rows) + "\n")
+    run(toml, tmp_path / "out", progress=False, echo=lambda s: None)
+
+    def read(name):
+        with rasterio.open(tmp_path / "out" / name) as src:
+            return src.read(1).astype(float)
+
+    a = np.broadcast_to(a_of(500005.0 + 10.0 * np.arange(50)), (40, 50))
+    found = read("r/triggering_return_period_yr.tif")
+    per_duration = []
+    for d in durations:
+        ic = read(f"r/critical_intensity_{d:g}h_mm_h.tif")
+        with np.errstate(invalid="ignore"):
+            t = (ic * (d + 0.3) ** 0.75 / (1.1 * a)) ** (1.0 / 0.2)
+        per_duration.append(np.where((ic > 0) & (t >= 2.0) & (t <= 100.0), t, np.inf))
+    expected = np.min(per_duration, axis=0)
+    inside = np.isfinite(expected) & (found > 0)
+    assert inside.sum() > 200 and np.isfinite(expected[found > 0]).all()
+    np.testing.assert_allclose(found[inside], expected[inside], rtol=2e-5)
+    with rasterio.open(tmp_path / "out" / "r" / "hazard_class.tif") as src:
+        assert "gridded: 9 rasters resampled bilinearly" in src.tags()["idf_table"]

@@ -46,6 +46,24 @@ def test_return_period_inverts_a_power_law_idf_exactly():
         np.testing.assert_allclose(lifted[inside], expected[inside], rtol=1e-9)
 
 
+def test_gridded_design_rainfall_inverts_each_cells_own_power_law():
+    # gridded design rainfall: each cell its own coefficient a (here 15 to 45); the
+    # per-cell interpolation must give each cell's closed-form inversion (as above)
+    rng = np.random.default_rng(3)
+    a = rng.uniform(15.0, 45.0, 400)
+    true = np.exp(rng.uniform(np.log(2.0), np.log(200.0), 400))
+    for duration in (1.0, 24.0):
+        rows = a[None, :] * PERIODS[:, None] ** M / (duration + B) ** N  # (periods, cells)
+        intensity = a * true**M / (duration + B) ** N
+        found = return_period_yr(intensity, PERIODS, rows, uplift=1.2)
+        expected = (intensity * (duration + B) ** N / (1.2 * a)) ** (1.0 / M)
+        inside = (expected >= 2.0) & (expected <= 200.0)
+        assert 100 < inside.sum() < 400
+        np.testing.assert_allclose(found[inside], expected[inside], rtol=1e-9)
+        codes = return_period_yr([rows[0, 0] * 0.5, rows[-1, 1] * 3.0], PERIODS, rows[:, :2])
+        assert codes.tolist() == [MORE_FREQUENT, RARER]
+
+
 def test_codes_outside_the_table_and_for_the_threshold_codes():
     table = idf_formula([6.0], PERIODS, A, M, B, N)[0]
     out = return_period_yr([table[0] * 0.5, table[-1] * 2.0, -1.0, -2.0], PERIODS, table)

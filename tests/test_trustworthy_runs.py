@@ -458,7 +458,39 @@ def _rainfall(idf=IDF_GOOD, table='idf_table = "idf.csv"\n', scenario=RAIN_SCENA
     return change
 
 
+def _gridded(values_by_row, origin=(500000.0, 5000400.0)):
+    def change(folder):
+        lines = ["duration_h,return_period_yr,intensity_raster_mm_h"]
+        for (d, t), values in values_by_row.items():
+            name = f"i_{d}_{t}.tif"
+            transform = from_origin(*origin, 10.0, 10.0)
+            write_raster(folder / name, values, "EPSG:32633", transform, None)
+            lines.append(f"{d},{t},{name}")
+        _rainfall("\n".join(lines) + "\n")(folder)
+        frame = gpd.read_file(folder / "soils.geojson")
+        frame.assign(diffusivity_m2_s=1e-4).to_file(folder / "soils.geojson", driver="GeoJSON")
+
+    return change
+
+
+GRID = {(1, 2): 30.0, (1, 10): 40.0, (6, 2): 10.0, (6, 10): 14.0}
 RAINFALL_INPUTS = {
+    "gridded idf not rising in a cell": (
+        _gridded(
+            {k: np.full((40, 50), v) for k, v in GRID.items()}
+            | {(1, 10): np.where(np.arange(50) == 7, 20.0, 40.0)[None].repeat(40, 0)}
+        ),
+        "idf.csv: intensity must rise with return period: i_1_2.tif (30 mm/h) and i_1_10.tif "
+        "(20 mm/h) at x = 500075",
+    ),
+    "gridded idf short of the dem": (
+        _gridded({k: np.full((40, 30), v) for k, v in GRID.items()}),
+        "i_1_2.tif: design rainfall intensity_mm_h raster does not cover the DEM",
+    ),
+    "gridded idf raster missing": (
+        _rainfall("duration_h,return_period_yr,intensity_raster_mm_h\n1,2,nosuch.tif\n"),
+        "idf.csv: line 2: intensity_raster_mm_h: file not found",
+    ),
     "idf not rising with return period": (
         _rainfall(IDF_GOOD.replace("1,10,40", "1,10,25")),
         "idf.csv: duration 1 h: intensity must rise with return period",
@@ -474,7 +506,7 @@ RAINFALL_INPUTS = {
     "idf negative": (_rainfall(IDF_GOOD.replace("6,2,10", "6,2,-1")), "must be a number > 0"),
     "idf two amount columns": (
         _rainfall("duration_h,return_period_yr,intensity_mm_h,depth_mm\n1,2,3,3\n"),
-        "one of intensity_mm_h or depth_mm",
+        "one of intensity_mm_h, depth_mm, intensity_raster_mm_h, depth_raster_mm",
     ),
     "rainfall without table": (_rainfall(table=None), "add a [rainfall_frequency] table"),
     "rainfall table unused": (_rainfall(scenario=""), "no scenario uses it"),

@@ -65,24 +65,33 @@ def idf_formula(
     return a * t**m / (d + b) ** n
 
 
+def check_axes(
+    durations_h: ArrayLike, return_periods_yr: ArrayLike, where: str
+) -> tuple[np.ndarray, np.ndarray]:
+    """The table's durations and return periods, sorted; InputError naming ``where`` unless
+    there is a duration and two return periods, each > 0 h and > 1 year, none twice."""
+    d = np.sort(np.asarray(durations_h, float))
+    t = np.sort(np.asarray(return_periods_yr, float))
+    if d.size < 1 or t.size < 2:
+        raise InputError(f"{where}: needs at least one duration and two return periods")
+    if (d <= 0).any() or (t <= 1.0).any():
+        raise InputError(f"{where}: durations must be > 0 h and return periods > 1 year")
+    if np.unique(d).size != d.size or np.unique(t).size != t.size:
+        raise InputError(f"{where}: a duration or return period appears twice")
+    return d, t
+
+
 def check_table(
     durations_h: ArrayLike, return_periods_yr: ArrayLike, intensity_mm_h: ArrayLike, where: str
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The table as sorted arrays; InputError naming ``where`` and the offending entry for
     negative, missing or non-monotone values."""
-    d = np.asarray(durations_h, float)
-    t = np.asarray(return_periods_yr, float)
+    d, t = check_axes(durations_h, return_periods_yr, where)
     i = np.asarray(intensity_mm_h, float)
-    if d.size < 1 or t.size < 2:
-        raise InputError(f"{where}: needs at least one duration and two return periods")
     if i.shape != (d.size, t.size):
         raise InputError(f"{where}: intensities must fill the grid of durations x return periods")
-    if (d <= 0).any() or (t <= 1.0).any():
-        raise InputError(f"{where}: durations must be > 0 h and return periods > 1 year")
-    order_d, order_t = np.argsort(d), np.argsort(t)
-    d, t, i = d[order_d], t[order_t], i[np.ix_(order_d, order_t)]
-    if np.unique(d).size != d.size or np.unique(t).size != t.size:
-        raise InputError(f"{where}: a duration or return period appears twice")
+    order_d, order_t = np.argsort(durations_h), np.argsort(return_periods_yr)
+    i = i[np.ix_(order_d, order_t)]
     bad = ~np.isfinite(i) | (i <= 0.0)
     if bad.any():
         r, c = np.argwhere(bad)[0]
@@ -118,7 +127,8 @@ def return_period_yr(
     with the sorted return periods), log-log between rows; codes ``MORE_FREQUENT`` and
     ``RARER`` outside the table; the critical-intensity codes -1 and -2 of
     :mod:`slopescreen.rain_thresholds` become ``FAILS_WITHOUT_RAIN`` and
-    ``NO_INTENSITY_FAILS``.
+    ``NO_INTENSITY_FAILS``. ``intensity_mm_h`` is one row for all cells, or (gridded
+    design rainfall) one row per cell along axis 0: (return periods, cells...).
 
     >>> t = [2.0, 10.0, 100.0]
     >>> return_period_yr([idf_formula([3.0], [30.0], 20.0, 0.2, 0.5, 0.7)[0, 0]], t,
@@ -131,7 +141,15 @@ def return_period_yr(
     with np.errstate(divide="ignore", invalid="ignore"):
         x = np.log(np.where(ic > 0.0, ic, np.nan))
     inside = (x >= li[0]) & (x <= li[-1])
-    out = np.exp(np.interp(np.where(inside, x, li[0]), li, t))
+    if li.ndim == 1:
+        out = np.exp(np.interp(np.where(inside, x, li[0]), li, t))
+    else:  # per cell: the segment k with li[k] <= x < li[k + 1], linear in between
+        k = np.clip((li <= x).sum(axis=0) - 1, 0, t.size - 2)
+        lo = np.take_along_axis(li, k[None], axis=0)[0]
+        hi = np.take_along_axis(li, k[None] + 1, axis=0)[0]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            share = np.where(inside, (x - lo) / (hi - lo), 0.0)
+        out = np.exp(t[k] + share * (t[k + 1] - t[k]))
     out = np.where(x < li[0], MORE_FREQUENT, np.where(x > li[-1], RARER, out))
     out = np.where(ic == -1.0, FAILS_WITHOUT_RAIN, out)
     return np.where(ic == -2.0, NO_INTENSITY_FAILS, out)

@@ -132,9 +132,16 @@ class RainfallFrequency:
     idf_table: Path
     durations_h: tuple[float, ...]
     return_periods_yr: tuple[float, ...]
-    intensity_mm_h: tuple[tuple[float, ...], ...]  # durations x return periods
+    intensity_mm_h: tuple[tuple[float, ...], ...]  # durations x return periods; () if gridded
     aep_breaks: tuple[float, ...] = (0.1, 0.01, 0.001)
     after_h: float = 24.0  # each storm is followed this long for the minimum FS
+    rasters: tuple[tuple[Path, ...], ...] = ()  # gridded design rainfall, same grid
+    depth_rasters: bool = False  # the rasters hold depths (mm), not intensities
+
+    @property
+    def files(self) -> list[Path]:
+        """The table and the rasters it names."""
+        return [self.idf_table, *(p for row in self.rasters for p in row)]
 
 
 @dataclass(frozen=True)
@@ -548,7 +555,7 @@ def _rainfall_frequency(
     from slopescreen.maps.idf_table import read_idf
 
     path = r.file("rainfall_frequency", table, "idf_table")
-    durations, periods, grid = read_idf(path)
+    durations, periods, grid, rasters, depths = read_idf(path)
     breaks = table.get("aep_breaks", [0.1, 0.01, 0.001])
     shape = "a list of 1 to 8 falling annual probabilities in (0, 1)"
     if (
@@ -563,7 +570,9 @@ def _rainfall_frequency(
         idf_table=path,
         durations_h=tuple(float(d) for d in durations),
         return_periods_yr=tuple(float(t) for t in periods),
-        intensity_mm_h=tuple(tuple(float(x) for x in row) for row in grid),
+        intensity_mm_h=() if grid is None else tuple(tuple(float(x) for x in row) for row in grid),
+        rasters=rasters,
+        depth_rasters=depths,
         aep_breaks=tuple(float(b) for b in breaks),
         after_h=float(r.number("rainfall_frequency", table, "after_h", 0.0, 1000.0, 24.0)),
     )

@@ -148,6 +148,19 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
         if sc.rain_raster is not None:  # rain must fall on every cell of the DEM
             key, low, high = sc.rain_unit
             read_on_grid(sc.rain_raster, grid, key, (low, high), needed=dem_cells)
+    rain = cfg.rainfall_frequency
+    if rain is not None and rain.rasters:
+        from slopescreen.maps.idf_table import check_gridded
+
+        check_gridded(
+            rain.rasters,
+            rain.durations_h,
+            rain.return_periods_yr,
+            rain.depth_rasters,
+            grid,
+            dem_cells,
+            rain.idf_table,
+        )
     sink = None
     if codes_target is not None:
         tags = {f"unit_{i}": k for i, k in enumerate(soils.keys, start=1)}
@@ -181,6 +194,9 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)
         if sc.rain_raster is not None:
             hashes[f"rain_raster:{sc.name}"] = file_sha256(sc.rain_raster)
+    if rain is not None:
+        for path in rain.files:
+            hashes[f"design_rainfall:{path.name}"] = file_sha256(path)
     inventory = None
     if cfg.inventory is not None:
         from slopescreen.maps.inventory import read_inventory

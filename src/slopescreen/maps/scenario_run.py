@@ -188,7 +188,13 @@ def rainfall_sinks(
         "code_no_intensity": f"{rf.NO_INTENSITY_FAILS:g}",
     }
     frequency = {
-        "idf_table": table.idf_table.name,
+        "idf_table": table.idf_table.name
+        + (
+            f" (gridded: {sum(map(len, table.rasters))} rasters resampled bilinearly onto "
+            "the DEM grid)"
+            if table.rasters
+            else ""
+        ),
         "uplift": f"{sc.rainfall.uplift:g}",
         "interpolation": "log intensity linear in log return period between table rows",
     }
@@ -674,7 +680,13 @@ def draw_thresholds(
         ]
     )  # durations x columns
     thresholds = {label: columns[:, i] for i, label in enumerate(labels)}
-    intensity = np.array(table.intensity_mm_h) * spec.uplift
+    if table.rasters:  # gridded: each raster's median, stated on the plot
+        from slopescreen.maps.idf_table import regional_intensities
+
+        design = regional_intensities(table.rasters, table.durations_h, table.depth_rasters)
+    else:
+        design = np.array(table.intensity_mm_h)
+    intensity = design * spec.uplift
     return threshold_figure(
         out / "rainfall_thresholds.png",
         table.durations_h,
@@ -684,4 +696,5 @@ def draw_thresholds(
         f"{cfg.region.name}: {sc.name}. Critical rain per soil unit at its median and its "
         f"steepest 10% slope (median catchment), water table {spec.initial_water_table_depth_m:g}"
         " m deep",
+        "median of the gridded design rainfall" if table.rasters else "design rainfall",
     )

@@ -84,7 +84,9 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
             "idf_table",
             "path",
             "required",
-            "CSV: duration_h, return_period_yr, intensity_mm_h (or depth_mm), full grid",
+            "CSV: duration_h, return_period_yr and intensity_mm_h (or depth_mm, or a raster "
+            "path per row: intensity_raster_mm_h or depth_raster_mm for gridded design "
+            "rainfall), every duration for every return period",
         ),
         (
             "aep_breaks",

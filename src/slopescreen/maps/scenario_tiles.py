@@ -348,6 +348,14 @@ def rainfall_tile(
     out: dict[str, np.ndarray] = {}
     periods = []
     intensity = np.empty(c.size)
+    if table.rasters:  # gridded design rainfall: (durations, return periods, cells)
+        from slopescreen.maps.idf_table import gridded_block
+
+        design = gridded_block(
+            table.rasters, table.durations_h, table.depth_rasters, job.grid, rows, cols
+        )[:, :, valid]
+    else:
+        design = np.array(table.intensity_mm_h)
     for row, duration in enumerate(table.durations_h):
         if job.intensity_cache is not None:
             cached = read_block(job.intensity_cache / intensity_name(duration), rows, cols)
@@ -356,7 +364,7 @@ def rainfall_tile(
                 rf.return_period_yr(
                     out[f"intensity_{duration:g}"],
                     table.return_periods_yr,
-                    table.intensity_mm_h[row],
+                    design[row],
                     spec.uplift,
                 )
             )
@@ -393,7 +401,7 @@ def rainfall_tile(
             rf.return_period_yr(
                 out[f"intensity_{duration:g}"],
                 table.return_periods_yr,
-                table.intensity_mm_h[row],
+                design[row],
                 spec.uplift,
             )
         )

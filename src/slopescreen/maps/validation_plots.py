@@ -150,6 +150,7 @@ def threshold_figure(
     return_periods_yr: tuple[float, ...],
     intensity_mm_h: np.ndarray,
     title: str,
+    design_label: str = "design rainfall",
 ) -> Path:
     """Intensity-duration thresholds per soil unit (log-log, the usual form of rainfall
     thresholds, e.g. Caine 1980) against the design-rainfall curves of each return period."""
@@ -181,6 +182,6 @@ def threshold_figure(
     ax.set_title(textwrap.fill(title, 90), fontsize=9)
     ax.grid(alpha=0.3, which="both")
     ax.legend(fontsize=6, loc="center left", bbox_to_anchor=(1.08, 0.5),
-              title="grey dashed: design rainfall", title_fontsize=7)  # fmt: skip
+              title=f"grey dashed: {design_label}", title_fontsize=7)  # fmt: skip
     fig.set_size_inches(10.5, 5.6)
     return _save(fig, target, 0.08)
