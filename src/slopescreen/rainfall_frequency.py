@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import itertools
 import math
+from collections.abc import Callable
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -37,6 +38,7 @@ RARER = -2.0  # no tabulated storm triggers failure
 FAILS_WITHOUT_RAIN = -3.0  # the cell fails before any storm
 NO_INTENSITY_FAILS = -4.0  # no intensity up to the soil's conductivity fails the cell
 DEFAULT_AEP_BREAKS = (0.1, 0.01, 0.001)
+BANDS = 256  # bands of storm level for the annual probability with soil spreads
 
 
 def hazard_class_names(breaks: tuple[float, ...] = DEFAULT_AEP_BREAKS) -> list[str]:
@@ -183,6 +185,45 @@ def annual_probability(return_period: ArrayLike, shortest_yr: float) -> np.ndarr
         p = 1.0 - np.exp(-1.0 / np.where(t > 0.0, t, np.inf))
     p = np.where(t == MORE_FREQUENT, 1.0 - math.exp(-1.0 / shortest_yr), p)
     return np.where(t == FAILS_WITHOUT_RAIN, 1.0, p)
+
+
+def band_edges(shortest_yr: float, longest_yr: float, bands: int = BANDS) -> np.ndarray:
+    """Return periods bounding ``bands`` bands of storm level, equal in log(T), from the
+    table's shortest to its longest period."""
+    return np.geomspace(shortest_yr, longest_yr, bands + 1)
+
+
+def annual_probability_over_bands(
+    triggered_by: Callable[[float], np.ndarray],
+    fails_without_rain: ArrayLike,
+    edges_yr: ArrayLike,
+) -> np.ndarray:
+    """Annual probability of failure with uncertain soil: the sum over bands of storm level
+    of P(failure | a storm of the band) x P(the year's storm lies in the band).
+
+    The year's largest storms of every duration are taken at one return-period level T
+    (the table's storms of a year rise together: the assumption of the triggering return
+    period), exceeded with annual probability p(T) = 1 - exp(-1/T). ``triggered_by(T)``
+    gives, per cell, P(the storms of level T start failure), counting cells that fail
+    before any rain; it must not fall as T rises. Each band is represented by its stronger
+    end, so the sum bounds the integral from above (conservative); the excess is at most
+    one band's share ln(e_j+1 / e_j) of the result (|dp/dlnT| <= p), 2.4% for 256 bands
+    from 2 to 1000 years (tested against a dense sum). As in :func:`annual_probability`:
+    storms weaker than the shortest tabulated period start no failure (only
+    ``fails_without_rain``, P of failure before any rain, counts there) and storms beyond
+    the longest act as the longest.
+
+    >>> edges = band_edges(2.0, 100.0, 64)  # failure certain from T = 10 yr on
+    >>> p = annual_probability_over_bands(lambda t: np.array([float(t >= 10.0)]), [0.0], edges)
+    >>> bool(annual_probability([10.0], 2.0)[0] <= p[0] < annual_probability([9.0], 2.0)[0])
+    True
+    """
+    e = np.asarray(edges_yr, float)
+    p = 1.0 - np.exp(-1.0 / e)  # p(e_0) > p(e_1) > ...
+    total = np.asarray(fails_without_rain, float) * (1.0 - p[0])
+    for j in range(e.size - 1):
+        total = total + triggered_by(float(e[j + 1])) * (p[j] - p[j + 1])
+    return total + triggered_by(float(e[-1])) * p[-1]
 
 
 def hazard_class(

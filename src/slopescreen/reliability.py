@@ -202,35 +202,70 @@ def reliability_fosm(
     fs_distribution : "normal" (beta = (FS - 1)/sigma) or "lognormal" (Duncan's form).
     """
     correlations = correlations or {}
-    names = _uncertain(values, correlations)
+    points = taylor_points(values, correlations)
+    fs = {key: np.minimum(np.asarray(fs_of(**p), float), FS_STAT_CAP) for key, p in points.items()}
+    sd = taylor_sd(fs, correlations)
+    beta = moment_reliability_index(fs[None], sd, fs_distribution)
+    return _result(fs[None], sd, beta, normal_cdf(-beta))
+
+
+TaylorKey = tuple[str, float] | None  # (input, +1 or -1) or None for the means
+
+
+def taylor_points(
+    values: Mapping[str, Any], correlations: Mapping[tuple[str, str], float] | None = None
+) -> dict[TaylorKey, dict[str, Any]]:
+    """The inputs of the Taylor-series method: all means (key None), and each uncertain
+    input at mean + sd and mean - sd (keys (name, +1) and (name, -1))."""
+    names = _uncertain(values, correlations or {})
     base = _means(values)
-    fs = np.minimum(np.asarray(fs_of(**base), float), FS_STAT_CAP)
-    half = {}
+    points: dict[TaylorKey, dict[str, Any]] = {None: base}
     for name in names:
         s = values[name]
-        hi = np.minimum(np.asarray(fs_of(**(base | {name: s.mean + s.sd})), float), FS_STAT_CAP)
-        lo = np.minimum(np.asarray(fs_of(**(base | {name: s.mean - s.sd})), float), FS_STAT_CAP)
-        half[name] = (hi - lo) / 2.0
-    var = sum((d * d for d in half.values()), np.zeros_like(fs))
+        points[(name, 1.0)] = base | {name: s.mean + s.sd}
+        points[(name, -1.0)] = base | {name: s.mean - s.sd}
+    return points
+
+
+def taylor_sd(
+    fs: Mapping[TaylorKey, np.ndarray], correlations: Mapping[tuple[str, str], float] | None = None
+) -> np.ndarray:
+    """sigma_FS of the Taylor-series method from FS at the points of :func:`taylor_points`:
+    sigma^2 = sum((dF_i / 2)^2) + 2 sum(rho_ij dF_i/2 dF_j/2) (Duncan 2000)."""
+    correlations = correlations or {}
+    names = [key[0] for key in fs if key is not None and key[1] > 0]
+    half = {n: (fs[(n, 1.0)] - fs[(n, -1.0)]) / 2.0 for n in names}
+    var = sum((d * d for d in half.values()), np.zeros_like(fs[None]))
     for i, a in enumerate(names):
         for b in names[i + 1 :]:
             var = var + 2.0 * _pair(correlations, a, b) * half[a] * half[b]
-    sd = np.sqrt(np.maximum(var, 0.0))
+    return np.sqrt(np.maximum(var, 0.0))
+
+
+def moment_reliability_index(
+    fs_mean: ArrayLike, fs_sd: ArrayLike, fs_distribution: str = "normal"
+) -> np.ndarray:
+    """beta from FS's mean and standard deviation: (FS - 1) / sigma (normal), or Duncan's
+    lognormal form ln(FS / sqrt(1 + V^2)) / sqrt(ln(1 + V^2)), V = sigma / FS; +-inf where
+    sigma = 0 (Duncan 2000).
+
+    >>> round(float(moment_reliability_index(1.5, 0.25)), 6)
+    2.0
+    """
+    fs = np.asarray(fs_mean, float)
+    sd = np.asarray(fs_sd, float)
     with np.errstate(all="ignore"):
         if fs_distribution == "normal":
-            beta = np.where(sd > 0, (fs - 1.0) / sd, np.where(fs >= 1.0, np.inf, -np.inf))
-        elif fs_distribution == "lognormal":
+            return np.where(sd > 0, (fs - 1.0) / sd, np.where(fs >= 1.0, np.inf, -np.inf))
+        if fs_distribution == "lognormal":
             v2 = (sd / fs) ** 2
             beta = np.where(
                 sd > 0,
                 np.log(fs / np.sqrt(1.0 + v2)) / np.sqrt(np.log1p(v2)),
                 np.where(fs >= 1.0, np.inf, -np.inf),
             )
-        else:
-            raise InputError(
-                f"fs_distribution must be normal or lognormal, got {fs_distribution!r}"
-            )
-    return _result(fs, sd, beta, normal_cdf(-beta))
+            return np.where(fs > 0.0, beta, -np.inf)  # FS = 0: fails for certain
+    raise InputError(f"fs_distribution must be normal or lognormal, got {fs_distribution!r}")
 
 
 def reliability_monte_carlo(

@@ -38,6 +38,11 @@ SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     ),
     ("triggering_return_period_yr.tif", "rainfall", "return period of the rain starting failure"),
     ("annual_failure_probability.tif", "rainfall", "1 - exp(-1/T): how often, per year"),
+    (
+        "annual_failure_probability_with_spread.tif",
+        "rainfall, soil spreads",
+        "annual probability with rainfall frequency and soil spreads together",
+    ),
     ("hazard_class.tif", "rainfall", "classes by annual probability, colour table"),
     ("hazard_class.png", "rainfall, maps on", "map of the hazard classes"),
     ("triggering_return_period_yr.png", "rainfall, maps on", "map of the return period"),

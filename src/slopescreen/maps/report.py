@@ -188,11 +188,25 @@ def _scenario_section(s: ScenarioSummary, class_names: list[str], unit_keys: lis
             "<em>hazard</em> in the zoning sense: it carries a frequency). Cells already "
             "below FS 1 before the rain count in the most frequent class.</p>"
             + _table(
-                ["class", "area"],
+                ["class", "area"]
+                + (["area with soil spreads"] if s.hazard_spread_areas_ha is not None else []),
                 [
                     [_e(n), _ha(a, mapped)]
-                    for n, a in zip(s.hazard_names, s.hazard_areas_ha, strict=True)
+                    + (
+                        [_ha(s.hazard_spread_areas_ha[i], mapped)]
+                        if s.hazard_spread_areas_ha
+                        else []
+                    )
+                    for i, (n, a) in enumerate(zip(s.hazard_names, s.hazard_areas_ha, strict=True))
                 ],
+            )
+            + (
+                "<p>With soil spreads: the annual probability over rainfall frequency and soil "
+                "uncertainty together (<code>annual_failure_probability_with_spread.tif</code>; "
+                "a year's storms of every duration taken at one return-period level); units "
+                "without spreads are not counted there.</p>"
+                if s.hazard_spread_areas_ha is not None
+                else ""
             )
         )
     if s.cut_off_ha and mapped:
@@ -336,6 +350,30 @@ def _methods(cfg: Config, scenarios: list[ScenarioSummary], soils: SoilUnits) ->
             "suction neglected; FS the minimum over depth and time, bracketed and refined "
             "(golden-section search)."
         )
+    if any(sc.rainfall is not None for sc in ran) and cfg.rainfall_frequency is not None:
+        rain = cfg.rainfall_frequency
+        items.append(
+            "Rainfall frequency: per cell and tabulated duration, the smallest constant "
+            "intensity bringing the minimum FS (over depth, and over the storm and "
+            f"{rain.after_h:g} h after it) to 1, in closed form from the pressure head of "
+            "Iverson (2000), its minimum over depth bracketed on 48 planes and refined "
+            "(golden-section search), capped by the steady water table of the same rain "
+            "(Montgomery &amp; Dietrich 1994). Return period from the design-rainfall table, "
+            "log intensity linear in log return period between rows; the triggering storm "
+            "is the most frequent over the durations; annual probability 1 - exp(-1/T); "
+            "classes at annual probabilities " + ", ".join(f"{b:g}" for b in rain.aep_breaks) + "."
+        )
+        if soils.spreads:
+            how = (
+                "Monte Carlo over the soil parameters (each sample's own triggering return period)"
+                if cfg.reliability.method == "monte_carlo"
+                else "the Taylor-series method on the rain factor of safety I_c / min(i, K_z) "
+                "at the critical duration, summed over 256 bands of storm level (conservative)"
+            )
+            items.append(
+                "Annual probability with soil spreads: the year's storms of every duration at "
+                f"one return-period level; P(failure | level) by {how}."
+            )
     if any(sc.saturation_raster is not None for sc in ran):
         items.append("Saturation rasters: the user's m, resampled to the DEM's grid.")
     if any(sc.rain_raster is not None for sc in ran):

@@ -58,6 +58,7 @@ class ScenarioSummary:
     zones: list[dict[str, object]] = field(default_factory=list)  # largest, by area
     hazard_areas_ha: list[float] | None = None  # per hazard class (rainfall scenarios)
     hazard_names: list[str] = field(default_factory=list)
+    hazard_spread_areas_ha: list[float] | None = None  # the same with the soil spreads
 
 
 def _sinks(
@@ -136,7 +137,7 @@ def _sinks(
             code_no_failure=f"{NO_FAILURE_CODE:g} (FS stays >= 1 up to {sc.storm.later_h:g} h)",
         )
     if sc.rainfall is not None and cfg.rainfall_frequency is not None:
-        sinks |= rainfall_sinks(cfg, sc, grid, out, base)
+        sinks |= rainfall_sinks(cfg, sc, grid, out, base, with_probability)
     if with_probability:
         conventions = probability_conventions(cfg, sc)
         sinks["probability"] = f32(
@@ -152,10 +153,16 @@ def _sinks(
 
 
 def rainfall_sinks(
-    cfg: Config, sc: Scenario, grid: Grid, out: Path, base: dict[str, str]
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    out: Path,
+    base: dict[str, str],
+    with_probability: bool = False,
 ) -> dict[str, RasterSink]:
     """The rasters of a rainfall-frequency scenario: critical intensity per duration,
-    triggering return period, annual probability of failure, hazard classes."""
+    triggering return period, annual probability of failure (with the soil spreads too,
+    where given), hazard classes."""
     from slopescreen import rainfall_frequency as rf
     from slopescreen.maps.quicklook import colour_table
 
@@ -210,6 +217,21 @@ def rainfall_sinks(
         more_frequent="the shortest tabulated period's p (a lower bound)",
         **frequency,
     )
+    if with_probability:
+        how = (
+            f"Monte Carlo, {cfg.reliability.samples} samples (random_state "
+            f"{cfg.reliability.random_state}): mean of each sample's p(T)"
+            if cfg.reliability.method == "monte_carlo"
+            else f"Taylor series (Duncan 2000) on the critical intensity, "
+            f"{cfg.reliability.fs_distribution}, summed over {rf.BANDS} bands of storm level"
+        )
+        sinks["annual_probability_spread"] = f32(
+            "annual_failure_probability_with_spread.tif",
+            units="per year: rainfall frequency and soil spreads together",
+            method=how,
+            storms="a year's storms of every duration at one return-period level",
+            **frequency,
+        )
     sinks["hazard_classes"] = RasterSink(
         out / "hazard_class.tif",
         grid,
@@ -346,7 +368,7 @@ def run_scenario(
     )
     with_probability = bool(units.spreads)
     sinks = _sinks(cfg, sc, grid, out, names, with_probability)
-    tables, pf_tables, cut_tables, hazard_tables = [], [], [], []
+    tables, pf_tables, cut_tables, hazard_tables, spread_tables = [], [], [], [], []
     missing = 0
     with all_or_nothing(*sinks.values()):
         tiles = [(job, rows, cols) for rows, cols in windows(grid)]
@@ -360,6 +382,8 @@ def run_scenario(
                 pf_tables.append(res["pf_table"])
             if "hazard_table" in res:
                 hazard_tables.append(res["hazard_table"])
+            if "hazard_spread_table" in res:
+                spread_tables.append(res["hazard_spread_table"])
             missing += res["missing_wetness"]
     if not cached:  # the output holds exactly the cached values; its tags are this scenario's
         info = {"seismic_coefficient": sc.seismic_coefficient, "terrain_key": terrain_key}
@@ -410,6 +434,17 @@ def run_scenario(
             hazard_table, units.keys, hazard_names, sc.name, "annual_failure_probability"
         )
         hazard_areas = hazard_table[1:, 1:] / 10_000.0
+    spread_areas = None
+    if spread_tables:
+        spread_table = np.sum(spread_tables, axis=0)
+        rows_out += summary_rows(
+            spread_table,
+            units.keys,
+            hazard_names,
+            sc.name,
+            "annual_failure_probability_with_spread",
+        )
+        spread_areas = [float(a) / 10_000.0 for a in spread_table[1:, 1:].sum(axis=0)]
     write_summary(rows_out, out / "summary.csv")
     largest: list[dict[str, object]] = []
     if cfg.zones:
@@ -460,6 +495,7 @@ def run_scenario(
         largest,
         hazard_areas.sum(axis=0).tolist() if hazard_areas is not None else None,
         hazard_names,
+        spread_areas,
     ), rows_out
 
 

@@ -292,10 +292,10 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     if job.spreads:
         values["probability"], values["reliability"] = probability(job, block)
     if sc.rainfall is not None and job.rainfall is not None:
-        values |= rainfall_tile(job, block, rows, cols, valid)
+        values |= rainfall_tile(job, block, rows, cols, valid, values.get("probability"))
     shape = codes.shape
     for name, v in values.items():
-        whole = name in ("classes", "hazard_classes")
+        whole = name in ("classes", "hazard_classes", "hazard_classes_spread")
         full = np.zeros(shape, np.uint8) if whole else np.full(shape, NODATA_F32, np.float32)
         full[valid] = v if whole else np.nan_to_num(v, nan=NODATA_F32)
         out[name] = full
@@ -316,6 +316,10 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
         hazard_table = np.zeros((job.n_units + 1, len(job.rainfall.aep_breaks) + 2))  # type: ignore[union-attr]
         add_areas(hazard_table, codes * valid, out["hazard_classes"], cell_area)
         out["hazard_table"] = hazard_table
+    if "hazard_classes_spread" in out:
+        spread_table = np.zeros((job.n_units + 1, len(job.rainfall.aep_breaks) + 2))  # type: ignore[union-attr]
+        add_areas(spread_table, codes * valid, out.pop("hazard_classes_spread"), cell_area)
+        out["hazard_spread_table"] = spread_table
     if job.spreads:
         pf_table = np.zeros((job.n_units + 1, len(PF_CLASS_NAMES) + 1))
         pf_classes = np.zeros(shape, np.uint8)
@@ -331,7 +335,12 @@ def intensity_name(duration_h: float) -> str:
 
 
 def rainfall_tile(
-    job: TileJob, block: dict[str, np.ndarray], rows: slice, cols: slice, valid: np.ndarray
+    job: TileJob,
+    block: dict[str, np.ndarray],
+    rows: slice,
+    cols: slice,
+    valid: np.ndarray,
+    dry_probability: np.ndarray | None = None,
 ) -> dict[str, np.ndarray]:
     """Critical intensity per tabulated duration (mm/h, codes -1 and -2; from the verified
     cache where there is one), the triggering return period, the annual probability of
@@ -409,7 +418,45 @@ def rainfall_tile(
     out["return_period"] = period
     out["annual_probability"] = rf.annual_probability(period, table.return_periods_yr[0])
     out["hazard_classes"] = rf.hazard_class(out["annual_probability"], table.aep_breaks)
+    if job.spreads and dry_probability is not None:
+        mean = np.array([out[f"intensity_{d:g}"] for d in table.durations_h])
+        spread = _annual_with_spread(job, block, design, mean, dry_probability)
+        out["annual_probability_spread"] = spread
+        out["hazard_classes_spread"] = rf.hazard_class(spread, table.aep_breaks)
     return out
+
+
+def _annual_with_spread(
+    job: TileJob,
+    block: dict[str, np.ndarray],
+    design: np.ndarray,
+    mean_intensity: np.ndarray,
+    dry_probability: np.ndarray,
+) -> np.ndarray:
+    """Annual probability of failure with the soil spreads, unit by unit (NaN for units
+    without spreads): :mod:`slopescreen.maps.rain_spread`."""
+    from slopescreen.maps.rain_spread import annual_probability_with_spread
+
+    codes = block["codes"]
+    result = np.full(codes.shape, np.nan)
+    for code in np.unique(codes):
+        spreads = job.spreads.get(int(code))
+        if not spreads:
+            continue
+        sel = codes == code
+        values: dict[str, object] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
+        values.update(spreads)
+        rho = job.correlations.get(int(code), 0.0)
+        result[sel] = annual_probability_with_spread(
+            job,
+            {k: v[sel] for k, v in block.items()},
+            values,
+            {("cohesion_kpa", "friction_deg"): rho} if rho else {},
+            design[:, :, sel] if design.ndim == 3 else design,
+            mean_intensity[:, sel],
+            dry_probability[sel],
+        )
+    return result
 
 
 def _recharge_tile(
