@@ -328,6 +328,16 @@ def test_demo_uplift_only_makes_failure_more_frequent(demo_out):
     )
     report = (out / "report.html").read_text()
     assert "ha less frequent" in report and " 0.0 ha less frequent" in report
+    # the demo's design rainfall is a power law i = a T^0.2 / (D + b)^0.75, so a uplift u of
+    # every intensity divides each duration's return period, and so the shortest, by
+    # u^(1 / 0.2) (closed form): 1.2^-5 = 0.402 wherever both lie inside the table
+    ratio = read("comparison/rain_frequency_vs_rain_frequency_uplift_return_period_ratio.tif")
+    inside = both & (today * 1.2**-5 >= 2.0)
+    assert inside.sum() > 100
+    # the table's intensities are written to 0.001 mm/h: 1e-4 relative, 5x that in T
+    np.testing.assert_allclose(ratio[inside], 1.2**-5, rtol=1e-3)
+    assert np.all(ratio[~both] == -9999.0)
+    assert "over rain_frequency's is 0.40;" in report
     assert (out / "comparison" / "rain_frequency_vs_rain_frequency_uplift_hazard.png").exists()
 
 
@@ -417,3 +427,93 @@ def test_gridded_design_rainfall_gives_each_cell_its_own_return_period(tmp_path)
     np.testing.assert_allclose(found[inside], expected[inside], rtol=2e-5)
     with rasterio.open(tmp_path / "out" / "r" / "hazard_class.tif") as src:
         assert "gridded: 9 rasters resampled bilinearly" in src.tags()["idf_table"]
+
+
+def test_tables_of_critical_intensity_match_the_kernel():
+    """On large grids the map engine interpolates critical intensities from a table per
+    soil unit and duration (slope x log10 SCA), checked a posteriori at every table cell's
+    centre: against the kernel itself on 10^4 random cells, within the stated tolerance
+    (twice the centre check's 0.1%: bilinear error peaks near the centre, not beyond it)."""
+    from types import SimpleNamespace
+
+    from slopescreen.maps import intensity_tables as it
+    from slopescreen.maps.config import RainfallFrequency, RainfallSpec
+
+    def unit(*values):
+        return np.array([np.nan, *values])
+
+    job = SimpleNamespace(
+        scenario=SimpleNamespace(
+            rainfall=RainfallSpec(initial_water_table_depth_m=0.5), seismic_coefficient=0.0
+        ),
+        rainfall=RainfallFrequency(
+            idf_table=None, durations_h=(6.0,), return_periods_yr=(2.0, 10.0), intensity_mm_h=()
+        ),
+        tables={
+            "depth_m": unit(1.2, 2.0),
+            "cohesion_kpa": unit(1.0, 2.5),
+            "root_cohesion_kpa": unit(0.5, 0.0),
+            "friction_deg": unit(31.0, 33.0),
+            "unit_weight_kn_m3": unit(18.5, 19.5),
+            "saturated_unit_weight_kn_m3": unit(20.0, 21.0),
+            "hydraulic_conductivity_m_s": unit(2e-5, 1e-5),
+            "diffusivity_m2_s": unit(5e-5, 2e-5),
+            "transmissivity_m2_day": unit(np.nan, 0.5),
+        },
+    )
+    tables = {(code, 6.0): it.build_table(job, code, 6.0) for code in (1, 2)}
+    rng = np.random.default_rng(8)
+    n = 10_000
+    tan = np.tan(np.radians(rng.uniform(5.0, 50.0, n))).astype(np.float32)
+    sca = (10.0 ** rng.uniform(0.3, 4.0, n)).astype(np.float32)
+    codes = rng.integers(1, 3, n).astype(np.uint16)
+    exact = it.by_kernel(job, 6.0, tan, sca, codes)
+    found = it.critical_intensity(job, 6.0, tan, sca, codes, tables)
+    np.testing.assert_array_equal(found < 0, exact < 0)
+    np.testing.assert_array_equal(found[exact < 0], exact[exact < 0])  # codes: the kernel's
+    ok = exact > 0
+    assert ok.sum() > 500  # the slopes between failing before rain and never failing
+    error = np.abs(found[ok] - exact[ok]) / exact[ok]
+    assert error.max() <= 2 * it.TOLERANCE, error.max()
+    from slopescreen.maps.kernels import intensity_from_table
+
+    out, flag = np.empty(n), np.zeros(n, bool)
+    t = tables[(1, 6.0)]
+    slope_deg, log_sca = it.table_coordinates(tan, sca)
+    ones = np.ones(n, np.uint16)
+    has = np.array([False, True])
+    values, flagged = np.stack([t.values, t.values]), np.stack([t.flagged, t.flagged])
+    intensity_from_table(
+        slope_deg, log_sca, ones, values, flagged, has, t.origin, t.step, out, flag
+    )
+    assert 0 < flag.mean() < 0.2  # the table answers most cells, not all
+
+
+def test_a_run_with_tables_gives_the_kernels_maps_within_tolerance(tmp_path, monkeypatch):
+    """The large-grid path forced on the small test region: every mapped critical
+    intensity within 0.2% of the run without tables, the codes the same."""
+    import rasterio
+
+    from slopescreen.maps import intensity_tables
+    from slopescreen.maps.engine import run
+    from slopescreen.maps.scenario_tiles import intensity_name
+
+    toml, _ = _rain_region(tmp_path)
+    run(toml, tmp_path / "kernel", progress=False, echo=lambda s: None)
+    monkeypatch.setattr(intensity_tables, "MIN_CELLS_PER_NODE", 0)
+    lines = []
+    run(toml, tmp_path / "tables", progress=False, echo=lines.append)
+    assert any("critical intensities from tables for A, B" in line for line in lines)
+
+    def read(folder, name):
+        with rasterio.open(tmp_path / folder / "r" / name) as src:
+            return src.read(1).astype(float)
+
+    compared = 0
+    for d in (1.0, 6.0, 24.0):
+        a, b = read("kernel", intensity_name(d)), read("tables", intensity_name(d))
+        np.testing.assert_array_equal(a[a < 0], b[a < 0])  # codes and no data
+        ok = a > 0
+        compared += ok.sum()
+        np.testing.assert_allclose(b[ok], a[ok], rtol=2e-3)
+    assert compared > 100

@@ -96,3 +96,33 @@ def test_tables_that_are_not_monotone_are_refused(change, fragment):
     change(table)
     with pytest.raises(InputError, match=fragment):
         check_table(DURATIONS, PERIODS, table, "idf.csv")
+
+
+def test_the_compiled_frequency_step_equals_the_core():
+    # the map engine's one-pass kernel against the numpy functions above, with codes,
+    # values on table rows, beyond both ends and zero
+    from slopescreen.maps.kernels import frequency_by_cell
+
+    rng = np.random.default_rng(4)
+    table = idf_formula(DURATIONS, PERIODS, A, M, B, N) * 1.2
+    n = 20000
+    found = rng.lognormal(1.5, 1.2, (DURATIONS.size, n))
+    found[rng.random(found.shape) < 0.2] = -2.0
+    found[:, :50] = -2.0  # all durations: no intensity fails
+    found[rng.random(found.shape) < 0.01] = -1.0
+    found[0, 60:70] = table[0, 2]  # exactly on a row
+    found[1, 70:80] = 0.0
+    period, p, cls = np.empty(n), np.empty(n), np.empty(n, np.uint8)
+    codes = np.array([MORE_FREQUENT, RARER, FAILS_WITHOUT_RAIN, NO_INTENSITY_FAILS])
+    shortest = float(annual_probability([MORE_FREQUENT], PERIODS[0])[0])
+    breaks = np.array([0.1, 0.01, 0.001])
+    frequency_by_cell(
+        found, np.log(PERIODS), np.log(table), shortest, breaks, codes, period, p, cls
+    )
+    expected = triggering_return_period_yr(
+        [return_period_yr(found[i], PERIODS, table[i]) for i in range(DURATIONS.size)]
+    )
+    np.testing.assert_allclose(period, expected, rtol=1e-12)
+    assert {-1.0, -2.0, -3.0, -4.0} <= set(np.unique(period[period < 0]))
+    np.testing.assert_allclose(p, annual_probability(expected, PERIODS[0]), rtol=1e-12)
+    assert np.array_equal(cls, hazard_class(annual_probability(expected, PERIODS[0])))

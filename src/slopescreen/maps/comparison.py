@@ -36,6 +36,20 @@ class ClassChange:
     areas_ha: tuple[float, float, float]  # less stable, more stable, same (in both mapped)
     png: Path | None = None
     names: tuple[str, str, str] = CHANGE_NAMES  # or HAZARD_CHANGE_NAMES for hazard classes
+    # hazard comparisons: the triggering return period in second / in first
+    ratio: PeriodRatio | None = None
+
+
+@dataclass
+class PeriodRatio:
+    """Triggering return period of the second scenario over the first's, where both lie
+    within the design-rainfall table."""
+
+    raster: Path
+    png: Path | None
+    median: float | None  # over the ground area with both, within RATIO_BIN (log10)
+    share_shorter: float  # of that area, the share whose return period shortens
+    area_ha: float  # ground area with a return period in both
 
 
 def class_change(
@@ -59,6 +73,44 @@ def class_change(
         small[i : i + part.shape[0], j : j + part.shape[1]] = part
     areas = tuple(float(v) / 10_000.0 for v in totals[1:])
     return small, areas  # type: ignore[return-value]
+
+
+RATIO_BIN = 0.001  # log10 width of the bins of the median ratio (0.23%)
+
+
+def period_ratio(
+    grid: Grid, first: Path, second: Path, target: Path, tags: dict[str, str]
+) -> tuple[float | None, float, float]:
+    """Write ``target``: T(second) / T(first) where both rasters hold a return period
+    (codes, which are <= 0, give no data), tile by tile; return the area-weighted median
+    ratio (from a histogram of log10 ratio in ``RATIO_BIN`` bins over 1e-6 to 1e6), the
+    share of that area whose return period shortens, and the area (ha)."""
+    from slopescreen.maps.rasters import RasterSink, all_or_nothing
+    from slopescreen.maps.terrain_cache import NODATA_F32
+
+    edges = np.arange(-6.0, 6.0 + RATIO_BIN / 2, RATIO_BIN)
+    weights = np.zeros(edges.size + 1)
+    shorter = 0.0
+    sink = RasterSink(target, grid, "float32", NODATA_F32, tags=tags)
+    with all_or_nothing(sink):
+        for rows, cols in windows(grid):
+            a = read_block(first, rows, cols).astype(np.float64)
+            b = read_block(second, rows, cols).astype(np.float64)
+            both = (a > 0.0) & (b > 0.0)
+            ratio = np.full(a.shape, NODATA_F32, np.float32)
+            ratio[both] = b[both] / a[both]
+            sink.write(rows, cols, ratio)
+            area = np.broadcast_to(grid.ground.cell_area_m2(rows, cols), a.shape)[both]
+            where = np.searchsorted(edges, np.log10(ratio[both].astype(np.float64)))
+            weights += np.bincount(where, weights=area, minlength=weights.size)
+            shorter += float(area[ratio[both] < 1.0].sum())
+    total = float(weights.sum())
+    if total == 0.0:
+        return None, 0.0, 0.0
+    k = int(np.searchsorted(np.cumsum(weights), total / 2.0))
+    k = min(max(k, 1), edges.size - 1)
+    median = float(10 ** ((edges[k - 1] + edges[k]) / 2.0))
+    return median, shorter / total, total / 10_000.0
 
 
 def draw_change(

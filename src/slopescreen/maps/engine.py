@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from html import escape
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -44,6 +45,9 @@ from slopescreen.maps.report import Extras, RunFacts, write_report
 from slopescreen.maps.scenario_run import ScenarioSummary, run_scenario
 from slopescreen.maps.scenario_tiles import Runner, check_storm_soils, serial_runner
 from slopescreen.maps.soils import SoilUnits, load_soils
+
+if TYPE_CHECKING:
+    from slopescreen.maps.quicklook import MapFrame
 from slopescreen.maps.terrain_cache import cache_key, terrain_products
 from slopescreen.maps.validation_report import validation_section
 from slopescreen.outputs import (
@@ -326,7 +330,6 @@ def _comparison(
     """The report's comparison figures under OUT/comparison: the small multiples of every
     scenario run and a class-change map per pair of scenarios that both ran."""
     from slopescreen.maps.comparison import class_change, draw_change, draw_small_multiples
-    from slopescreen.maps.quicklook import MapFrame
 
     folder = real_folder(out / COMPARISON_FOLDER)
     names = stability_class_names(cfg.fs_breaks)
@@ -347,13 +350,7 @@ def _comparison(
     for first, second in cfg.comparison.pairs:
         if first not in ran or second not in ran:
             continue
-        frame = MapFrame(
-            grid,
-            out / "terrain" / "hillshade.tif",
-            f"{cfg.region.name}: where the class changes from {first} to {second}",
-            f"{first}: {_loads(cfg, first)}\n{second}: {_loads(cfg, second)}",
-            soil_codes=out / "terrain" / "soil_unit.tif",
-        )
+        frame = _change_frame(cfg, grid, out, first, second, "class changes")
         step_map, areas = class_change(
             grid,
             out / first / "stability_class.tif",
@@ -369,7 +366,7 @@ def _comparison(
         if all(path in written_rasters(state, out) for path in hazard):
             changes.append(_hazard_change(cfg, grid, out, first, second, folder, written))
     for stale in set(folder.iterdir()) - set(written):
-        if stale.is_file() and stale.suffix == ".png":
+        if stale.is_file() and stale.suffix in (".png", ".tif"):
             stale.unlink()
     state.outputs += [f"{COMPARISON_FOLDER}/{p.name}" for p in written]
     return small, changes
@@ -407,21 +404,37 @@ def written_rasters(state: RunState, out: Path) -> set[Path]:
     return {out / name for name in state.outputs if name.endswith(".tif")}
 
 
+def _change_frame(
+    cfg: Config, grid: Grid, out: Path, first: str, second: str, what: str
+) -> MapFrame:
+    """The frame of a map comparing two scenarios."""
+    from slopescreen.maps.quicklook import MapFrame
+
+    return MapFrame(
+        grid,
+        out / "terrain" / "hillshade.tif",
+        f"{cfg.region.name}: where the {what} from {first} to {second}",
+        f"{first}: {_loads(cfg, first)}\n{second}: {_loads(cfg, second)}",
+        soil_codes=out / "terrain" / "soil_unit.tif",
+    )
+
+
 def _hazard_change(
     cfg: Config, grid: Grid, out: Path, first: str, second: str, folder: Path, written: list[Path]
 ) -> ClassChange:
     """Where the hazard class changes between two rainfall scenarios (e.g. today's design
-    rainfall and an uplifted one): the area that becomes more or less frequent."""
-    from slopescreen.maps.comparison import HAZARD_CHANGE_NAMES, class_change, draw_change
-    from slopescreen.maps.quicklook import MapFrame
-
-    frame = MapFrame(
-        grid,
-        out / "terrain" / "hillshade.tif",
-        f"{cfg.region.name}: where the hazard class changes from {first} to {second}",
-        f"{first}: {_loads(cfg, first)}\n{second}: {_loads(cfg, second)}",
-        soil_codes=out / "terrain" / "soil_unit.tif",
+    rainfall and an uplifted one): the area that becomes more or less frequent, and the
+    ratio of their triggering return periods."""
+    from slopescreen.maps.comparison import (
+        HAZARD_CHANGE_NAMES,
+        PeriodRatio,
+        class_change,
+        draw_change,
+        period_ratio,
     )
+    from slopescreen.maps.quicklook import draw_values
+
+    frame = _change_frame(cfg, grid, out, first, second, "hazard class changes")
     step_map, areas = class_change(
         grid, out / first / "hazard_class.tif", out / second / "hazard_class.tif", frame.step
     )
@@ -436,7 +449,30 @@ def _hazard_change(
             HAZARD_CHANGE_NAMES,
         )
         written.append(png)
-    return ClassChange(first, second, areas, png, HAZARD_CHANGE_NAMES)
+    periods = [out / name / "triggering_return_period_yr.tif" for name in (first, second)]
+    target = folder / f"{first}_vs_{second}_return_period_ratio.tif"
+    tags = {
+        "slopescreen_version": __version__,
+        "units": f"triggering return period in {second} / in {first} (below 1: more frequent)",
+        "no_data": "a code (outside the design-rainfall table) in either scenario",
+        "ground_geometry": grid.ground.note,
+    }
+    median, shorter, area = period_ratio(grid, *periods, target, tags)
+    written.append(target)
+    ratio_png = None
+    if cfg.quicklook_map and area > 0.0:
+        ratio_png = draw_values(
+            target.with_suffix(".png"),
+            _change_frame(cfg, grid, out, first, second, "return period changes"),
+            target,
+            f"return period in {second} / in {first} (log scale; below 1: more frequent)",
+            log=True,
+            no_data_label="outside the design-rainfall table in either, or unmapped",
+            value_range=(0.1, 10.0),
+        )
+        written.append(ratio_png)
+    ratio = PeriodRatio(target, ratio_png, median, shorter, area)
+    return ClassChange(first, second, areas, png, HAZARD_CHANGE_NAMES, ratio)
 
 
 def _loads(cfg: Config, name: str) -> str:

@@ -359,3 +359,93 @@ def critical_intensity_by_unit(
                 f2 = _intensity_at(x2, cell, log_grid, offsets)
                 best = min(best, f2)
         out[i] = best * 1000.0 * 3600.0 if math.isfinite(best) else none_code
+
+
+@numba.njit(parallel=True, cache=True)
+def frequency_by_cell(
+    intensity, log_periods, log_design, shortest_p, breaks, codes, period, p, cls
+):
+    """The frequency step of :mod:`slopescreen.rainfall_frequency` in one pass per cell
+    (tested equal to it): ``intensity`` (durations, cells) in mm/h with the critical-
+    intensity codes -1 and -2; ``log_design`` (durations, return periods) the log of the
+    table's intensities times the uplift; ``codes`` (MORE_FREQUENT, RARER,
+    FAILS_WITHOUT_RAIN, NO_INTENSITY_FAILS); ``breaks`` falling. Writes the triggering
+    return period, the annual probability and the hazard class."""
+    more_frequent, rarer, fails_code, none_code = codes[0], codes[1], codes[2], codes[3]
+    n_d, n_p = log_design.shape
+    for i in numba.prange(intensity.shape[1]):
+        best = math.inf
+        more, fails, all_none = False, False, True
+        for d in range(n_d):
+            ic = np.float64(intensity[d, i])
+            if ic == -1.0:
+                fails, all_none = True, False
+                continue
+            if ic == -2.0:
+                continue
+            all_none = False
+            if not (ic > 0.0):  # as np.interp below the table's first row
+                best = min(best, math.exp(log_periods[0]))
+                continue
+            x = math.log(ic)
+            if x < log_design[d, 0]:
+                more = True
+            elif x <= log_design[d, n_p - 1]:
+                k = 0
+                while k < n_p - 2 and x > log_design[d, k + 1]:
+                    k += 1
+                lo, hi = log_design[d, k], log_design[d, k + 1]
+                share = (x - lo) / (hi - lo) if hi > lo else 0.0
+                t = log_periods[k] + share * (log_periods[k + 1] - log_periods[k])
+                best = min(best, math.exp(t))
+        value = best if math.isfinite(best) else rarer
+        if more:
+            value = more_frequent
+        if fails:
+            value = fails_code
+        if all_none:
+            value = none_code
+        period[i] = value
+        if value > 0.0:
+            prob = 1.0 - math.exp(-1.0 / value)
+        elif value == more_frequent:
+            prob = shortest_p
+        elif value == fails_code:
+            prob = 1.0
+        else:
+            prob = 0.0
+        p[i] = prob
+        c = 1
+        for b in breaks:
+            if b > prob:
+                c += 1
+        cls[i] = c
+
+
+@numba.njit(parallel=True, cache=True)
+def intensity_from_table(slope_deg, log_sca, codes, tables, flagged, has, origin, step, out, exact):
+    """Critical intensity of cells interpolated bilinearly in (slope degrees, log10
+    specific catchment area) from their soil unit's table ``tables[code]`` (rows: log10
+    SCA, columns: slope; ``has[code]``: the unit has one; ``origin`` and ``step``: the
+    first node and the spacing in (slope, log10 SCA)). Cells of units without a table,
+    outside it or in a table cell ``flagged[code]`` (see
+    :mod:`slopescreen.maps.intensity_tables`) are marked in ``exact`` and left."""
+    n_s, n_t = tables.shape[1], tables.shape[2]
+    for i in numba.prange(slope_deg.size):
+        j = codes[i]
+        x = (slope_deg[i] - origin[0]) / step[0]
+        y = (log_sca[i] - origin[1]) / step[1]
+        if not (has[j] and 0.0 <= x < n_t - 1 and 0.0 <= y < n_s - 1):
+            exact[i] = True
+            continue
+        c, r = int(x), int(y)
+        if flagged[j, r, c]:
+            exact[i] = True
+            continue
+        a, b = tables[j, r, c], tables[j, r, c + 1]
+        d, e = tables[j, r + 1, c], tables[j, r + 1, c + 1]
+        if a < 0.0:  # an unflagged table cell of a code: all its corners hold it
+            out[i] = a
+            continue
+        fx, fy = x - c, y - r
+        out[i] = (a * (1 - fx) + b * fx) * (1 - fy) + (d * (1 - fx) + e * fx) * fy

@@ -61,6 +61,16 @@ RUN_OUTPUTS: tuple[tuple[str, str, str], ...] = (
         "report on, maps on, [comparison] pairs",
         "class-change map",
     ),
+    (
+        "comparison/FIRST_vs_SECOND_hazard.png",
+        "report on, maps on, [comparison] pairs of rainfall scenarios",
+        "hazard-class change map",
+    ),
+    (
+        "comparison/FIRST_vs_SECOND_return_period_ratio.tif",
+        "report on, [comparison] pairs of rainfall scenarios",
+        "triggering return period of SECOND over FIRST's (and a .png map)",
+    ),
     ("inventory_scores.csv", "inventory given", "one row of scores per scenario"),
     (
         "validation/",

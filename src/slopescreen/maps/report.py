@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from slopescreen.cautions import CAUTIONS
+from slopescreen.maps.comparison import FOLDER as COMPARISON_FOLDER
 from slopescreen.maps.comparison import ClassChange
 from slopescreen.maps.config import SOIL_FIELDS, Config
 from slopescreen.maps.grid import Grid
@@ -161,6 +162,16 @@ def _comparison(
             f"same class in {_e(ch.second)} than in {_e(ch.first)}.</p>"
             + _image(ch.png, f"{what} change {ch.first} to {ch.second}")
         )
+        r = ch.ratio
+        if r is not None and r.median is not None:
+            parts.append(
+                f"<p>Triggering return period: on the {r.area_ha:,.1f} ha with a return period "
+                f"within the design-rainfall table in both, the median of {_e(ch.second)}'s "
+                f"over {_e(ch.first)}'s is {r.median:.2f}; it shortens on "
+                f"{100 * r.share_shorter:.0f}% of that area "
+                f"(<code>{COMPARISON_FOLDER}/{_e(r.raster.name)}</code>).</p>"
+                + _image(r.png, f"return-period ratio {ch.second} over {ch.first}")
+            )
     return parts
 
 

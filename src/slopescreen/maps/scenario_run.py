@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import shutil
 from collections.abc import Callable, Iterable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -17,6 +17,7 @@ from slopescreen import __version__
 from slopescreen.maps.cache import building, content_key, usable_entry
 from slopescreen.maps.config import Config, Scenario
 from slopescreen.maps.grid import Grid
+from slopescreen.maps.intensity_tables import table_settings, tables_for, unit_cells
 from slopescreen.maps.output_names import LEGACY_SCENARIO_FILES, SCENARIO_OUTPUTS
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, windows
 from slopescreen.maps.scenario_tiles import (
@@ -311,6 +312,7 @@ def intensity_key(units: SoilUnits, sc: Scenario, terrain_key: str, cfg: Config)
         repr(table.durations_h),
         repr(table.after_h),
         repr((rt.DEPTH_SCAN, rt.REFINE_STEPS, rt.SURFACE_FRACTION)),
+        repr(table_settings()),
     ]
     return content_key(*parts)
 
@@ -366,6 +368,11 @@ def run_scenario(
         rainfall=cfg.rainfall_frequency if sc.rainfall is not None else None,
         intensity_cache=intensity_cached,
     )
+    if sc.rainfall is not None and intensity_cached is None:
+        job = replace(job, intensity_tables=tables_for(job, unit_cells(job.codes, grid)))
+        if job.intensity_tables:
+            used = sorted({units.keys[code - 1] for code, _ in job.intensity_tables})
+            echo(f"scenario {sc.name}: critical intensities from tables for {', '.join(used)}")
     with_probability = bool(units.spreads)
     sinks = _sinks(cfg, sc, grid, out, names, with_probability)
     tables, pf_tables, cut_tables, hazard_tables, spread_tables = [], [], [], [], []

@@ -9,7 +9,7 @@ distributed run gives the same bytes as a serial one.
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import partial
 from pathlib import Path
 from typing import Any
@@ -71,6 +71,8 @@ class TileJob:
     numba_threads: int = 0  # 0: numba's default (all cores)
     rainfall: RainfallFrequency | None = None  # the design-rainfall table (rainfall scenarios)
     intensity_cache: Path | None = None  # verified critical intensities (rainfall scenarios)
+    # tables of critical intensity per (unit, duration) on large grids (intensity_tables)
+    intensity_tables: dict[tuple[int, float], Any] = field(default_factory=dict)
 
 
 def core_storm(sc: Scenario, rain_mm_h: np.ndarray | None = None) -> Storm | None:
@@ -347,16 +349,13 @@ def rainfall_tile(
     failure and the hazard class of a tile's cells (see :mod:`slopescreen.rain_thresholds`,
     :mod:`slopescreen.rainfall_frequency`). Intensities enter the frequency step as float32,
     as stored, so a cached rerun gives the same bytes as a computed one."""
-    from slopescreen import rain_thresholds as rt
     from slopescreen import rainfall_frequency as rf
-    from slopescreen.maps.kernels import critical_intensity_by_unit
+    from slopescreen.maps.intensity_tables import critical_intensity
 
-    spec, table, t = job.scenario.rainfall, job.rainfall, job.tables
+    spec, table = job.scenario.rainfall, job.rainfall
     assert spec is not None and table is not None
     c = block["codes"]
     out: dict[str, np.ndarray] = {}
-    periods = []
-    intensity = np.empty(c.size)
     if table.rasters:  # gridded design rainfall: (durations, return periods, cells)
         from slopescreen.maps.idf_table import gridded_block
 
@@ -365,65 +364,64 @@ def rainfall_tile(
         )[:, :, valid]
     else:
         design = np.array(table.intensity_mm_h)
-    for row, duration in enumerate(table.durations_h):
+    where = None
+    if job.intensity_tables and job.intensity_cache is None:
+        from slopescreen.maps.intensity_tables import table_coordinates
+
+        where = table_coordinates(block["tan"], block["sca"])
+    for duration in table.durations_h:
         if job.intensity_cache is not None:
             cached = read_block(job.intensity_cache / intensity_name(duration), rows, cols)
             out[f"intensity_{duration:g}"] = cached[valid].astype(np.float64)
-            periods.append(
-                rf.return_period_yr(
-                    out[f"intensity_{duration:g}"],
-                    table.return_periods_yr,
-                    design[row],
-                    spec.uplift,
-                )
-            )
             continue
-        critical_intensity_by_unit(
-            duration * 3600.0,
-            (duration + table.after_h) * 3600.0,
-            block["tan"],
-            block["sca"],
-            c,
-            t["depth_m"],
-            t["cohesion_kpa"] + t["root_cohesion_kpa"],
-            np.tan(np.radians(t["friction_deg"])),
-            t["unit_weight_kn_m3"],
-            t["saturated_unit_weight_kn_m3"],
-            t["hydraulic_conductivity_m_s"],
-            t["diffusivity_m2_s"],
-            t["transmissivity_m2_day"],
-            spec.initial_water_table_depth_m,
-            spec.long_term_infiltration_mm_day / 1000.0 / 86400.0,
-            float(job.scenario.seismic_coefficient),
-            9.81,
-            rt.DEPTH_SCAN,
-            rt.REFINE_STEPS,
-            rt.SURFACE_FRACTION,
-            rt._LOG_STORM,
-            rt._PEAK_OFFSET,
-            rt.FAILS_WITHOUT_RAIN,
-            rt.NO_INTENSITY_FAILS,
-            intensity,
+        intensity = critical_intensity(
+            job, duration, block["tan"], block["sca"], c, job.intensity_tables, where
         )
         out[f"intensity_{duration:g}"] = intensity.astype(np.float32).astype(np.float64)
-        periods.append(
-            rf.return_period_yr(
-                out[f"intensity_{duration:g}"],
-                table.return_periods_yr,
-                design[row],
-                spec.uplift,
-            )
+    found = np.array([out[f"intensity_{d:g}"] for d in table.durations_h])
+    if design.ndim == 3:  # gridded design rainfall: each cell its own table
+        period = rf.triggering_return_period_yr(
+            [
+                rf.return_period_yr(found[row], table.return_periods_yr, design[row], spec.uplift)
+                for row in range(len(table.durations_h))
+            ]
         )
-    period = rf.triggering_return_period_yr(np.array(periods))
-    out["return_period"] = period
-    out["annual_probability"] = rf.annual_probability(period, table.return_periods_yr[0])
-    out["hazard_classes"] = rf.hazard_class(out["annual_probability"], table.aep_breaks)
+        out["return_period"] = period
+        out["annual_probability"] = rf.annual_probability(period, table.return_periods_yr[0])
+        out["hazard_classes"] = rf.hazard_class(out["annual_probability"], table.aep_breaks)
+    else:
+        out |= _frequency_step(found, design * spec.uplift, table)
     if job.spreads and dry_probability is not None:
         mean = np.array([out[f"intensity_{d:g}"] for d in table.durations_h])
         spread = _annual_with_spread(job, block, design, mean, dry_probability)
         out["annual_probability_spread"] = spread
         out["hazard_classes_spread"] = rf.hazard_class(spread, table.aep_breaks)
     return out
+
+
+def _frequency_step(
+    found: np.ndarray, design: np.ndarray, table: RainfallFrequency
+) -> dict[str, np.ndarray]:
+    """Return period, annual probability and hazard class of cells from their critical
+    intensities (durations, cells): the compiled one-pass kernel."""
+    from slopescreen import rainfall_frequency as rf
+    from slopescreen.maps.kernels import frequency_by_cell
+
+    n = found.shape[1]
+    period, p, cls = np.empty(n), np.empty(n), np.empty(n, np.uint8)
+    rf.hazard_class([0.5], table.aep_breaks)  # the breaks checked as the core checks them
+    frequency_by_cell(
+        found,
+        np.log(np.asarray(table.return_periods_yr, float)),
+        np.log(design),
+        float(rf.annual_probability([rf.MORE_FREQUENT], table.return_periods_yr[0])[0]),
+        np.asarray(table.aep_breaks, float),
+        np.array([rf.MORE_FREQUENT, rf.RARER, rf.FAILS_WITHOUT_RAIN, rf.NO_INTENSITY_FAILS]),
+        period,
+        p,
+        cls,
+    )
+    return {"return_period": period, "annual_probability": p, "hazard_classes": cls}
 
 
 def _annual_with_spread(
