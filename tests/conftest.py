@@ -9,10 +9,16 @@ REGION = Path(__file__).resolve().parents[1] / "demo_region"
 
 @pytest.fixture(scope="session")
 def demo_out(tmp_path_factory):
-    """The demo region run once for the session: (output folder, console lines)."""
-    from slopescreen.maps.engine import run
+    """The demo command (lab fit, hillside check, every scenario of the demo region, the
+    known-landslide checks) run once for the session: (output folder, console lines)."""
+    import contextlib
+    import io
+
+    from slopescreen.cli.main import main
 
     out = tmp_path_factory.mktemp("quillbrook")
-    lines = []
-    run(REGION / "quillbrook_scenarios.toml", out, progress=False, echo=lines.append)
-    return out, lines
+    text = io.StringIO()
+    with contextlib.redirect_stdout(text):
+        code = main(["demo", "--region", str(REGION), "--out", str(out)])
+    assert code == 0, text.getvalue()
+    return out, text.getvalue().splitlines()

@@ -61,12 +61,11 @@ def test_slope_text_echoes_every_input_and_one_caution_block(capsys):
     assert text.count("Screening level only") == 1
 
 
-def test_slope_json_and_demo_record_share_one_layout(tmp_path, capsys):
+def test_slope_json_and_demo_record_share_one_layout(demo_out, capsys):
     assert main([*SLOPE, "--json"]) == 0
     from_shell = json.loads(capsys.readouterr().out)
-    out = tmp_path / "demo"
-    assert main(["demo", "--region", str(ROOT / "demo_region"), "--out", str(out)]) == 0
-    text = capsys.readouterr().out
+    out, lines = demo_out  # the demo command, run once for the session (conftest)
+    text = "\n".join(lines)
     assert text.count("Screening level only") == 1  # the cautions once per command
     # the demo's report shows every check against the invented landslides
     report = (out / "report.html").read_text()

@@ -3,6 +3,7 @@
 its limits (long storms: the steady critical recharge; short storms: no intensity)."""
 
 import itertools
+import os
 
 import numpy as np
 import pytest
@@ -46,12 +47,14 @@ def test_against_bisection_on_the_storm_factor_of_safety():
     # independent route: the core's storm_factor_of_safety on a grid of 160 planes x 240
     # times, and bisection on the intensity until its minimum is 1. The grid can only miss
     # the true minimum upwards, so bisection's intensity is an upper bound; 1.5% is what
-    # its grid spacing allows on these cells.
-    cells = _cells(90, 5)
+    # its grid spacing allows on these cells. 90 cells here (8 s); the 10^4 cells the check
+    # asks for take about 15 min: SLOPESCREEN_BISECTION_CELLS=10000 pytest -k bisection
+    n = int(os.environ.get("SLOPESCREEN_BISECTION_CELLS", "90"))
+    cells = _cells(n, 5)
     duration, after = 12.0, 12.0
     exact = critical_intensity_mm_h(duration, after_h=after, **cells)
     keep = exact > 0.0
-    assert keep.sum() > 25
+    assert keep.sum() > n // 4
     kw = {k: v[keep][:, None, None] for k, v in cells.items()}
     z = kw.pop("depth_m") * np.linspace(1e-3, 1.0, 160)[None, :, None]
     t = np.linspace(0.0, duration + after, 240)[None, None, :]
@@ -334,8 +337,12 @@ def test_demo_uplift_only_makes_failure_more_frequent(demo_out):
     ratio = read("comparison/rain_frequency_vs_rain_frequency_uplift_return_period_ratio.tif")
     inside = both & (today * 1.2**-5 >= 2.0)
     assert inside.sum() > 100
-    # the table's intensities are written to 0.001 mm/h: 1e-4 relative, 5x that in T
-    np.testing.assert_allclose(ratio[inside], 1.2**-5, rtol=1e-3)
+    # the table's intensities are written to 0.001 mm/h: a relative error up to 0.0005 /
+    # its smallest intensity in each scenario, 1/m = 5 times that in T
+    from conftest import REGION
+
+    rows = np.loadtxt(REGION / "quillbrook_design_rainfall.csv", delimiter=",", skiprows=3)
+    np.testing.assert_allclose(ratio[inside], 1.2**-5, rtol=2 * 5 * 0.0005 / rows[:, 2].min())
     assert np.all(ratio[~both] == -9999.0)
     assert "over rain_frequency's is 0.40;" in report
     assert (out / "comparison" / "rain_frequency_vs_rain_frequency_uplift_hazard.png").exists()

@@ -52,13 +52,20 @@ def node_count() -> int:
 
 
 def by_kernel(
-    job: Any, duration_h: float, tan: np.ndarray, sca: np.ndarray, codes: np.ndarray
+    job: Any,
+    duration_h: float,
+    tan: np.ndarray,
+    sca: np.ndarray,
+    codes: np.ndarray,
+    parameters: dict[str, np.ndarray] | None = None,
 ) -> np.ndarray:
-    """Critical intensity (mm/h, codes -1 and -2) of cells by the compiled kernel."""
+    """Critical intensity (mm/h, codes -1 and -2) of cells by the compiled kernel, the soil
+    parameters looked up by code in ``parameters`` (default: the job's soil table)."""
     from slopescreen import rain_thresholds as rt
     from slopescreen.maps.kernels import critical_intensity_by_unit
 
-    spec, table, t = job.scenario.rainfall, job.rainfall, job.tables
+    spec, table = job.scenario.rainfall, job.rainfall
+    t = job.tables if parameters is None else parameters
     out = np.empty(tan.size)
     critical_intensity_by_unit(
         duration_h * 3600.0,

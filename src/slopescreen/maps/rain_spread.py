@@ -46,9 +46,8 @@ def critical_intensities(
 ) -> np.ndarray:
     """I_c (mm/h, codes -1 and -2) of the block's cells for parameters that may be arrays
     of samples broadcast against the cells (shape: the broadcast shape)."""
-    from slopescreen.maps.kernels import critical_intensity_by_unit
+    from slopescreen.maps.intensity_tables import by_kernel
 
-    spec, table = job.scenario.rainfall, job.rainfall
     names = (
         "depth_m",
         "cohesion_kpa",
@@ -63,33 +62,13 @@ def critical_intensities(
     # one signature of the compiled kernel for every caller: float64 cells, int64 codes
     shape = np.broadcast_shapes(block["tan"].shape, *(np.shape(params[n]) for n in names))
     flat = {n: np.broadcast_to(np.asarray(params[n], float), shape).ravel() for n in names}
-    out = np.empty(int(np.prod(shape)))
-    critical_intensity_by_unit(
-        duration_h * 3600.0,
-        (duration_h + table.after_h) * 3600.0,
+    out = by_kernel(
+        job,
+        duration_h,
         np.broadcast_to(np.asarray(block["tan"], np.float64), shape).ravel(),
         np.broadcast_to(np.asarray(block["sca"], np.float64), shape).ravel(),
-        np.arange(out.size),  # every cell its own parameters
-        flat["depth_m"],
-        flat["cohesion_kpa"] + flat["root_cohesion_kpa"],
-        np.tan(np.radians(flat["friction_deg"])),
-        flat["unit_weight_kn_m3"],
-        flat["saturated_unit_weight_kn_m3"],
-        flat["hydraulic_conductivity_m_s"],
-        flat["diffusivity_m2_s"],
-        flat["transmissivity_m2_day"],
-        spec.initial_water_table_depth_m,
-        spec.long_term_infiltration_mm_day / 1000.0 / 86400.0,
-        float(job.scenario.seismic_coefficient),
-        9.81,
-        rt.DEPTH_SCAN,
-        rt.REFINE_STEPS,
-        rt.SURFACE_FRACTION,
-        rt._LOG_STORM,
-        rt._PEAK_OFFSET,
-        rt.FAILS_WITHOUT_RAIN,
-        rt.NO_INTENSITY_FAILS,
-        out,
+        np.arange(int(np.prod(shape))),  # every cell its own parameters
+        flat,
     )
     return out.reshape(shape)
 
