@@ -76,13 +76,17 @@ def class_change(
 
 
 RATIO_BIN = 0.001  # log10 width of the bins of the median ratio (0.23%)
+# codes of the return-period ratio where a scenario's return period is itself a code
+RATIO_BEYOND = -1.0  # neither triggers within the table (rarer, or no rain fails it)
+RATIO_FREQUENT = -2.0  # either fails more often than the table, or before any rain
+RATIO_ONE_SIDED = -3.0  # within the table in one scenario only
 
 
 def period_ratio(
     grid: Grid, first: Path, second: Path, target: Path, tags: dict[str, str]
 ) -> tuple[float | None, float, float]:
-    """Write ``target``: T(second) / T(first) where both rasters hold a return period
-    (codes, which are <= 0, give no data), tile by tile; return the area-weighted median
+    """Write ``target``: T(second) / T(first) where both rasters hold a return period, the
+    codes ``RATIO_*`` where either holds a code, tile by tile; return the area-weighted median
     ratio (from a histogram of log10 ratio in ``RATIO_BIN`` bins over 1e-6 to 1e6), the
     share of that area whose return period shortens, and the area (ha)."""
     from slopescreen.maps.rasters import RasterSink, all_or_nothing
@@ -98,6 +102,11 @@ def period_ratio(
             b = read_block(second, rows, cols).astype(np.float64)
             both = (a > 0.0) & (b > 0.0)
             ratio = np.full(a.shape, NODATA_F32, np.float32)
+            mapped = (a != NODATA_F32) & (b != NODATA_F32)
+            frequent = (a == -1.0) | (a == -3.0) | (b == -1.0) | (b == -3.0)  # rf codes
+            ratio[mapped & ((a > 0.0) != (b > 0.0))] = RATIO_ONE_SIDED
+            ratio[mapped & frequent] = RATIO_FREQUENT
+            ratio[mapped & ~frequent & (a < 0.0) & (b < 0.0)] = RATIO_BEYOND
             ratio[both] = b[both] / a[both]
             sink.write(rows, cols, ratio)
             area = np.broadcast_to(grid.ground.cell_area_m2(rows, cols), a.shape)[both]

@@ -350,7 +350,7 @@ def _comparison(
     for first, second in cfg.comparison.pairs:
         if first not in ran or second not in ran:
             continue
-        frame = _change_frame(cfg, grid, out, first, second, "class changes")
+        frame = _change_frame(cfg, grid, out, first, second, "where the class changes")
         step_map, areas = class_change(
             grid,
             out / first / "stability_class.tif",
@@ -410,11 +410,11 @@ def _change_frame(
     """The frame of a map comparing two scenarios."""
     from slopescreen.maps.quicklook import MapFrame
 
-    return MapFrame(
+    return MapFrame(  # the title short (it does not wrap), the scenarios below it
         grid,
         out / "terrain" / "hillshade.tif",
-        f"{cfg.region.name}: where the {what} from {first} to {second}",
-        f"{first}: {_loads(cfg, first)}\n{second}: {_loads(cfg, second)}",
+        f"{cfg.region.name}: {what}",
+        f"first {first}: {_loads(cfg, first)}\nsecond {second}: {_loads(cfg, second)}",
         soil_codes=out / "terrain" / "soil_unit.tif",
     )
 
@@ -427,14 +427,18 @@ def _hazard_change(
     ratio of their triggering return periods."""
     from slopescreen.maps.comparison import (
         HAZARD_CHANGE_NAMES,
+        RATIO_BEYOND,
+        RATIO_FREQUENT,
+        RATIO_ONE_SIDED,
         PeriodRatio,
         class_change,
         draw_change,
         period_ratio,
     )
-    from slopescreen.maps.quicklook import draw_values
+    from slopescreen.maps.palette import FAILS_DRY_HEX, HOLDS_HEX, PARTIAL_HEX
+    from slopescreen.maps.quicklook import Special, draw_values
 
-    frame = _change_frame(cfg, grid, out, first, second, "hazard class changes")
+    frame = _change_frame(cfg, grid, out, first, second, "where the hazard class changes")
     step_map, areas = class_change(
         grid, out / first / "hazard_class.tif", out / second / "hazard_class.tif", frame.step
     )
@@ -454,7 +458,9 @@ def _hazard_change(
     tags = {
         "slopescreen_version": __version__,
         "units": f"triggering return period in {second} / in {first} (below 1: more frequent)",
-        "no_data": "a code (outside the design-rainfall table) in either scenario",
+        "code_beyond": f"{RATIO_BEYOND:g}: neither triggers within the table",
+        "code_frequent": f"{RATIO_FREQUENT:g}: more often than the table, or before rain",
+        "code_one_sided": f"{RATIO_ONE_SIDED:g}: within the table in one scenario only",
         "ground_geometry": grid.ground.note,
     }
     median, shorter, area = period_ratio(grid, *periods, target, tags)
@@ -463,11 +469,15 @@ def _hazard_change(
     if cfg.quicklook_map and area > 0.0:
         ratio_png = draw_values(
             target.with_suffix(".png"),
-            _change_frame(cfg, grid, out, first, second, "return period changes"),
+            _change_frame(cfg, grid, out, first, second, "how the return period changes"),
             target,
-            f"return period in {second} / in {first} (log scale; below 1: more frequent)",
+            "return period, second / first (below 1: more often)",
             log=True,
-            no_data_label="outside the design-rainfall table in either, or unmapped",
+            specials=(
+                Special(RATIO_FREQUENT, FAILS_DRY_HEX, "more often than the table in either"),
+                Special(RATIO_ONE_SIDED, PARTIAL_HEX, "within the table in one only"),
+                Special(RATIO_BEYOND, HOLDS_HEX, "no storm of the table starts failure"),
+            ),
             value_range=(0.1, 10.0),
         )
         written.append(ratio_png)
