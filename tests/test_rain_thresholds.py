@@ -504,7 +504,7 @@ def test_a_run_with_tables_gives_the_kernels_maps_within_tolerance(tmp_path, mon
 
     from slopescreen.maps import intensity_tables
     from slopescreen.maps.engine import run
-    from slopescreen.maps.scenario_tiles import intensity_name
+    from slopescreen.maps.rain_tiles import intensity_name
 
     toml, _ = _rain_region(tmp_path)
     run(toml, tmp_path / "kernel", progress=False, echo=lambda s: None)

@@ -19,6 +19,7 @@ from slopescreen.maps.config import Config, Scenario
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.intensity_tables import table_settings, tables_for, unit_cells
 from slopescreen.maps.output_names import LEGACY_SCENARIO_FILES, SCENARIO_OUTPUTS
+from slopescreen.maps.rain_tiles import intensity_name
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, windows
 from slopescreen.maps.scenario_tiles import (
     BETA_CAP,
@@ -27,7 +28,6 @@ from slopescreen.maps.scenario_tiles import (
     Runner,
     TileJob,
     compute_tile,
-    intensity_name,
     serial_runner,
 )
 from slopescreen.maps.soils import SoilUnits

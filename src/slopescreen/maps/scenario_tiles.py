@@ -294,6 +294,8 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     if job.spreads:
         values["probability"], values["reliability"] = probability(job, block)
     if sc.rainfall is not None and job.rainfall is not None:
+        from slopescreen.maps.rain_tiles import rainfall_tile
+
         values |= rainfall_tile(job, block, rows, cols, valid, values.get("probability"))
     shape = codes.shape
     for name, v in values.items():
@@ -329,132 +331,6 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
         add_areas(pf_table, codes * valid, pf_classes, cell_area)
         out["pf_table"] = pf_table
     return out
-
-
-def intensity_name(duration_h: float) -> str:
-    """The raster of the critical intensity of one duration."""
-    return f"critical_intensity_{duration_h:g}h_mm_h.tif"
-
-
-def rainfall_tile(
-    job: TileJob,
-    block: dict[str, np.ndarray],
-    rows: slice,
-    cols: slice,
-    valid: np.ndarray,
-    dry_probability: np.ndarray | None = None,
-) -> dict[str, np.ndarray]:
-    """Critical intensity per tabulated duration (mm/h, codes -1 and -2; from the verified
-    cache where there is one), the triggering return period, the annual probability of
-    failure and the hazard class of a tile's cells (see :mod:`slopescreen.rain_thresholds`,
-    :mod:`slopescreen.rainfall_frequency`). Intensities enter the frequency step as float32,
-    as stored, so a cached rerun gives the same bytes as a computed one."""
-    from slopescreen import rainfall_frequency as rf
-    from slopescreen.maps.intensity_tables import critical_intensity
-
-    spec, table = job.scenario.rainfall, job.rainfall
-    assert spec is not None and table is not None
-    c = block["codes"]
-    out: dict[str, np.ndarray] = {}
-    if table.rasters:  # gridded design rainfall: (durations, return periods, cells)
-        from slopescreen.maps.idf_table import gridded_block
-
-        design = gridded_block(
-            table.rasters, table.durations_h, table.depth_rasters, job.grid, rows, cols
-        )[:, :, valid]
-    else:
-        design = np.array(table.intensity_mm_h)
-    where = None
-    if job.intensity_tables and job.intensity_cache is None:
-        from slopescreen.maps.intensity_tables import table_coordinates
-
-        where = table_coordinates(block["tan"], block["sca"])
-    for duration in table.durations_h:
-        if job.intensity_cache is not None:
-            cached = read_block(job.intensity_cache / intensity_name(duration), rows, cols)
-            out[f"intensity_{duration:g}"] = cached[valid].astype(np.float64)
-            continue
-        intensity = critical_intensity(
-            job, duration, block["tan"], block["sca"], c, job.intensity_tables, where
-        )
-        out[f"intensity_{duration:g}"] = intensity.astype(np.float32).astype(np.float64)
-    found = np.array([out[f"intensity_{d:g}"] for d in table.durations_h])
-    if design.ndim == 3:  # gridded design rainfall: each cell its own table
-        period = rf.triggering_return_period_yr(
-            [
-                rf.return_period_yr(found[row], table.return_periods_yr, design[row], spec.uplift)
-                for row in range(len(table.durations_h))
-            ]
-        )
-        out["return_period"] = period
-        out["annual_probability"] = rf.annual_probability(period, table.return_periods_yr[0])
-        out["hazard_classes"] = rf.hazard_class(out["annual_probability"], table.aep_breaks)
-    else:
-        out |= _frequency_step(found, design * spec.uplift, table)
-    if job.spreads and dry_probability is not None:
-        mean = np.array([out[f"intensity_{d:g}"] for d in table.durations_h])
-        spread = _annual_with_spread(job, block, design, mean, dry_probability)
-        out["annual_probability_spread"] = spread
-        out["hazard_classes_spread"] = rf.hazard_class(spread, table.aep_breaks)
-    return out
-
-
-def _frequency_step(
-    found: np.ndarray, design: np.ndarray, table: RainfallFrequency
-) -> dict[str, np.ndarray]:
-    """Return period, annual probability and hazard class of cells from their critical
-    intensities (durations, cells): the compiled one-pass kernel."""
-    from slopescreen import rainfall_frequency as rf
-    from slopescreen.maps.kernels import frequency_by_cell
-
-    n = found.shape[1]
-    period, p, cls = np.empty(n), np.empty(n), np.empty(n, np.uint8)
-    rf.hazard_class([0.5], table.aep_breaks)  # the breaks checked as the core checks them
-    frequency_by_cell(
-        found,
-        np.log(np.asarray(table.return_periods_yr, float)),
-        np.log(design),
-        float(rf.annual_probability([rf.MORE_FREQUENT], table.return_periods_yr[0])[0]),
-        np.asarray(table.aep_breaks, float),
-        np.array([rf.MORE_FREQUENT, rf.RARER, rf.FAILS_WITHOUT_RAIN, rf.NO_INTENSITY_FAILS]),
-        period,
-        p,
-        cls,
-    )
-    return {"return_period": period, "annual_probability": p, "hazard_classes": cls}
-
-
-def _annual_with_spread(
-    job: TileJob,
-    block: dict[str, np.ndarray],
-    design: np.ndarray,
-    mean_intensity: np.ndarray,
-    dry_probability: np.ndarray,
-) -> np.ndarray:
-    """Annual probability of failure with the soil spreads, unit by unit (NaN for units
-    without spreads): :mod:`slopescreen.maps.rain_spread`."""
-    from slopescreen.maps.rain_spread import annual_probability_with_spread
-
-    codes = block["codes"]
-    result = np.full(codes.shape, np.nan)
-    for code in np.unique(codes):
-        spreads = job.spreads.get(int(code))
-        if not spreads:
-            continue
-        sel = codes == code
-        values: dict[str, object] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
-        values.update(spreads)
-        rho = job.correlations.get(int(code), 0.0)
-        result[sel] = annual_probability_with_spread(
-            job,
-            {k: v[sel] for k, v in block.items()},
-            values,
-            {("cohesion_kpa", "friction_deg"): rho} if rho else {},
-            design[:, :, sel] if design.ndim == 3 else design,
-            mean_intensity[:, sel],
-            dry_probability[sel],
-        )
-    return result
 
 
 def _recharge_tile(
