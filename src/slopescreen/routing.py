@@ -3,8 +3,9 @@
 1. Depressions are filled by Priority-Flood+epsilon (Barnes, Lehman & Mulla 2014,
    Algorithm 3): every cell on the edge of the data is an outlet; each pit and flat is
    raised to a surface with a tiny strict gradient towards its spill point (one float64
-   step, ``nextafter``, per cell), so water leaves every cell. The filled surface is used
-   for routing only; slopes come from the original DEM.
+   step, ``nextafter``, per cell), so water leaves every cell. The priority queue is
+   bucketed by elevation (a binary heap for the current bucket only; see ``_fill``). The
+   filled surface is used for routing only; slopes come from the original DEM.
 2. Flow directions by D-infinity (Tarboton 1997): the steepest of the eight triangular
    facets around each cell, flow split between the facet's two neighbours in proportion to
    the angles. Cells are rectangles whose ground side lengths and area come from a lattice
@@ -27,13 +28,13 @@
    length of each row along both axes (no mid-latitude spacing).
 
 Memory: the routing holds the whole grid. With the DEM filled in place it needs, at its
-peak, the float64 surface (8 bytes per cell), two masks (2), heap keys and indices and the
-pit queue (16) while filling; two int32 receivers, a float32 share and width (16) and the
-float64 area with an int32 in-degree and queue (16) while accumulating: about 35 bytes per
-cell at the peak, the DEM included, 36 with the one-byte cut-off flag
-(tests/benchmarks/bench_routing.py measures 25 bytes per cell above the float64 DEM). All
-work arrays come from an ``allocate`` function, so grids larger than memory can use
-memory-mapped files.
+peak, the float64 surface (8 bytes per cell), two masks (2), heap keys and indices, the
+pit queue and the bucket links (20) and the bucket heads (1) while filling (31 in all);
+two int32 receivers, a float32 share and width (16) and the float64 area with an int32
+in-degree and queue (16) while accumulating: about 35 bytes per cell at the peak, the DEM
+included, 36 with the one-byte cut-off flag (tests/benchmarks/bench_routing.py measures
+the bytes per cell above the float64 DEM). All work arrays come from an ``allocate``
+function, so grids larger than memory can use memory-mapped files.
 
 References
 ----------
@@ -101,14 +102,38 @@ def _heap_pop(keys, ids, size):
 
 
 @njit(cache=True)
-def _fill(dem, valid, epsilon, closed, keys, ids, pit):
+def _bucket(key, lo, scale, n_buckets):
+    b = int((key - lo) * scale)
+    return min(max(b, 0), n_buckets - 1)
+
+
+@njit(cache=True)
+def _fill(dem, valid, epsilon, closed, keys, ids, pit, link, heads):
     """Fill ``dem`` in place (each cell is read before it is raised) and return it; the
-    work arrays (closed: rows x cols, keys/ids/pit: one per cell) come from the caller."""
+    work arrays (closed: rows x cols, keys/ids/pit/link: one per cell, heads: one per
+    bucket) come from the caller.
+
+    The priority queue is bucketed by elevation: ``heads.size`` equal buckets between the
+    lowest and highest data; a cell pushed above the current bucket waits in its bucket's
+    linked list (``link``, O(1)), and only the current bucket is a binary heap ordered by
+    (elevation, cell index). Every push is at or above the current bucket (a raised cell
+    goes to the pit queue instead), so cells come out in the same (elevation, index) order
+    as from one global heap: the same filled surface, bit for bit (tested)."""
     rows, cols = dem.shape
     filled = dem
+    n_buckets = heads.size
+    lo, hi = np.inf, -np.inf
     for r in range(rows):
         for c in range(cols):
             closed[r, c] = not valid[r, c]
+            if valid[r, c]:
+                lo = min(lo, dem[r, c])
+                hi = max(hi, dem[r, c])
+    if not hi > lo:
+        hi = lo + 1.0
+    scale = n_buckets / (hi - lo) * (1.0 - 1e-12)
+    heads[:] = -1
+    current = 0
     size = 0
     for r in range(rows):
         for c in range(cols):
@@ -122,15 +147,33 @@ def _fill(dem, valid, epsilon, closed, keys, ids, pit):
                         break
             if edge:
                 closed[r, c] = True
-                size = _heap_push(keys, ids, size, dem[r, c], r * cols + c)
+                cell = r * cols + c
+                b = _bucket(dem[r, c], lo, scale, n_buckets)
+                if b == current:
+                    size = _heap_push(keys, ids, size, dem[r, c], cell)
+                else:
+                    link[cell] = heads[b]
+                    heads[b] = cell
     pit_head = 0
     pit_tail = 0
-    while size > 0 or pit_head < pit_tail:
+    while True:
         if pit_head < pit_tail:
             cell = pit[pit_head]
             pit_head += 1
-        else:
+        elif size > 0:
             cell, size = _heap_pop(keys, ids, size)
+        else:  # the next bucket holding cells becomes the heap
+            current += 1
+            while current < n_buckets and heads[current] == -1:
+                current += 1
+            if current >= n_buckets:
+                break
+            waiting = heads[current]
+            heads[current] = -1
+            while waiting != -1:
+                size = _heap_push(keys, ids, size, dem.flat[waiting], waiting)
+                waiting = link[waiting]
+            continue
         r = cell // cols
         c = cell % cols
         here = filled[r, c]
@@ -146,8 +189,17 @@ def _fill(dem, valid, epsilon, closed, keys, ids, pit):
                 pit[pit_tail] = rr * cols + cc
                 pit_tail += 1
             else:
-                size = _heap_push(keys, ids, size, dem[rr, cc], rr * cols + cc)
+                nb = rr * cols + cc
+                b = _bucket(dem[rr, cc], lo, scale, n_buckets)
+                if b <= current:
+                    size = _heap_push(keys, ids, size, dem[rr, cc], nb)
+                else:
+                    link[nb] = heads[b]
+                    heads[b] = nb
     return filled
+
+
+BUCKET_CELLS = 4  # cells per bucket of the fill's queue, on average (1 byte a cell)
 
 
 def fill_depressions(elevation_m: np.ndarray, *, epsilon: bool = True) -> np.ndarray:
@@ -167,6 +219,8 @@ def fill_depressions(elevation_m: np.ndarray, *, epsilon: bool = True) -> np.nda
         np.empty(n, np.float64),
         np.empty(n, np.int32),
         np.empty(n, np.int32),
+        np.empty(n, np.int32),
+        np.empty(max(1, n // BUCKET_CELLS), np.int32),
     )
     filled[~valid] = np.nan
     return filled
@@ -407,7 +461,15 @@ def route(
     np.copyto(work, 0.0, where=~valid)
     closed = new((rows, cols), np.bool_)
     filled = _fill(
-        work, valid, True, closed, new((n,), np.float64), new((n,), np.int32), new((n,), np.int32)
+        work,
+        valid,
+        True,
+        closed,
+        new((n,), np.float64),
+        new((n,), np.int32),
+        new((n,), np.int32),
+        new((n,), np.int32),
+        new((max(1, n // BUCKET_CELLS),), np.int32),
     )
     del closed
     recv1, recv2 = new((n,), np.int32), new((n,), np.int32)
