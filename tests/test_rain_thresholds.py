@@ -308,6 +308,25 @@ def test_rainfall_scenario_maps_equal_the_core(tmp_path):
     np.testing.assert_allclose(read("r/annual_failure_probability.tif")[ok], p, rtol=1e-6)
     assert np.array_equal(read("r/hazard_class.tif")[ok], hazard_class(p))
     assert (expected > 0).any()  # some cells have a return period inside the table
+    # hazard zones: with no minimum area, the polygons of classes 1 and 2 cover exactly the
+    # summary's ground area of those classes (10 m cells, UTM: ground areas)
+    import csv
+
+    import geopandas as gpd
+
+    zones = gpd.read_file(tmp_path / "out" / "r" / "hazard_class_zones.gpkg")
+    rows = list(csv.DictReader((tmp_path / "out" / "r" / "summary.csv").open()))
+    for cls in (1, 2):
+        listed = sum(
+            float(r["area_ha"])
+            for r in rows
+            if r["measure"] == "annual_failure_probability"
+            and r["class"] == str(cls)
+            and r["soil_unit"] == "ALL"
+        )
+        zoned = zones.loc[zones["hazard_class"] == cls, "area_m2"].sum() / 1e4
+        assert zoned == pytest.approx(listed, rel=1e-3, abs=1e-3)
+    assert (zones["hazard_class"] == 1).any()
 
 
 def test_demo_uplift_only_makes_failure_more_frequent(demo_out):

@@ -45,6 +45,11 @@ SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     ),
     ("hazard_class.tif", "rainfall", "classes by annual probability, colour table"),
     ("hazard_class.png", "rainfall, maps on", "map of the hazard classes"),
+    (
+        "hazard_class_zones.gpkg",
+        "rainfall, zones on",
+        "polygons of the two most frequent hazard classes",
+    ),
     ("triggering_return_period_yr.png", "rainfall, maps on", "map of the return period"),
     ("rainfall_thresholds.png", "rainfall, maps on", "critical intensity-duration per unit"),
     ("inventory_scores.csv", "inventory given", "landslide density and frequency ratio"),

@@ -37,6 +37,7 @@ from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
 from slopescreen.stability_classes import PF_CLASS_NAMES
 
 RECHARGE = "critical_recharge_mm_day.tif"
+HAZARD_ZONES = "hazard_class_zones.gpkg"
 # every file a scenario folder can hold; those a run does not write are removed from it
 SCENARIO_FILES = (*(f for f, _, _ in SCENARIO_OUTPUTS), *LEGACY_SCENARIO_FILES)
 
@@ -467,6 +468,18 @@ def run_scenario(
         )
         write_zones(zones, out / "low_margin_zones.gpkg")
         largest = largest_zones(zones)
+        if hazard_areas is not None:  # the two most frequent hazard classes, the same way
+            hazard_zones = low_margin_zones(
+                out / "hazard_class.tif",
+                job.codes,
+                grid,
+                units.keys,
+                hazard_names,
+                cfg.min_zone_area_m2,
+                sc.name,
+                terrain_dir / "slope_deg.tif",
+            ).rename(columns={"stability_class": "hazard_class"})
+            write_zones(hazard_zones, out / HAZARD_ZONES)
     unit_areas = table[1:, 1:] / 10_000.0
     maps: dict[str, Path] = {}
     if cfg.quicklook_map:
@@ -479,6 +492,8 @@ def run_scenario(
     written |= {p.name for p in maps.values()}
     if cfg.zones:
         written.add("low_margin_zones.gpkg")
+        if hazard_areas is not None:
+            written.add(HAZARD_ZONES)
     for stale in set(SCENARIO_FILES) - written:  # left by an earlier run of another config
         (out / stale).unlink(missing_ok=True)
     for stale in out.glob("critical_intensity_*h_mm_h.tif"):
