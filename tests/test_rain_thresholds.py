@@ -495,7 +495,7 @@ def test_tables_of_critical_intensity_match_the_kernel():
     sca = (10.0 ** rng.uniform(0.3, 4.0, n)).astype(np.float32)
     codes = rng.integers(1, 3, n).astype(np.uint16)
     exact = it.by_kernel(job, 6.0, tan, sca, codes)
-    found = it.critical_intensity(job, 6.0, tan, sca, codes, tables)
+    found = it.critical_intensity(job, 6.0, tan, sca, codes, it.stack_tables(tables))
     np.testing.assert_array_equal(found < 0, exact < 0)
     np.testing.assert_array_equal(found[exact < 0], exact[exact < 0])  # codes: the kernel's
     ok = exact > 0

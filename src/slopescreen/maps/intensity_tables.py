@@ -130,13 +130,44 @@ def build_table(job: Any, code: int, duration_h: float) -> IntensityTable:
     )
 
 
+@dataclass(frozen=True)
+class UnitTables:
+    """The tables of one duration, indexed by soil unit code (one copy for every tile)."""
+
+    values: np.ndarray  # (codes, log10 SCA nodes, slope nodes)
+    flagged: np.ndarray  # (codes, table cells)
+    has: np.ndarray  # (codes,): the unit has a table
+    origin: np.ndarray
+    step: np.ndarray
+
+    @property
+    def units(self) -> list[int]:
+        return [int(code) for code in np.flatnonzero(self.has)]
+
+
+def stack_tables(tables: dict[tuple[int, float], IntensityTable]) -> dict[float, UnitTables]:
+    """Per-unit tables ((code, duration) -> table) stacked by duration, once."""
+    out = {}
+    for duration in sorted({d for _, d in tables}):
+        mine = {code: t for (code, d), t in tables.items() if d == duration}
+        first = next(iter(mine.values()))
+        size = max(mine) + 1
+        values = np.zeros((size, *first.values.shape))
+        flagged = np.ones((size, *first.flagged.shape), bool)
+        has = np.zeros(size, bool)
+        for code, t in mine.items():
+            values[code], flagged[code], has[code] = t.values, t.flagged, True
+        out[duration] = UnitTables(values, flagged, has, first.origin, first.step)
+    return out
+
+
 def critical_intensity(
     job: Any,
     duration_h: float,
     tan: np.ndarray,
     sca: np.ndarray,
     codes: np.ndarray,
-    tables: dict[tuple[int, float], IntensityTable],
+    tables: dict[float, UnitTables],
     where: tuple[np.ndarray, np.ndarray] | None = None,
 ) -> np.ndarray:
     """Critical intensity (mm/h, codes) of cells: from their unit's table where there is
@@ -144,22 +175,23 @@ def critical_intensity(
     (slope degrees, log10 SCA) when the caller has them (:func:`table_coordinates`)."""
     from slopescreen.maps.kernels import intensity_from_table
 
-    mine = {code: t for (code, d), t in tables.items() if d == duration_h}
-    if not mine:
+    mine = tables.get(duration_h)
+    if mine is None:
         return by_kernel(job, duration_h, tan, sca, codes)
-    first = next(iter(mine.values()))
-    size = int(codes.max(initial=0)) + 1
-    values = np.zeros((size, *first.values.shape))
-    flagged = np.ones((size, *first.flagged.shape), bool)
-    has = np.zeros(size, bool)
-    for code, t in mine.items():
-        if code < size:
-            values[code], flagged[code], has[code] = t.values, t.flagged, True
     slope_deg, log_sca = where if where is not None else table_coordinates(tan, sca)
     out = np.empty(tan.size)
     exact = np.zeros(tan.size, bool)
     intensity_from_table(
-        slope_deg, log_sca, codes, values, flagged, has, first.origin, first.step, out, exact
+        slope_deg,
+        log_sca,
+        codes,
+        mine.values,
+        mine.flagged,
+        mine.has,
+        mine.origin,
+        mine.step,
+        out,
+        exact,
     )
     if exact.any():
         out[exact] = by_kernel(job, duration_h, tan[exact], sca[exact], codes[exact])
@@ -195,11 +227,14 @@ def unit_cells(codes: Path, grid: Grid) -> dict[int, int]:
     return {code: int(n) for code, n in enumerate(counts) if code > 0 and n > 0}
 
 
-def tables_for(job: Any, unit_cells: dict[int, int]) -> dict[tuple[int, float], IntensityTable]:
-    """Tables for the units with at least ``MIN_CELLS_PER_NODE`` cells per node."""
-    return {
-        (code, d): build_table(job, code, d)
-        for code, cells in unit_cells.items()
-        if cells >= MIN_CELLS_PER_NODE * node_count()
-        for d in job.rainfall.durations_h
-    }
+def tables_for(job: Any, unit_cells: dict[int, int]) -> dict[float, UnitTables]:
+    """Tables for the units with at least ``MIN_CELLS_PER_NODE`` cells per node, stacked
+    by duration."""
+    return stack_tables(
+        {
+            (code, d): build_table(job, code, d)
+            for code, cells in unit_cells.items()
+            if cells >= MIN_CELLS_PER_NODE * node_count()
+            for d in job.rainfall.durations_h
+        }
+    )

@@ -435,7 +435,7 @@ def intensity_from_table(slope_deg, log_sca, codes, tables, flagged, has, origin
         j = codes[i]
         x = (slope_deg[i] - origin[0]) / step[0]
         y = (log_sca[i] - origin[1]) / step[1]
-        if not (has[j] and 0.0 <= x < n_t - 1 and 0.0 <= y < n_s - 1):
+        if not (j < has.size and has[j] and 0.0 <= x < n_t - 1 and 0.0 <= y < n_s - 1):
             exact[i] = True
             continue
         c, r = int(x), int(y)

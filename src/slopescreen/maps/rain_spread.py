@@ -47,18 +47,8 @@ def critical_intensities(
     """I_c (mm/h, codes -1 and -2) of the block's cells for parameters that may be arrays
     of samples broadcast against the cells (shape: the broadcast shape)."""
     from slopescreen.maps.intensity_tables import by_kernel
+    from slopescreen.maps.scenario_tiles import CORE_FIELDS as names
 
-    names = (
-        "depth_m",
-        "cohesion_kpa",
-        "root_cohesion_kpa",
-        "friction_deg",
-        "unit_weight_kn_m3",
-        "saturated_unit_weight_kn_m3",
-        "hydraulic_conductivity_m_s",
-        "diffusivity_m2_s",
-        "transmissivity_m2_day",
-    )
     # one signature of the compiled kernel for every caller: float64 cells, int64 codes
     shape = np.broadcast_shapes(block["tan"].shape, *(np.shape(params[n]) for n in names))
     flat = {n: np.broadcast_to(np.asarray(params[n], float), shape).ravel() for n in names}
@@ -129,14 +119,16 @@ def annual_probability_with_spread(
         ratio = np.where(mean_intensity > 0.0, per_cell[:, -1, :] / mean_intensity, -np.inf)
     critical = np.argmax(ratio, axis=0)
     points = taylor_points(values, correlations)
+    by_duration = [  # (duration, its cells, the block at them) for durations that are D*
+        (d, cells, {k: v[cells] for k, v in sub.items()})
+        for row, d in enumerate(table.durations_h)
+        if (cells := critical == row).any()
+    ]
     capacity, conductivity = {}, {}
     for key, params in points.items():
         ic = np.empty(n)
-        for row, d in enumerate(table.durations_h):
-            cells = critical == row
-            if cells.any():
-                part = {k: v[cells] for k, v in sub.items()}
-                ic[cells] = critical_intensities(job, part, d, **params)
+        for d, cells, part in by_duration:
+            ic[cells] = critical_intensities(job, part, d, **params)
         k_mm_h = np.broadcast_to(params["hydraulic_conductivity_m_s"], (n,)) * 3.6e6
         # the codes at their limits: failure before rain is I_c -> 0; no intensity up to
         # K_z failing is I_c = K_z, where rain of any strength infiltrates at K_z at most

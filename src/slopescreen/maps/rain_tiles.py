@@ -77,8 +77,7 @@ def rainfall_tile(
     else:
         out |= _frequency_step(found, design * spec.uplift, table)
     if job.spreads and dry_probability is not None:
-        mean = np.array([out[f"intensity_{d:g}"] for d in table.durations_h])
-        spread = _annual_with_spread(job, block, design, mean, dry_probability)
+        spread = _annual_with_spread(job, block, design, found, dry_probability)
         out["annual_probability_spread"] = spread
         out["hazard_classes_spread"] = rf.hazard_class(spread, table.aep_breaks)
     return out
@@ -94,8 +93,7 @@ def _frequency_step(
 
     n = found.shape[1]
     period, p, cls = np.empty(n), np.empty(n), np.empty(n, np.uint8)
-    rf.hazard_class([0.5], table.aep_breaks)  # the breaks checked as the core checks them
-    frequency_by_cell(
+    frequency_by_cell(  # the breaks were checked when the scenario file was read
         found,
         np.log(np.asarray(table.return_periods_yr, float)),
         np.log(design),
@@ -119,23 +117,15 @@ def _annual_with_spread(
     """Annual probability of failure with the soil spreads, unit by unit (NaN for units
     without spreads): :mod:`slopescreen.maps.rain_spread`."""
     from slopescreen.maps.rain_spread import annual_probability_with_spread
-    from slopescreen.maps.scenario_tiles import CORE_FIELDS
+    from slopescreen.maps.scenario_tiles import units_with_spreads
 
-    codes = block["codes"]
-    result = np.full(codes.shape, np.nan)
-    for code in np.unique(codes):
-        spreads = job.spreads.get(int(code))
-        if not spreads:
-            continue
-        sel = codes == code
-        values: dict[str, object] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
-        values.update(spreads)
-        rho = job.correlations.get(int(code), 0.0)
+    result = np.full(block["codes"].shape, np.nan)
+    for sel, sub, values, corr in units_with_spreads(job, block):
         result[sel] = annual_probability_with_spread(
             job,
-            {k: v[sel] for k, v in block.items()},
+            sub,
             values,
-            {("cohesion_kpa", "friction_deg"): rho} if rho else {},
+            corr,
             design[:, :, sel] if design.ndim == 3 else design,
             mean_intensity[:, sel],
             dry_probability[sel],

@@ -372,7 +372,8 @@ def run_scenario(
     if sc.rainfall is not None and intensity_cached is None:
         job = replace(job, intensity_tables=tables_for(job, unit_cells(job.codes, grid)))
         if job.intensity_tables:
-            used = sorted({units.keys[code - 1] for code, _ in job.intensity_tables})
+            codes = {c for t in job.intensity_tables.values() for c in t.units}
+            used = sorted(units.keys[code - 1] for code in codes)
             echo(f"scenario {sc.name}: critical intensities from tables for {', '.join(used)}")
     with_probability = bool(units.spreads)
     sinks = _sinks(cfg, sc, grid, out, names, with_probability)

@@ -71,8 +71,8 @@ class TileJob:
     numba_threads: int = 0  # 0: numba's default (all cores)
     rainfall: RainfallFrequency | None = None  # the design-rainfall table (rainfall scenarios)
     intensity_cache: Path | None = None  # verified critical intensities (rainfall scenarios)
-    # tables of critical intensity per (unit, duration) on large grids (intensity_tables)
-    intensity_tables: dict[tuple[int, float], Any] = field(default_factory=dict)
+    # tables of critical intensity by duration on large grids (intensity_tables.UnitTables)
+    intensity_tables: dict[float, Any] = field(default_factory=dict)
 
 
 def core_storm(sc: Scenario, rain_mm_h: np.ndarray | None = None) -> Storm | None:
@@ -156,6 +156,24 @@ def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) ->
     return _fs_fast(sc.seismic_coefficient, block["tan"], m, **p)
 
 
+def units_with_spreads(
+    job: TileJob, block: dict[str, np.ndarray]
+) -> Iterator[tuple[np.ndarray, dict[str, np.ndarray], dict[str, Any], dict]]:
+    """For each soil unit of the block that has spreads: its cells (mask), the block at
+    them, its soil values (numbers, spreads as ``Spread``) and the c'-phi' correlation."""
+    codes = block["codes"]
+    for code in np.unique(codes):
+        spreads = job.spreads.get(int(code))
+        if not spreads:
+            continue
+        sel = codes == code
+        values: dict[str, Any] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
+        values.update(spreads)
+        rho = job.correlations.get(int(code), 0.0)
+        corr = {("cohesion_kpa", "friction_deg"): rho} if rho else {}
+        yield sel, {k: v[sel] for k, v in block.items()}, values, corr
+
+
 def probability(job: TileJob, block: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
     """(P_f, reliability index) for a tile's cells; NaN for units without spreads."""
     sc, rel = job.scenario, job.reliability
@@ -163,19 +181,10 @@ def probability(job: TileJob, block: dict[str, np.ndarray]) -> tuple[np.ndarray,
     pf = np.full(codes.shape, np.nan)
     beta = np.full(codes.shape, np.nan)
     method = "taylor" if sc.storm is not None else rel.method
-    for code in np.unique(codes):
-        spreads = job.spreads.get(int(code))
-        if not spreads:
-            continue
-        sel = codes == code
-        sub = {k: v[sel] for k, v in block.items()}
-        values: dict[str, object] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
-        values.update(spreads)
+    for sel, sub, values, corr in units_with_spreads(job, block):
         values["slope_deg"] = sub["slope"]
         values["specific_catchment_area_m"] = sub["sca"]
         fs_of = partial(_fs_for_probability, sc, sub)
-        rho = job.correlations.get(int(code), 0.0)
-        corr = {("cohesion_kpa", "friction_deg"): rho} if rho else {}
         if method == "monte_carlo":
             res = reliability_monte_carlo(
                 fs_of, values, corr, samples=rel.samples, random_state=rel.random_state
