@@ -30,7 +30,8 @@ from slopescreen.maps.finished_run import VALIDATION_FOLDER, FinishedRun
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.inventory import FEW_CELLS, Inventory
 from slopescreen.maps.rasters import read_block, windows
-from slopescreen.maps.scenario_tiles import Runner, _fs_fast, add_tile, serial_runner
+from slopescreen.maps.runners import Runner, serial_runner
+from slopescreen.maps.scenario_tiles import _fs_fast, add_tile
 from slopescreen.maps.terrain_cache import NODATA_F32
 from slopescreen.outputs import real_folder, write_text
 from slopescreen.validation import grouped_curves, held_out_blocks, masses_around

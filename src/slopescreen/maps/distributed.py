@@ -40,7 +40,7 @@ def dask_runner(
     echo(f"dask: {n} workers at {client.scheduler.address}")
 
     def runner(fn: Callable[..., dict], jobs: list[tuple]) -> Iterator[dict]:
-        from slopescreen.maps.scenario_tiles import in_order
+        from slopescreen.maps.runners import in_order
 
         yield from in_order(lambda *args: client.submit(fn, *args, pure=False), jobs, 2 * n)
 

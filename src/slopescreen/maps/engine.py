@@ -42,8 +42,9 @@ from slopescreen.maps.inventory import Inventory
 from slopescreen.maps.locks import folder_lock
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_on_grid
 from slopescreen.maps.report import Extras, RunFacts, write_report
+from slopescreen.maps.runners import Runner, serial_runner
 from slopescreen.maps.scenario_run import ScenarioSummary, run_scenario
-from slopescreen.maps.scenario_tiles import Runner, check_storm_soils, serial_runner
+from slopescreen.maps.scenario_tiles import check_storm_soils
 from slopescreen.maps.soils import SoilUnits, load_soils
 
 if TYPE_CHECKING:
@@ -516,7 +517,7 @@ def _terrain_and_scenarios(
     started = time.perf_counter()
     key = cache_key(inputs.dem_files, cfg.region.dem_elevation_unit, grid.crs.to_wkt(), __version__)
     folder, reused = terrain_products(
-        grid, cfg.region.dem_elevation_unit, key, cache, __version__, echo
+        grid, cfg.region.dem_elevation_unit, key, cache, __version__, echo, steps.runner
     )
     for name in TERRAIN_FILES:
         if not copy_verified(folder / name, terrain_dir / name, recorded_sha256(folder, name)):

@@ -11,7 +11,7 @@ from typing import Any
 from slopescreen.maps.config import Config
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.inventory import Inventory
-from slopescreen.maps.scenario_tiles import Runner, serial_runner
+from slopescreen.maps.runners import Runner, serial_runner
 from slopescreen.maps.scoring import score_scenario
 from slopescreen.maps.summary import write_summary
 from slopescreen.maps.validation_plots import success_rate_figure

@@ -21,14 +21,13 @@ from slopescreen.maps.intensity_tables import table_settings, tables_for, unit_c
 from slopescreen.maps.output_names import LEGACY_SCENARIO_FILES, SCENARIO_OUTPUTS
 from slopescreen.maps.rain_tiles import intensity_name
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, windows
+from slopescreen.maps.runners import Runner, serial_runner
 from slopescreen.maps.scenario_tiles import (
     BETA_CAP,
     CORE_FIELDS,
     NO_FAILURE_CODE,
-    Runner,
     TileJob,
     compute_tile,
-    serial_runner,
 )
 from slopescreen.maps.soils import SoilUnits
 from slopescreen.maps.summary import summary_rows, write_summary

@@ -8,7 +8,7 @@ distributed run gives the same bytes as a serial one.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterator
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from functools import partial
 from pathlib import Path
@@ -46,7 +46,6 @@ CORE_FIELDS = (
 )
 BETA_CAP = 10.0  # reliability index stored within +-10 (P_f 0 or 1 gives +-inf)
 NO_FAILURE_CODE = -1.0  # time-to-failure code: FS stays >= 1 up to the later time
-Runner = Callable[[Callable[..., dict], list[tuple]], Iterator[dict]]
 
 
 @dataclass(frozen=True)
@@ -372,32 +371,3 @@ def add_tile(total: dict[Any, Any], result: dict[Any, Any]) -> None:
             total[key] = tuple(a + b for a, b in zip(total[key], value, strict=True))
         else:
             total[key] = total[key] + value
-
-
-def serial_runner(fn: Callable[..., dict], jobs: list[tuple]) -> Iterator[dict]:
-    for args in jobs:
-        yield fn(*args)
-
-
-def in_order(submit: Callable[..., Any], jobs: list[tuple], ahead: int) -> Iterator[dict]:
-    """Results of ``submit(*job)`` futures in job order, at most ``ahead`` in flight: the
-    caller writes and sums them as a serial run does and holds a bounded number of tiles."""
-    pending = [submit(*args) for args in jobs[:ahead]]
-    next_job = len(pending)
-    while pending:
-        result = pending.pop(0).result()
-        if next_job < len(jobs):
-            pending.append(submit(*jobs[next_job]))
-            next_job += 1
-        yield result
-
-
-def threaded_runner(fn: Callable[..., dict], jobs: list[tuple]) -> Iterator[dict]:
-    """The jobs on a thread per core (at most 8), results in job order: for tile functions
-    that release the GIL (raster reads, nogil kernels)."""
-    import os
-    from concurrent.futures import ThreadPoolExecutor
-
-    threads = max(1, min(os.cpu_count() or 1, 8))
-    with ThreadPoolExecutor(threads) as pool:
-        yield from in_order(lambda *args: pool.submit(fn, *args), jobs, 2 * threads)

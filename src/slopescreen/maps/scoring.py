@@ -23,7 +23,8 @@ import numpy as np
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.inventory import FEW_CELLS, Inventory
 from slopescreen.maps.rasters import read_block, windows
-from slopescreen.maps.scenario_tiles import Runner, add_tile, serial_runner, threaded_runner
+from slopescreen.maps.runners import Runner, serial_runner, threaded_runner
+from slopescreen.maps.scenario_tiles import add_tile
 from slopescreen.maps.terrain_cache import NODATA_F32
 from slopescreen.stability_classes import classify
 from slopescreen.validation import RankCurves, auc_standard_error, grouped_curves, held_out_blocks

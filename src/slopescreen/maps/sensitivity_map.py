@@ -22,7 +22,8 @@ from slopescreen.maps.config import Scenario
 from slopescreen.maps.finished_run import VALIDATION_FOLDER, FinishedRun
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.rasters import read_block, windows
-from slopescreen.maps.scenario_tiles import CORE_FIELDS, Runner, add_tile, serial_runner
+from slopescreen.maps.runners import Runner, serial_runner
+from slopescreen.maps.scenario_tiles import CORE_FIELDS, add_tile
 from slopescreen.maps.summary import write_summary
 from slopescreen.maps.terrain_cache import NODATA_F32
 from slopescreen.maps.validation_plots import tornado_figure

@@ -3,24 +3,24 @@
 from __future__ import annotations
 
 import math
-import os
 import shutil
 import tempfile
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from pathlib import Path
 
 import numpy as np
 
 from slopescreen import terrain
-from slopescreen.maps import rasters
+from slopescreen.maps import rasters, tiled_routing
 from slopescreen.maps.cache import building, content_key, usable_entry
 from slopescreen.maps.grid import Grid, read_elevations
 from slopescreen.maps.ground import GROUND_VERSION, gradient_on_ground
 from slopescreen.maps.locks import entry_lock
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_block
+from slopescreen.maps.runners import Runner, serial_runner
 from slopescreen.outputs import TEMP_PREFIX, real_folder
 
-TERRAIN_VERSION = "4"  # bump when a terrain algorithm changes: old caches are not reused
+TERRAIN_VERSION = "5"  # bump when a terrain algorithm changes: old caches are not reused
 NODATA_F32 = -9999.0
 PRODUCTS = (
     "slope_deg.tif",
@@ -32,46 +32,26 @@ PRODUCTS = (
 )
 
 
-ROUTING_BYTES_PER_CELL = 57  # routing peak (about 36 with the DEM) plus the tile work, rounded up
+ROUTING_TILE = 4000  # cells a side of a routing tile: about 0.75 GB of work at its peak
 
 
-def memory_budget_bytes() -> int:
-    """Memory the terrain step may use: SLOPESCREEN_MEMORY_BUDGET_MB, else 60% of the memory
-    available now (Linux /proc/meminfo), else 8 GB."""
-    env = os.environ.get("SLOPESCREEN_MEMORY_BUDGET_MB")
-    if env:
-        return int(float(env) * 2**20)
-    try:
-        with open("/proc/meminfo") as handle:
-            for line in handle:
-                if line.startswith("MemAvailable:"):
-                    return int(0.6 * int(line.split()[1]) * 1024)
-    except OSError:
-        pass
-    return 8 * 2**30
+class ElevationSource:
+    """Windows of the DEM in metres (float64, NaN for no data), for routing tiles: a
+    plain, picklable reader, so dask workers read their own windows."""
 
+    def __init__(self, path: Path, elevation_unit: str) -> None:
+        self.path, self.elevation_unit = path, elevation_unit
 
-class _Scratch:
-    """Work arrays as memory-mapped files (deleted afterwards), for grids beyond memory."""
-
-    def __init__(self, folder: Path) -> None:
-        folder.mkdir(parents=True, exist_ok=True)
-        self.folder = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}routing-", dir=folder))
-        self.count = 0
-
-    def __call__(self, shape: tuple[int, ...], dtype: type) -> np.ndarray:
-        self.count += 1
-        return np.memmap(self.folder / f"a{self.count}.bin", dtype=dtype, mode="w+", shape=shape)
-
-    def close(self) -> None:
-        shutil.rmtree(self.folder, ignore_errors=True)
+    def __call__(self, rows: slice, cols: slice) -> np.ndarray:
+        return read_elevations(self.path, self.elevation_unit, rows, cols)
 
 
 def cache_key(
     dem_files_sha256: dict[str, str], elevation_unit: str, crs_wkt: str, version: str
 ) -> str:
     """Key of the terrain entry: the content of every file of the DEM (a VRT and each of
-    its sources), the elevation unit, the CRS, the terrain algorithms, the ground-geometry
+    its sources), the elevation unit, the CRS, the terrain algorithms, the routing tile
+    size (it sets the order in which contributing area is summed), the ground-geometry
     layer and the program version."""
     parts = [f"{name}={sha}" for name, sha in dem_files_sha256.items()]
     return content_key(
@@ -79,6 +59,7 @@ def cache_key(
         elevation_unit,
         crs_wkt,
         f"terrain-v{TERRAIN_VERSION}",
+        f"routing-tile-{ROUTING_TILE}",
         f"ground-v{GROUND_VERSION}",
         version,
     )
@@ -101,29 +82,27 @@ def terrain_products(
     cache_dir: Path,
     version: str,
     echo: Callable[[str], None],
+    runner: Runner = serial_runner,
 ) -> tuple[Path, bool]:
     """Folder holding slope (degrees and tangent), specific catchment area and hillshade;
     returns (folder, reused). A cached entry is used only after its files pass the check
     against their recorded hashes; otherwise it is (re)built, all or nothing. Slope and
-    hillshade are computed in row bands; routing holds the whole grid (see
-    slopescreen.routing for its bytes per cell), in memory-mapped work files when the grid
-    would not fit in the memory budget."""
+    hillshade are computed in row bands read from the DEM; routing in one piece when the
+    grid fits one routing tile, else tile by tile through ``runner`` (here or on dask
+    workers), its work files in a folder under ``cache_dir`` (removed afterwards)."""
     name = f"terrain-{key}"
     with entry_lock(real_folder(cache_dir), name):
         folder = usable_entry(cache_dir, name, echo)
         if folder is not None:
             return folder, True
         tags = {"slopescreen_version": version, "terrain_key": key}
-        scratch = None
-        if grid.width * grid.height * ROUTING_BYTES_PER_CELL > memory_budget_bytes():
-            scratch = _Scratch(cache_dir)  # out of core: slower, but bounded by the budget
-        info = {"key": key, "dem": str(grid.path), "out_of_core": scratch is not None}
+        info = {"key": key, "dem": str(grid.path), "routing_tile": ROUTING_TILE}
+        scratch = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}routing-", dir=cache_dir))
         try:
             with building(cache_dir, name, info) as work:
-                _compute(grid, elevation_unit, work, tags, scratch)
+                _compute(grid, elevation_unit, work, tags, scratch, runner, echo)
         finally:
-            if scratch is not None:
-                scratch.close()
+            shutil.rmtree(scratch, ignore_errors=True)
         return cache_dir / name, False
 
 
@@ -142,19 +121,12 @@ def _compute(
     elevation_unit: str,
     folder: Path,
     tags: dict[str, str],
-    scratch: _Scratch | None,
+    scratch: Path,
+    runner: Runner,
+    echo: Callable[[str], None],
 ) -> None:
-    """Slope, hillshade and the cut-off sources band by band, then routing on the whole
-    grid, in ground metres (grid.ground)."""
-    from slopescreen import routing
-
-    if scratch is None:
-        z = read_elevations(grid.path, elevation_unit)
-    else:
-        z = scratch((grid.height, grid.width), np.float64)
-        for top in range(0, grid.height, rasters.TILE):
-            rows = slice(top, min(top + rasters.TILE, grid.height))
-            z[rows] = read_elevations(grid.path, elevation_unit, rows, slice(0, grid.width))
+    """Slope, hillshade and the cut-off sources band by band, then routing, in ground
+    metres (grid.ground)."""
     tags = tags | {"ground_geometry": grid.ground.note}
     horn = {"method": "Horn (1981); one-sided where the 3x3 window is incomplete"}
     sinks = {
@@ -182,11 +154,13 @@ def _compute(
         resampling="nearest",
         tags=tags | {"azimuth_deg": "315", "altitude_deg": "45"},
     )
-    sources = (scratch or np.zeros)((grid.height, grid.width), np.uint8)
+    sources = np.lib.format.open_memmap(
+        scratch / "sources.npy", mode="w+", dtype=np.uint8, shape=(grid.height, grid.width)
+    )
     with all_or_nothing(*sinks.values(), shade):
         for top in range(0, grid.height, BAND):
             rows = slice(top, min(top + BAND, grid.height))
-            tan_b, gradient, one_sided, band_sources = _slope_band(z, grid, rows)
+            tan_b, gradient, one_sided, band_sources = _slope_band(grid, elevation_unit, rows)
             _write_band(sinks["tan"], rows, grid.width, _f32(tan_b))
             _write_band(sinks["slope"], rows, grid.width, _f32(np.degrees(np.arctan(tan_b))))
             _write_band(
@@ -194,13 +168,12 @@ def _compute(
             )
             _write_band(shade, rows, grid.width, terrain.hillshade_from_gradient(*gradient))
             sources[rows] = band_sources
-    _, sca, cut_off = routing.route(
-        z, grid.ground.lattice(), sources, overwrite=True, allocate=scratch
-    )
-    del z
+    sources.flush()
+    del sources
     route_tags = {
-        "method": "Priority-Flood+epsilon fill (Barnes et al. 2014), "
-        "D-infinity routing (Tarboton 1997), ground lengths and areas",
+        "method": "Priority-Flood fill (Barnes et al. 2014; tile by tile after Barnes 2016), "
+        "flats drained by steps to their outlet, D-infinity routing (Tarboton 1997), ground "
+        "lengths and areas",
     }
     sink = _sink(
         folder,
@@ -222,24 +195,53 @@ def _compute(
         },
     )
     with all_or_nothing(sink, cut_sink):
-        for top in range(0, grid.height, rasters.TILE):
-            rows = slice(top, min(top + rasters.TILE, grid.height))
+        for window, sca, cut_off in _routed(grid, elevation_unit, scratch, runner, echo):
             # cells without a slope have no catchment value either
-            no_slope = read_block(folder / "slope_tan.tif", rows, slice(0, grid.width))
-            missing = no_slope == NODATA_F32
-            _write_band(sink, rows, grid.width, _f32(np.where(missing, np.nan, sca[rows])))
-            _write_band(cut_sink, rows, grid.width, np.where(missing, 255, cut_off[rows]))
+            missing = read_block(folder / "slope_tan.tif", *window) == NODATA_F32
+            sink.write(*window, _f32(np.where(missing, np.nan, sca)))
+            cut_sink.write(*window, np.where(missing, 255, cut_off))
+
+
+def _routed(
+    grid: Grid, elevation_unit: str, scratch: Path, runner: Runner, echo: Callable[[str], None]
+) -> Iterator[tuple[tuple[slice, slice], np.ndarray, np.ndarray]]:
+    """(window, specific catchment area, cut-off flags) of the routed grid, window by
+    window: in one piece when the grid fits one routing tile, else tile by tile."""
+    from slopescreen import routing
+
+    layout = tiled_routing.Layout(grid.height, grid.width, ROUTING_TILE)
+    sources = tiled_routing.NpySource(scratch / "sources.npy")
+    everything = (slice(0, grid.height), slice(0, grid.width))
+    if len(layout.tiles()) == 1:
+        z = read_elevations(grid.path, elevation_unit)
+        _, sca, cut_off = routing.route(z, grid.ground.lattice(), sources(*everything))
+        yield everything, sca, cut_off
+        return
+    tiled_routing.route_tiles(
+        ElevationSource(grid.path, elevation_unit),
+        layout,
+        grid.ground.lattice(),
+        scratch,
+        runner,
+        sources,
+        echo,
+    )
+    for t in layout.tiles():
+        _, sca, cut_off = tiled_routing.tile_outputs(scratch, t)
+        yield (slice(t.r0, t.r1), slice(t.c0, t.c1)), sca, cut_off
 
 
 def _slope_band(
-    z: np.ndarray, grid: Grid, rows: slice
+    grid: Grid, elevation_unit: str, rows: slice
 ) -> tuple[np.ndarray, tuple[np.ndarray, np.ndarray], np.ndarray, np.ndarray]:
     """tan(slope), the ground gradient, the one-sided mark and the cut-off sources of a
     band of rows, read with one row of context above and below (NaN beyond the grid)."""
     n = rows.stop - rows.start
     ctx = np.full((n + 2, grid.width), np.nan)
     lo, hi = max(rows.start - 1, 0), min(rows.stop + 1, grid.height)
-    ctx[lo - (rows.start - 1) : hi - (rows.start - 1)] = z[lo:hi]
+    ctx[lo - (rows.start - 1) : hi - (rows.start - 1)] = read_elevations(
+        grid.path, elevation_unit, slice(lo, hi), slice(0, grid.width)
+    )
     dz_dcol, dz_drow_up, one_sided = terrain.grid_gradient(ctx)
     vectors = grid.ground.vectors(rows, slice(0, grid.width))
     g_e, g_n = gradient_on_ground(vectors, dz_dcol[1:-1], dz_drow_up[1:-1])

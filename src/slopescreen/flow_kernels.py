@@ -1,0 +1,566 @@
+"""Compiled kernels of flow routing on a tile framed by one ring of its neighbours' cells.
+
+Every per-cell array of a tile is (h + 2, w + 2) where the kernel needs the neighbours
+(elevation, data mask, flat steps, labels) and (h, w) otherwise. The ring holds the cells
+of the neighbouring tiles, or no data beyond the grid; the whole grid is the case of one
+tile with a ring of no data. Receivers are indices into the framed tile, so flow that
+leaves a tile is addressed to a ring cell. See ``slopescreen.routing`` for the method and
+``slopescreen.maps.tiled_routing`` for how tiles are joined.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit, prange
+
+# neighbour offsets, counter-clockwise from east: E, NE, N, NW, W, SW, S, SE
+DR = np.array([0, -1, -1, -1, 0, 1, 1, 1], dtype=np.int64)
+DC = np.array([1, 1, 0, -1, -1, -1, 0, 1], dtype=np.int64)
+# Tarboton's facets: (cardinal neighbour, diagonal neighbour) as indices into DR/DC
+_F1 = np.array([0, 2, 2, 4, 4, 6, 6, 0], dtype=np.int64)
+_F2 = np.array([1, 1, 3, 3, 5, 5, 7, 7], dtype=np.int64)
+NO_STEPS = np.iinfo(np.int32).max  # flat steps not (yet) known
+_GOLDEN = 2654435761  # multiplicative hashing (Knuth)
+
+
+@njit(cache=True)
+def heap_push(keys, ids, size, key, ident):
+    i = size
+    keys[i] = key
+    ids[i] = ident
+    while i > 0:
+        parent = (i - 1) >> 1
+        if keys[parent] < keys[i] or (keys[parent] == keys[i] and ids[parent] < ids[i]):
+            break
+        keys[parent], keys[i] = keys[i], keys[parent]
+        ids[parent], ids[i] = ids[i], ids[parent]
+        i = parent
+    return size + 1
+
+
+@njit(cache=True)
+def heap_pop(keys, ids, size):
+    top = ids[0]
+    size -= 1
+    keys[0] = keys[size]
+    ids[0] = ids[size]
+    i = 0
+    while True:
+        left = 2 * i + 1
+        if left >= size:
+            break
+        child = left
+        right = left + 1
+        if right < size and (
+            keys[right] < keys[left] or (keys[right] == keys[left] and ids[right] < ids[left])
+        ):
+            child = right
+        if keys[i] < keys[child] or (keys[i] == keys[child] and ids[i] < ids[child]):
+            break
+        keys[child], keys[i] = keys[i], keys[child]
+        ids[child], ids[i] = ids[i], ids[child]
+        i = child
+    return top, size
+
+
+@njit(cache=True)
+def _bucket(key, lo, scale, n_buckets):
+    b = int((key - lo) * scale)
+    return min(max(b, 0), n_buckets - 1)
+
+
+@njit(cache=True)
+def _table_put(table_keys, table_values, key, weight):
+    """Keep the lowest weight per key in an open-addressing table (float64 keys, exact
+    below 2^53; -1: empty); True if the key is new."""
+    mask = table_keys.size - 1
+    slot = (int(key) * _GOLDEN) & mask
+    while True:
+        if table_keys[slot] == -1.0:
+            table_keys[slot] = key
+            table_values[slot] = weight
+            return True
+        if table_keys[slot] == key:
+            table_values[slot] = min(table_values[slot], weight)
+            return False
+        slot = (slot + 1) & mask
+
+
+@njit(cache=True)
+def _meet(table, used, a, b, n_labels, za, zb):
+    """Note that labels a and b meet at spill elevation max(za, zb) in ``table`` (a list:
+    keys a * labels + b with a < b, weights), which doubles when half full (kept in a list
+    so the flood's own loop holds no array that can be replaced). Returns the pairs held."""
+    if _table_put(table[0], table[1], float(min(a, b) * n_labels + max(a, b)), max(za, zb)):
+        used += 1
+        if 2 * used > table[0].size:
+            keys = np.full(2 * table[0].size, -1.0)
+            values = np.empty(keys.size)
+            for i in range(table[0].size):
+                if table[0][i] != -1.0:
+                    _table_put(keys, values, table[0][i], table[1][i])
+            table[0] = keys
+            table[1] = values
+    return used
+
+
+@njit(cache=True)
+def fill_tile(z, valid, epsilon, closed, keys, ids, pit, link, heads, labels):
+    """Priority-Flood (Barnes, Lehman & Mulla 2014) of a framed tile's inner cells, in place.
+
+    Seeds: inner data cells on the tile's border or next to no data (outlets: next to no
+    data, the grid's edge included). With ``epsilon`` a raised cell is one float64 step
+    above the cell it was reached from (Algorithm 3), else level (Algorithm 2).
+
+    The queue is bucketed by elevation: ``heads.size`` equal buckets between the lowest and
+    highest data; a cell pushed above the current bucket waits in its bucket's linked list
+    (``link``, O(1)), only the current bucket is a binary heap ordered by (elevation, cell
+    index). Every push is at or above the current bucket (a raised cell goes to the pit
+    queue instead), so cells come out in the same order as from one global heap.
+
+    With ``labels`` (framed, int32; size 0 for none): every outlet seed is label 0, every
+    other seed its own label 1, 2, ...; each cell takes the label of the cell that reached
+    it (Barnes 2016), and the lowest spill elevation between two labels that meet,
+    max(filled a, filled b), is kept per pair. Returns (number of labels, table keys
+    a * labels + b with a < b or -1, table weights)."""
+    rows, cols = z.shape
+    labelled = labels.size > 0
+    n_buckets = heads.size
+    lo, hi = np.inf, -np.inf
+    for r in range(rows):
+        for c in range(cols):
+            inner = 0 < r < rows - 1 and 0 < c < cols - 1
+            closed[r, c] = not (inner and valid[r, c])
+            if labelled:
+                labels[r, c] = -1
+            if inner and valid[r, c]:
+                lo = min(lo, z[r, c])
+                hi = max(hi, z[r, c])
+    if not hi > lo:
+        hi = lo + 1.0
+    scale = n_buckets / (hi - lo) * (1.0 - 1e-12)
+    heads[:] = -1
+    current = 0
+    size = 0
+    n_labels = 1
+    for r in range(1, rows - 1):
+        for c in range(1, cols - 1):
+            if not valid[r, c]:
+                continue
+            outlet = False
+            for k in range(8):
+                if not valid[r + DR[k], c + DC[k]]:
+                    outlet = True
+                    break
+            if not (outlet or r == 1 or c == 1 or r == rows - 2 or c == cols - 2):
+                continue
+            closed[r, c] = True
+            if labelled:
+                labels[r, c] = 0 if outlet else n_labels
+                n_labels += 0 if outlet else 1
+            cell = r * cols + c
+            b = _bucket(z[r, c], lo, scale, n_buckets)
+            if b == current:
+                size = heap_push(keys, ids, size, z[r, c], cell)
+            else:
+                link[cell] = heads[b]
+                heads[b] = cell
+    capacity = 64
+    while capacity < 4 * n_labels:
+        capacity *= 2
+    table = [np.full(capacity if labelled else 1, -1.0)]
+    table.append(np.empty(table[0].size))
+    used = 0
+    pit_head = 0
+    pit_tail = 0
+    while True:
+        if pit_head < pit_tail:
+            cell = pit[pit_head]
+            pit_head += 1
+        elif size > 0:
+            cell, size = heap_pop(keys, ids, size)
+        else:  # the next bucket holding cells becomes the heap
+            current += 1
+            while current < n_buckets and heads[current] == -1:
+                current += 1
+            if current >= n_buckets:
+                break
+            waiting = heads[current]
+            heads[current] = -1
+            while waiting != -1:
+                size = heap_push(keys, ids, size, z.flat[waiting], waiting)
+                waiting = link[waiting]
+            continue
+        r = cell // cols
+        c = cell % cols
+        here = z[r, c]
+        step = np.nextafter(here, np.inf) if epsilon else here
+        mine = labels[r, c] if labelled else 0
+        for k in range(8):
+            rr = r + DR[k]
+            cc = c + DC[k]
+            if closed[rr, cc]:
+                if labelled and labels[rr, cc] >= 0 and labels[rr, cc] != mine:
+                    used = _meet(table, used, mine, labels[rr, cc], n_labels, here, z[rr, cc])
+                continue
+            closed[rr, cc] = True
+            if labelled:
+                labels[rr, cc] = mine
+            if z[rr, cc] <= step:
+                z[rr, cc] = step
+                pit[pit_tail] = rr * cols + cc
+                pit_tail += 1
+            else:
+                nb = rr * cols + cc
+                b = _bucket(z[rr, cc], lo, scale, n_buckets)
+                if b <= current:
+                    size = heap_push(keys, ids, size, z[rr, cc], nb)
+                else:
+                    link[nb] = heads[b]
+                    heads[b] = nb
+    return n_labels, table[0], table[1]
+
+
+@njit(cache=True)
+def spill_levels(n_nodes, start, neighbour, weight):
+    """Lowest level at which each label drains to label 0 (level -inf): the minimax path
+    over the spill graph (CSR: ``start``, ``neighbour``, ``weight``), by a Dijkstra-like
+    Priority-Flood over labels (Barnes 2016). Unreached labels stay +inf."""
+    level = np.full(n_nodes, np.inf)
+    done = np.zeros(n_nodes, np.bool_)
+    keys = np.empty(neighbour.size + 1, np.float64)
+    ids = np.empty(neighbour.size + 1, np.int64)
+    level[0] = -np.inf
+    size = heap_push(keys, ids, 0, -np.inf, 0)
+    while size > 0:
+        node, size = heap_pop(keys, ids, size)
+        if done[node]:
+            continue
+        done[node] = True
+        for e in range(start[node], start[node + 1]):
+            other = neighbour[e]
+            candidate = max(level[node], weight[e])
+            if candidate < level[other]:
+                level[other] = candidate
+                size = heap_push(keys, ids, size, candidate, other)
+    return level
+
+
+@njit(cache=True)
+def flat_steps(z, valid, steps, queue):
+    """Steps to drain across flats (8-connected), on a framed tile of a depression-free
+    surface: 0 at a cell with a lower neighbour or next to no data; 1 + the least steps of
+    its equal neighbours elsewhere (breadth-first, the ring's known steps as sources in
+    order of their steps). Inner cells of ``steps`` are written; returns True if any
+    inner cell changed."""
+    rows, cols = z.shape
+    changed = False
+    tail = 0
+    for r in range(1, rows - 1):
+        for c in range(1, cols - 1):
+            before = steps[r, c]
+            steps[r, c] = NO_STEPS
+            if valid[r, c]:
+                for k in range(8):
+                    rr = r + DR[k]
+                    cc = c + DC[k]
+                    if not valid[rr, cc] or z[rr, cc] < z[r, c]:
+                        steps[r, c] = 0
+                        queue[tail] = r * cols + c
+                        tail += 1
+                        break
+            changed |= steps[r, c] != before and steps[r, c] == 0
+    ring = np.empty(2 * (rows + cols), np.int64)
+    n_ring = 0
+    for r in range(rows):
+        for c in range(cols):
+            if (r == 0 or c == 0 or r == rows - 1 or c == cols - 1) and steps[r, c] < NO_STEPS:
+                ring[n_ring] = r * cols + c
+                n_ring += 1
+    order = np.argsort(steps.ravel()[ring[:n_ring]], kind="mergesort")
+    head = 0
+    seed = 0
+    while head < tail or seed < n_ring:
+        if seed < n_ring and (
+            head >= tail or steps.flat[ring[order[seed]]] <= steps.flat[queue[head]]
+        ):
+            cell = ring[order[seed]]
+            seed += 1
+        else:
+            cell = queue[head]
+            head += 1
+        r = cell // cols
+        c = cell % cols
+        nxt = steps[r, c] + 1
+        for k in range(8):
+            rr = r + DR[k]
+            cc = c + DC[k]
+            if rr < 1 or cc < 1 or rr > rows - 2 or cc > cols - 2 or not valid[rr, cc]:
+                continue  # ring cells (and beyond, from a ring seed) are not ours
+            if z[rr, cc] == z[r, c] and steps[rr, cc] > nxt:
+                steps[rr, cc] = nxt
+                queue[tail] = rr * cols + cc
+                tail += 1
+    return changed
+
+
+@njit(cache=True)
+def ground_at(values, step_r, step_c, last_r, last_c, r, c):
+    """Bilinear value at cell (r, c) of a lattice whose node (i, j) stands at cell
+    (min(i step_r, last_r), min(j step_c, last_c))."""
+    nr, nc = values.shape
+    i = min(r // step_r, nr - 2)
+    j = min(c // step_c, nc - 2)
+    r0 = i * step_r
+    c0 = j * step_c
+    r1 = min(r0 + step_r, last_r)
+    c1 = min(c0 + step_c, last_c)
+    tr = (r - r0) / (r1 - r0)
+    tc = (c - c0) / (c1 - c0)
+    top = values[i, j] * (1.0 - tc) + values[i, j + 1] * tc
+    bottom = values[i + 1, j] * (1.0 - tc) + values[i + 1, j + 1] * tc
+    return top * (1.0 - tr) + bottom * tr
+
+
+@njit(cache=True)
+def _steepest(e, ok, dx, dy):
+    """D-infinity on a 3x3 stencil (e: heights of the centre and the 8 neighbours, ok:
+    which neighbours count): (first neighbour, second neighbour or -1, share of the first,
+    contour width), or (-1, -1, 0, 0) where nothing is lower. A cell whose facets all lack
+    a neighbour falls back to its steepest lower neighbour (D8)."""
+    diag = math.hypot(dx, dy)
+    e0 = e[8]
+    best = 0.0
+    best_f = -1
+    best_s1 = 0.0
+    best_s2 = 0.0
+    for f in range(8):
+        k1 = _F1[f]
+        k2 = _F2[f]
+        if not (ok[k1] and ok[k2]):
+            continue
+        along_x = DR[k1] == 0
+        d1 = dx if along_x else dy
+        d2 = dy if along_x else dx
+        s1 = (e0 - e[k1]) / d1
+        s2 = (e[k1] - e[k2]) / d2
+        # steepest descent within the facet (Tarboton 1997), angles only for the winner
+        if s2 <= 0.0:
+            s = s1
+        elif s2 * d1 >= s1 * d2:
+            s = (e0 - e[k2]) / diag
+        else:
+            s = math.sqrt(s1 * s1 + s2 * s2)
+        if s > best:
+            best = s
+            best_f = f
+            best_s1 = s1
+            best_s2 = s2
+    if best_f >= 0:
+        k1 = _F1[best_f]
+        k2 = _F2[best_f]
+        along_x = DR[k1] == 0
+        d1 = dx if along_x else dy
+        d2 = dy if along_x else dx
+        rmax = math.atan2(d2, d1)
+        ang = min(max(math.atan2(best_s2, best_s1), 0.0), rmax)
+        p1 = (rmax - ang) / rmax
+        # contour width: cell area over the mean step along the flow
+        width = dx * dy / (d1 * math.cos(ang) + (ang / rmax) * d2 * math.sin(ang))
+        if p1 >= 1.0 - 1e-12:
+            return k1, -1, 1.0, width
+        if p1 <= 1e-12:
+            return k2, -1, 1.0, width
+        return k1, k2, p1, width
+    steepest = 0.0
+    to = -1
+    width = 0.0
+    for k in range(8):
+        if not ok[k]:
+            continue
+        dist = math.hypot(dx * DC[k], dy * DR[k])
+        s = (e0 - e[k]) / dist
+        if s > steepest:
+            steepest = s
+            to = k
+            width = dx * dy / dist
+    return to, -1, 1.0, width
+
+
+@njit(cache=True)
+def _receiver(r, c, rows, cols):
+    """Code of framed cell (r, c) as a receiver: its inner index, or -2 - its position in
+    the ring's vector."""
+    if r == 0 or c == 0 or r == rows - 1 or c == cols - 1:
+        return -2 - ring_index(r, c, rows, cols)
+    return (r - 1) * (cols - 2) + c - 1
+
+
+@njit(cache=True, parallel=True)
+def directions(z, valid, steps, lattice, row0, col0, recv1, recv2, share1, width):
+    """D-infinity receivers (inner index; -2 - ring position for a ring cell; -1 for none),
+    the first receiver's share and
+    the contour width of every inner cell of a framed tile whose first inner cell is
+    (row0, col0) of the grid. Cells with flat steps > 0 route on the steps among their
+    equal neighbours (towards the drain); the others on the surface ``z``."""
+    rows, cols = z.shape
+    w = cols - 2
+    step_r, step_c, last_r, last_c, along_cols, along_rows, _ = lattice
+    for r in prange(1, rows - 1):
+        e = np.empty(9)
+        ok = np.empty(8, np.bool_)
+        for c in range(1, cols - 1):
+            gr = row0 + r - 1
+            gc = col0 + c - 1
+            dx = ground_at(along_cols, step_r, step_c, last_r, last_c, gr, gc)
+            dy = ground_at(along_rows, step_r, step_c, last_r, last_c, gr, gc)
+            cell = (r - 1) * w + c - 1
+            width[cell] = 0.5 * (dx + dy)
+            recv1[cell] = -1
+            recv2[cell] = -1
+            share1[cell] = 0.0
+            if not valid[r, c]:
+                continue
+            flat = steps[r, c] > 0
+            if steps[r, c] == NO_STEPS:
+                continue  # cannot happen on a filled surface with its steps complete
+            e[8] = steps[r, c] if flat else z[r, c]
+            for k in range(8):
+                rr = r + DR[k]
+                cc = c + DC[k]
+                ok[k] = valid[rr, cc]
+                if flat:
+                    ok[k] = ok[k] and z[rr, cc] == z[r, c] and steps[rr, cc] < NO_STEPS
+                    e[k] = steps[rr, cc]
+                else:
+                    e[k] = z[rr, cc]
+            k1, k2, p1, wd = _steepest(e, ok, dx, dy)
+            if k1 < 0:
+                continue
+            recv1[cell] = _receiver(r + DR[k1], c + DC[k1], rows, cols)
+            share1[cell] = p1
+            if k2 >= 0:
+                recv2[cell] = _receiver(r + DR[k2], c + DC[k2], rows, cols)
+            width[cell] = wd
+    return recv1, recv2, share1, width
+
+
+@njit(cache=True)
+def ring_index(r, c, rows, cols):
+    """Position of framed cell (r, c) of the ring in the ring's vector: top row, bottom
+    row, left column, right column (corners in the rows)."""
+    if r == 0:
+        return c
+    if r == rows - 1:
+        return cols + c
+    if c == 0:
+        return 2 * cols + r - 1
+    return 2 * cols + rows - 2 + r - 1
+
+
+@njit(cache=True)
+def _send(j, amount, flag, values, flags, ring_area, ring_flags):
+    """Pass ``amount`` (and the flag) to receiver j: into ``values`` (and ``flags``) for
+    an inner cell, else into the ring's vectors."""
+    if j >= 0:
+        values[j] += amount
+        if flag:
+            flags[j] = 1
+    else:
+        ring_area[-2 - j] += amount
+        if flag:
+            ring_flags[-2 - j] = 1
+
+
+@njit(cache=True)
+def accumulate(recv1, recv2, share1, values, flags, mark, indeg, queue, ring):
+    """Add what flows in to ``values`` (inner cells, h*w) in topological order over the
+    cells whose ``mark`` is set (an empty ``mark``: every cell), each starting from its own
+    value: each cell passes its total times its share to its receivers. ``flags`` (h*w or
+    empty) are carried along (a cell receiving any share from a flagged cell is flagged).
+    What leaves the tile is summed into the ring's vectors ``ring`` = (ring amounts, ring
+    flags), in the order the cells are taken (deterministic). Returns how many cells were
+    taken."""
+    ring_area, ring_flags = ring
+    n = recv1.size
+    carry = flags.size == n
+    every = mark.size == 0
+    indeg[:] = 0
+    for i in range(n):
+        if every or mark[i]:
+            if recv1[i] >= 0:
+                indeg[recv1[i]] += 1
+            if recv2[i] >= 0:
+                indeg[recv2[i]] += 1
+    tail = 0
+    for i in range(n):
+        if indeg[i] == 0 and (every or mark[i]):
+            queue[tail] = i
+            tail += 1
+    head = 0
+    while head < tail:
+        i = queue[head]
+        head += 1
+        a = values[i]
+        flag = carry and flags[i] != 0
+        j = recv1[i]
+        if j != -1:
+            _send(j, a * share1[i], flag, values, flags, ring_area, ring_flags)
+            if j >= 0:
+                indeg[j] -= 1
+                if indeg[j] == 0:
+                    queue[tail] = j
+                    tail += 1
+        j = recv2[i]
+        if j != -1:
+            _send(j, a * (1.0 - share1[i]), flag, values, flags, ring_area, ring_flags)
+            if j >= 0:
+                indeg[j] -= 1
+                if indeg[j] == 0:
+                    queue[tail] = j
+                    tail += 1
+    return tail
+
+
+@njit(cache=True)
+def downstream(recv1, recv2, entries, mark, stack):
+    """Mark (1) every inner cell downstream of the ``entries`` (inner indices), themselves
+    included; returns how many."""
+    top = 0
+    count = 0
+    for i in entries:
+        if not mark[i]:
+            mark[i] = 1
+            stack[top] = i
+            top += 1
+            count += 1
+    while top > 0:
+        top -= 1
+        i = stack[top]
+        for j in (recv1[i], recv2[i]):
+            if j >= 0 and not mark[j]:
+                mark[j] = 1
+                stack[top] = j
+                top += 1
+                count += 1
+    return count
+
+
+@njit(cache=True)
+def cell_areas(valid, lattice, row0, col0, area):
+    """Ground area of every inner data cell of a framed tile (0 elsewhere), h*w."""
+    rows, cols = valid.shape
+    step_r, step_c, last_r, last_c, _, _, cell_area = lattice
+    w = cols - 2
+    for r in range(1, rows - 1):
+        for c in range(1, cols - 1):
+            i = (r - 1) * w + c - 1
+            if valid[r, c]:
+                area[i] = ground_at(
+                    cell_area, step_r, step_c, last_r, last_c, row0 + r - 1, col0 + c - 1
+                )
+            else:
+                area[i] = 0.0
+    return area

@@ -1,0 +1,471 @@
+"""Flow routing tile by tile: the same depression filling, flat steps and D-infinity
+contributing area as ``slopescreen.routing.route`` with memory bounded by the tile size.
+
+Each stage maps one function over the tiles (in this process or on dask workers, through a
+runner); a task reads its window (with one ring of neighbouring cells) from the DEM or from
+the tile's own work files, and returns only what lies on its edges. The client joins the
+edges and sends each tile what it needs from its neighbours.
+
+1. Fill (Barnes 2016): each tile filled on its own by Priority-Flood from its border
+   cells, each border cell a label (cells next to no data: label 0, the outlet); where two
+   labels meet the lowest spill elevation is kept. Border cells of neighbouring tiles join
+   their labels at max(elevation a, elevation b). The lowest level at which each label
+   drains to label 0 (minimax over this spill graph) raises each cell to
+   max(its own fill, its label's level): the whole-grid fill, bit for bit.
+2. Flat steps: each tile counts steps to drain across its flats from its own drains and
+   from the steps its ring holds; tiles whose ring would shorten a border cell's steps run
+   again until none would (a flat spanning k tiles needs up to k rounds).
+3. Directions and contributing area: each tile's own area accumulated inside it; what
+   leaves into a neighbour's cells enters there in the next round and is carried
+   downstream of those cells only (contributing area is linear in what flows in), until
+   nothing crosses a tile edge. The area equals the whole-grid area but for the order of
+   summation (each cell's area is a sum of positive terms in both: relative difference
+   below 2 (L + 2) u for u = 2^-53 and L the longest flow path in cells, far below the
+   float32 of the output for any path under 10^8 cells); the same bytes for any number of
+   workers (rounds are synchronous, inflows summed in tile order).
+
+Work files: about 45 bytes per cell on disk (filled surface, labels, steps, receivers,
+shares, widths, area, flags), in a folder every worker can reach.
+
+References
+----------
+Barnes, R. (2016). Parallel priority-flood depression filling for trillion cell digital
+elevation models on desktops or clusters. Computers & Geosciences 96, 56-68.
+Barnes, R. (2017). Parallel non-divergent flow accumulation for trillion cell digital
+elevation models on desktops or clusters. Environmental Modelling & Software 92, 202-212.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from slopescreen import flow_kernels as fk
+from slopescreen import routing
+from slopescreen.maps.runners import Runner
+
+Echo = Callable[[str], None]
+
+
+@dataclass(frozen=True)
+class Tile:
+    """Tile ``index`` at tile row ``ti``, tile column ``tj``: grid rows r0:r1, cols c0:c1."""
+
+    index: int
+    ti: int
+    tj: int
+    r0: int
+    r1: int
+    c0: int
+    c1: int
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        return self.r1 - self.r0, self.c1 - self.c0
+
+
+@dataclass(frozen=True)
+class Layout:
+    """A grid of ``height`` x ``width`` cells cut into tiles of ``size`` x ``size``."""
+
+    height: int
+    width: int
+    size: int
+
+    @property
+    def tile_rows(self) -> int:
+        return -(-self.height // self.size)
+
+    @property
+    def tile_cols(self) -> int:
+        return -(-self.width // self.size)
+
+    def tiles(self) -> list[Tile]:
+        out = []
+        for ti in range(self.tile_rows):
+            for tj in range(self.tile_cols):
+                r0, c0 = ti * self.size, tj * self.size
+                out.append(
+                    Tile(
+                        len(out),
+                        ti,
+                        tj,
+                        r0,
+                        min(r0 + self.size, self.height),
+                        c0,
+                        min(c0 + self.size, self.width),
+                    )
+                )
+        return out
+
+    def ring_cells(self, t: Tile) -> tuple[np.ndarray, np.ndarray]:
+        """Grid (row, column) of a tile's ring cells in ``flow_kernels.ring_index`` order."""
+        h, w = t.shape
+        cols = np.arange(t.c0 - 1, t.c1 + 1)
+        rows = np.arange(t.r0, t.r1)
+        r = np.concatenate([np.full(w + 2, t.r0 - 1), np.full(w + 2, t.r1), rows, rows])
+        c = np.concatenate([cols, cols, np.full(h, t.c0 - 1), np.full(h, t.c1)])
+        return r, c
+
+
+class Seams:
+    """Values on the border cells of every tile, joined into whole rows and columns along
+    the tile edges, from which each tile's ring is cut."""
+
+    def __init__(self, layout: Layout, dtype: type, fill: float) -> None:
+        self.layout, self.fill = layout, fill
+        self.top = np.full((layout.tile_rows, layout.width), fill, dtype)
+        self.bottom = np.full((layout.tile_rows, layout.width), fill, dtype)
+        self.left = np.full((layout.tile_cols, layout.height), fill, dtype)
+        self.right = np.full((layout.tile_cols, layout.height), fill, dtype)
+
+    def put(self, t: Tile, sides: tuple[np.ndarray, ...]) -> None:
+        """Store a tile's border (top row, bottom row, left column, right column)."""
+        top, bottom, left, right = sides
+        self.top[t.ti, t.c0 : t.c1] = top
+        self.bottom[t.ti, t.c0 : t.c1] = bottom
+        self.left[t.tj, t.r0 : t.r1] = left
+        self.right[t.tj, t.r0 : t.r1] = right
+
+    def _row(self, seam: np.ndarray, at: int, t: Tile) -> np.ndarray:
+        row = np.full(t.c1 - t.c0 + 2, self.fill, seam.dtype)
+        if 0 <= at < seam.shape[0]:
+            lo, hi = max(t.c0 - 1, 0), min(t.c1 + 1, self.layout.width)
+            row[lo - (t.c0 - 1) : hi - (t.c0 - 1)] = seam[at, lo:hi]
+        return row
+
+    def ring(self, t: Tile) -> np.ndarray:
+        """The tile's ring in ``flow_kernels.ring_index`` order (``fill`` beyond the grid)."""
+        h = t.r1 - t.r0
+        left = self.right[t.tj - 1, t.r0 : t.r1] if t.tj > 0 else np.full(h, self.fill)
+        right = (
+            self.left[t.tj + 1, t.r0 : t.r1]
+            if t.tj + 1 < self.layout.tile_cols
+            else np.full(h, self.fill)
+        )
+        return np.concatenate(
+            [
+                self._row(self.bottom, t.ti - 1, t),
+                self._row(self.top, t.ti + 1, t),
+                left.astype(self.top.dtype),
+                right.astype(self.top.dtype),
+            ]
+        )
+
+
+def sides(a: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Top row, bottom row, left column and right column of a tile's array (copies)."""
+    return a[0].copy(), a[-1].copy(), a[:, 0].copy(), a[:, -1].copy()
+
+
+def frame(inner: np.ndarray, ring: np.ndarray) -> np.ndarray:
+    """A tile's (h, w) array framed by its ring vector: (h + 2, w + 2)."""
+    h, w = inner.shape
+    out = np.empty((h + 2, w + 2), inner.dtype)
+    out[1:-1, 1:-1] = inner
+    out[0], out[-1] = ring[: w + 2], ring[w + 2 : 2 * w + 4]
+    out[1:-1, 0], out[1:-1, -1] = ring[2 * w + 4 : 2 * w + 4 + h], ring[2 * w + 4 + h :]
+    return out
+
+
+# --- sources of cells -------------------------------------------------------------------
+class ArraySource:
+    """Windows of an array in memory (tests and small grids)."""
+
+    def __init__(self, array: np.ndarray) -> None:
+        self.array = array
+
+    def __call__(self, rows: slice, cols: slice) -> np.ndarray:
+        return np.asarray(self.array[rows, cols], dtype=np.float64)
+
+
+class NpySource:
+    """Windows of a .npy file, memory-mapped (rows read in blocks, never at random)."""
+
+    def __init__(self, path: Path) -> None:
+        self.path = path
+
+    def __call__(self, rows: slice, cols: slice) -> np.ndarray:
+        return np.array(np.load(self.path, mmap_mode="r")[rows, cols])
+
+
+def _framed_read(source: Callable, t: Tile, height: int, width: int) -> np.ndarray:
+    """The tile's window with one ring of neighbouring cells, NaN beyond the grid."""
+    h, w = t.shape
+    out = np.full((h + 2, w + 2), np.nan)
+    r0, r1 = max(t.r0 - 1, 0), min(t.r1 + 1, height)
+    c0, c1 = max(t.c0 - 1, 0), min(t.c1 + 1, width)
+    out[r0 - t.r0 + 1 : r1 - t.r0 + 1, c0 - t.c0 + 1 : c1 - t.c0 + 1] = source(
+        slice(r0, r1), slice(c0, c1)
+    )
+    return out
+
+
+# --- work files -------------------------------------------------------------------------
+def _save(folder: Path, t: Tile, name: str, a: np.ndarray) -> None:
+    np.save(folder / f"t{t.index}-{name}.npy", a)
+
+
+def _load(folder: Path, t: Tile, name: str) -> np.ndarray:
+    return np.load(folder / f"t{t.index}-{name}.npy")
+
+
+# --- stage 1: fill each tile on its own -------------------------------------------------
+def _fill_task(source: Callable, folder: Path, t: Tile, height: int, width: int) -> dict:
+    z = _framed_read(source, t, height, width)
+    valid = np.isfinite(z)
+    np.copyto(z, 0.0, where=~valid)
+    labels, a, b, weight = routing.fill_framed(z, valid, labelled=True)
+    inner = valid[1:-1, 1:-1]
+    own = np.where(inner, z[1:-1, 1:-1], np.nan)
+    lab = labels[1:-1, 1:-1]
+    _save(folder, t, "fill", own)
+    _save(folder, t, "labels", lab)
+    return {
+        "labels": int(lab.max(initial=0)) + 1,
+        "pairs": (a, b, weight),
+        "z": sides(own),  # border cells are seeds: their fill is their elevation
+        "label": sides(lab),
+    }
+
+
+def _seam_pairs(upper: tuple, lower: tuple) -> Iterator[tuple[np.ndarray, ...]]:
+    """Spill pairs between two facing lines of border cells (values, global labels):
+    each cell with the three cells facing it, at max(elevation a, elevation b)."""
+    (zu, lu), (zl, ll) = upper, lower
+    n = zu.size
+    for shift in (-1, 0, 1):
+        a = slice(max(0, -shift), min(n, n - shift))
+        b = slice(max(0, shift), min(n, n + shift))
+        ok = (lu[a] >= 0) & (ll[b] >= 0)
+        yield lu[a][ok], ll[b][ok], np.maximum(zu[a][ok], zl[b][ok])
+
+
+def _spill_levels(layout: Layout, tiles: list[Tile], filled: list[dict]) -> list[np.ndarray]:
+    """Each tile's label levels (index: local label), from the spill graph of all tiles."""
+    offsets = np.cumsum([0] + [r["labels"] - 1 for r in filled])
+    z_seams = Seams(layout, np.float64, np.nan)
+    l_seams = Seams(layout, np.int64, -1)
+    parts = []
+    for t, result in zip(tiles, filled, strict=True):
+        to_global = np.concatenate([[0], np.arange(1, result["labels"]) + offsets[t.index]])
+        a, b, weight = result["pairs"]
+        parts.append((to_global[a], to_global[b], weight))
+        z_seams.put(t, result["z"])
+        l_seams.put(t, tuple(np.where(s >= 0, to_global[np.maximum(s, 0)], -1)
+                             for s in result["label"]))  # fmt: skip
+    for i in range(layout.tile_rows - 1):
+        parts += _seam_pairs(
+            (z_seams.bottom[i], l_seams.bottom[i]), (z_seams.top[i + 1], l_seams.top[i + 1])
+        )
+    for j in range(layout.tile_cols - 1):
+        parts += _seam_pairs(
+            (z_seams.right[j], l_seams.right[j]), (z_seams.left[j + 1], l_seams.left[j + 1])
+        )
+    a = np.concatenate([p[0] for p in parts]).astype(np.int64)
+    b = np.concatenate([p[1] for p in parts]).astype(np.int64)
+    weight = np.concatenate([p[2] for p in parts])
+    n = int(offsets[-1]) + 1
+    source = np.concatenate([a, b])
+    order = np.argsort(source, kind="stable")
+    start = np.searchsorted(source[order], np.arange(n + 1))
+    level = fk.spill_levels(n, start, np.concatenate([b, a])[order], np.tile(weight, 2)[order])
+    return [
+        np.concatenate([[-np.inf], level[offsets[t.index] + 1 : offsets[t.index] + r["labels"]]])
+        for t, r in zip(tiles, filled, strict=True)
+    ]
+
+
+# --- stage 2: raise each tile, count steps across flats ---------------------------------
+def _raise_task(folder: Path, t: Tile, level: np.ndarray) -> dict:
+    labels = _load(folder, t, "labels")
+    z = _load(folder, t, "fill")
+    np.maximum(z, level[np.maximum(labels, 0)], out=z, where=labels >= 0)
+    _save(folder, t, "z", z)
+    (folder / f"t{t.index}-fill.npy").unlink()
+    (folder / f"t{t.index}-labels.npy").unlink()
+    return {"z": sides(z)}
+
+
+def _steps_task(folder: Path, t: Tile, ring_z: np.ndarray, ring_steps: np.ndarray) -> dict:
+    z = frame(_load(folder, t, "z"), ring_z)
+    valid = np.isfinite(z)
+    np.copyto(z, 0.0, where=~valid)
+    steps = frame(np.zeros(t.shape, np.int32), ring_steps)
+    routing.flat_steps(z, valid, steps)
+    _save(folder, t, "steps", steps[1:-1, 1:-1])
+    return {"steps": sides(steps[1:-1, 1:-1])}
+
+
+def _shortened(t: Tile, z: Seams, steps: Seams) -> bool:
+    """Would the tile's ring shorten the flat steps of any of its border cells?"""
+    h, w = t.shape
+    ring_z, ring_s = z.ring(t), steps.ring(t).astype(np.int64)
+    own_z = (z.top[t.ti, t.c0 : t.c1], z.bottom[t.ti, t.c0 : t.c1],
+             z.left[t.tj, t.r0 : t.r1], z.right[t.tj, t.r0 : t.r1])  # fmt: skip
+    own_s = (steps.top[t.ti, t.c0 : t.c1], steps.bottom[t.ti, t.c0 : t.c1],
+             steps.left[t.tj, t.r0 : t.r1], steps.right[t.tj, t.r0 : t.r1])  # fmt: skip
+    top, bottom = slice(0, w + 2), slice(w + 2, 2 * w + 4)
+    left = np.r_[0, 2 * w + 4 : 2 * w + 4 + h, w + 2]
+    right = np.r_[w + 1, 2 * w + 4 + h : 2 * w + 4 + 2 * h, 2 * w + 3]
+    for line, oz, os in zip((top, bottom, left, right), own_z, own_s, strict=True):
+        rz, rs = ring_z[line], ring_s[line]
+        n = oz.size
+        for k in range(3):
+            near = (rz[k : k + n] == oz) & (rs[k : k + n] < fk.NO_STEPS)
+            if np.any(near & (rs[k : k + n] + 1 < os)):
+                return True
+    return False
+
+
+# --- stage 3: directions and contributing area -----------------------------------------
+def _route_task(
+    folder: Path,
+    t: Tile,
+    lattice: tuple,
+    ring_z: np.ndarray,
+    ring_steps: np.ndarray,
+    sources: Callable | None,
+) -> dict:
+    z = frame(_load(folder, t, "z"), ring_z)
+    valid = np.isfinite(z)
+    np.copyto(z, 0.0, where=~valid)
+    steps = frame(_load(folder, t, "steps"), ring_steps)
+    flags = (
+        np.zeros(0, np.uint8)
+        if sources is None
+        else np.ascontiguousarray(sources(slice(t.r0, t.r1), slice(t.c0, t.c1)), np.uint8).ravel()
+    )
+    flow, area, ring = routing.route_framed(z, valid, steps, lattice, (t.r0, t.c0), flags)
+    for name, a in zip(("recv1", "recv2", "share1", "width"), flow, strict=True):
+        _save(folder, t, name, a)
+    _save(folder, t, "area", area)
+    _save(folder, t, "flags", flags)
+    (folder / f"t{t.index}-steps.npy").unlink()
+    return {"ring": ring}
+
+
+def _inflow_task(
+    folder: Path, t: Tile, entries: np.ndarray, amounts: np.ndarray, flags_in: np.ndarray
+) -> dict:
+    flow = tuple(_load(folder, t, name) for name in ("recv1", "recv2", "share1"))
+    area, flags = _load(folder, t, "area"), _load(folder, t, "flags")
+    ring = routing.propagate(flow, t.shape, area, flags, entries, amounts, flags_in)
+    _save(folder, t, "area", area)
+    _save(folder, t, "flags", flags)
+    return {"ring": ring}
+
+
+def _inflows(
+    layout: Layout, tiles: list[Tile], results: list[tuple[Tile, dict]]
+) -> dict[int, tuple[np.ndarray, ...]]:
+    """What each tile receives from its neighbours' rings: (inner cells, amounts, flags),
+    in tile order (so the sums are the same whatever ran where)."""
+    got: dict[int, list[tuple[np.ndarray, ...]]] = {}
+    for t, result in results:
+        amounts, flags = result["ring"]
+        leaving = amounts > 0.0
+        if not leaving.any():
+            continue
+        r, c = (x[leaving] for x in layout.ring_cells(t))
+        target = (r // layout.size) * layout.tile_cols + c // layout.size
+        for u in np.unique(target):
+            here = target == u
+            tu = tiles[int(u)]
+            inner = (r[here] - tu.r0) * (tu.c1 - tu.c0) + c[here] - tu.c0
+            got.setdefault(int(u), []).append((inner, amounts[leaving][here], flags[leaving][here]))
+    return {
+        u: tuple(np.concatenate([p[k] for p in parts]) for k in range(3))
+        for u, parts in sorted(got.items())
+    }
+
+
+def route_tiles(
+    source: Callable[[slice, slice], np.ndarray],
+    layout: Layout,
+    lattice: tuple,
+    folder: Path,
+    runner: Runner,
+    sources: Callable[[slice, slice], np.ndarray] | None = None,
+    echo: Echo | None = None,
+) -> dict[str, int]:
+    """Route the grid read by ``source`` (float64 windows, NaN for no data) tile by tile;
+    per tile, ``folder`` ends with t{i}-area.npy (m2), -width.npy (contour width, m) and
+    -flags.npy (with ``sources``: the cells downstream of them). Returns round counts."""
+    tiles = layout.tiles()
+    say = echo or (lambda _: None)
+    h, w = layout.height, layout.width
+    filled = list(runner(_fill_task, [(source, folder, t, h, w) for t in tiles]))
+    levels = _spill_levels(layout, tiles, filled)
+    z_seams = Seams(layout, np.float64, np.nan)
+    raised = runner(_raise_task, [(folder, t, levels[t.index]) for t in tiles])
+    for t, result in zip(tiles, raised, strict=True):
+        z_seams.put(t, result["z"])
+    del filled, levels
+    steps = Seams(layout, np.int32, fk.NO_STEPS)
+    todo, flat_rounds = tiles, 0
+    while todo:
+        flat_rounds += 1
+        jobs = [(folder, t, z_seams.ring(t), steps.ring(t)) for t in todo]
+        for t, result in zip(todo, runner(_steps_task, jobs), strict=True):
+            steps.put(t, result["steps"])
+        todo = [t for t in tiles if _shortened(t, z_seams, steps)]
+    jobs = [(folder, t, lattice, z_seams.ring(t), steps.ring(t), sources) for t in tiles]
+    results = list(zip(tiles, runner(_route_task, jobs), strict=True))
+    flow_rounds = 1
+    while True:
+        inflows = _inflows(layout, tiles, results)
+        if not inflows:
+            break
+        flow_rounds += 1
+        jobs = [(folder, tiles[u], *inflows[u]) for u in inflows]
+        results = list(zip([tiles[u] for u in inflows], runner(_inflow_task, jobs), strict=True))
+    say(
+        f"routing: {len(tiles)} tiles of up to {layout.size} x {layout.size} cells; "
+        f"{flat_rounds} round(s) across flats, {flow_rounds} of flow between tiles"
+    )
+    return {"tiles": len(tiles), "flat_rounds": flat_rounds, "flow_rounds": flow_rounds}
+
+
+def tile_outputs(folder: Path, t: Tile) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """A routed tile's contributing area (m2, NaN at no data), specific catchment area (m,
+    float32) and flags."""
+    area = _load(folder, t, "area").reshape(t.shape)
+    width = _load(folder, t, "width").reshape(t.shape)
+    missing = np.isnan(_load(folder, t, "z"))
+    area[missing] = np.nan
+    flags = _load(folder, t, "flags")
+    return area, (area / width).astype(np.float32), flags.reshape(t.shape) if flags.size else flags
+
+
+def route_array(
+    elevation_m: np.ndarray,
+    lattice: tuple,
+    size: int,
+    folder: Path,
+    runner: Runner,
+    sources: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, dict[str, int]]:
+    """``route_tiles`` on an array in memory, the tiles joined again: (area, sca, flags or
+    None, round counts), as ``slopescreen.routing.route`` returns them."""
+    layout = Layout(*np.shape(elevation_m), size)
+    info = route_tiles(
+        ArraySource(elevation_m),
+        layout,
+        lattice,
+        folder,
+        runner,
+        None if sources is None else ArraySource(sources),
+    )
+    area = np.empty(layout.height * layout.width).reshape(layout.height, layout.width)
+    sca = np.empty(area.shape, np.float32)
+    flags = None if sources is None else np.empty(area.shape, np.uint8)
+    for t in layout.tiles():
+        window = (slice(t.r0, t.r1), slice(t.c0, t.c1))
+        area[window], sca[window], tile_flags = tile_outputs(folder, t)
+        if flags is not None:
+            flags[window] = tile_flags
+    return area, sca, flags, info
