@@ -155,10 +155,10 @@ def test_nodata_cells_stay_nodata():
     assert np.isfinite(sca[~np.isnan(z)]).all()
 
 
-def _priority_flood_epsilon(z):
-    """Barnes, Lehman & Mulla (2014), Algorithm 3 as published, with Python's heapq: one
-    global priority queue of (elevation, cell), a plain queue for pit cells, every data
-    cell next to the grid's edge or to no data an outlet."""
+def _priority_flood(z, epsilon):
+    """Barnes, Lehman & Mulla (2014), Algorithm 3 (``epsilon``) or 2 (level) as published,
+    with Python's heapq: one global priority queue of (elevation, cell), a plain queue for
+    pit cells, every data cell next to the grid's edge or to no data an outlet."""
     import heapq
 
     rows, cols = z.shape
@@ -182,7 +182,7 @@ def _priority_flood_epsilon(z):
         else:
             cell = heapq.heappop(heap)[1]
         r, c = divmod(cell, cols)
-        step = np.nextafter(filled[r, c], np.inf)
+        step = np.nextafter(filled[r, c], np.inf) if epsilon else filled[r, c]
         for dr, dc in ((0, 1), (-1, 1), (-1, 0), (-1, -1), (0, -1), (1, -1), (1, 0), (1, 1)):
             rr, cc = r + dr, c + dc
             if not (0 <= rr < rows and 0 <= cc < cols) or closed[rr, cc]:
@@ -206,4 +206,7 @@ def test_bucketed_fill_equals_one_global_priority_queue():
             z[rng.random(z.shape) < 0.05] = np.nan
         if trial % 2 == 0:
             z = np.round(z)  # many equal elevations
-        np.testing.assert_array_equal(fill_depressions(z, epsilon=True), _priority_flood_epsilon(z))
+        for epsilon in (True, False):
+            np.testing.assert_array_equal(
+                fill_depressions(z, epsilon=epsilon), _priority_flood(z, epsilon)
+            )

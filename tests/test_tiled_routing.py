@@ -6,7 +6,7 @@ import pytest
 
 from slopescreen import flow_kernels, routing
 from slopescreen.maps.runners import serial_runner
-from slopescreen.maps.tiled_routing import Layout, route_array
+from slopescreen.maps.tiled_routing import ArraySource, Layout, fill_tiles, route_array
 
 U = 2.0**-53  # float64 unit roundoff
 
@@ -20,20 +20,15 @@ def _rough(rng, rows=120, cols=90, integers=False, holes=False):
     return z
 
 
-def _tiled(z, size, tmp_path, sources=None):
-    lattice = routing.uniform_lattice(10.0, 10.0, *z.shape)
-    folder = tmp_path / f"tiles{size}"
-    folder.mkdir()
-    return route_array(z, lattice, size, folder, serial_runner, sources)
-
-
 def _tiled_fill(z, size, tmp_path):
     """The filled surface the tiles route on, read back from their work files."""
-    _tiled(z, size, tmp_path)
     layout = Layout(*z.shape, size)
+    folder = tmp_path / f"fill{size}"
+    folder.mkdir()
+    fill_tiles(ArraySource(z), layout, folder, serial_runner)
     out = np.empty(z.shape)
     for t in layout.tiles():
-        out[t.r0 : t.r1, t.c0 : t.c1] = np.load(tmp_path / f"tiles{size}" / f"t{t.index}-z.npy")
+        out[t.r0 : t.r1, t.c0 : t.c1] = np.load(folder / f"t{t.index}-z.npy")
     return out
 
 

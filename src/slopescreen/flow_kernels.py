@@ -249,18 +249,17 @@ def spill_levels(n_nodes, start, neighbour, weight):
 
 
 @njit(cache=True)
-def flat_steps(z, valid, steps, queue):
+def flat_steps(z, valid, steps, queue, fresh):
     """Steps to drain across flats (8-connected), on a framed tile of a depression-free
     surface: 0 at a cell with a lower neighbour or next to no data; 1 + the least steps of
     its equal neighbours elsewhere (breadth-first, the ring's known steps as sources in
-    order of their steps). Inner cells of ``steps`` are written; returns True if any
-    inner cell changed."""
+    order of their steps). Inner cells of ``steps`` are written: from scratch when
+    ``fresh``, else lowered where the ring now gives fewer steps (the inner steps are
+    upper bounds: a unit-weight Dijkstra from the ring). Returns the cells lowered."""
     rows, cols = z.shape
-    changed = False
     tail = 0
-    for r in range(1, rows - 1):
+    for r in range(1, rows - 1 if fresh else 1):
         for c in range(1, cols - 1):
-            before = steps[r, c]
             steps[r, c] = NO_STEPS
             if valid[r, c]:
                 for k in range(8):
@@ -271,7 +270,6 @@ def flat_steps(z, valid, steps, queue):
                         queue[tail] = r * cols + c
                         tail += 1
                         break
-            changed |= steps[r, c] != before and steps[r, c] == 0
     ring = np.empty(2 * (rows + cols), np.int64)
     n_ring = 0
     for r in range(rows):
@@ -303,7 +301,7 @@ def flat_steps(z, valid, steps, queue):
                 steps[rr, cc] = nxt
                 queue[tail] = rr * cols + cc
                 tail += 1
-    return changed
+    return tail
 
 
 @njit(cache=True)
@@ -475,28 +473,28 @@ def _send(j, amount, flag, values, flags, ring_area, ring_flags):
 
 
 @njit(cache=True)
-def accumulate(recv1, recv2, share1, values, flags, mark, indeg, queue, ring):
-    """Add what flows in to ``values`` (inner cells, h*w) in topological order over the
-    cells whose ``mark`` is set (an empty ``mark``: every cell), each starting from its own
-    value: each cell passes its total times its share to its receivers. ``flags`` (h*w or
-    empty) are carried along (a cell receiving any share from a flagged cell is flagged).
-    What leaves the tile is summed into the ring's vectors ``ring`` = (ring amounts, ring
-    flags), in the order the cells are taken (deterministic). Returns how many cells were
-    taken."""
+def accumulate(recv1, recv2, share1, values, flags, cells, indeg, queue, ring):
+    """Add what flows in to ``values`` (inner cells, h*w) in topological order over
+    ``cells`` (closed downstream; empty: every cell), each starting from its own value:
+    each cell passes its total times its share to its receivers. ``indeg`` must be 0 on
+    those cells. ``flags`` (h*w or empty) are carried along (a cell receiving any share
+    from a flagged cell is flagged). What leaves the tile is summed into the ring's vectors
+    ``ring`` = (ring amounts, ring flags), in the order the cells are taken
+    (deterministic). Returns how many cells were taken."""
     ring_area, ring_flags = ring
-    n = recv1.size
-    carry = flags.size == n
-    every = mark.size == 0
-    indeg[:] = 0
-    for i in range(n):
-        if every or mark[i]:
-            if recv1[i] >= 0:
-                indeg[recv1[i]] += 1
-            if recv2[i] >= 0:
-                indeg[recv2[i]] += 1
+    carry = flags.size == values.size
+    every = cells.size == 0
+    count = values.size if every else cells.size
+    for k in range(count):
+        i = k if every else cells[k]
+        if recv1[i] >= 0:
+            indeg[recv1[i]] += 1
+        if recv2[i] >= 0:
+            indeg[recv2[i]] += 1
     tail = 0
-    for i in range(n):
-        if indeg[i] == 0 and (every or mark[i]):
+    for k in range(count):
+        i = k if every else cells[k]
+        if indeg[i] == 0:
             queue[tail] = i
             tail += 1
     head = 0
@@ -525,25 +523,23 @@ def accumulate(recv1, recv2, share1, values, flags, mark, indeg, queue, ring):
 
 
 @njit(cache=True)
-def downstream(recv1, recv2, entries, mark, stack):
-    """Mark (1) every inner cell downstream of the ``entries`` (inner indices), themselves
-    included; returns how many."""
-    top = 0
+def downstream(recv1, recv2, entries, seen, cells):
+    """Every inner cell downstream of the ``entries`` (inner indices), themselves included,
+    into ``cells`` (``seen`` marks them); returns how many."""
     count = 0
     for i in entries:
-        if not mark[i]:
-            mark[i] = 1
-            stack[top] = i
-            top += 1
+        if not seen[i]:
+            seen[i] = 1
+            cells[count] = i
             count += 1
-    while top > 0:
-        top -= 1
-        i = stack[top]
+    k = 0
+    while k < count:
+        i = cells[k]
+        k += 1
         for j in (recv1[i], recv2[i]):
-            if j >= 0 and not mark[j]:
-                mark[j] = 1
-                stack[top] = j
-                top += 1
+            if j >= 0 and not seen[j]:
+                seen[j] = 1
+                cells[count] = j
                 count += 1
     return count
 

@@ -1,18 +1,24 @@
 """Flow routing on a DEM: depression filling, D-infinity directions, contributing area.
 
-1. Depressions are filled by Priority-Flood+epsilon (Barnes, Lehman & Mulla 2014,
-   Algorithm 3): every cell on the edge of the data is an outlet; each pit and flat is
-   raised to a surface with a tiny strict gradient towards its spill point (one float64
-   step, ``nextafter``, per cell), so water leaves every cell. The priority queue is
-   bucketed by elevation (a binary heap for the current bucket only; see ``_fill``). The
-   filled surface is used for routing only; slopes come from the original DEM.
-2. Flow directions by D-infinity (Tarboton 1997): the steepest of the eight triangular
+1. Depressions are filled level by Priority-Flood (Barnes, Lehman & Mulla 2014,
+   Algorithm 2): every cell on the edge of the data is an outlet; each pit is raised to
+   its spill elevation (the lowest level at which water can leave it). The priority queue
+   is bucketed by elevation (a binary heap for the current bucket only; see
+   ``flow_kernels.fill_tile``). The filled surface is used for routing only; slopes come
+   from the original DEM.
+2. Flats (filled pits and level ground) drain by steps: each flat cell counts the
+   8-connected steps to the nearest cell of its flat with lower ground (or no data) next
+   to it, and routes down those steps among its equal neighbours; every other cell routes
+   on the filled surface. The steps are the same whatever the tiling (tested against a
+   chessboard distance transform), which a float64 epsilon gradient raised along the
+   fill's queue (Algorithm 3, still in ``fill_depressions(epsilon=True)``) is not.
+3. Flow directions by D-infinity (Tarboton 1997): the steepest of the eight triangular
    facets around each cell, flow split between the facet's two neighbours in proportion to
    the angles. Cells are rectangles whose ground side lengths and area come from a lattice
    of ground lengths (``slopescreen.maps.ground``; bilinear between nodes), so any CRS
    routes in ground metres. A cell whose facets all lack data falls back to its steepest
    lower neighbour (D8).
-3. Contributing area is accumulated in topological order (in-degree queue), each cell
+4. Contributing area is accumulated in topological order (in-degree queue), each cell
    contributing its own ground area; a flag (cells next to no data or the edge where
    ground beyond would drain in) can be carried downstream with it. Specific catchment
    area a/b = contributing area / contour width b. The width is the cell area over the
@@ -27,14 +33,16 @@
    crosses obliquely (measured, tests/test_routing.py). Geographic grids use the ground
    length of each row along both axes (no mid-latitude spacing).
 
-Memory: the routing holds the whole grid. With the DEM filled in place it needs, at its
-peak, the float64 surface (8 bytes per cell), two masks (2), heap keys and indices, the
-pit queue and the bucket links (20) and the bucket heads (1) while filling (31 in all);
-two int32 receivers, a float32 share and width (16) and the float64 area with an int32
-in-degree and queue (16) while accumulating: about 35 bytes per cell at the peak, the DEM
-included, 36 with the one-byte cut-off flag (tests/benchmarks/bench_routing.py measures
-the bytes per cell above the float64 DEM). All work arrays come from an ``allocate``
-function, so grids larger than memory can use memory-mapped files.
+The kernels work on a tile framed by one ring of its neighbours' cells
+(``slopescreen.flow_kernels``); ``route`` treats the whole grid as one tile with a ring of
+no data, and ``slopescreen.maps.tiled_routing`` joins many tiles into the same result.
+
+Memory of ``route`` (the whole grid at once): the framed float64 surface (8 bytes per
+cell), two masks (2), heap keys and indices, the pit queue and the bucket links (20) and
+the bucket heads (0.25) while filling; then the steps (4), two int32 receivers, a float32
+share and width (16) and the float64 area with an int32 in-degree and queue (16) while
+accumulating: about 41 bytes per cell above the DEM at the peak
+(tests/benchmarks/bench_routing.py measures it). Beyond one routing tile, use the tiles.
 
 References
 ----------
@@ -95,10 +103,10 @@ def fill_framed(
     )
 
 
-def flat_steps(z: np.ndarray, valid: np.ndarray, steps: np.ndarray) -> bool:
+def flat_steps(z: np.ndarray, valid: np.ndarray, steps: np.ndarray, fresh: bool = True) -> int:
     """Steps to drain across flats of a framed, filled tile (``flow_kernels.flat_steps``);
-    the ring of ``steps`` holds the neighbours' steps. True if a drain changed."""
-    return fk.flat_steps(z, valid, steps, np.empty(z.size, np.int32))
+    the ring of ``steps`` holds the neighbours' steps. Returns the cells set or lowered."""
+    return fk.flat_steps(z, valid, steps, np.empty(z.size, np.int32), fresh)
 
 
 def route_framed(
@@ -122,10 +130,9 @@ def route_framed(
     fk.directions(z, valid, steps, lattice, origin[0], origin[1], recv1, recv2, share1, width)
     area = fk.cell_areas(valid, lattice, origin[0], origin[1], np.empty(n))
     ring = (np.zeros(2 * (rows + cols) - 4), np.zeros(2 * (rows + cols) - 4, np.uint8))
-    queue = np.empty(n, np.int32)
-    fk.accumulate(
-        recv1, recv2, share1, area, flags, np.zeros(0, np.uint8), queue.copy(), queue, ring
-    )
+    every = np.zeros(0, np.int32)
+    fk.accumulate(recv1, recv2, share1, area, flags, every, np.zeros(n, np.int32),
+                  np.empty(n, np.int32), ring)  # fmt: skip
     return (recv1, recv2, share1, width), area, ring
 
 
@@ -140,20 +147,27 @@ def propagate(
 ) -> tuple[np.ndarray, np.ndarray]:
     """Add area flowing into a tile at inner cells ``entries`` (amounts, flags) to
     ``area`` and ``flags`` of every cell downstream, in place (contributing area is linear
-    in what flows in). Returns what leaves into the ring (amounts, flags)."""
+    in what flows in); the work is on those cells only (``area`` and ``flags`` may be
+    memory-mapped). Returns what leaves into the ring (amounts, flags)."""
     rows, cols = shape[0] + 2, shape[1] + 2
     recv1, recv2, share1 = flow[:3]
     n = recv1.size
-    mark = np.zeros(n, np.uint8)
-    stack = np.empty(n, np.int32)
-    fk.downstream(recv1, recv2, entries, mark, stack)
-    extra = np.zeros(n)
+    cells = np.empty(n, np.int32)
+    count = fk.downstream(recv1, recv2, entries, np.zeros(n, np.uint8), cells)
+    cells = cells[:count].copy()
+    extra = np.zeros(n)  # untouched pages cost nothing
     np.add.at(extra, entries, amounts)
+    cone_flags = np.zeros(0, np.uint8)
     if flags.size:
-        flags[entries[entry_flags != 0]] = 1
+        cone_flags = np.zeros(n, np.uint8)
+        cone_flags[cells] = flags[cells]
+        cone_flags[entries[entry_flags != 0]] = 1
     ring = (np.zeros(2 * (rows + cols) - 4), np.zeros(2 * (rows + cols) - 4, np.uint8))
-    fk.accumulate(recv1, recv2, share1, extra, flags, mark, np.empty(n, np.int32), stack, ring)
-    area += extra
+    fk.accumulate(recv1, recv2, share1, extra, cone_flags, cells, np.zeros(n, np.int32),
+                  np.empty(count, np.int32), ring)  # fmt: skip
+    area[cells] += extra[cells]
+    if flags.size:
+        flags[cells] = cone_flags[cells]
     return ring
 
 

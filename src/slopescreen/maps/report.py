@@ -348,7 +348,8 @@ def _methods(cfg: Config, scenarios: list[ScenarioSummary], soils: SoilUnits) ->
     ]
     items.append(
         "Critical recharge (every scenario) and steady wetness: depressions filled by "
-        "Priority-Flood+epsilon (Barnes et al. 2014); flow by D-infinity (Tarboton 1997); "
+        "Priority-Flood (Barnes et al. 2014; tile by tile after Barnes 2016), flats drained "
+        "by steps to their outlet; flow by D-infinity (Tarboton 1997); "
         "specific catchment area = contributing area / contour width; "
         "m = min(1, R a/b / (T sin beta)), "
         "T = K z cos beta (Beven &amp; Kirkby 1979; O'Loughlin 1986; Montgomery &amp; "

@@ -24,8 +24,9 @@ edges and sends each tile what it needs from its neighbours.
    float32 of the output for any path under 10^8 cells); the same bytes for any number of
    workers (rounds are synchronous, inflows summed in tile order).
 
-Work files: about 45 bytes per cell on disk (filled surface, labels, steps, receivers,
-shares, widths, area, flags), in a folder every worker can reach.
+Work files: at most 29 bytes per cell on disk at the end (receivers, shares, widths, area,
+flags; the filled surface, labels and steps on the way), in a folder every worker can
+reach.
 
 References
 ----------
@@ -37,6 +38,7 @@ elevation models on desktops or clusters. Environmental Modelling & Software 92,
 
 from __future__ import annotations
 
+import time
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -209,8 +211,10 @@ def _save(folder: Path, t: Tile, name: str, a: np.ndarray) -> None:
     np.save(folder / f"t{t.index}-{name}.npy", a)
 
 
-def _load(folder: Path, t: Tile, name: str) -> np.ndarray:
-    return np.load(folder / f"t{t.index}-{name}.npy")
+def _load(folder: Path, t: Tile, name: str, mode: str | None = None) -> np.ndarray:
+    """A tile's work file; memory-mapped with ``mode`` (a round of flow between tiles reads
+    and changes only the cells downstream of what enters)."""
+    return np.load(folder / f"t{t.index}-{name}.npy", mmap_mode=mode)
 
 
 # --- stage 1: fill each tile on its own -------------------------------------------------
@@ -280,24 +284,45 @@ def _spill_levels(layout: Layout, tiles: list[Tile], filled: list[dict]) -> list
 
 
 # --- stage 2: raise each tile, count steps across flats ---------------------------------
-def _raise_task(folder: Path, t: Tile, level: np.ndarray) -> dict:
+def _raise_task(folder: Path, t: Tile, level: np.ndarray, ring_z: np.ndarray) -> dict:
+    """Raise the tile to its labels' levels and count its flat steps from its own drains
+    (and the ring's no data)."""
     labels = _load(folder, t, "labels")
-    z = _load(folder, t, "fill")
-    np.maximum(z, level[np.maximum(labels, 0)], out=z, where=labels >= 0)
-    _save(folder, t, "z", z)
+    own = _load(folder, t, "fill")
+    np.maximum(own, level[np.maximum(labels, 0)], out=own, where=labels >= 0)
+    del labels
+    _save(folder, t, "z", own)
     (folder / f"t{t.index}-fill.npy").unlink()
     (folder / f"t{t.index}-labels.npy").unlink()
-    return {"z": sides(z)}
-
-
-def _steps_task(folder: Path, t: Tile, ring_z: np.ndarray, ring_steps: np.ndarray) -> dict:
-    z = frame(_load(folder, t, "z"), ring_z)
+    z = frame(own, ring_z)
     valid = np.isfinite(z)
     np.copyto(z, 0.0, where=~valid)
-    steps = frame(np.zeros(t.shape, np.int32), ring_steps)
+    steps = frame(np.zeros(t.shape, np.int32), np.full(ring_z.size, fk.NO_STEPS, np.int32))
     routing.flat_steps(z, valid, steps)
     _save(folder, t, "steps", steps[1:-1, 1:-1])
     return {"steps": sides(steps[1:-1, 1:-1])}
+
+
+def _steps_task(folder: Path, t: Tile, ring_z: np.ndarray, ring_steps: np.ndarray) -> dict:
+    """Lower the tile's flat steps where its ring now offers fewer."""
+    z = frame(_load(folder, t, "z"), ring_z)
+    valid = np.isfinite(z)
+    np.copyto(z, 0.0, where=~valid)
+    steps = frame(_load(folder, t, "steps"), ring_steps)
+    routing.flat_steps(z, valid, steps, fresh=False)
+    _save(folder, t, "steps", steps[1:-1, 1:-1])
+    return {"steps": sides(steps[1:-1, 1:-1])}
+
+
+def _final_borders(layout: Layout, tiles: list[Tile], filled: list[dict], levels: list) -> Seams:
+    """The filled surface on every tile's border: max(elevation, its label's level)."""
+    seams = Seams(layout, np.float64, np.nan)
+    for t, result in zip(tiles, filled, strict=True):
+        level = levels[t.index]
+        pairs = zip(result["z"], result["label"], strict=True)
+        seams.put(t, tuple(np.where(b >= 0, np.maximum(a, level[np.maximum(b, 0)]), np.nan)
+                           for a, b in pairs))  # fmt: skip
+    return seams
 
 
 def _shortened(t: Tile, z: Seams, steps: Seams) -> bool:
@@ -342,20 +367,23 @@ def _route_task(
     flow, area, ring = routing.route_framed(z, valid, steps, lattice, (t.r0, t.c0), flags)
     for name, a in zip(("recv1", "recv2", "share1", "width"), flow, strict=True):
         _save(folder, t, name, a)
+    area[~valid[1:-1, 1:-1].ravel()] = np.nan  # no flow reaches a no-data cell
     _save(folder, t, "area", area)
     _save(folder, t, "flags", flags)
-    (folder / f"t{t.index}-steps.npy").unlink()
+    for name in ("steps", "z"):
+        (folder / f"t{t.index}-{name}.npy").unlink()
     return {"ring": ring}
 
 
 def _inflow_task(
     folder: Path, t: Tile, entries: np.ndarray, amounts: np.ndarray, flags_in: np.ndarray
 ) -> dict:
-    flow = tuple(_load(folder, t, name) for name in ("recv1", "recv2", "share1"))
-    area, flags = _load(folder, t, "area"), _load(folder, t, "flags")
+    flow = tuple(_load(folder, t, name, "r") for name in ("recv1", "recv2", "share1"))
+    area, flags = _load(folder, t, "area", "r+"), _load(folder, t, "flags", "r+")
     ring = routing.propagate(flow, t.shape, area, flags, entries, amounts, flags_in)
-    _save(folder, t, "area", area)
-    _save(folder, t, "flags", flags)
+    area.flush()
+    if flags.size:
+        flags.flush()
     return {"ring": ring}
 
 
@@ -383,6 +411,39 @@ def _inflows(
     }
 
 
+def fill_tiles(
+    source: Callable[[slice, slice], np.ndarray],
+    layout: Layout,
+    folder: Path,
+    runner: Runner,
+    lap: Callable[[str], None] = lambda stage: None,
+) -> tuple[Seams, Seams, int]:
+    """Stages 1 and 2: every tile filled (``folder``/t{i}-z.npy, the whole-grid fill bit
+    for bit) and its flat steps counted (t{i}-steps.npy). Returns the tiles' borders of
+    both and the rounds across flats."""
+    tiles = layout.tiles()
+    h, w = layout.height, layout.width
+    filled = list(runner(_fill_task, [(source, folder, t, h, w) for t in tiles]))
+    lap("fill")
+    levels = _spill_levels(layout, tiles, filled)
+    z_seams = _final_borders(layout, tiles, filled, levels)
+    lap("spill graph")
+    steps = Seams(layout, np.int32, fk.NO_STEPS)
+    jobs = [(folder, t, levels[t.index], z_seams.ring(t)) for t in tiles]
+    for t, result in zip(tiles, runner(_raise_task, jobs), strict=True):
+        steps.put(t, result["steps"])
+    del filled, levels
+    todo, flat_rounds = [t for t in tiles if _shortened(t, z_seams, steps)], 1
+    while todo:
+        flat_rounds += 1
+        jobs = [(folder, t, z_seams.ring(t), steps.ring(t)) for t in todo]
+        for t, result in zip(todo, runner(_steps_task, jobs), strict=True):
+            steps.put(t, result["steps"])
+        todo = [t for t in tiles if _shortened(t, z_seams, steps)]
+    lap("raise and flat steps")
+    return z_seams, steps, flat_rounds
+
+
 def route_tiles(
     source: Callable[[slice, slice], np.ndarray],
     layout: Layout,
@@ -391,43 +452,46 @@ def route_tiles(
     runner: Runner,
     sources: Callable[[slice, slice], np.ndarray] | None = None,
     echo: Echo | None = None,
-) -> dict[str, int]:
+) -> dict:
     """Route the grid read by ``source`` (float64 windows, NaN for no data) tile by tile;
     per tile, ``folder`` ends with t{i}-area.npy (m2), -width.npy (contour width, m) and
-    -flags.npy (with ``sources``: the cells downstream of them). Returns round counts."""
+    -flags.npy (with ``sources``: the cells downstream of them). Returns the tile and
+    round counts and the seconds of each stage (the spill graph and the edge exchange are
+    the client's own work)."""
     tiles = layout.tiles()
-    say = echo or (lambda _: None)
-    h, w = layout.height, layout.width
-    filled = list(runner(_fill_task, [(source, folder, t, h, w) for t in tiles]))
-    levels = _spill_levels(layout, tiles, filled)
-    z_seams = Seams(layout, np.float64, np.nan)
-    raised = runner(_raise_task, [(folder, t, levels[t.index]) for t in tiles])
-    for t, result in zip(tiles, raised, strict=True):
-        z_seams.put(t, result["z"])
-    del filled, levels
-    steps = Seams(layout, np.int32, fk.NO_STEPS)
-    todo, flat_rounds = tiles, 0
-    while todo:
-        flat_rounds += 1
-        jobs = [(folder, t, z_seams.ring(t), steps.ring(t)) for t in todo]
-        for t, result in zip(todo, runner(_steps_task, jobs), strict=True):
-            steps.put(t, result["steps"])
-        todo = [t for t in tiles if _shortened(t, z_seams, steps)]
+    seconds: dict[str, float] = {}
+    clock = [time.perf_counter()]
+
+    def lap(stage: str) -> None:
+        now = time.perf_counter()
+        seconds[stage] = seconds.get(stage, 0.0) + now - clock[0]
+        clock[0] = now
+
+    z_seams, steps, flat_rounds = fill_tiles(source, layout, folder, runner, lap)
     jobs = [(folder, t, lattice, z_seams.ring(t), steps.ring(t), sources) for t in tiles]
     results = list(zip(tiles, runner(_route_task, jobs), strict=True))
+    lap("directions and area")
     flow_rounds = 1
     while True:
         inflows = _inflows(layout, tiles, results)
+        lap("edge exchange")
         if not inflows:
             break
         flow_rounds += 1
         jobs = [(folder, tiles[u], *inflows[u]) for u in inflows]
         results = list(zip([tiles[u] for u in inflows], runner(_inflow_task, jobs), strict=True))
-    say(
+        lap("flow rounds")
+    (echo or (lambda _: None))(
         f"routing: {len(tiles)} tiles of up to {layout.size} x {layout.size} cells; "
-        f"{flat_rounds} round(s) across flats, {flow_rounds} of flow between tiles"
+        f"{flat_rounds} round(s) across flats, {flow_rounds} of flow between tiles; "
+        + ", ".join(f"{stage} {s:.1f} s" for stage, s in seconds.items())
     )
-    return {"tiles": len(tiles), "flat_rounds": flat_rounds, "flow_rounds": flow_rounds}
+    return {
+        "tiles": len(tiles),
+        "flat_rounds": flat_rounds,
+        "flow_rounds": flow_rounds,
+        "seconds": seconds,
+    }
 
 
 def tile_outputs(folder: Path, t: Tile) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -435,8 +499,6 @@ def tile_outputs(folder: Path, t: Tile) -> tuple[np.ndarray, np.ndarray, np.ndar
     float32) and flags."""
     area = _load(folder, t, "area").reshape(t.shape)
     width = _load(folder, t, "width").reshape(t.shape)
-    missing = np.isnan(_load(folder, t, "z"))
-    area[missing] = np.nan
     flags = _load(folder, t, "flags")
     return area, (area / width).astype(np.float32), flags.reshape(t.shape) if flags.size else flags
 
@@ -448,7 +510,7 @@ def route_array(
     folder: Path,
     runner: Runner,
     sources: np.ndarray | None = None,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, dict[str, int]]:
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, dict]:
     """``route_tiles`` on an array in memory, the tiles joined again: (area, sca, flags or
     None, round counts), as ``slopescreen.routing.route`` returns them."""
     layout = Layout(*np.shape(elevation_m), size)
