@@ -76,15 +76,16 @@ def test_tiled_fill_equals_whole_grid_fill_on_rough_ground(tmp_path):
 
 def test_tiled_area_equals_whole_grid_within_summation_order(tmp_path):
     # Same receivers and shares; the areas differ only by the order of summation. Both are
-    # sums of positive terms, each a product of at most L shares: relative difference
-    # <= 2 (L + 2) u (standard bound for sums of products; L <= number of cells).
+    # sums of positive terms, each an area times at most L shares (L <= number of cells),
+    # with at most 9 roundings a step and one a round: the stated bound of
+    # slopescreen.maps.tiled_routing, relative difference <= 2 (9 L + R + 1) u.
     rng = np.random.default_rng(2)
     for trial in range(4):
         z = _rough(rng, integers=trial % 2 == 1, holes=trial >= 2)
         sources = (rng.random(z.shape) < 0.01).astype(np.uint8)
         lattice = routing.uniform_lattice(10.0, 10.0, *z.shape)
         area, sca, flags = routing.route(z, lattice, sources)
-        bound = 2 * (z.size + 2) * U
+        bound = 2 * (9 * z.size + 1) * U
         for size in (6, 17, 40):
             folder = tmp_path / f"{trial}-{size}"
             folder.mkdir()
@@ -94,7 +95,7 @@ def test_tiled_area_equals_whole_grid_within_summation_order(tmp_path):
             ok = np.isfinite(z)
             assert np.array_equal(np.isnan(t_area), ~ok)
             rel = np.abs(t_area[ok] - area[ok]) / area[ok]
-            assert rel.max() <= bound, (trial, size, rel.max())
+            assert rel.max() <= bound + 2 * info["flow_rounds"] * U, (trial, size, rel.max())
             np.testing.assert_allclose(t_sca[ok], sca[ok], rtol=1e-6)
             np.testing.assert_array_equal(t_flags, flags)
             assert info["flow_rounds"] > 1  # flow did cross tile edges
@@ -138,6 +139,6 @@ def test_a_lake_across_many_tiles_routes_as_one(tmp_path):
     area, _, _ = routing.route(z, lattice)
     t_area, _, _, info = route_array(z, lattice, 9, tmp_path, serial_runner)
     assert info["flat_rounds"] >= 4  # steps crossed several tiles to reach the shore
-    np.testing.assert_allclose(t_area, area, rtol=2 * (z.size + 2) * U)
+    np.testing.assert_allclose(t_area, area, rtol=2 * (9 * z.size + info["flow_rounds"] + 1) * U)
     # every lake cell drains: the lake's area leaves through the west shore
     assert np.nansum(area[lake]) > 0 and np.isfinite(area).all()

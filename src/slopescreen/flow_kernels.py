@@ -106,7 +106,7 @@ def _meet(table, used, a, b, n_labels, za, zb):
     return used
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def fill_tile(z, valid, epsilon, closed, keys, ids, pit, link, heads, labels):
     """Priority-Flood (Barnes, Lehman & Mulla 2014) of a framed tile's inner cells, in place.
 
@@ -248,7 +248,7 @@ def spill_levels(n_nodes, start, neighbour, weight):
     return level
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def flat_steps(z, valid, steps, queue, fresh):
     """Steps to drain across flats (8-connected), on a framed tile of a depression-free
     surface: 0 at a cell with a lower neighbour or next to no data; 1 + the least steps of
@@ -396,52 +396,66 @@ def _receiver(r, c, rows, cols):
     return (r - 1) * (cols - 2) + c - 1
 
 
-@njit(cache=True, parallel=True)
-def directions(z, valid, steps, lattice, row0, col0, recv1, recv2, share1, width):
-    """D-infinity receivers (inner index; -2 - ring position for a ring cell; -1 for none),
-    the first receiver's share and
-    the contour width of every inner cell of a framed tile whose first inner cell is
-    (row0, col0) of the grid. Cells with flat steps > 0 route on the steps among their
-    equal neighbours (towards the drain); the others on the surface ``z``."""
+@njit(cache=True)
+def _direction_row(z, valid, steps, lattice, row0, col0, r, recv1, recv2, share1, width):
+    """``directions`` for framed row r."""
     rows, cols = z.shape
     w = cols - 2
     step_r, step_c, last_r, last_c, along_cols, along_rows, _ = lattice
-    for r in prange(1, rows - 1):
-        e = np.empty(9)
-        ok = np.empty(8, np.bool_)
-        for c in range(1, cols - 1):
-            gr = row0 + r - 1
-            gc = col0 + c - 1
-            dx = ground_at(along_cols, step_r, step_c, last_r, last_c, gr, gc)
-            dy = ground_at(along_rows, step_r, step_c, last_r, last_c, gr, gc)
-            cell = (r - 1) * w + c - 1
-            width[cell] = 0.5 * (dx + dy)
-            recv1[cell] = -1
-            recv2[cell] = -1
-            share1[cell] = 0.0
-            if not valid[r, c]:
-                continue
-            flat = steps[r, c] > 0
-            if steps[r, c] == NO_STEPS:
-                continue  # cannot happen on a filled surface with its steps complete
-            e[8] = steps[r, c] if flat else z[r, c]
-            for k in range(8):
-                rr = r + DR[k]
-                cc = c + DC[k]
-                ok[k] = valid[rr, cc]
-                if flat:
-                    ok[k] = ok[k] and z[rr, cc] == z[r, c] and steps[rr, cc] < NO_STEPS
-                    e[k] = steps[rr, cc]
-                else:
-                    e[k] = z[rr, cc]
-            k1, k2, p1, wd = _steepest(e, ok, dx, dy)
-            if k1 < 0:
-                continue
-            recv1[cell] = _receiver(r + DR[k1], c + DC[k1], rows, cols)
-            share1[cell] = p1
-            if k2 >= 0:
-                recv2[cell] = _receiver(r + DR[k2], c + DC[k2], rows, cols)
-            width[cell] = wd
+    e = np.empty(9)
+    ok = np.empty(8, np.bool_)
+    for c in range(1, cols - 1):
+        gr = row0 + r - 1
+        gc = col0 + c - 1
+        dx = ground_at(along_cols, step_r, step_c, last_r, last_c, gr, gc)
+        dy = ground_at(along_rows, step_r, step_c, last_r, last_c, gr, gc)
+        cell = (r - 1) * w + c - 1
+        width[cell] = 0.5 * (dx + dy)
+        recv1[cell] = -1
+        recv2[cell] = -1
+        share1[cell] = 0.0
+        if not valid[r, c]:
+            continue
+        flat = steps[r, c] > 0
+        if steps[r, c] == NO_STEPS:
+            continue  # cannot happen on a filled surface with its steps complete
+        e[8] = steps[r, c] if flat else z[r, c]
+        for k in range(8):
+            rr = r + DR[k]
+            cc = c + DC[k]
+            ok[k] = valid[rr, cc]
+            if flat:
+                ok[k] = ok[k] and z[rr, cc] == z[r, c] and steps[rr, cc] < NO_STEPS
+                e[k] = steps[rr, cc]
+            else:
+                e[k] = z[rr, cc]
+        k1, k2, p1, wd = _steepest(e, ok, dx, dy)
+        if k1 < 0:
+            continue
+        recv1[cell] = _receiver(r + DR[k1], c + DC[k1], rows, cols)
+        share1[cell] = p1
+        if k2 >= 0:
+            recv2[cell] = _receiver(r + DR[k2], c + DC[k2], rows, cols)
+        width[cell] = wd
+
+
+@njit(cache=True, parallel=True)
+def directions(z, valid, steps, lattice, row0, col0, recv1, recv2, share1, width):
+    """D-infinity receivers (inner index; -2 - ring position for a ring cell; -1 for none),
+    the first receiver's share and the contour width of every inner cell of a framed tile
+    whose first inner cell is (row0, col0) of the grid, rows in parallel. Cells with flat
+    steps > 0 route on the steps among their equal neighbours (towards the drain); the
+    others on the surface ``z``."""
+    for r in prange(1, z.shape[0] - 1):
+        _direction_row(z, valid, steps, lattice, row0, col0, r, recv1, recv2, share1, width)
+    return recv1, recv2, share1, width
+
+
+@njit(cache=True, nogil=True)
+def directions_one_thread(z, valid, steps, lattice, row0, col0, recv1, recv2, share1, width):
+    """``directions`` on the calling thread, without the GIL (tiles run side by side)."""
+    for r in range(1, z.shape[0] - 1):
+        _direction_row(z, valid, steps, lattice, row0, col0, r, recv1, recv2, share1, width)
     return recv1, recv2, share1, width
 
 
@@ -472,7 +486,7 @@ def _send(j, amount, flag, values, flags, ring_area, ring_flags):
             ring_flags[-2 - j] = 1
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def accumulate(recv1, recv2, share1, values, flags, cells, indeg, queue, ring):
     """Add what flows in to ``values`` (inner cells, h*w) in topological order over
     ``cells`` (closed downstream; empty: every cell), each starting from its own value:
@@ -522,7 +536,7 @@ def accumulate(recv1, recv2, share1, values, flags, cells, indeg, queue, ring):
     return tail
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def downstream(recv1, recv2, entries, seen, cells):
     """Every inner cell downstream of the ``entries`` (inner indices), themselves included,
     into ``cells`` (``seen`` marks them); returns how many."""
@@ -544,7 +558,7 @@ def downstream(recv1, recv2, entries, seen, cells):
     return count
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def cell_areas(valid, lattice, row0, col0, area):
     """Ground area of every inner data cell of a framed tile (0 elsewhere), h*w."""
     rows, cols = valid.shape

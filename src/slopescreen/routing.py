@@ -116,10 +116,13 @@ def route_framed(
     lattice: tuple,
     origin: tuple[int, int],
     flags: np.ndarray,
+    parallel: bool = True,
 ) -> tuple[tuple[np.ndarray, ...], np.ndarray, tuple[np.ndarray, np.ndarray]]:
     """D-infinity receivers of a framed, filled tile whose first inner cell is ``origin``
     (row, column) of the grid, and each cell's own contributing area accumulated inside
-    the tile. ``flags`` (h*w uint8, or empty) are carried downstream in place.
+    the tile. ``flags`` (h*w uint8, or empty) are carried downstream in place. With
+    ``parallel`` the directions use every core; without, the calling thread only (and
+    release the GIL, like every kernel of a tile, so tiles can run side by side).
 
     Returns ((receiver 1, receiver 2, share 1, contour width), area (h*w), (amounts and
     flags leaving into the ring, in ``flow_kernels.ring_index`` order))."""
@@ -127,7 +130,8 @@ def route_framed(
     n = (rows - 2) * (cols - 2)
     recv1, recv2 = np.empty(n, np.int32), np.empty(n, np.int32)
     share1, width = np.empty(n, np.float32), np.empty(n, np.float32)
-    fk.directions(z, valid, steps, lattice, origin[0], origin[1], recv1, recv2, share1, width)
+    kernel = fk.directions if parallel else fk.directions_one_thread
+    kernel(z, valid, steps, lattice, origin[0], origin[1], recv1, recv2, share1, width)
     area = fk.cell_areas(valid, lattice, origin[0], origin[1], np.empty(n))
     ring = (np.zeros(2 * (rows + cols) - 4), np.zeros(2 * (rows + cols) - 4, np.uint8))
     every = np.zeros(0, np.int32)

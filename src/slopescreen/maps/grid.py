@@ -39,7 +39,7 @@ class Grid:
         return self.ground.note
 
 
-MAX_CELLS = 2**31 - 1  # routing indexes cells with 32-bit integers
+MAX_CELLS = 2**31 - 1  # routing is tiled; whole-grid steps are checked to 4 x 10^8 cells
 
 
 def dem_files_sha256(path: Path) -> dict[str, str]:

@@ -17,7 +17,7 @@ from slopescreen.maps.grid import Grid, read_elevations
 from slopescreen.maps.ground import GROUND_VERSION, gradient_on_ground
 from slopescreen.maps.locks import entry_lock
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_block
-from slopescreen.maps.runners import Runner, serial_runner
+from slopescreen.maps.runners import Runner, serial_runner, threaded_runner
 from slopescreen.outputs import TEMP_PREFIX, real_folder
 
 TERRAIN_VERSION = "5"  # bump when a terrain algorithm changes: old caches are not reused
@@ -206,7 +206,8 @@ def _routed(
     grid: Grid, elevation_unit: str, scratch: Path, runner: Runner, echo: Callable[[str], None]
 ) -> Iterator[tuple[tuple[slice, slice], np.ndarray, np.ndarray]]:
     """(window, specific catchment area, cut-off flags) of the routed grid, window by
-    window: in one piece when the grid fits one routing tile, else tile by tile."""
+    window: in one piece when the grid fits one routing tile, else tile by tile (on a
+    thread per core, at most 8, when the run has no dask cluster)."""
     from slopescreen import routing
 
     layout = tiled_routing.Layout(grid.height, grid.width, ROUTING_TILE)
@@ -222,7 +223,7 @@ def _routed(
         layout,
         grid.ground.lattice(),
         scratch,
-        runner,
+        threaded_runner if runner is serial_runner else runner,  # tiles side by side
         sources,
         echo,
     )
