@@ -69,12 +69,6 @@ def _f32(a: np.ndarray) -> np.ndarray:
     return np.where(np.isfinite(a), a, NODATA_F32).astype(np.float32)
 
 
-def _write_band(sink: RasterSink, rows: slice, width: int, band: np.ndarray) -> None:
-    for left in range(0, width, rasters.TILE):
-        cols = slice(left, min(left + rasters.TILE, width))
-        sink.write(rows, cols, band[:, cols])
-
-
 def terrain_products(
     grid: Grid,
     elevation_unit: str,
@@ -87,7 +81,7 @@ def terrain_products(
     """Folder holding slope (degrees and tangent), specific catchment area and hillshade;
     returns (folder, reused). A cached entry is used only after its files pass the check
     against their recorded hashes; otherwise it is (re)built, all or nothing. Slope and
-    hillshade are computed in row bands read from the DEM; routing in one piece when the
+    hillshade are computed in windows read from the DEM; routing in one piece when the
     grid fits one routing tile, else tile by tile through ``runner`` (here or on dask
     workers), its work files in a folder under ``cache_dir`` (removed afterwards)."""
     name = f"terrain-{key}"
@@ -106,7 +100,6 @@ def terrain_products(
         return cache_dir / name, False
 
 
-BAND = 512  # rows per slope band (a whole number of storage blocks)
 COS_45 = math.cos(math.radians(45.0))
 
 
@@ -125,8 +118,9 @@ def _compute(
     runner: Runner,
     echo: Callable[[str], None],
 ) -> None:
-    """Slope, hillshade and the cut-off sources band by band, then routing, in ground
-    metres (grid.ground)."""
+    """Slope, hillshade and the cut-off sources window by window (tasks through the
+    runner, on a thread per core without a cluster), then routing, in ground metres
+    (grid.ground)."""
     tags = tags | {"ground_geometry": grid.ground.note}
     horn = {"method": "Horn (1981); one-sided where the 3x3 window is incomplete"}
     sinks = {
@@ -157,17 +151,14 @@ def _compute(
     sources = np.lib.format.open_memmap(
         scratch / "sources.npy", mode="w+", dtype=np.uint8, shape=(grid.height, grid.width)
     )
+    windows = list(rasters.windows(grid))
+    jobs = [(grid, elevation_unit, rows, cols) for rows, cols in windows]
     with all_or_nothing(*sinks.values(), shade):
-        for top in range(0, grid.height, BAND):
-            rows = slice(top, min(top + BAND, grid.height))
-            tan_b, gradient, one_sided, band_sources = _slope_band(grid, elevation_unit, rows)
-            _write_band(sinks["tan"], rows, grid.width, _f32(tan_b))
-            _write_band(sinks["slope"], rows, grid.width, _f32(np.degrees(np.arctan(tan_b))))
-            _write_band(
-                sinks["one_sided"], rows, grid.width, np.where(np.isfinite(tan_b), one_sided, 255)
-            )
-            _write_band(shade, rows, grid.width, terrain.hillshade_from_gradient(*gradient))
-            sources[rows] = band_sources
+        side_by_side = threaded_runner if runner is serial_runner else runner
+        for (rows, cols), out in zip(windows, side_by_side(_slope_task, jobs), strict=True):
+            for name, sink in (*sinks.items(), ("shade", shade)):
+                sink.write(rows, cols, out[name])
+            sources[rows, cols] = out["sources"]
     sources.flush()
     del sources
     route_tags = {
@@ -232,23 +223,24 @@ def _routed(
         yield (slice(t.r0, t.r1), slice(t.c0, t.c1)), sca, cut_off
 
 
-def _slope_band(
-    grid: Grid, elevation_unit: str, rows: slice
-) -> tuple[np.ndarray, tuple[np.ndarray, np.ndarray], np.ndarray, np.ndarray]:
-    """tan(slope), the ground gradient, the one-sided mark and the cut-off sources of a
-    band of rows, read with one row of context above and below (NaN beyond the grid)."""
-    n = rows.stop - rows.start
-    ctx = np.full((n + 2, grid.width), np.nan)
-    lo, hi = max(rows.start - 1, 0), min(rows.stop + 1, grid.height)
-    ctx[lo - (rows.start - 1) : hi - (rows.start - 1)] = read_elevations(
-        grid.path, elevation_unit, slice(lo, hi), slice(0, grid.width)
+def _slope_task(grid: Grid, elevation_unit: str, rows: slice, cols: slice) -> dict:
+    """Slope (tangent and degrees), the one-sided mark, hillshade and the cut-off sources of
+    a window, read with one ring of neighbouring cells (NaN beyond the grid): a tile task
+    (here or on a dask worker)."""
+    ctx = tiled_routing.framed_read(
+        ElevationSource(grid.path, elevation_unit), rows, cols, grid.height, grid.width
     )
     dz_dcol, dz_drow_up, one_sided = terrain.grid_gradient(ctx)
-    vectors = grid.ground.vectors(rows, slice(0, grid.width))
-    g_e, g_n = gradient_on_ground(vectors, dz_dcol[1:-1], dz_drow_up[1:-1])
-    padded = np.pad(ctx, ((0, 0), (1, 1)), constant_values=np.nan)
-    sources = _cut_off_sources(padded, vectors, g_e, g_n)
-    return np.hypot(g_e, g_n), (g_e, g_n), one_sided[1:-1].astype(np.uint8), sources
+    vectors = grid.ground.vectors(rows, cols)
+    g_e, g_n = gradient_on_ground(vectors, dz_dcol[1:-1, 1:-1], dz_drow_up[1:-1, 1:-1])
+    tan = np.hypot(g_e, g_n)
+    return {
+        "tan": _f32(tan),
+        "slope": _f32(np.degrees(np.arctan(tan))),
+        "one_sided": np.where(np.isfinite(tan), one_sided[1:-1, 1:-1], 255).astype(np.uint8),
+        "shade": terrain.hillshade_from_gradient(g_e, g_n),
+        "sources": _cut_off_sources(ctx, vectors, g_e, g_n),
+    }
 
 
 def _cut_off_sources(

@@ -197,14 +197,14 @@ class NpySource:
         return np.array(np.load(self.path, mmap_mode="r")[rows, cols])
 
 
-def _framed_read(source: Callable, t: Tile, height: int, width: int) -> np.ndarray:
-    """The tile's window with one ring of neighbouring cells, NaN beyond the grid."""
-    h, w = t.shape
-    out = np.full((h + 2, w + 2), np.nan)
-    r0, r1 = max(t.r0 - 1, 0), min(t.r1 + 1, height)
-    c0, c1 = max(t.c0 - 1, 0), min(t.c1 + 1, width)
-    out[r0 - t.r0 + 1 : r1 - t.r0 + 1, c0 - t.c0 + 1 : c1 - t.c0 + 1] = source(
-        slice(r0, r1), slice(c0, c1)
+def framed_read(source: Callable, rows: slice, cols: slice, height: int, width: int) -> np.ndarray:
+    """A window of a grid of ``height`` x ``width`` cells with one ring of neighbouring
+    cells, NaN beyond the grid."""
+    out = np.full((rows.stop - rows.start + 2, cols.stop - cols.start + 2), np.nan)
+    r0, r1 = max(rows.start - 1, 0), min(rows.stop + 1, height)
+    c0, c1 = max(cols.start - 1, 0), min(cols.stop + 1, width)
+    out[r0 - rows.start + 1 : r1 - rows.start + 1, c0 - cols.start + 1 : c1 - cols.start + 1] = (
+        source(slice(r0, r1), slice(c0, c1))
     )
     return out
 
@@ -222,7 +222,7 @@ def _load(folder: Path, t: Tile, name: str, mode: str | None = None) -> np.ndarr
 
 # --- stage 1: fill each tile on its own -------------------------------------------------
 def _fill_task(source: Callable, folder: Path, t: Tile, height: int, width: int) -> dict:
-    z = _framed_read(source, t, height, width)
+    z = framed_read(source, slice(t.r0, t.r1), slice(t.c0, t.c1), height, width)
     valid = np.isfinite(z)
     np.copyto(z, 0.0, where=~valid)
     labels, a, b, weight = routing.fill_framed(z, valid, labelled=True)
