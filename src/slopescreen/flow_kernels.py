@@ -517,17 +517,10 @@ def accumulate(recv1, recv2, share1, values, flags, cells, indeg, queue, ring):
         head += 1
         a = values[i]
         flag = carry and flags[i] != 0
-        j = recv1[i]
-        if j != -1:
-            _send(j, a * share1[i], flag, values, flags, ring_area, ring_flags)
-            if j >= 0:
-                indeg[j] -= 1
-                if indeg[j] == 0:
-                    queue[tail] = j
-                    tail += 1
-        j = recv2[i]
-        if j != -1:
-            _send(j, a * (1.0 - share1[i]), flag, values, flags, ring_area, ring_flags)
+        for j, amount in ((recv1[i], a * share1[i]), (recv2[i], a * (1.0 - share1[i]))):
+            if j == -1:
+                continue
+            _send(j, amount, flag, values, flags, ring_area, ring_flags)
             if j >= 0:
                 indeg[j] -= 1
                 if indeg[j] == 0:
