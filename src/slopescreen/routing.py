@@ -109,6 +109,12 @@ def flat_steps(z: np.ndarray, valid: np.ndarray, steps: np.ndarray, fresh: bool 
     return fk.flat_steps(z, valid, steps, np.empty(z.size, np.int32), fresh)
 
 
+def _ring_vectors(rows: int, cols: int) -> tuple[np.ndarray, np.ndarray]:
+    """Empty vectors of what leaves a framed tile of rows x cols into its ring: (amounts,
+    flags), in ``flow_kernels.ring_index`` order."""
+    return np.zeros(2 * (rows + cols) - 4), np.zeros(2 * (rows + cols) - 4, np.uint8)
+
+
 def route_framed(
     z: np.ndarray,
     valid: np.ndarray,
@@ -133,7 +139,7 @@ def route_framed(
     kernel = fk.directions if parallel else fk.directions_one_thread
     kernel(z, valid, steps, lattice, origin[0], origin[1], recv1, recv2, share1, width)
     area = fk.cell_areas(valid, lattice, origin[0], origin[1], np.empty(n))
-    ring = (np.zeros(2 * (rows + cols) - 4), np.zeros(2 * (rows + cols) - 4, np.uint8))
+    ring = _ring_vectors(rows, cols)
     every = np.zeros(0, np.int32)
     fk.accumulate(recv1, recv2, share1, area, flags, every, np.zeros(n, np.int32),
                   np.empty(n, np.int32), ring)  # fmt: skip
@@ -166,7 +172,7 @@ def propagate(
         cone_flags = np.zeros(n, np.uint8)
         cone_flags[cells] = flags[cells]
         cone_flags[entries[entry_flags != 0]] = 1
-    ring = (np.zeros(2 * (rows + cols) - 4), np.zeros(2 * (rows + cols) - 4, np.uint8))
+    ring = _ring_vectors(rows, cols)
     fk.accumulate(recv1, recv2, share1, extra, cone_flags, cells, np.zeros(n, np.int32),
                   np.empty(count, np.int32), ring)  # fmt: skip
     area[cells] += extra[cells]

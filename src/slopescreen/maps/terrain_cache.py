@@ -32,12 +32,12 @@ PRODUCTS = (
 )
 
 
-ROUTING_TILE = 4000  # cells a side of a routing tile: about 0.75 GB of work at its peak
+ROUTING_TILE = 4000  # cells a side of a routing tile: under 1 GB a process at its peak
 
 
 class ElevationSource:
-    """Windows of the DEM in metres (float64, NaN for no data), for routing tiles: a
-    plain, picklable reader, so dask workers read their own windows."""
+    """Windows of the DEM in metres (float64, NaN for no data), for the slope and routing
+    tasks: a plain, picklable reader, so dask workers read their own windows."""
 
     def __init__(self, path: Path, elevation_unit: str) -> None:
         self.path, self.elevation_unit = path, elevation_unit
@@ -154,8 +154,8 @@ def _compute(
     windows = list(rasters.windows(grid))
     jobs = [(grid, elevation_unit, rows, cols) for rows, cols in windows]
     with all_or_nothing(*sinks.values(), shade):
-        side_by_side = threaded_runner if runner is serial_runner else runner
-        for (rows, cols), out in zip(windows, side_by_side(_slope_task, jobs), strict=True):
+        results = _side_by_side(runner)(_slope_task, jobs)
+        for (rows, cols), out in zip(windows, results, strict=True):
             for name, sink in (*sinks.items(), ("shade", shade)):
                 sink.write(rows, cols, out[name])
             sources[rows, cols] = out["sources"]
@@ -193,6 +193,12 @@ def _compute(
             cut_sink.write(*window, np.where(missing, 255, cut_off))
 
 
+def _side_by_side(runner: Runner) -> Runner:
+    """The run's cluster, or a thread per core (at most 8) instead of one after another:
+    terrain tasks release the GIL in their compiled kernels and numpy."""
+    return threaded_runner if runner is serial_runner else runner
+
+
 def _routed(
     grid: Grid, elevation_unit: str, scratch: Path, runner: Runner, echo: Callable[[str], None]
 ) -> Iterator[tuple[tuple[slice, slice], np.ndarray, np.ndarray]]:
@@ -214,7 +220,7 @@ def _routed(
         layout,
         grid.ground.lattice(),
         scratch,
-        threaded_runner if runner is serial_runner else runner,  # tiles side by side
+        _side_by_side(runner),
         sources,
         echo,
     )

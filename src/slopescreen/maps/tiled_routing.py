@@ -220,11 +220,17 @@ def _load(folder: Path, t: Tile, name: str, mode: str | None = None) -> np.ndarr
     return np.load(folder / f"t{t.index}-{name}.npy", mmap_mode=mode)
 
 
-# --- stage 1: fill each tile on its own -------------------------------------------------
-def _fill_task(source: Callable, folder: Path, t: Tile, height: int, width: int) -> dict:
-    z = framed_read(source, slice(t.r0, t.r1), slice(t.c0, t.c1), height, width)
+def _surface(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """A framed elevation (NaN for no data) as the kernels take it: 0 at no data, and the
+    data mask."""
     valid = np.isfinite(z)
     np.copyto(z, 0.0, where=~valid)
+    return z, valid
+
+
+# --- stage 1: fill each tile on its own -------------------------------------------------
+def _fill_task(source: Callable, folder: Path, t: Tile, height: int, width: int) -> dict:
+    z, valid = _surface(framed_read(source, slice(t.r0, t.r1), slice(t.c0, t.c1), height, width))
     labels, a, b, weight = routing.fill_framed(z, valid, labelled=True)
     inner = valid[1:-1, 1:-1]
     own = np.where(inner, z[1:-1, 1:-1], np.nan)
@@ -297,9 +303,7 @@ def _raise_task(folder: Path, t: Tile, level: np.ndarray, ring_z: np.ndarray) ->
     _save(folder, t, "z", own)
     (folder / f"t{t.index}-fill.npy").unlink()
     (folder / f"t{t.index}-labels.npy").unlink()
-    z = frame(own, ring_z)
-    valid = np.isfinite(z)
-    np.copyto(z, 0.0, where=~valid)
+    z, valid = _surface(frame(own, ring_z))
     steps = frame(np.zeros(t.shape, np.int32), np.full(ring_z.size, fk.NO_STEPS, np.int32))
     routing.flat_steps(z, valid, steps)
     _save(folder, t, "steps", steps[1:-1, 1:-1])
@@ -308,9 +312,7 @@ def _raise_task(folder: Path, t: Tile, level: np.ndarray, ring_z: np.ndarray) ->
 
 def _steps_task(folder: Path, t: Tile, ring_z: np.ndarray, ring_steps: np.ndarray) -> dict:
     """Lower the tile's flat steps where its ring now offers fewer."""
-    z = frame(_load(folder, t, "z"), ring_z)
-    valid = np.isfinite(z)
-    np.copyto(z, 0.0, where=~valid)
+    z, valid = _surface(frame(_load(folder, t, "z"), ring_z))
     steps = frame(_load(folder, t, "steps"), ring_steps)
     routing.flat_steps(z, valid, steps, fresh=False)
     _save(folder, t, "steps", steps[1:-1, 1:-1])
@@ -358,9 +360,9 @@ def _route_task(
     ring_steps: np.ndarray,
     sources: Callable | None,
 ) -> dict:
-    z = frame(_load(folder, t, "z"), ring_z)
-    valid = np.isfinite(z)
-    np.copyto(z, 0.0, where=~valid)
+    """Directions and each cell's own contributing area inside the tile; returns what
+    leaves into its ring."""
+    z, valid = _surface(frame(_load(folder, t, "z"), ring_z))
     steps = frame(_load(folder, t, "steps"), ring_steps)
     flags = (
         np.zeros(0, np.uint8)
@@ -383,6 +385,8 @@ def _route_task(
 def _inflow_task(
     folder: Path, t: Tile, entries: np.ndarray, amounts: np.ndarray, flags_in: np.ndarray
 ) -> dict:
+    """A round of flow between tiles: what enters is carried down the cells below it;
+    returns what leaves into the ring."""
     flow = tuple(_load(folder, t, name, "r") for name in ("recv1", "recv2", "share1"))
     area, flags = _load(folder, t, "area", "r+"), _load(folder, t, "flags", "r+")
     ring = routing.propagate(flow, t.shape, area, flags, entries, amounts, flags_in)
