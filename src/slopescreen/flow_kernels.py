@@ -255,7 +255,8 @@ def flat_steps(z, valid, steps, queue, fresh):
     its equal neighbours elsewhere (breadth-first, the ring's known steps as sources in
     order of their steps). Inner cells of ``steps`` are written: from scratch when
     ``fresh``, else lowered where the ring now gives fewer steps (the inner steps are
-    upper bounds: a unit-weight Dijkstra from the ring). Returns the cells lowered."""
+    upper bounds: a unit-weight Dijkstra from the ring). Returns how many cells were set
+    or lowered."""
     rows, cols = z.shape
     tail = 0
     for r in range(1, rows - 1 if fresh else 1):

@@ -62,16 +62,20 @@ from slopescreen import flow_kernels as fk
 BUCKET_CELLS = 4  # cells per bucket of the fill's queue, on average (1 byte a cell)
 
 
+def surface(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """A framed elevation (NaN for no data) as the kernels take it, in place: 0 at no data,
+    and the data mask."""
+    valid = np.isfinite(z)
+    np.copyto(z, 0.0, where=~valid)
+    return z, valid
+
+
 def framed(elevation_m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The grid as one tile with a ring of no data: (elevation, 0 at no data; data mask)."""
     rows, cols = np.shape(elevation_m)
-    z = np.zeros((rows + 2, cols + 2))
+    z = np.full((rows + 2, cols + 2), np.nan)
     z[1:-1, 1:-1] = elevation_m
-    valid = np.isfinite(z)
-    valid[[0, -1], :] = False
-    valid[:, [0, -1]] = False
-    np.copyto(z, 0.0, where=~valid)
-    return z, valid
+    return surface(z)
 
 
 def fill_framed(
@@ -95,12 +99,7 @@ def fill_framed(
     )
     used = keys >= 0
     pairs = keys[used].astype(np.int64)
-    return (
-        labels if labelled else None,
-        (pairs // n_labels).astype(np.int64),
-        (pairs % n_labels).astype(np.int64),
-        weights[used],
-    )
+    return labels if labelled else None, pairs // n_labels, pairs % n_labels, weights[used]
 
 
 def flat_steps(z: np.ndarray, valid: np.ndarray, steps: np.ndarray, fresh: bool = True) -> int:

@@ -144,20 +144,11 @@ class Seams:
 
     def ring(self, t: Tile) -> np.ndarray:
         """The tile's ring in ``flow_kernels.ring_index`` order (``fill`` beyond the grid)."""
-        h = t.r1 - t.r0
-        left = self.right[t.tj - 1, t.r0 : t.r1] if t.tj > 0 else np.full(h, self.fill)
-        right = (
-            self.left[t.tj + 1, t.r0 : t.r1]
-            if t.tj + 1 < self.layout.tile_cols
-            else np.full(h, self.fill)
-        )
+        beyond = np.full(t.r1 - t.r0, self.fill, self.top.dtype)
+        left = self.right[t.tj - 1, t.r0 : t.r1] if t.tj > 0 else beyond
+        right = self.left[t.tj + 1, t.r0 : t.r1] if t.tj + 1 < self.layout.tile_cols else beyond
         return np.concatenate(
-            [
-                self._row(self.bottom, t.ti - 1, t),
-                self._row(self.top, t.ti + 1, t),
-                left.astype(self.top.dtype),
-                right.astype(self.top.dtype),
-            ]
+            [self._row(self.bottom, t.ti - 1, t), self._row(self.top, t.ti + 1, t), left, right]
         )
 
 
@@ -220,17 +211,11 @@ def _load(folder: Path, t: Tile, name: str, mode: str | None = None) -> np.ndarr
     return np.load(folder / f"t{t.index}-{name}.npy", mmap_mode=mode)
 
 
-def _surface(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """A framed elevation (NaN for no data) as the kernels take it: 0 at no data, and the
-    data mask."""
-    valid = np.isfinite(z)
-    np.copyto(z, 0.0, where=~valid)
-    return z, valid
-
-
 # --- stage 1: fill each tile on its own -------------------------------------------------
 def _fill_task(source: Callable, folder: Path, t: Tile, height: int, width: int) -> dict:
-    z, valid = _surface(framed_read(source, slice(t.r0, t.r1), slice(t.c0, t.c1), height, width))
+    z, valid = routing.surface(
+        framed_read(source, slice(t.r0, t.r1), slice(t.c0, t.c1), height, width)
+    )
     labels, a, b, weight = routing.fill_framed(z, valid, labelled=True)
     inner = valid[1:-1, 1:-1]
     own = np.where(inner, z[1:-1, 1:-1], np.nan)
@@ -303,8 +288,8 @@ def _raise_task(folder: Path, t: Tile, level: np.ndarray, ring_z: np.ndarray) ->
     _save(folder, t, "z", own)
     (folder / f"t{t.index}-fill.npy").unlink()
     (folder / f"t{t.index}-labels.npy").unlink()
-    z, valid = _surface(frame(own, ring_z))
-    steps = frame(np.zeros(t.shape, np.int32), np.full(ring_z.size, fk.NO_STEPS, np.int32))
+    z, valid = routing.surface(frame(own, ring_z))
+    steps = np.full(z.shape, fk.NO_STEPS, np.int32)  # nothing known of the ring yet
     routing.flat_steps(z, valid, steps)
     _save(folder, t, "steps", steps[1:-1, 1:-1])
     return {"steps": sides(steps[1:-1, 1:-1])}
@@ -312,7 +297,7 @@ def _raise_task(folder: Path, t: Tile, level: np.ndarray, ring_z: np.ndarray) ->
 
 def _steps_task(folder: Path, t: Tile, ring_z: np.ndarray, ring_steps: np.ndarray) -> dict:
     """Lower the tile's flat steps where its ring now offers fewer."""
-    z, valid = _surface(frame(_load(folder, t, "z"), ring_z))
+    z, valid = routing.surface(frame(_load(folder, t, "z"), ring_z))
     steps = frame(_load(folder, t, "steps"), ring_steps)
     routing.flat_steps(z, valid, steps, fresh=False)
     _save(folder, t, "steps", steps[1:-1, 1:-1])
@@ -362,7 +347,7 @@ def _route_task(
 ) -> dict:
     """Directions and each cell's own contributing area inside the tile; returns what
     leaves into its ring."""
-    z, valid = _surface(frame(_load(folder, t, "z"), ring_z))
+    z, valid = routing.surface(frame(_load(folder, t, "z"), ring_z))
     steps = frame(_load(folder, t, "steps"), ring_steps)
     flags = (
         np.zeros(0, np.uint8)
@@ -531,7 +516,7 @@ def route_array(
         runner,
         None if sources is None else ArraySource(sources),
     )
-    area = np.empty(layout.height * layout.width).reshape(layout.height, layout.width)
+    area = np.empty((layout.height, layout.width))
     sca = np.empty(area.shape, np.float32)
     flags = None if sources is None else np.empty(area.shape, np.uint8)
     for t in layout.tiles():
