@@ -196,17 +196,66 @@ def _priority_flood(z, epsilon):
     return np.where(valid, filled, np.nan)
 
 
-def test_bucketed_fill_equals_one_global_priority_queue():
-    # the fill's queue is bucketed by elevation for speed; the published algorithm with one
-    # global heap must give the same surface bit for bit (ties, flats and no data included)
+def test_fills_equal_the_published_priority_flood():
+    # The level fill runs by basins of steepest descent and their passes (Cordonnier, Bovy &
+    # Braun 2019), the epsilon fill by a Priority-Flood bucketed by elevation; the published
+    # algorithm (Barnes et al. 2014) with one global heap must give the same surface bit
+    # for bit: ties, flats, nested pits, pits whose passes are equal, and no data included.
     rng = np.random.default_rng(11)
-    for trial in range(12):
+    for trial in range(16):
         z = rng.normal(size=(50, 60)).cumsum(0).cumsum(1) * 0.1 + rng.normal(size=(50, 60))
         if trial % 3 == 0:
             z[rng.random(z.shape) < 0.05] = np.nan
         if trial % 2 == 0:
             z = np.round(z)  # many equal elevations
+        if trial >= 12:
+            z = rng.integers(0, 4, size=(40, 45)).astype(float)  # terraces of pits and passes
+            z[rng.random(z.shape) < 0.03 * (trial - 12)] = np.nan
         for epsilon in (True, False):
             np.testing.assert_array_equal(
                 fill_depressions(z, epsilon=epsilon), _priority_flood(z, epsilon)
             )
+
+
+def test_flat_steps_are_the_shortest_step_counts_across_each_flat():
+    # Outside reference: scipy.sparse.csgraph.dijkstra over 8-connected steps between equal
+    # neighbours, from every cell with lower ground or no data beside it (steps 0), on a
+    # filled terraced surface with holes: many flats of any shape, several drains each.
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import dijkstra
+
+    from slopescreen import flow_kernels, routing
+
+    rng = np.random.default_rng(5)
+    y, x = np.mgrid[0:70, 0:80]
+    z = np.floor(0.04 * x + 0.03 * y + rng.normal(0.0, 0.6, (70, 80)))
+    z[rng.random(z.shape) < 0.02] = np.nan
+    framed, valid = routing.framed(z)
+    routing.fill_framed(framed, valid)
+    steps = np.full(framed.shape, flow_kernels.NO_STEPS, np.int32)
+    routing.flat_steps(framed, valid, steps)
+    filled = np.where(valid, framed, np.nan)
+    rows, cols = filled.shape
+    index = np.arange(filled.size).reshape(filled.shape)
+    pairs, drains = [], np.zeros(filled.shape, bool)
+    for dr, dc in ((0, 1), (1, -1), (1, 0), (1, 1)):
+        a = filled[1:-1, 1:-1]
+        b = filled[1 + dr : rows - 1 + dr, 1 + dc : cols - 1 + dc]
+        same = a == b
+        pairs.append(
+            (index[1:-1, 1:-1][same], index[1 + dr : rows - 1 + dr, 1 + dc : cols - 1 + dc][same])
+        )
+    for dr in (-1, 0, 1):
+        for dc in (-1, 0, 1):
+            b = filled[1 + dr : rows - 1 + dr, 1 + dc : cols - 1 + dc]
+            drains[1:-1, 1:-1] |= np.isnan(b) | (b < filled[1:-1, 1:-1])
+    drains &= valid
+    a = np.concatenate([p[0] for p in pairs])
+    b = np.concatenate([p[1] for p in pairs])
+    graph = coo_matrix((np.ones(a.size), (a, b)), shape=(filled.size, filled.size)).tocsr()
+    reference = dijkstra(graph, directed=False, indices=index[drains], min_only=True)
+    reference = reference.reshape(filled.shape)
+    inner = valid[1:-1, 1:-1]
+    ours = steps[1:-1, 1:-1][inner]
+    np.testing.assert_array_equal(ours, reference[1:-1, 1:-1][inner])
+    assert ours.max() >= 5 and (ours > 0).sum() > 300  # long and many flats were tested

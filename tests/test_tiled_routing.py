@@ -57,11 +57,23 @@ def test_corner_notch_case_is_what_it_says():
 
 @pytest.mark.parametrize("size", [4, 8, 16, 7])
 def test_tiled_fill_equals_whole_grid_fill_through_a_corner(size, tmp_path):
-    # Barnes (2016): per-tile Priority-Flood, a spill graph of border labels, each tile
-    # raised to its labels' levels gives the whole-grid fill bit for bit (size 7: the
-    # notch inside a tile's border instead)
+    # Barnes (2016): per-tile basins, a graph of the passes between them within and
+    # across tile edges, each tile raised to its basins' levels gives the whole-grid fill
+    # bit for bit (size 7: the notch inside a tile's border instead)
     z, _ = _corner_basins()
     np.testing.assert_array_equal(_tiled_fill(z, size, tmp_path), routing.fill_depressions(z))
+
+
+def test_a_pit_drains_diagonally_across_the_corner_of_four_tiles(tmp_path):
+    # the pit's only low way out is the diagonal step from the last cell of one tile to the
+    # first cell of the tile diagonally below it; its pass is max(1, 0) = 1, so nothing is
+    # raised (analytic), tile by tile as on the whole grid
+    z = np.full((8, 8), 10.0)
+    z[1:4, 1:4] = 1.0
+    z[4:, 4] = 0.0
+    z[4, 4:] = 0.0
+    np.testing.assert_array_equal(routing.fill_depressions(z), z)
+    np.testing.assert_array_equal(_tiled_fill(z, 4, tmp_path), z)
 
 
 def test_tiled_fill_equals_whole_grid_fill_on_rough_ground(tmp_path):

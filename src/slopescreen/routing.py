@@ -1,10 +1,16 @@
 """Flow routing on a DEM: depression filling, D-infinity directions, contributing area.
 
-1. Depressions are filled level by Priority-Flood (Barnes, Lehman & Mulla 2014,
-   Algorithm 2): every cell on the edge of the data is an outlet; each pit is raised to
-   its spill elevation (the lowest level at which water can leave it). The priority queue
-   is bucketed by elevation (a binary heap for the current bucket only; see
-   ``flow_kernels.fill_tile``). The filled surface is used for routing only; slopes come
+1. Depressions are filled level: every cell on the edge of the data is an outlet, and each
+   cell is raised to the lowest level at which water can leave it, the minimax over paths
+   to an outlet (the surface of Priority-Flood, Barnes, Lehman & Mulla 2014, Algorithm 2,
+   bit for bit). It is computed by basins (Cordonnier, Bovy & Braun 2019): each cell
+   follows its lowest lower neighbour down to a pit or an outlet; two touching basins pass
+   at the higher of two touching cells, the lowest such pass kept; the minimax level of
+   each basin over this small graph raises its cells. Four passes over the grid and a
+   graph of one node per pit, where a priority queue touches every cell in elevation
+   order (measured in README, "Scale and performance"). The epsilon variant (Algorithm 3)
+   stays a Priority-Flood with its queue bucketed by elevation
+   (``flow_kernels.fill_tile``). The filled surface is used for routing only; slopes come
    from the original DEM.
 2. Flats (filled pits and level ground) drain by steps: each flat cell counts the
    8-connected steps to the nearest cell of its flat with lower ground (or no data) next
@@ -18,8 +24,9 @@
    of ground lengths (``slopescreen.maps.ground``; bilinear between nodes), so any CRS
    routes in ground metres. A cell whose facets all lack data falls back to its steepest
    lower neighbour (D8).
-4. Contributing area is accumulated in topological order (in-degree queue), each cell
-   contributing its own ground area; a flag (cells next to no data or the edge where
+4. Contributing area is accumulated in topological order (in-degree counts; a cell is
+   passed on once nothing more flows into it, its receivers followed depth-first), each
+   cell contributing its own ground area; a flag (cells next to no data or the edge where
    ground beyond would drain in) can be carried downstream with it. Specific catchment
    area a/b = contributing area / contour width b. The width is the cell area over the
    mean step the flow takes along its own direction,
@@ -38,17 +45,20 @@ The kernels work on a tile framed by one ring of its neighbours' cells
 no data, and ``slopescreen.maps.tiled_routing`` joins many tiles into the same result.
 
 Memory of ``route`` (the whole grid at once): the framed float64 surface (8 bytes per
-cell), two masks (2), heap keys and indices, the pit queue and the bucket links (20) and
-the bucket heads (0.25) while filling; then the steps (4), two int32 receivers, a float32
-share and width (16) and the float64 area with an int32 in-degree and queue (16) while
-accumulating: about 41 bytes per cell above the DEM at the peak
-(tests/benchmarks/bench_routing.py measures it). Beyond one routing tile, use the tiles.
+cell), the data mask (1) and the basin codes (4) while filling; then the steps (4), two
+int32 receivers, a float32 share and width (16), the float64 area (8) and the in-degree
+and stack of the accumulation (up to 8): about 40 bytes per cell above the DEM at the
+peak (tests/benchmarks/bench_routing.py measures it). Beyond one routing tile, use the
+tiles.
 
 References
 ----------
 Barnes, R., Lehman, C. & Mulla, D. (2014). Priority-flood: an optimal depression-filling
 and watershed-labeling algorithm for digital elevation models. Computers & Geosciences 62,
 117-127.
+Cordonnier, G., Bovy, B. & Braun, J. (2019). A versatile, linear complexity algorithm for
+flow routing in topographies with depressions. Earth Surface Dynamics 7, 549-562 (cited
+from memory).
 Tarboton, D.G. (1997). A new method for the determination of flow directions and upslope
 areas in grid digital elevation models. Water Resources Research 33(2), 309-319.
 """
@@ -81,30 +91,61 @@ def framed(elevation_m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 def fill_framed(
     z: np.ndarray, valid: np.ndarray, *, labelled: bool = False, epsilon: bool = False
 ) -> tuple[np.ndarray | None, np.ndarray, np.ndarray, np.ndarray]:
-    """Fill a framed tile in place (``flow_kernels.fill_tile``); returns (labels or None,
-    and the spill pairs: label a, label b, lowest spill elevation)."""
+    """Fill a framed tile; returns (labels or None, and the spill pairs: label a, label b,
+    lowest pass elevation).
+
+    Level (default): by basins of steepest descent inside the tile and the passes between
+    them (``flow_kernels.basin_pairs``), every value an elevation of the grid chosen by
+    min and max only, so the surface equals the published Priority-Flood bit for bit
+    (tested). The basins are the labels: label 0 drains to no data, the others are raised
+    to the lowest level at which they drain (``spill_graph_levels``). Without ``labelled``
+    the ring must be no data and ``z`` is filled in place; with it, ``z`` is left as it is
+    for the caller to raise once the levels across tiles are known (Barnes 2016), and the
+    labels (framed, -1 at no data) are returned.
+
+    With ``epsilon``: Priority-Flood+epsilon (``flow_kernels.fill_tile``) in place, no
+    labels."""
     n = z.size
-    labels = np.empty(z.shape if labelled else (0, 0), np.int32)
-    n_labels, keys, weights = fk.fill_tile(
-        z,
-        valid,
-        epsilon,
-        np.empty(z.shape, np.bool_),
-        np.empty(n, np.float64),
-        np.empty(n, np.int32),
-        np.empty(n, np.int32),
-        np.empty(n, np.int32),
-        np.empty(max(1, n // BUCKET_CELLS), np.int32),
-        labels,
-    )
+    if epsilon:
+        fk.fill_tile(
+            z,
+            valid,
+            np.empty(z.shape, np.bool_),
+            np.empty(n, np.float64),
+            np.empty(n, np.int32),
+            np.empty(n, np.int32),
+            np.empty(n, np.int32),
+            np.empty(max(1, n // BUCKET_CELLS), np.int32),
+        )
+        nothing = np.zeros(0, np.int64)
+        return None, nothing, nothing, np.zeros(0)
+    code = np.empty(z.shape, np.int32)
+    fk.lowest_neighbours(z, valid, code)
+    n_basins, keys, weights = fk.basin_pairs(z, code)
     used = keys >= 0
     pairs = keys[used].astype(np.int64)
-    return labels if labelled else None, pairs // n_labels, pairs % n_labels, weights[used]
+    a, b, weight = pairs // n_basins, pairs % n_basins, weights[used]
+    if labelled:
+        np.subtract(-4, code, out=code)  # basin ids; -1 at no data
+        return code, a, b, weight
+    fk.raise_to_levels(z, code, spill_graph_levels(n_basins, a, b, weight))
+    return None, a, b, weight
+
+
+def spill_graph_levels(
+    n_nodes: int, a: np.ndarray, b: np.ndarray, weight: np.ndarray
+) -> np.ndarray:
+    """Lowest level at which each node of a spill graph (edges a - b at ``weight``)
+    drains to node 0: the minimax path (``flow_kernels.spill_levels``); node 0 -inf."""
+    source = np.concatenate([a, b])
+    order = np.argsort(source, kind="stable")
+    start = np.searchsorted(source[order], np.arange(n_nodes + 1))
+    return fk.spill_levels(n_nodes, start, np.concatenate([b, a])[order], np.tile(weight, 2)[order])
 
 
 def flat_steps(z: np.ndarray, valid: np.ndarray, steps: np.ndarray, fresh: bool = True) -> int:
     """Steps to drain across flats of a framed, filled tile (``flow_kernels.flat_steps``);
-    the ring of ``steps`` holds the neighbours' steps. Returns the cells set or lowered."""
+    the ring of ``steps`` holds the neighbours' steps. Returns how many cells were queued."""
     return fk.flat_steps(z, valid, steps, np.empty(z.size, np.int32), fresh)
 
 
@@ -133,16 +174,16 @@ def route_framed(
     flags leaving into the ring, in ``flow_kernels.ring_index`` order))."""
     rows, cols = z.shape
     n = (rows - 2) * (cols - 2)
-    recv1, recv2 = np.empty(n, np.int32), np.empty(n, np.int32)
-    share1, width = np.empty(n, np.float32), np.empty(n, np.float32)
+    flow = (np.empty(n, np.int32), np.empty(n, np.int32), np.empty(n, np.float32),
+            np.empty(n, np.float32))  # fmt: skip
+    area = np.empty(n)
     kernel = fk.directions if parallel else fk.directions_one_thread
-    kernel(z, valid, steps, lattice, origin[0], origin[1], recv1, recv2, share1, width)
-    area = fk.cell_areas(valid, lattice, origin[0], origin[1], np.empty(n))
+    kernel(z, valid, steps, lattice, origin[0], origin[1], flow, area)
     ring = _ring_vectors(rows, cols)
     every = np.zeros(0, np.int32)
-    fk.accumulate(recv1, recv2, share1, area, flags, every, np.zeros(n, np.int32),
-                  np.empty(n, np.int32), ring)  # fmt: skip
-    return (recv1, recv2, share1, width), area, ring
+    fk.accumulate(*flow[:3], area, flags, every, np.zeros(n, np.int32), np.empty(n, np.int32),
+                  ring)  # fmt: skip
+    return flow, area, ring
 
 
 def propagate(

@@ -347,8 +347,9 @@ def _methods(cfg: Config, scenarios: list[ScenarioSummary], soils: SoilUnits) ->
         "where given.",
     ]
     items.append(
-        "Critical recharge (every scenario) and steady wetness: depressions filled by "
-        "Priority-Flood (Barnes et al. 2014; tile by tile after Barnes 2016), flats drained "
+        "Critical recharge (every scenario) and steady wetness: depressions filled level "
+        "(the Priority-Flood surface, Barnes et al. 2014, computed by basins after "
+        "Cordonnier et al. 2019; tile by tile after Barnes 2016), flats drained "
         "by steps to their outlet; flow by D-infinity (Tarboton 1997); "
         "specific catchment area = contributing area / contour width; "
         "m = min(1, R a/b / (T sin beta)), "

@@ -20,7 +20,7 @@ from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_block
 from slopescreen.maps.runners import Runner, serial_runner, threaded_runner
 from slopescreen.outputs import TEMP_PREFIX, real_folder
 
-TERRAIN_VERSION = "5"  # bump when a terrain algorithm changes: old caches are not reused
+TERRAIN_VERSION = "6"  # bump when a terrain algorithm changes: old caches are not reused
 NODATA_F32 = -9999.0
 PRODUCTS = (
     "slope_deg.tif",
@@ -162,7 +162,8 @@ def _compute(
     sources.flush()
     del sources
     route_tags = {
-        "method": "Priority-Flood fill (Barnes et al. 2014; tile by tile after Barnes 2016), "
+        "method": "level depression fill (the Priority-Flood surface, Barnes et al. 2014, by "
+        "basins after Cordonnier et al. 2019; tile by tile after Barnes 2016), "
         "flats drained by steps to their outlet, D-infinity routing (Tarboton 1997), ground "
         "lengths and areas",
     }
