@@ -1,6 +1,7 @@
 """Benchmark 2: terrain routing against general-purpose routing libraries, side by side.
 
-slopescreen: Priority-Flood+epsilon fill, D-infinity directions, contributing area.
+slopescreen: level depression fill (by basins of steepest descent), flat steps, D-infinity
+directions, contributing area.
 References on the same DEM in the same run: pyflwdir (fill + D8 + upstream area) and, where
 it is installed, topotoolbox (fill + D8 + flow accumulation; GPL, used only here as a
 reference, never a dependency: `python -m pip install topotoolbox`).
