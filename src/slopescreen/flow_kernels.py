@@ -110,7 +110,8 @@ def _meet(table, used, a, b, n_labels, za, zb):
 def fill_tile(z, valid, closed, keys, ids, pit, link, heads):
     """Priority-Flood+epsilon (Barnes, Lehman & Mulla 2014, Algorithm 3) of a framed tile's
     inner cells, in place: a raised cell is one float64 step above the cell it was reached
-    from. Seeds: inner data cells on the tile's border or next to no data.
+    from. The queue starts from the inner data cells on the tile's border or next to no
+    data.
 
     The queue is bucketed by elevation: ``heads.size`` equal buckets between the lowest and
     highest data; a cell pushed above the current bucket waits in its bucket's linked list
@@ -193,6 +194,29 @@ def fill_tile(z, valid, closed, keys, ids, pit, link, heads):
                     heads[b] = nb
 
 
+@njit(cache=True)
+def _lowest_row(z, valid, code, r):
+    """``lowest_neighbours`` for framed row r."""
+    rows, cols = z.shape
+    for c in range(cols):
+        if not (0 < r < rows - 1 and 0 < c < cols - 1 and valid[r, c]):
+            code[r, c] = -3
+            continue
+        lowest = z[r, c]
+        to = -2
+        for k in range(8):
+            rr = r + DR[k]
+            cc = c + DC[k]
+            if not valid[rr, cc]:
+                to = -1
+                break
+            inner = 0 < rr < rows - 1 and 0 < cc < cols - 1
+            if inner and z[rr, cc] < lowest:
+                lowest = z[rr, cc]
+                to = rr * cols + cc
+        code[r, c] = to
+
+
 @njit(cache=True, parallel=True)
 def lowest_neighbours(z, valid, code):
     """For every inner data cell of a framed tile, into ``code`` (framed, int32): the index
@@ -200,25 +224,17 @@ def lowest_neighbours(z, valid, code):
     ties), -1 for a cell next to no data (an outlet) and -2 for one with no lower inner
     neighbour (a pit, a flat, or a cell that descends into the ring); -3 at no data and
     on the ring. Rows in parallel."""
-    rows, cols = z.shape
-    for r in prange(rows):
-        for c in range(cols):
-            if not (0 < r < rows - 1 and 0 < c < cols - 1 and valid[r, c]):
-                code[r, c] = -3
-                continue
-            lowest = z[r, c]
-            to = -2
-            for k in range(8):
-                rr = r + DR[k]
-                cc = c + DC[k]
-                if not valid[rr, cc]:
-                    to = -1
-                    break
-                inner = 0 < rr < rows - 1 and 0 < cc < cols - 1
-                if inner and z[rr, cc] < lowest:
-                    lowest = z[rr, cc]
-                    to = rr * cols + cc
-            code[r, c] = to
+    for r in prange(z.shape[0]):
+        _lowest_row(z, valid, code, r)
+
+
+@njit(cache=True, nogil=True)
+def lowest_neighbours_one_thread(z, valid, code):
+    """``lowest_neighbours`` on the calling thread, without the GIL (tiles run side by
+    side: a parallel kernel called from several threads at once is safe only with some of
+    numba's threading layers)."""
+    for r in range(z.shape[0]):
+        _lowest_row(z, valid, code, r)
 
 
 @njit(cache=True, nogil=True)
@@ -271,14 +287,15 @@ def basin_pairs(z, code):
     return n_basins, table[0], table[1]
 
 
-@njit(cache=True, parallel=True)
-def raise_to_levels(z, code, level):
-    """z = max(z, level of the cell's basin) on a framed tile coded by ``basin_pairs``."""
+@njit(cache=True, nogil=True)
+def raise_to_levels(z, labels, level):
+    """z = max(z, level of the cell's label) where the label is >= 0 (-1: no data), in
+    place, on the calling thread (z and labels: 2-D, of one shape)."""
     rows, cols = z.shape
-    for r in prange(rows):
+    for r in range(rows):
         for c in range(cols):
-            if code[r, c] <= -4:
-                z[r, c] = max(z[r, c], level[-4 - code[r, c]])
+            if labels[r, c] >= 0:
+                z[r, c] = max(z[r, c], level[labels[r, c]])
 
 
 @njit(cache=True)
@@ -351,13 +368,13 @@ def flat_steps(z, valid, steps, queue, fresh):
                 n_ring += 1
     order = np.argsort(steps.ravel()[ring[:n_ring]], kind="mergesort")
     head = 0
-    seed = 0
-    while head < tail or seed < n_ring:
-        if seed < n_ring and (
-            head >= tail or steps.flat[ring[order[seed]]] <= steps.flat[queue[head]]
+    taken = 0  # ring cells taken so far
+    while head < tail or taken < n_ring:
+        if taken < n_ring and (
+            head >= tail or steps.flat[ring[order[taken]]] <= steps.flat[queue[head]]
         ):
-            cell = ring[order[seed]]
-            seed += 1
+            cell = ring[order[taken]]
+            taken += 1
         else:
             cell = queue[head]
             head += 1
@@ -368,7 +385,7 @@ def flat_steps(z, valid, steps, queue, fresh):
             rr = r + DR[k]
             cc = c + DC[k]
             if rr < 1 or cc < 1 or rr > rows - 2 or cc > cols - 2 or not valid[rr, cc]:
-                continue  # ring cells (and beyond, from a ring seed) are not ours
+                continue  # ring cells (and beyond, from a ring cell) are not ours
             if z[rr, cc] == z[r, c] and steps[rr, cc] > nxt:
                 steps[rr, cc] = nxt
                 queue[tail] = rr * cols + cc

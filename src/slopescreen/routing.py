@@ -89,7 +89,12 @@ def framed(elevation_m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def fill_framed(
-    z: np.ndarray, valid: np.ndarray, *, labelled: bool = False, epsilon: bool = False
+    z: np.ndarray,
+    valid: np.ndarray,
+    *,
+    labelled: bool = False,
+    epsilon: bool = False,
+    parallel: bool = True,
 ) -> tuple[np.ndarray | None, np.ndarray, np.ndarray, np.ndarray]:
     """Fill a framed tile; returns (labels or None, and the spill pairs: label a, label b,
     lowest pass elevation).
@@ -104,7 +109,7 @@ def fill_framed(
     labels (framed, -1 at no data) are returned.
 
     With ``epsilon``: Priority-Flood+epsilon (``flow_kernels.fill_tile``) in place, no
-    labels."""
+    labels. Without ``parallel`` the calling thread only (as in ``route_framed``)."""
     n = z.size
     if epsilon:
         fk.fill_tile(
@@ -120,15 +125,15 @@ def fill_framed(
         nothing = np.zeros(0, np.int64)
         return None, nothing, nothing, np.zeros(0)
     code = np.empty(z.shape, np.int32)
-    fk.lowest_neighbours(z, valid, code)
+    (fk.lowest_neighbours if parallel else fk.lowest_neighbours_one_thread)(z, valid, code)
     n_basins, keys, weights = fk.basin_pairs(z, code)
     used = keys >= 0
     pairs = keys[used].astype(np.int64)
     a, b, weight = pairs // n_basins, pairs % n_basins, weights[used]
+    labels = np.subtract(-4, code, out=code)  # basin ids; -1 at no data
     if labelled:
-        np.subtract(-4, code, out=code)  # basin ids; -1 at no data
-        return code, a, b, weight
-    fk.raise_to_levels(z, code, spill_graph_levels(n_basins, a, b, weight))
+        return labels, a, b, weight
+    fk.raise_to_levels(z, labels, spill_graph_levels(n_basins, a, b, weight))
     return None, a, b, weight
 
 

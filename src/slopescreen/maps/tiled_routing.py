@@ -220,7 +220,7 @@ def _fill_task(source: Callable, folder: Path, t: Tile, height: int, width: int)
     z, valid = routing.surface(
         framed_read(source, slice(t.r0, t.r1), slice(t.c0, t.c1), height, width)
     )
-    labels, a, b, weight = routing.fill_framed(z, valid, labelled=True)
+    labels, a, b, weight = routing.fill_framed(z, valid, labelled=True, parallel=False)
     lab = labels[1:-1, 1:-1]
     _save(folder, t, "labels", lab)
     border = zip(sides(z[1:-1, 1:-1]), sides(valid[1:-1, 1:-1]), strict=True)
@@ -283,7 +283,7 @@ def _raise_task(
     count its flat steps from its own drains (and the ring's no data)."""
     labels = _load(folder, t, "labels")
     own = source(slice(t.r0, t.r1), slice(t.c0, t.c1))
-    np.maximum(own, level[np.maximum(labels, 0)], out=own, where=labels >= 0)
+    fk.raise_to_levels(own, labels, level)
     del labels
     _save(folder, t, "z", own)
     (folder / f"t{t.index}-labels.npy").unlink()
