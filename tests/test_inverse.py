@@ -70,7 +70,8 @@ def test_required_cohesion_plugs_back():
     )
     assert fs == pytest.approx(1.3, rel=1e-10)
     assert required_cohesion_kpa(15.0, 1.0, 35.0, 18.0) < 0.0  # friction alone suffices
-    assert np.isnan(required_cohesion_kpa(0.0, 1.0, 35.0, 18.0))
+    # flat ground: nothing drives, so no cohesion is needed (never NaN)
+    assert required_cohesion_kpa(0.0, 1.0, 35.0, 18.0) == pytest.approx(-18.0 * np.tan(np.radians(35.0)))
 
 
 def test_required_friction_plugs_back_and_nan_cases():
@@ -80,7 +81,7 @@ def test_required_friction_plugs_back_and_nan_cases():
     fs = factor_of_safety(38.0, 1.4, 3.0, phi, 18.5, 0.7, **kw)
     assert fs == pytest.approx(1.2, rel=1e-10)
     assert required_friction_deg(10.0, 1.0, 50.0, 18.0) < 0.0  # cohesion alone suffices
-    assert np.isnan(required_friction_deg(0.0, 1.0, 5.0, 18.0))  # no driving stress
+    assert required_friction_deg(0.0, 1.0, 5.0, 18.0) < 0.0  # flat: no friction needed
     # fully saturated with gamma_sat = gamma_w: no effective stress for friction to act on
     assert np.isnan(required_friction_deg(30.0, 1.0, 0.0, 9.81, 1.0))
 
@@ -161,3 +162,31 @@ def test_critical_slope_cohesionless_is_friction_angle():
     assert critical_slope_deg(1.0, 0.0, np.array([25.0, 35.0]), 18.0) == pytest.approx(
         [25.0, 35.0], rel=1e-10
     )
+
+
+def test_flat_ground_gives_the_documented_values_never_nan():
+    # Slope 0 without seismic load: nothing drives a slide (common practice). The saturation
+    # and depth that would bring FS to 1 do not exist: +inf; no strength is needed: <= 0.
+    assert critical_saturation(0.0, 1.5, 0.0, 33.0, 18.0) == np.inf
+    assert critical_depth(0.0, 2.0, 33.0, 18.0, 1.0) == np.inf
+    assert required_cohesion_kpa(0.0, 1.5, 33.0, 18.0, 1.0) <= 0.0
+    assert required_friction_deg(0.0, 1.5, 2.0, 18.0, 0.5) <= 0.0
+    flat_and_steep = critical_saturation(np.array([0.0, 35.0]), 1.5, 2.0, 33.0, 18.0)
+    assert flat_and_steep[0] == np.inf and np.isfinite(flat_and_steep[1])
+
+
+def test_reliability_on_flat_ground_is_certain_to_hold():
+    # FS is +inf on flat ground: capped for the moments, beta +inf, P_f 0 (never NaN)
+    from slopescreen.reliability import Spread, slope_reliability
+
+    for method in ("taylor", "monte_carlo"):
+        res = slope_reliability(
+            {"slope_deg": np.array([0.0, 30.0]), "depth_m": 1.5,
+             "cohesion_kpa": Spread.normal(2.0, 3.0), "friction_deg": Spread.normal(33.0, 3.0),
+             "unit_weight_kn_m3": 18.0, "saturation": 0.5},
+            method=method, samples=200,
+        )  # fmt: skip
+        for field in res:
+            assert not np.isnan(field).any()
+        assert res.probability_of_failure[0] == 0.0
+        assert 0.0 < res.probability_of_failure[1] < 1.0

@@ -342,8 +342,9 @@ def test_storm_rasters_match_core_at_sampled_cells(demo_out):
         r, c = rows[i], cols[i]
         p = table[unit_tags[f"unit_{units[r, c]}"]]
         # fs.tif: the minimum over depth and time up to 24 h, against a dense grid of
-        # 300 planes x 97 times with the core function (tolerance of storm_summary: 0.005)
-        planes = p["depth_m"] * np.arange(1, 301) / 300.0
+        # 300 planes from the shallowest slip plane (0.05 m) x 97 times with the core
+        # function (tolerance of storm_summary: 0.005)
+        planes = 0.05 + (p["depth_m"] - 0.05) * np.arange(300) / 299.0
         dense = min(
             float(np.min(storm_factor_of_safety(
                 planes,
@@ -364,7 +365,9 @@ def test_storm_rasters_match_core_at_sampled_cells(demo_out):
         )  # fmt: skip
         assert fs[r, c] <= min(dense, 10.0) + 1e-5
         assert fs[r, c] == pytest.approx(min(dense, 10.0), abs=0.005)
-        assert (fs[r, c] < 1.0) == (t_fail[r, c] >= 0.0)  # consistent by construction
-        if fs[r, c] < 1.0:
-            assert 0.0 <= t_fail[r, c] <= 24.0
-    assert ((t_fail == -1) | (t_fail >= 0) | (t_fail == -9999)).all()
+        # consistent by construction: -1 exactly where FS holds, -2 where it fails before rain
+        assert (fs[r, c] < 1.0) == (t_fail[r, c] >= 0.0 or t_fail[r, c] == -2.0)
+        if fs[r, c] < 1.0 and t_fail[r, c] >= 0.0:
+            assert 0.0 < t_fail[r, c] <= 24.0
+    assert ((t_fail == -1) | (t_fail == -2) | (t_fail >= 0) | (t_fail == -9999)).all()
+    assert tags["code_fails_before"].startswith("-2")

@@ -176,9 +176,8 @@ def test_compiled_kernel_equals_the_numpy_core():
     from slopescreen.rain_thresholds import (
         _LOG_STORM,
         _PEAK_OFFSET,
-        DEPTH_SCAN,
-        REFINE_STEPS,
-        SURFACE_FRACTION,
+        MIN_SLIP_DEPTH_M,
+        kernel_search,
     )
 
     rng = np.random.default_rng(12)
@@ -202,8 +201,8 @@ def test_compiled_kernel_equals_the_numpy_core():
             12.0 * 3600.0, 36.0 * 3600.0, np.tan(np.radians(slope)),
             sca if capped else np.empty(0), codes, unit["depth"], unit["c"],
             np.tan(np.radians(unit["phi"])), unit["gamma"], unit["gamma_sat"], unit["k"],
-            unit["d0"], unit["t"], 0.7, 0.0, 0.0, 9.81, DEPTH_SCAN, REFINE_STEPS,
-            SURFACE_FRACTION, _LOG_STORM, _PEAK_OFFSET, -1.0, -2.0, out,
+            unit["d0"], unit["t"], 0.7, 0.0, 0.0, 9.81, kernel_search(),
+            MIN_SLIP_DEPTH_M, _LOG_STORM, _PEAK_OFFSET, -1.0, -2.0, out,
         )  # fmt: skip
         core = critical_intensity_mm_h(
             12.0,
@@ -356,12 +355,10 @@ def test_demo_uplift_only_makes_failure_more_frequent(demo_out):
     ratio = read("comparison/rain_frequency_vs_rain_frequency_uplift_return_period_ratio.tif")
     inside = both & (today * 1.2**-5 >= 2.0)
     assert inside.sum() > 100
-    # the table's intensities are written to 0.001 mm/h: a relative error up to 0.0005 /
-    # its smallest intensity in each scenario, 1/m = 5 times that in T
-    from conftest import REGION
-
-    rows = np.loadtxt(REGION / "quillbrook_design_rainfall.csv", delimiter=",", skiprows=3)
-    np.testing.assert_allclose(ratio[inside], 1.2**-5, rtol=2 * 5 * 0.0005 / rows[:, 2].min())
+    # between table rows each return period is the shorter of log-log (exact here) and
+    # Gumbel-variate interpolation, which shortens T on a power law by up to 5% (measured in
+    # test_rainfall_frequency): the ratio lies within 1.2^-5 x [0.95, 1 / 0.95]
+    np.testing.assert_allclose(ratio[inside], 1.2**-5, rtol=0.055)
     assert np.all(ratio[~both] < 0)  # the codes: one scenario or neither within the table
     assert np.all(ratio[(today == -2.0) & (lifted == -2.0)] == -1.0)  # rarer in both
     assert "over rain_frequency's is 0.40;" in report
@@ -451,7 +448,10 @@ def test_gridded_design_rainfall_gives_each_cell_its_own_return_period(tmp_path)
     expected = np.min(per_duration, axis=0)
     inside = np.isfinite(expected) & (found > 0)
     assert inside.sum() > 200 and np.isfinite(expected[found > 0]).all()
-    np.testing.assert_allclose(found[inside], expected[inside], rtol=2e-5)
+    # never longer than each cell's closed form (log-log is exact on a power law; the
+    # shorter Gumbel-variate reading may be kept: up to 11% short between 10 and 100 years)
+    assert np.all(found[inside] <= expected[inside] * (1 + 2e-5))
+    assert np.all(found[inside] >= expected[inside] * 0.88)
     with rasterio.open(tmp_path / "out" / "r" / "hazard_class.tif") as src:
         assert "gridded: 9 rasters resampled bilinearly" in src.tags()["idf_table"]
 

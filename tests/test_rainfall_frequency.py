@@ -10,8 +10,13 @@ from slopescreen.rainfall_frequency import (
     MORE_FREQUENT,
     NO_INTENSITY_FAILS,
     RARER,
+    SERIES_KINDS,
+    annual_exceedance,
     annual_probability,
     check_table,
+    gumbel_variate,
+    hazard_class_names,
+    table_reach_yr,
     hazard_class,
     idf_formula,
     return_period_yr,
@@ -28,27 +33,56 @@ def _closed_form_period(intensity, duration, uplift=1.0):
     return (intensity * (duration + B) ** N / (uplift * A)) ** (1.0 / M)
 
 
-def test_return_period_inverts_a_power_law_idf_exactly():
-    # the power-law IDF i = a T^m / (D + b)^n is a common form (Koutsoyiannis, Kozonis &
-    # Manetas 1998, Journal of Hydrology 206, from memory); log-log interpolation between
-    # table rows is exact for it, so the table gives the closed-form inversion
+def _gumbel_period(intensity, u, alpha):
+    # inversion of a Gumbel (EV1) IDF row i = u + alpha y(T), y = -ln(-ln(1 - 1/T))
+    # (Chow, Maidment & Mays 1988, frequency factors of the EV1 law, from memory)
+    return 1.0 / (1.0 - np.exp(-np.exp(-(intensity - u) / alpha)))
+
+
+def _log_log(intensity, row):
+    return np.exp(np.interp(np.log(intensity), np.log(row), np.log(PERIODS)))
+
+
+def test_return_periods_are_never_stretched_on_power_law_or_gumbel_tables():
+    # The power-law IDF i = a T^m / (D + b)^n is a common form (Koutsoyiannis, Kozonis &
+    # Manetas 1998, Journal of Hydrology 206, from memory); the Gumbel form is the other
+    # common one. Log-log interpolation is exact on the first and stretches T on the second;
+    # the shorter of log-log and Gumbel-variate interpolation is never longer than the
+    # closed-form inversion on either. Shortening measured here: README quotes it.
     table = idf_formula(DURATIONS, PERIODS, A, M, B, N)
     rng = np.random.default_rng(2)
+    worst = {"power law": 1.0, "gumbel": 1.0, "log-log on gumbel": 1.0}
     for row, duration in enumerate(DURATIONS):
         true = np.exp(rng.uniform(np.log(2.0), np.log(200.0), 500))
         intensity = A * true**M / (duration + B) ** N
         found = return_period_yr(intensity, PERIODS, table[row])
-        np.testing.assert_allclose(found, _closed_form_period(intensity, duration), rtol=1e-9)
+        exact = _closed_form_period(intensity, duration)
+        assert np.all(found <= exact * (1 + 1e-9))
+        worst["power law"] = min(worst["power law"], float(np.min(found / exact)))
         # +20% uplift: every tabulated intensity times 1.2
         lifted = return_period_yr(intensity * 1.1, PERIODS, table[row], uplift=1.2)
         expected = _closed_form_period(intensity * 1.1, duration, uplift=1.2)
         inside = (expected >= 2.0) & (expected <= 200.0)
-        np.testing.assert_allclose(lifted[inside], expected[inside], rtol=1e-9)
+        assert np.all(lifted[inside] <= expected[inside] * (1 + 1e-9))
+        # a Gumbel row with the same 2- and 200-year intensities
+        y = -np.log(-np.log1p(-1.0 / PERIODS))
+        alpha = (table[row, -1] - table[row, 0]) / (y[-1] - y[0])
+        u = table[row, 0] - alpha * y[0]
+        row_g = u + alpha * y
+        ig = u + alpha * -np.log(-np.log1p(-1.0 / true))
+        exact_g = _gumbel_period(ig, u, alpha)
+        np.testing.assert_allclose(return_period_yr(ig, PERIODS, row_g), exact_g, rtol=1e-9)
+        worst["gumbel"] = min(worst["gumbel"], float(np.min(return_period_yr(ig, PERIODS, row_g) / exact_g)))
+        worst["log-log on gumbel"] = max(worst["log-log on gumbel"], float(np.max(_log_log(ig, row_g) / exact_g)))
+    assert worst["gumbel"] > 1 - 1e-9  # exact on the Gumbel form
+    assert 0.8 < worst["power law"] < 1.0  # short (conservative) on the power law
+    assert worst["log-log on gumbel"] > 1.05  # what log-log alone would have stretched
+    print(worst)
 
 
-def test_gridded_design_rainfall_inverts_each_cells_own_power_law():
-    # gridded design rainfall: each cell its own coefficient a (here 15 to 45); the
-    # per-cell interpolation must give each cell's closed-form inversion (as above)
+def test_gridded_design_rainfall_reads_each_cells_own_table():
+    # gridded design rainfall: each cell its own coefficient a (here 15 to 45); each cell
+    # gets what its own row gives, never longer than its closed-form inversion
     rng = np.random.default_rng(3)
     a = rng.uniform(15.0, 45.0, 400)
     true = np.exp(rng.uniform(np.log(2.0), np.log(200.0), 400))
@@ -59,7 +93,9 @@ def test_gridded_design_rainfall_inverts_each_cells_own_power_law():
         expected = (intensity * (duration + B) ** N / (1.2 * a)) ** (1.0 / M)
         inside = (expected >= 2.0) & (expected <= 200.0)
         assert 100 < inside.sum() < 400
-        np.testing.assert_allclose(found[inside], expected[inside], rtol=1e-9)
+        assert np.all(found[inside] <= expected[inside] * (1 + 1e-9))
+        one_by_one = [return_period_yr(intensity[i], PERIODS, rows[:, i], 1.2) for i in range(400)]
+        np.testing.assert_allclose(found, one_by_one, rtol=1e-12)
         codes = return_period_yr([rows[0, 0] * 0.5, rows[-1, 1] * 3.0], PERIODS, rows[:, :2])
         assert codes.tolist() == [MORE_FREQUENT, RARER]
 
@@ -75,12 +111,26 @@ def test_the_most_frequent_duration_triggers():
     assert triggering_return_period_yr(per_duration).tolist() == [12.0, 30.0, 7.0]
 
 
-def test_annual_probability_and_classes():
-    # p = 1 - exp(-1/T) (Poisson occurrence): 1 in 100 years is p = 0.00995 (common practice)
-    p = annual_probability(np.array([2.0, 10.0, 100.0, 1000.0, 5000.0, RARER]), 2.0)
-    np.testing.assert_allclose(p[:5], 1.0 - np.exp(-1.0 / np.array([2, 10, 100, 1000, 5000])))
-    assert p[5] == 0.0
-    assert hazard_class(p).tolist() == [1, 2, 3, 4, 4, 4]
+def test_annual_probability_by_series_and_classes():
+    # Annual-maximum series: AEP = 1/T; partial-duration series: p = 1 - exp(-1/T) (Poisson
+    # occurrence), 1 in 100 years is p = 0.00995; the two differ by 21% at 2 years
+    # (common practice).
+    t = np.array([2.0, 10.0, 100.0, 1000.0, 5000.0, RARER, MORE_FREQUENT, NO_INTENSITY_FAILS])
+    p_am = annual_probability(t, 2.0, "annual_maximum", longest_yr=500.0)
+    p_pd = annual_probability(t, 2.0, "partial_duration", longest_yr=500.0)
+    np.testing.assert_allclose(p_am[:5], 1.0 / t[:5])
+    np.testing.assert_allclose(p_pd[:5], 1.0 - np.exp(-1.0 / t[:5]))
+    assert p_am[0] / p_pd[0] == pytest.approx(1.27, abs=0.01)  # 0.5 against 0.393
+    assert p_am[5] == 1.0 / 500.0 and p_am[6] == 0.5 and p_am[7] == 0.0  # the table's bounds
+    # a cell at exactly the 10-year storm is in the "1 in 10" class
+    assert hazard_class(p_am[:5]).tolist() == [1, 1, 2, 3, 4]
+    assert hazard_class(p_pd[:5]).tolist() == [1, 2, 3, 4, 4]
+    # a table ending at 500 years cannot place rarer cells among 1 in 1000 breaks
+    assert table_reach_yr((0.1, 0.01, 0.001), 500.0) == 500.0
+    assert table_reach_yr((0.1, 0.01, 0.001), 1000.0) is None
+    cls = hazard_class(p_am, return_period=t, beyond_yr=500.0)
+    assert cls.tolist() == [1, 1, 2, 3, 4, 5, 1, 4]
+    assert hazard_class_names((0.1, 0.01, 0.001), 500.0)[4].startswith("beyond the design")
 
 
 @pytest.mark.parametrize(
@@ -114,15 +164,21 @@ def test_the_compiled_frequency_step_equals_the_core():
     found[1, 70:80] = 0.0
     period, p, cls = np.empty(n), np.empty(n), np.empty(n, np.uint8)
     codes = np.array([MORE_FREQUENT, RARER, FAILS_WITHOUT_RAIN, NO_INTENSITY_FAILS])
-    shortest = float(annual_probability([MORE_FREQUENT], PERIODS[0])[0])
     breaks = np.array([0.1, 0.01, 0.001])
-    frequency_by_cell(
-        found, np.log(PERIODS), np.log(table), shortest, breaks, codes, period, p, cls
-    )
     expected = triggering_return_period_yr(
         [return_period_yr(found[i], PERIODS, table[i]) for i in range(DURATIONS.size)]
     )
-    np.testing.assert_allclose(period, expected, rtol=1e-12)
-    assert {-1.0, -2.0, -3.0, -4.0} <= set(np.unique(period[period < 0]))
-    np.testing.assert_allclose(p, annual_probability(expected, PERIODS[0]), rtol=1e-12)
-    assert np.array_equal(cls, hazard_class(annual_probability(expected, PERIODS[0])))
+    for series in SERIES_KINDS:
+        bounds = np.array(
+            [annual_exceedance(PERIODS[0], series), annual_exceedance(PERIODS[-1], series),
+             float(series == "partial_duration"), 1.0]
+        )  # fmt: skip
+        frequency_by_cell(
+            found, np.log(PERIODS), gumbel_variate(PERIODS), np.log(table), bounds, breaks,
+            codes, period, p, cls,
+        )  # fmt: skip
+        np.testing.assert_allclose(period, expected, rtol=1e-12)
+        assert {-1.0, -2.0, -3.0, -4.0} <= set(np.unique(period[period < 0]))
+        core_p = annual_probability(expected, PERIODS[0], series, PERIODS[-1])
+        np.testing.assert_allclose(p, core_p, rtol=1e-12)
+        assert np.array_equal(cls, hazard_class(core_p, tuple(breaks), expected, PERIODS[-1]))

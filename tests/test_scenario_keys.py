@@ -274,6 +274,7 @@ RAINFALL_CHANGES = {
     ),
     "long_term_infiltration_mm_day": ("", "long_term_infiltration_mm_day = 5.0"),
     "uplift": ("", "uplift = 1.5"),
+    "series": ("", 'series = "partial_duration"'),
 }
 
 
@@ -303,3 +304,22 @@ def test_every_rainfall_key_changes_the_outputs(region, tmp_path):
         if _run(region, tmp_path, f"rain_{key}", text) == base:
             unchanged.append(key)
     assert unchanged == []
+
+
+def test_the_shallowest_slip_plane_changes_storms_and_rainfall(region, tmp_path):
+    # [slip_planes] min_slip_depth_m: storms and critical intensities look no shallower
+    from slopescreen.maps.scenario_schema import allowed
+
+    assert allowed("slip_planes") == {"min_slip_depth_m"}
+    soil = "cohesion_kpa = 0.0\ndepth_m = 2.0"  # cohesionless: the minimum is near the top
+    for kind in ("storm",):
+        base_text = _text(kind, soil=soil)
+        base = _run(region, tmp_path, "slip_base", base_text)
+        deeper = base_text + "\n[slip_planes]\nmin_slip_depth_m = 0.5\n"
+        assert _run(region, tmp_path, "slip_deeper", deeper) != base
+    head = _text("uniform", soil=soil).split("[[scenario]]")[0]
+    tail = "[scenario.soil.A]\n" + soil + "\n"
+    rain = head + RAINFALL.format(extra="", table="") + tail
+    base = _run(region, tmp_path, "slip_rain_base", rain)
+    deeper = rain + "\n[slip_planes]\nmin_slip_depth_m = 0.5\n"
+    assert _run(region, tmp_path, "slip_rain_deeper", deeper) != base

@@ -523,7 +523,46 @@ RAINFALL_INPUTS = {
         "rainfall scenario 'r' needs diffusivity_m2_s (or moisture_capacity_per_m)",
     ),
 }
+RAIN_PATH_INPUTS = {
+    "series unknown": (
+        _rainfall(table='idf_table = "idf.csv"\nseries = "annual"\n'),
+        '[rainfall_frequency] series: must be "annual_maximum" or "partial_duration"',
+    ),
+    "min slip depth too deep": (
+        lambda f: _edit(f / "scenarios.toml", "[classes]", "[slip_planes]\nmin_slip_depth_m = 2.0\n\n[classes]"),
+        "min_slip_depth_m must be in [0.001, 1] m, got 2",
+    ),
+    "integer beyond any float": (
+        _text("min_zone_area_m2 = 0.0", "min_zone_area_m2 = 1" + "0" * 400),
+        "min_zone_area_m2 must be a number in [0, 1e+09], got 10000000000000000000...",
+    ),
+    "fs_breaks infinite": (
+        _text("min_zone_area_m2 = 0.0", "min_zone_area_m2 = 0.0\nfs_breaks = [1.0, inf]"),
+        "fs_breaks must be in (0, 1e+06], got inf",
+    ),
+    "fs_breaks a scalar": (
+        _text("min_zone_area_m2 = 0.0", "min_zone_area_m2 = 0.0\nfs_breaks = 1.2"),
+        "fs_breaks: must be a list of 1 to 8 increasing numbers",
+    ),
+    "fs_breaks booleans": (
+        _text("min_zone_area_m2 = 0.0", "min_zone_area_m2 = 0.0\nfs_breaks = [true, false]"),
+        "fs_breaks: must be a list of 1 to 8 increasing numbers",
+    ),
+    "fs_breaks nested": (
+        _text("min_zone_area_m2 = 0.0", "min_zone_area_m2 = 0.0\nfs_breaks = [[1.0, 1.3]]"),
+        "fs_breaks: must be a list of 1 to 8 increasing numbers",
+    ),
+    "override saturated below moist": (
+        lambda f: _edit(
+            f / "scenarios.toml", "saturation = 0.0\n",
+            "saturation = 0.0\n[scenario.soil.A]\nunit_weight_kn_m3 = 22.0\n"
+            "saturated_unit_weight_kn_m3 = 20.0\n",
+        ),  # fmt: skip
+        "saturated_unit_weight_kn_m3 20 would be below unit_weight_kn_m3 (22); give both",
+    ),
+}
 BAD_INPUTS.update(INVENTORY_INPUTS)
+BAD_INPUTS.update(RAIN_PATH_INPUTS)
 BAD_INPUTS.update(RAINFALL_INPUTS)
 BAD_INPUTS.update(RAIN_RASTER_INPUTS)
 BAD_OPTIONS = {

@@ -33,11 +33,13 @@ def checked(
     ...
     slopescreen.errors.InputError: friction_deg must be in [0, 90) degrees, got 95
     """
+    interval = f"{'(' if low_open else '['}{_fmt(low)}, {_fmt(high)}{')' if high_open else ']'}"
     try:
         arr = np.asarray(value, dtype=float)
+    except OverflowError:  # an integer beyond any float
+        raise InputError(f"{name} must be a number in {interval}, got {str(value)[:20]}...") from None
     except (TypeError, ValueError):
         raise InputError(f"{name} must be a number, got {value!r}") from None
-    interval = f"{'(' if low_open else '['}{_fmt(low)}, {_fmt(high)}{')' if high_open else ']'}"
     if np.isnan(arr).any():
         raise InputError(f"{name} must be a number in {interval}, got NaN")
     too_low = arr <= low if low_open else arr < low

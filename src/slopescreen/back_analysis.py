@@ -8,7 +8,9 @@ has *no solution* where no physical value of the parameter brings FS to 1 (NaN h
 - ``cohesion_kpa``, ``root_cohesion_kpa``: the value needed is below 0 (the slope holds
   with none at all) or the ground is flat;
 - ``friction_deg``: the angle needed is not in (0, 90) degrees;
-- ``depth_m``: no depth >= 0 reaches FS = 1;
+- ``depth_m``: no depth between the shallowest slip plane (``min_slip_depth_m``) and the
+  upper end of the soil-depth range (:data:`slopescreen.ranges.RANGES`, 50 m) reaches
+  FS = 1;
 - ``saturation``: the ratio needed is not in [0, 1] (fails dry, or holds saturated);
 - ``recharge_mm_day``: the cell fails even when dry or holds even when saturated.
 
@@ -24,6 +26,8 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from slopescreen.errors import InputError
+from slopescreen.ranges import RANGES
+from slopescreen.storm import MIN_SLIP_DEPTH_M
 from slopescreen.inverse import (
     critical_depth,
     critical_saturation,
@@ -57,6 +61,7 @@ def value_at_failure(
     hydraulic_conductivity_m_s: ArrayLike = np.nan,
     transmissivity_m2_day: ArrayLike = np.nan,
     seismic_coefficient: float = 0.0,
+    min_slip_depth_m: float = MIN_SLIP_DEPTH_M,
     **_ignored: Any,
 ) -> np.ndarray:
     """The value of ``parameter`` (one of :data:`PARAMETERS`) at which FS = 1, NaN where
@@ -100,7 +105,7 @@ def value_at_failure(
             )
             return np.where((phi > 0.0) & (phi < 90.0), phi, np.nan)
         if parameter == "depth_m":
-            return np.asarray(
+            z = np.asarray(
                 critical_depth(
                     slope_deg,
                     cohesion_kpa,
@@ -112,6 +117,8 @@ def value_at_failure(
                 ),
                 float,
             )
+            deepest = RANGES["depth_m"][1]
+            return np.where((z >= min_slip_depth_m) & (z <= deepest), z, np.nan)
         if parameter == "saturation":
             m = np.asarray(
                 critical_saturation(

@@ -96,11 +96,14 @@ def critical_saturation(
 
     Returns the raw solution of the (linear in m) equilibrium: a value below 0 means the
     slope is below the target even when dry; above 1 means it stays above the target even
-    when fully saturated. NaN where FS does not depend on m (e.g. phi' = 0 with
+    when fully saturated; +inf on flat ground without seismic load (nothing drives a
+    slide, however wet). NaN where FS does not depend on m (e.g. phi' = 0 with
     gamma_sat = gamma, or zero depth) or no m gives the target.
 
     >>> round(critical_saturation(30.0, 2.0, 5.0, 35.0, 18.0, saturated_unit_weight_kn_m3=20.0), 4)
     0.8372
+    >>> critical_saturation(0.0, 2.0, 0.0, 35.0, 18.0)
+    inf
     """
     c_total, tan_phi, target = _strength_terms(
         cohesion_kpa, root_cohesion_kpa, friction_deg, target_fs
@@ -115,7 +118,14 @@ def critical_saturation(
         seismic_coefficient=seismic_coefficient,
         water_unit_weight_kn_m3=water_unit_weight_kn_m3,
     )
-    return as_result(_solve_linear(c_total, tan_phi, target, *coefficients))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        m = _solve_linear(c_total, tan_phi, target, *coefficients)
+    return as_result(np.where(_undriven(slope_deg, seismic_coefficient), np.inf, m))
+
+
+def _undriven(slope_deg: ArrayLike, seismic_coefficient: ArrayLike) -> np.ndarray:
+    """Flat ground without seismic load: no driving stress on any plane."""
+    return (np.asarray(slope_deg, float) == 0.0) & (np.asarray(seismic_coefficient, float) == 0.0)
 
 
 def critical_depth(
@@ -135,10 +145,10 @@ def critical_depth(
     """Vertical depth z (m) of the slip plane at which FS equals ``target_fs``.
 
     With cohesion FS falls with depth towards the cohesionless value, so the critical depth
-    is the shallowest plane that reaches the target. NaN where no depth >= 0 does: the
-    slope stays above the target at every depth (e.g. cohesionless soil with
-    tan(phi')/tan(beta) above the target, where FS does not depend on depth) or is below it
-    at every depth.
+    is the shallowest plane that reaches the target. +inf on flat ground without seismic
+    load (no plane is driven). NaN where no depth >= 0 does: the slope stays above the
+    target at every depth (e.g. cohesionless soil with tan(phi')/tan(beta) above the
+    target, where FS does not depend on depth) or is below it at every depth.
 
     >>> round(critical_depth(25.0, 9.6, 15.0, 15.7, target_fs=2.0), 3)
     1.12
@@ -156,8 +166,10 @@ def critical_depth(
         seismic_coefficient=seismic_coefficient,
         water_unit_weight_kn_m3=water_unit_weight_kn_m3,
     )
-    z = _solve_linear(c_total, tan_phi, target, *coefficients)
-    return as_result(np.where(z >= 0.0, z, np.nan))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = _solve_linear(c_total, tan_phi, target, *coefficients)
+    z = np.where(z >= 0.0, z, np.nan)
+    return as_result(np.where(_undriven(slope_deg, seismic_coefficient), np.inf, z))
 
 
 def required_cohesion_kpa(
@@ -177,8 +189,8 @@ def required_cohesion_kpa(
     """Effective cohesion c' (kPa) that brings FS to ``target_fs``.
 
     c' = target tau_d - c_root - sigma' tan(phi'). A value <= 0 means friction (and roots)
-    alone already reach the target: no cohesion is needed. NaN where the driving stress is
-    zero (flat ground without seismic load): any cohesion holds.
+    alone already reach the target: no cohesion is needed; so on flat ground without
+    seismic load (no driving stress) the value is -sigma' tan(phi') - c_root <= 0.
 
     >>> round(required_cohesion_kpa(35.0, 1.0, 30.0, 19.0, 1.0), 3)
     5.367
@@ -196,7 +208,7 @@ def required_cohesion_kpa(
     )
     _, _, sigma_eff, tau = _stresses_unclipped(col)
     c = target * tau - zero - np.maximum(sigma_eff, 0.0) * tan_phi
-    return as_result(np.where(tau > 0.0, c, np.nan))
+    return as_result(c)
 
 
 def required_friction_deg(
@@ -216,9 +228,9 @@ def required_friction_deg(
     """Effective friction angle phi' (degrees) that brings FS to ``target_fs``.
 
     tan(phi') = (target tau_d - c' - c_root) / sigma'. A value <= 0 means cohesion (and
-    roots) alone already reach the target: no friction is needed. NaN where sigma' <= 0
-    (friction carries nothing: the plane is fully unloaded by water or by the seismic
-    load) or the driving stress is zero.
+    roots) alone already reach the target: no friction is needed (flat ground without
+    seismic load included: the value is then <= 0). NaN where sigma' <= 0 (friction
+    carries nothing: the plane is fully unloaded by water or by the seismic load).
 
     >>> round(required_friction_deg(35.0, 1.0, 5.367, 19.0, 1.0), 2)
     30.0
@@ -237,7 +249,7 @@ def required_friction_deg(
     _, _, sigma_eff, tau = _stresses_unclipped(col)
     with np.errstate(all="ignore"):
         phi = np.degrees(np.arctan((target * tau - c_total) / sigma_eff))
-    return as_result(np.where((tau > 0.0) & (sigma_eff > 0.0), phi, np.nan))
+    return as_result(np.where(sigma_eff > 0.0, phi, np.nan))
 
 
 def _first_root(

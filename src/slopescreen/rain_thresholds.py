@@ -46,66 +46,34 @@ from numpy.typing import ArrayLike
 
 from slopescreen._checks import checked
 from slopescreen.inverse import critical_saturation
-from slopescreen.storm import SECONDS_PER_HOUR, _golden_minimum, response_function
+from slopescreen.storm import (  # noqa: F401  (re-exported: documented import paths)
+    DEPTH_BRACKETS as DEPTH_BRACKETS_FS,
+    DEPTH_PLANES,
+    DEPTH_REFINE_STEPS,
+    _LOG_STORM,
+    _PEAK_OFFSET,
+    MIN_SLIP_DEPTH_M,
+    SECONDS_PER_HOUR,
+    _Columns,
+    _peak_time_by_bisection,
+    depth_minimum,
+    peak_response,
+    response_function,
+    response_rate,
+)
 
 FAILS_WITHOUT_RAIN = -1.0  # FS < 1 somewhere before the storm
 NO_INTENSITY_FAILS = -2.0  # no intensity up to K_z (or the steady cap) brings FS to 1
-DEPTH_SCAN = 48
-REFINE_STEPS = 30
-SURFACE_FRACTION = 1e-3
+DEPTH_SCAN = 24  # planes from the shallowest slip depth to the soil base, both included
+DEPTH_BRACKETS = 3  # lowest local minima of the scan refined
+REFINE_STEPS = 24  # golden-section steps in each bracket of two plane spacings
 
 
-def response_rate(t_star: ArrayLike) -> np.ndarray:
-    """r(t*) = dR/dt* = exp(-1/t*) / (2 sqrt(pi t*)); 0 for t* <= 0.
-
-    >>> round(float(response_rate(2.0)), 6)
-    0.120985
-    """
-    t = np.asarray(t_star, dtype=float)
-    safe = np.where(t > 0.0, t, 1.0)
-    return np.where(t > 0.0, np.exp(-1.0 / safe) / (2.0 * np.sqrt(np.pi * safe)), 0.0)
-
-
-def _peak_time_by_bisection(storm_star: np.ndarray) -> np.ndarray:
-    """t* of the peak of G: the root of r(t*) = r(t* - T*) in (max(T*, 2), T* + 2), where
-    dG/dt* falls strictly (bisection to machine precision)."""
-    lo = np.maximum(storm_star, 2.0)
-    hi = storm_star + 2.0
-    for _ in range(64):
-        mid = 0.5 * (lo + hi)
-        rising = response_rate(mid) > response_rate(mid - storm_star)
-        lo = np.where(rising, mid, lo)
-        hi = np.where(rising, hi, mid)
-    return 0.5 * (lo + hi)
-
-
-# t_peak - T* is a smooth function of log T* (2 for short storms, falling slowly for long
-# ones): tabulated once by bisection and interpolated; an error e in the peak's time moves
-# G_max by about G'' e^2 / 2 (G' = 0 there): relative 1e-11 at most on this grid (tested)
-_LOG_STORM = np.linspace(-10.0, 10.0, 4001)
-_PEAK_OFFSET = _peak_time_by_bisection(10.0**_LOG_STORM) - 10.0**_LOG_STORM
-
-
-def peak_response(storm_star: ArrayLike, window_star: ArrayLike) -> np.ndarray:
-    """max of G(t*) = R(t*) - R(t* - T*) H(t* - T*) over 0 <= t* <= window (>= T*): G
-    rises to its peak and falls after, so the maximum is at the peak or the window's end.
-
-    >>> round(float(peak_response(1.0, 100.0)), 6) == round(float(
-    ...     max(response_function(t) - response_function(t - 1.0) for t in
-    ...         np.linspace(1.0, 3.0, 20001))), 6)
-    True
-    """
-    big_t = np.asarray(storm_star, dtype=float)
-    window = np.asarray(window_star, dtype=float)
-    log_t = np.log10(np.maximum(big_t, 1e-300))
-    inside = (log_t >= _LOG_STORM[0]) & (log_t <= _LOG_STORM[-1])
-    t_peak = big_t + np.interp(log_t, _LOG_STORM, _PEAK_OFFSET)
-    if not inside.all():  # outside the table: bisection
-        t_peak = np.where(inside, t_peak, _peak_time_by_bisection(big_t))
-    t_peak = np.minimum(t_peak, window)
-    return response_function(t_peak) - np.where(
-        t_peak > big_t, response_function(t_peak - big_t), 0.0
-    )
+def kernel_search() -> np.ndarray:
+    """The depth searches as the compiled twin takes them: (planes, brackets, steps) of the
+    storm's initial minimum, then of the intensity."""
+    return np.array([DEPTH_PLANES, DEPTH_BRACKETS_FS, DEPTH_REFINE_STEPS, DEPTH_SCAN,
+                     DEPTH_BRACKETS, REFINE_STEPS], np.int64)  # fmt: skip
 
 
 def _critical_m(z: np.ndarray, p: dict) -> np.ndarray:
@@ -115,13 +83,13 @@ def _critical_m(z: np.ndarray, p: dict) -> np.ndarray:
         "root_cohesion_kpa": p["c_root"],
         "seismic_coefficient": p["seismic"],
     }
-    return np.asarray(
-        critical_saturation(p["slope"], z, p["c"], p["phi"], p["gamma"], **soil), float
-    )
+    with np.errstate(divide="ignore", invalid="ignore"):  # flat ground: no solution (NaN)
+        m_c = critical_saturation(p["slope"], z, p["c"], p["phi"], p["gamma"], **soil)
+    return np.asarray(m_c, float)
 
 
 def _at_depth(z: np.ndarray, p: dict, m_c: np.ndarray | None = None) -> np.ndarray:
-    """I_c (m/s) at vertical depth z (arrays broadcast with the cells); NaN where none.
+    """I_c (m/s) at vertical depth z (arrays broadcast with the cells); +inf where none.
     ``m_c`` is the plane's critical saturation where the caller has it already."""
     cos2 = p["cos2"]
     if m_c is None:
@@ -130,14 +98,15 @@ def _at_depth(z: np.ndarray, p: dict, m_c: np.ndarray | None = None) -> np.ndarr
     psi0 = (z - p["d"]) * p["beta"]
     scale = p["d_hat"] / (z * z)
     g = peak_response(p["duration_s"] * scale, p["window_s"] * scale)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # g -> 0: none
         i_c = p["k"] * (psi_c - psi0) / (z * g)
-        if p["sca"] is not None:  # the steady water table of the same rain, R = I
+        if p["sca"] is not None:  # the steady water table of the rain added to the initial
             need = (psi_c / cos2 - z + p["z_soil"]) / p["z_soil"]  # m_ss giving psi_c at z
-            i_ss = need * p["t_m2_s"] * np.sqrt(1.0 - cos2) / p["sca"]
+            rise = np.maximum(need - p["m0"], 0.0)
+            i_ss = rise * p["t_m2_s"] * np.sqrt(1.0 - cos2) / p["sca"]
             i_c = np.where(need <= 1.0, np.maximum(i_c, i_ss), np.nan)
-    ok = np.isfinite(m_c) & (m_c >= 0.0) & (psi_c <= p["beta"] * z) & (i_c <= p["k"]) & (g > 0)
-    return np.where(ok, np.maximum(i_c, 0.0), np.nan)
+        ok = np.isfinite(m_c) & (m_c >= 0.0) & (psi_c <= p["beta"] * z) & (i_c <= p["k"])
+    return np.where(ok & (g > 0), np.maximum(i_c, 0.0), np.inf)
 
 
 def critical_intensity_mm_h(
@@ -158,14 +127,17 @@ def critical_intensity_mm_h(
     seismic_coefficient: ArrayLike = 0.0,
     specific_catchment_area_m: ArrayLike | None = None,
     transmissivity_m2_day: ArrayLike | None = None,
+    min_slip_depth_m: float = MIN_SLIP_DEPTH_M,
 ) -> np.ndarray:
     """Smallest constant rain intensity (mm/h) of a storm of ``duration_h`` that brings the
-    minimum FS over depth (planes down to ``depth_m``, the soil's base) and over time (from
-    the start to ``after_h`` after the end) to 1; ``FAILS_WITHOUT_RAIN`` (-1) where FS is
-    already below 1 before the storm, ``NO_INTENSITY_FAILS`` (-2) where no intensity up to
-    K_z does. Arguments as in :func:`slopescreen.storm.storm_factor_of_safety`; with
-    ``specific_catchment_area_m`` (a/b, m) the steady water table of the same rain caps the
-    rise (see the module docstring), T from ``transmissivity_m2_day`` or K z cos(alpha).
+    minimum FS over depth (slip planes from ``min_slip_depth_m``, or the soil depth if
+    shallower, to ``depth_m``, the soil's base) and over time (from the start to
+    ``after_h`` after the end) to 1; ``FAILS_WITHOUT_RAIN`` (-1) where FS is already below
+    1 before the storm, ``NO_INTENSITY_FAILS`` (-2) where no intensity up to K_z does (flat
+    ground included). Arguments as in :func:`slopescreen.storm.storm_factor_of_safety`;
+    with ``specific_catchment_area_m`` (a/b, m) the steady water table of the same rain
+    added to the initial one caps the rise (see the module docstring), T from
+    ``transmissivity_m2_day`` or K z cos(alpha).
 
     >>> float(critical_intensity_mm_h(12.0, slope_deg=35.0, depth_m=1.5, cohesion_kpa=3.0,
     ...     friction_deg=33.0, unit_weight_kn_m3=19.0, water_table_depth_m=1.5,
@@ -180,61 +152,78 @@ def critical_intensity_mm_h(
     d0 = checked("diffusivity_m2_s", diffusivity_m2_s, 0.0, low_open=True)
     d = checked("water_table_depth_m", water_table_depth_m, 0.0)
     i_lt = checked("long_term_infiltration_m_s", long_term_infiltration_m_s, 0.0)
-    cos2 = np.cos(np.radians(slope)) ** 2
+    shallowest = float(checked("min_slip_depth_m", min_slip_depth_m, 0.0, low_open=True))
     shape = np.broadcast_shapes(
-        *(np.shape(x) for x in (slope, z_soil, k, d0, d, cohesion_kpa, friction_deg))
+        *(
+            np.shape(x)
+            for x in (
+                slope, z_soil, k, d0, d, i_lt, cohesion_kpa, friction_deg, unit_weight_kn_m3,
+                saturated_unit_weight_kn_m3, root_cohesion_kpa, seismic_coefficient,
+                specific_catchment_area_m, transmissivity_m2_day,
+            )  # fmt: skip
+            if x is not None
+        )
     )
+
+    def cells(x: ArrayLike) -> np.ndarray:
+        return np.broadcast_to(np.asarray(x, float), shape)
+
+    cos2 = np.cos(np.radians(slope)) ** 2
     p = {
-        "slope": slope,
-        "cos2": cos2,
-        "c": cohesion_kpa,
-        "phi": friction_deg,
-        "gamma": unit_weight_kn_m3,
-        "gamma_sat": saturated_unit_weight_kn_m3,
-        "c_root": root_cohesion_kpa,
-        "seismic": seismic_coefficient,
-        "d": d,
-        "beta": cos2 - i_lt / k,
-        "k": k,
-        "d_hat": 4.0 * d0 * cos2,
+        "slope": cells(slope),
+        "cos2": cells(cos2),
+        "c": cells(cohesion_kpa),
+        "phi": cells(friction_deg),
+        "gamma": cells(unit_weight_kn_m3),
+        "gamma_sat": None if saturated_unit_weight_kn_m3 is None else cells(
+            saturated_unit_weight_kn_m3
+        ),
+        "c_root": cells(root_cohesion_kpa),
+        "seismic": cells(seismic_coefficient),
+        "d": cells(d),
+        "beta": cells(cos2 - i_lt / k),
+        "k": cells(k),
+        "d_hat": cells(4.0 * d0 * cos2),
         "duration_s": duration,
         "window_s": duration + after,
-        "z_soil": z_soil,
+        "z_soil": cells(z_soil),
+        "m0": cells(np.clip((z_soil - d) / z_soil, 0.0, 1.0)),
         "sca": None,
     }
     if specific_catchment_area_m is not None:
-        p["sca"] = checked(
-            "specific_catchment_area_m", specific_catchment_area_m, 0.0, low_open=True
+        p["sca"] = cells(
+            checked("specific_catchment_area_m", specific_catchment_area_m, 0.0, low_open=True)
         )
         t_day = np.full(shape, np.nan) if transmissivity_m2_day is None else transmissivity_m2_day
-        t_m2_s = np.where(
-            np.isnan(t_day), k * z_soil * np.sqrt(cos2), np.asarray(t_day, float) / 86400.0
+        p["t_m2_s"] = cells(
+            np.where(
+                np.isnan(t_day), k * z_soil * np.sqrt(cos2), np.asarray(t_day, float) / 86400.0
+            )
         )
-        p["t_m2_s"] = t_m2_s
-    # before the storm: FS below 1 on some plane (dry above the water table, wet below)
-    fractions = np.linspace(SURFACE_FRACTION, 1.0, DEPTH_SCAN)
-    planes = [np.broadcast_to(f * z_soil, shape) for f in fractions]
-    fails_now = np.zeros(shape, bool)
-    scanned = []
-    for z in planes:  # one critical saturation per plane serves both questions
-        m_c = _critical_m(z, p)
-        m0 = np.clip(np.maximum((z - d) * p["beta"], 0.0) / (z * cos2), 0.0, 1.0)
-        fails_now |= np.isfinite(m_c) & (m0 >= m_c)
-        scanned.append(_at_depth(z, p, m_c))
-    scan = np.stack(scanned)  # (planes, cells...)
-    filled = np.where(np.isnan(scan), np.inf, scan)
-    best = np.argmin(filled, axis=0)
-    lowest = np.take_along_axis(filled, best[None], axis=0)[0]
-    step = (1.0 - SURFACE_FRACTION) / (DEPTH_SCAN - 1)
-    frac = fractions[best]
-    lo = np.maximum(frac - step, SURFACE_FRACTION) * z_soil
-    hi = np.minimum(frac + step, 1.0) * z_soil
-    refined, _ = _golden_minimum(
-        lambda z: np.where(np.isnan(v := _at_depth(z, p)), np.inf, v),
-        np.asarray(lo, float),
-        np.asarray(hi, float),
-        REFINE_STEPS,
+    top = np.minimum(shallowest, p["z_soil"])
+
+    # before the storm: the storm search's own initial minimum (the same planes and steps)
+    before = _Columns(
+        0.0,
+        0.0,
+        shape,
+        slope_deg=slope,
+        cohesion_kpa=cohesion_kpa,
+        friction_deg=friction_deg,
+        unit_weight_kn_m3=unit_weight_kn_m3,
+        saturated_unit_weight_kn_m3=saturated_unit_weight_kn_m3,
+        root_cohesion_kpa=root_cohesion_kpa,
+        seismic_coefficient=seismic_coefficient,
+        water_table_depth_m=d,
+        rain_mm_h=0.0,
+        hydraulic_conductivity_m_s=k,
+        diffusivity_m2_s=d0,
+        long_term_infiltration_m_s=i_lt,
     )
-    result = np.minimum(lowest, refined) * 1000.0 * SECONDS_PER_HOUR
+    initial, _ = depth_minimum(lambda z: before.fs(z, 0.0), top, p["z_soil"])
+    best, _ = depth_minimum(
+        lambda z: _at_depth(z, p), top, p["z_soil"], DEPTH_SCAN, DEPTH_BRACKETS, REFINE_STEPS
+    )
+    result = best * 1000.0 * SECONDS_PER_HOUR
     out = np.where(np.isfinite(result), result, NO_INTENSITY_FAILS)
-    return np.where(fails_now, FAILS_WITHOUT_RAIN, out)
+    return np.where(initial < 1.0, FAILS_WITHOUT_RAIN, out)

@@ -6,7 +6,9 @@ plain numbers or arrays. Two methods:
 
 - **Taylor series / first-order second-moment** (Duncan 2000): FS at the most likely values
   (the means); for each uncertain input, FS at mean + sd and mean - sd; sigma_FS^2 =
-  sum((dF_i / 2)^2) + 2 sum(rho_ij dF_i/2 dF_j/2). Reliability index
+  sum((dF_i / 2)^2) + 2 sum(rho_ij dF_i/2 dF_j/2). A point outside the input's physical
+  range (c' = 2 - 3 kPa, say) is clipped to it, as Monte Carlo samples are, and dF_i is
+  then the slope between the two points times 2 sd. Reliability index
   beta = (FS_mean - 1) / sigma_FS with FS taken as normal (default), or Duncan's lognormal
   form beta_LN = ln(FS / sqrt(1 + V^2)) / sqrt(ln(1 + V^2)), V = sigma_FS / FS. P_f = Phi(-beta).
 - **Monte Carlo**: inputs sampled (correlated through a Gaussian copula), FS evaluated for
@@ -204,7 +206,7 @@ def reliability_fosm(
     correlations = correlations or {}
     points = taylor_points(values, correlations)
     fs = {key: np.minimum(np.asarray(fs_of(**p), float), FS_STAT_CAP) for key, p in points.items()}
-    sd = taylor_sd(fs, correlations)
+    sd = taylor_sd(fs, correlations, taylor_scales(values, correlations))
     beta = moment_reliability_index(fs[None], sd, fs_distribution)
     return _result(fs[None], sd, beta, normal_cdf(-beta))
 
@@ -212,29 +214,56 @@ def reliability_fosm(
 TaylorKey = tuple[str, float] | None  # (input, +1 or -1) or None for the means
 
 
+def _step(spread: Spread, name: str, sign: float) -> np.ndarray:
+    """mean + sign sd, clipped to the input's physical range (``DEFAULT_BOUNDS``)."""
+    low, high = DEFAULT_BOUNDS.get(name, (-math.inf, math.inf))
+    return np.clip(spread.mean + sign * spread.sd, low, high)
+
+
 def taylor_points(
     values: Mapping[str, Any], correlations: Mapping[tuple[str, str], float] | None = None
 ) -> dict[TaylorKey, dict[str, Any]]:
     """The inputs of the Taylor-series method: all means (key None), and each uncertain
-    input at mean + sd and mean - sd (keys (name, +1) and (name, -1))."""
+    input at mean + sd and mean - sd (keys (name, +1) and (name, -1)), clipped to its
+    physical range (``DEFAULT_BOUNDS``) as Monte Carlo samples are."""
     names = _uncertain(values, correlations or {})
     base = _means(values)
     points: dict[TaylorKey, dict[str, Any]] = {None: base}
     for name in names:
-        s = values[name]
-        points[(name, 1.0)] = base | {name: s.mean + s.sd}
-        points[(name, -1.0)] = base | {name: s.mean - s.sd}
+        points[(name, 1.0)] = base | {name: _step(values[name], name, 1.0)}
+        points[(name, -1.0)] = base | {name: _step(values[name], name, -1.0)}
     return points
 
 
+def taylor_scales(
+    values: Mapping[str, Any], correlations: Mapping[tuple[str, str], float] | None = None
+) -> dict[str, np.ndarray]:
+    """Per uncertain input, 2 sd over the distance between its two (clipped) points: 1
+    unless a point was clipped, so that dF_i/2 is the slope between the points times sd.
+
+    >>> float(taylor_scales({"cohesion_kpa": Spread.normal(2.0, 3.0)})["cohesion_kpa"])
+    1.2
+    """
+    scales = {}
+    for name in _uncertain(values, correlations or {}):
+        width = _step(values[name], name, 1.0) - _step(values[name], name, -1.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            scales[name] = np.where(width > 0, 2.0 * values[name].sd / width, 1.0)
+    return scales
+
+
 def taylor_sd(
-    fs: Mapping[TaylorKey, np.ndarray], correlations: Mapping[tuple[str, str], float] | None = None
+    fs: Mapping[TaylorKey, np.ndarray],
+    correlations: Mapping[tuple[str, str], float] | None = None,
+    scales: Mapping[str, np.ndarray] | None = None,
 ) -> np.ndarray:
     """sigma_FS of the Taylor-series method from FS at the points of :func:`taylor_points`:
-    sigma^2 = sum((dF_i / 2)^2) + 2 sum(rho_ij dF_i/2 dF_j/2) (Duncan 2000)."""
+    sigma^2 = sum((dF_i / 2)^2) + 2 sum(rho_ij dF_i/2 dF_j/2) (Duncan 2000); ``scales``
+    from :func:`taylor_scales` where points were clipped."""
     correlations = correlations or {}
+    scales = scales or {}
     names = [key[0] for key in fs if key is not None and key[1] > 0]
-    half = {n: (fs[(n, 1.0)] - fs[(n, -1.0)]) / 2.0 for n in names}
+    half = {n: (fs[(n, 1.0)] - fs[(n, -1.0)]) / 2.0 * scales.get(n, 1.0) for n in names}
     var = sum((d * d for d in half.values()), np.zeros_like(fs[None]))
     for i, a in enumerate(names):
         for b in names[i + 1 :]:

@@ -27,6 +27,7 @@ from slopescreen.inverse import critical_saturation
 from slopescreen.stability import factor_of_safety
 from slopescreen.stability_classes import DEFAULT_FS_BREAKS, classify
 from slopescreen.storm import (
+    MIN_SLIP_DEPTH_M,
     StormSummary,
     equivalent_saturation,
     pressure_head_m,
@@ -47,8 +48,7 @@ class Storm:
     later_h: float
     water_table_depth_m: float  # initial, vertical
     long_term_infiltration_m_s: float = 0.0
-    depth_steps: int = 10  # planes scanned from z/10 down to the soil base, then refined
-    time_steps: int = 12  # times scanned from 0 to later_h, then refined
+    min_slip_depth_m: float = MIN_SLIP_DEPTH_M  # shallowest slip plane considered
 
 
 class CellResults(NamedTuple):
@@ -89,8 +89,7 @@ def storm_response(
     **soil: ArrayLike | None,
 ) -> tuple[StormSummary, np.ndarray]:
     """The storm search of :func:`slopescreen.storm.storm_summary` for cells, up to the
-    storm's ``later_h`` in its ``time_steps`` (or, with ``end_only``, just the end of the
-    storm), and the equivalent saturation on the basal plane at the end of the storm.
+    storm's ``later_h`` (or, with ``end_only``, just the end of the storm), and the equivalent saturation on the basal plane at the end of the storm.
     ``soil``: cohesion, friction, unit weights, root cohesion; ``seismic_coefficient`` acts
     throughout the storm."""
     hydro = dict(
@@ -105,8 +104,7 @@ def storm_response(
         soil_depth_m=depth_m,
         later_h=storm.duration_h if end_only else storm.later_h,
         duration_h=storm.duration_h,
-        depth_steps=storm.depth_steps,
-        time_steps=1 if end_only else storm.time_steps,
+        min_slip_depth_m=storm.min_slip_depth_m,
         seismic_coefficient=seismic_coefficient,
         **hydro,
         **soil,

@@ -24,21 +24,30 @@ BOUNDS = {"friction_deg": (0.0, 89.9), "depth_m": (0.01, np.inf)}
 
 
 def parameter_range(
-    name: str, value: float, sd: float | None = None, share: float = SHARE
+    name: str,
+    value: float,
+    sd: float | None = None,
+    share: float = SHARE,
+    upper: float = np.inf,
 ) -> tuple[float, float, str]:
     """(low, high, how): value -/+ sd, or -/+ share of the value; kept >= 0 and inside the
-    parameter's physical bounds.
+    parameter's physical bounds, and at most ``upper`` (the moist unit weight is never
+    raised above the saturated one).
 
     >>> parameter_range("cohesion_kpa", 4.0, 1.5)
     (2.5, 5.5, '+-1 sd')
     >>> parameter_range("friction_deg", 30.0)
     (24.0, 36.0, '+-20%')
+    >>> parameter_range("unit_weight_kn_m3", 18.0, upper=20.0)
+    (14.4, 20.0, '+-20%, at most 20')
     """
     if sd is not None and np.isfinite(sd) and sd > 0.0:
         low, high, how = value - sd, value + sd, "+-1 sd"
     else:
         low, high, how = value * (1.0 - share), value * (1.0 + share), f"+-{100 * share:g}%"
     lo, hi = BOUNDS.get(name, (0.0, np.inf))
+    if high > upper:
+        hi, how = min(hi, upper), f"{how}, at most {upper:g}"
     return float(np.clip(low, lo, hi)), float(np.clip(high, lo, hi)), how
 
 

@@ -23,8 +23,8 @@ DEFAULT_CLASS_NAMES: tuple[str, ...] = ("failing", "narrow margin", "modest marg
 
 
 def check_breaks(breaks: ArrayLike) -> np.ndarray:
-    """Validate class breaks: 1 to 8 strictly increasing positive values."""
-    b = checked("fs_breaks", breaks, 0.0, low_open=True).ravel()
+    """Validate class breaks: 1 to 8 strictly increasing values in (0, 1e6]."""
+    b = checked("fs_breaks", breaks, 0.0, 1e6, low_open=True).ravel()
     if not 1 <= b.size <= 8 or np.any(np.diff(b) <= 0.0):
         raise InputError(
             f"fs_breaks must be 1 to 8 strictly increasing values > 0, got {b.tolist()}"

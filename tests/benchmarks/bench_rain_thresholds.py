@@ -42,9 +42,8 @@ def main() -> None:
     from slopescreen.rain_thresholds import (
         _LOG_STORM,
         _PEAK_OFFSET,
-        DEPTH_SCAN,
-        REFINE_STEPS,
-        SURFACE_FRACTION,
+        MIN_SLIP_DEPTH_M,
+        kernel_search,
     )
 
     parser = argparse.ArgumentParser()
@@ -77,8 +76,8 @@ def main() -> None:
         for d in durations:
             critical_intensity_by_unit(
                 d * 3600.0, (d + 24.0) * 3600.0, tan, sca, codes, depth, c, tan_phi, gamma,
-                gamma_sat, k, d0, t, 1.0, 0.0, 0.0, 9.81, DEPTH_SCAN, REFINE_STEPS,
-                SURFACE_FRACTION, _LOG_STORM, _PEAK_OFFSET, -1.0, -2.0, out,
+                gamma_sat, k, d0, t, 1.0, 0.0, 0.0, 9.81, kernel_search(),
+                MIN_SLIP_DEPTH_M, _LOG_STORM, _PEAK_OFFSET, -1.0, -2.0, out,
             )  # fmt: skip
         best["8 durations"] = min(best["8 durations"], time.perf_counter() - started)
     job = SimpleNamespace(

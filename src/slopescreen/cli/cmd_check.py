@@ -34,6 +34,8 @@ def run(args: argparse.Namespace) -> int:
     cfg = load_config(args.scenarios)
     for note in cfg.deprecations:
         print(f"DEPRECATED: {note}")
+    for note in cfg.notes:
+        print(f"NOTE: {note}")
     inputs = prepare(cfg)
     grid, soils = inputs.grid, inputs.soils
     print(f"scenario file {cfg.path}: valid")

@@ -24,7 +24,8 @@ NO_SOLUTION = {
     "cohesion_kpa": "the slope holds with c' = 0, or the ground is flat",
     "root_cohesion_kpa": "the slope holds with no root cohesion, or the ground is flat",
     "friction_deg": "no angle in (0, 90) degrees gives FS = 1",
-    "depth_m": "no depth gives FS = 1",
+    "depth_m": "no depth within the soil-depth range (from the shallowest slip plane to "
+    "50 m) gives FS = 1",
     "saturation": "fails even when dry, or holds even when saturated",
     "recharge_mm_day": "fails even when dry, or holds even when saturated",
 }
@@ -75,6 +76,7 @@ def back_analyse(
         v["saturation"][ok],
         v["specific_catchment_area_m"][ok],
         seismic_coefficient=sc.seismic_coefficient,
+        min_slip_depth_m=done.cfg.min_slip_depth_m,
         **soil,
     )
     codes = v["codes"][ok]

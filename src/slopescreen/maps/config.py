@@ -36,15 +36,17 @@ import math
 import re
 import tomllib
 from collections.abc import Iterable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
 from slopescreen._checks import checked
 from slopescreen.errors import InputError
 from slopescreen.maps.scenario_schema import SCHEMA, allowed
+from slopescreen.rainfall_frequency import SERIES_KINDS
 from slopescreen.ranges import RANGES
 from slopescreen.stability_classes import DEFAULT_FS_BREAKS, check_breaks
+from slopescreen.storm import MIN_SLIP_DEPTH_M
 from slopescreen.textfiles import read_text
 
 _REQUIRED_SOIL = ("cohesion_kpa", "friction_deg", "unit_weight_kn_m3", "depth_m")
@@ -113,6 +115,7 @@ class StormSpec:
     later_h: float  # when to look again, hours after the storm began (>= duration)
     initial_water_table_depth_m: float
     long_term_infiltration_mm_day: float = 0.0
+    min_slip_depth_m: float = MIN_SLIP_DEPTH_M  # from [slip_planes]
 
 
 @dataclass(frozen=True)
@@ -123,6 +126,7 @@ class RainfallSpec:
     initial_water_table_depth_m: float
     long_term_infiltration_mm_day: float = 0.0
     uplift: float = 1.0  # every tabulated intensity times this (a climate scenario)
+    min_slip_depth_m: float = MIN_SLIP_DEPTH_M  # from [slip_planes]
 
 
 @dataclass(frozen=True)
@@ -135,6 +139,8 @@ class RainfallFrequency:
     intensity_mm_h: tuple[tuple[float, ...], ...]  # durations x return periods; () if gridded
     aep_breaks: tuple[float, ...] = (0.1, 0.01, 0.001)
     after_h: float = 24.0  # each storm is followed this long for the minimum FS
+    series: str = "annual_maximum"  # what the return periods count (annual probability)
+    series_stated: bool = False  # False: the default was taken (said in the run's output)
     rasters: tuple[tuple[Path, ...], ...] = ()  # gridded design rainfall, same grid
     depth_rasters: bool = False  # the rasters hold depths (mm), not intensities
 
@@ -273,6 +279,31 @@ class Config:
     comparison: ComparisonSpec = ComparisonSpec()
     inventory: InventorySpec | None = None
     rainfall_frequency: RainfallFrequency | None = None
+    min_slip_depth_m: float = MIN_SLIP_DEPTH_M  # [slip_planes]
+
+    @property
+    def notes(self) -> list[str]:
+        """Choices the run made for the user that change results: printed by run and check."""
+        rain = self.rainfall_frequency
+        if rain is None:
+            return []
+        from slopescreen.rainfall_frequency import table_reach_yr
+
+        out = []
+        if not rain.series_stated:
+            out.append(
+                f"[rainfall_frequency] series not given: the return periods of "
+                f"{rain.idf_table.name} are read as annual maxima (annual probability 1/T, "
+                'the higher reading); write series = "partial_duration" if they are not'
+            )
+        reach = table_reach_yr(rain.aep_breaks, rain.return_periods_yr[-1], rain.series)
+        if reach is not None:
+            out.append(
+                f"[rainfall_frequency] aep_breaks reach beyond {rain.idf_table.name} (longest "
+                f"return period {reach:g} yr): cells needing rarer rain are classed 'beyond "
+                "the design-rainfall table', not by the breaks"
+            )
+        return out
 
 
 # old names still read for one release: (table, key or "") -> new name
@@ -468,8 +499,17 @@ def load_config(path: str | Path) -> Config:
     classes_table = "hazard" if ("hazard", "") in r.lines.where else "classes"
     haz = r.table("", data, "classes")
     r.known(classes_table, haz, allowed("classes"))
+    raw_breaks = haz.get("fs_breaks", list(DEFAULT_FS_BREAKS))
+    if not isinstance(raw_breaks, list) or not all(
+        isinstance(b, int | float) and not isinstance(b, bool) for b in raw_breaks
+    ):
+        raise r.fail(
+            classes_table,
+            "fs_breaks",
+            f"must be a list of 1 to 8 increasing numbers in (0, 1e6], got {_shown(raw_breaks)}",
+        )
     try:
-        breaks = tuple(float(b) for b in check_breaks(haz.get("fs_breaks", DEFAULT_FS_BREAKS)))
+        breaks = tuple(float(b) for b in check_breaks(raw_breaks))
     except (InputError, TypeError, ValueError) as exc:
         raise r.fail(classes_table, "fs_breaks", str(exc)) from None
     min_zone = r.number(classes_table, haz, "min_zone_area_m2", 0.0, 1e9, 0.0)
@@ -510,6 +550,12 @@ def load_config(path: str | Path) -> Config:
                 "", "scenario", f"each scenario must be a [[scenario]] table, got {_shown(sc)}"
             )
         scenarios.append(_scenario(r, f"scenario#{i}", sc, {s.name for s in scenarios}))
+    slip = r.table("", data, "slip_planes")
+    r.known("slip_planes", slip, allowed("slip_planes"))
+    min_slip = float(
+        r.number("slip_planes", slip, "min_slip_depth_m", 0.001, 1.0, MIN_SLIP_DEPTH_M)
+    )
+    scenarios = [_with_min_slip_depth(s, min_slip) for s in scenarios]
     zones = r.flag("outputs", out, "zones", True)
     if not zones and "min_zone_area_m2" in haz:
         raise r.fail(
@@ -531,7 +577,17 @@ def load_config(path: str | Path) -> Config:
         comparison=_comparison(r, r.table("", data, "comparison"), [s.name for s in scenarios]),
         inventory=_inventory(r, data["inventory"]) if "inventory" in data else None,
         rainfall_frequency=_rainfall_frequency(r, data, scenarios),
+        min_slip_depth_m=min_slip,
     )
+
+
+def _with_min_slip_depth(sc: Scenario, depth_m: float) -> Scenario:
+    """The scenario with [slip_planes] min_slip_depth_m in its storm or rainfall spec."""
+    if sc.storm is not None:
+        return replace(sc, storm=replace(sc.storm, min_slip_depth_m=depth_m))
+    if sc.rainfall is not None:
+        return replace(sc, rainfall=replace(sc.rainfall, min_slip_depth_m=depth_m))
+    return sc
 
 
 def _rainfall_frequency(
@@ -556,6 +612,13 @@ def _rainfall_frequency(
 
     path = r.file("rainfall_frequency", table, "idf_table")
     durations, periods, grid, rasters, depths = read_idf(path)
+    series = r.text("rainfall_frequency", table, "series", "annual_maximum")
+    if series not in SERIES_KINDS:
+        raise r.fail(
+            "rainfall_frequency",
+            "series",
+            f'must be "annual_maximum" or "partial_duration", got {_shown(series)}',
+        )
     breaks = table.get("aep_breaks", [0.1, 0.01, 0.001])
     shape = "a list of 1 to 8 falling annual probabilities in (0, 1)"
     if (
@@ -575,6 +638,8 @@ def _rainfall_frequency(
         depth_rasters=depths,
         aep_breaks=tuple(float(b) for b in breaks),
         after_h=float(r.number("rainfall_frequency", table, "after_h", 0.0, 1000.0, 24.0)),
+        series=series,
+        series_stated="series" in table,
     )
 
 

@@ -264,6 +264,8 @@ def run(
     cfg = load_config(config_path)
     for note in cfg.deprecations:
         echo(f"DEPRECATED: {note}")
+    for note in cfg.notes:
+        echo(f"NOTE: {note}")
     chosen = select_scenarios(cfg, only)
     if scheduler:
         check_scheduler_address(scheduler)

@@ -252,7 +252,7 @@ def _peak(storm, window, log_grid, offsets):
 def _intensity_at(z, cell, log_grid, offsets):
     """I_c (m/s) at depth z, or +inf where none (rain_thresholds._at_depth)."""
     (tan_b, z_soil, c_total, tan_phi, gamma, gamma_sat, k, d_hat, d, beta, seismic, gamma_w,
-     duration, window, sca, t_m2_s) = cell  # fmt: skip
+     duration, window, sca, t_m2_s, m0) = cell  # fmt: skip
     cos2 = 1.0 / (1.0 + tan_b * tan_b)
     m_c = _critical_m(tan_b, z, c_total, tan_phi, gamma, gamma_sat, seismic, gamma_w)
     if not (m_c >= 0.0):
@@ -264,14 +264,68 @@ def _intensity_at(z, cell, log_grid, offsets):
     if not (g > 0.0):
         return math.inf
     i_c = k * (psi_c - (z - d) * beta) / (z * g)
-    if sca > 0.0:
+    if sca > 0.0:  # the steady water table of the rain added to the initial one
         need = (psi_c / cos2 - z + z_soil) / z_soil
         if need > 1.0:
             return math.inf
-        i_c = max(i_c, need * t_m2_s * math.sqrt(1.0 - cos2) / sca)
+        i_c = max(i_c, max(need - m0, 0.0) * t_m2_s * math.sqrt(1.0 - cos2) / sca)
     if not (i_c <= k):
         return math.inf
     return max(i_c, 0.0)
+
+
+@numba.njit(inline="always")
+def _value_at(initial, z, cell, log_grid, offsets):
+    """FS before the rain (``initial``) or I_c at depth z; +inf where none, never NaN."""
+    if not initial:
+        return _intensity_at(z, cell, log_grid, offsets)
+    tan_b, c_total, tan_phi, gamma, gamma_sat = cell[0], cell[2], cell[3], cell[4], cell[5]
+    d, beta, seismic, gamma_w = cell[8], cell[9], cell[10], cell[11]
+    cos2 = 1.0 / (1.0 + tan_b * tan_b)
+    psi = min((z - d) * beta, beta * z)
+    m = min(max(max(psi, 0.0) / (z * cos2), 0.0), 1.0)
+    fs = _fs(tan_b, z, c_total, tan_phi, gamma, gamma_sat, m, seismic, gamma_w)
+    return math.inf if math.isnan(fs) else fs
+
+
+@numba.njit
+def _depth_minimum(initial, top, base, planes, brackets, steps, cell, log_grid, offsets):
+    """slopescreen.storm.depth_minimum for one cell: the same planes, ranking of local
+    minima and golden-section steps."""
+    golden = (math.sqrt(5.0) - 1.0) / 2.0
+    zs = np.empty(planes)
+    vals = np.empty(planes)
+    for p in range(planes):
+        zs[p] = top + (p / (planes - 1.0)) * (base - top)
+        vals[p] = _value_at(initial, zs[p], cell, log_grid, offsets)
+    keys = np.empty(planes)
+    for p in range(planes):
+        local = (p == 0 or vals[p] <= vals[p - 1]) and (p == planes - 1 or vals[p] <= vals[p + 1])
+        keys[p] = vals[p] if local else math.inf
+    order = np.argsort(keys, kind="mergesort")
+    best = vals[order[0]]
+    for r in range(min(brackets, planes)):
+        q = order[r]
+        a = zs[max(q - 1, 0)]
+        b = zs[min(q + 1, planes - 1)]
+        x1, x2 = b - golden * (b - a), a + golden * (b - a)
+        f1 = _value_at(initial, x1, cell, log_grid, offsets)
+        f2 = _value_at(initial, x2, cell, log_grid, offsets)
+        best = min(best, f1 if f1 <= f2 else f2)
+        for _ in range(steps):
+            if f1 <= f2:
+                b = x2
+                x2, f2 = x1, f1
+                x1 = b - golden * (b - a)
+                f1 = _value_at(initial, x1, cell, log_grid, offsets)
+                best = min(best, f1)
+            else:
+                a = x1
+                x1, f1 = x2, f2
+                x2 = a + golden * (b - a)
+                f2 = _value_at(initial, x2, cell, log_grid, offsets)
+                best = min(best, f2)
+    return best
 
 
 @numba.njit(parallel=True, cache=True)
@@ -293,9 +347,8 @@ def critical_intensity_by_unit(
     long_term_infiltration,
     seismic,
     gamma_w,
-    scan,
-    refine_steps,
-    surface_fraction,
+    search,
+    min_slip_depth,
     log_grid,
     offsets,
     fails_code,
@@ -303,9 +356,9 @@ def critical_intensity_by_unit(
     out,
 ):
     """:func:`slopescreen.rain_thresholds.critical_intensity_mm_h` per cell (mm/h), the
-    soil looked up by unit code; ``sca`` an empty array for no steady cap. The same scan of
-    ``scan`` planes and golden refinement (tested equal to the numpy core)."""
-    golden = (math.sqrt(5.0) - 1.0) / 2.0
+    soil looked up by unit code; ``sca`` an empty array for no steady cap. ``search``:
+    (planes, brackets, steps) of the storm's initial search, then of the intensity's. The
+    same searches as the numpy core (tested equal)."""
     capped = sca.size == tan_slope.size
     for i in numba.prange(tan_slope.size):
         j = codes[i]
@@ -316,62 +369,39 @@ def critical_intensity_by_unit(
         t_day = transmissivity_m2_day[j]
         t_m2_s = k * z_soil * math.sqrt(cos2) if math.isnan(t_day) else t_day / 86400.0
         beta = cos2 - long_term_infiltration / k
+        m0 = min(max((z_soil - water_table_depth) / z_soil, 0.0), 1.0)
         cell = (
             tb, z_soil, c_total[j], tan_phi[j], gamma[j], gamma_sat[j], k,
             4.0 * diffusivity[j] * cos2, water_table_depth, beta, seismic, gamma_w,
-            duration_s, window_s, np.float64(sca[i]) if capped else 0.0, t_m2_s,
+            duration_s, window_s, np.float64(sca[i]) if capped else 0.0, t_m2_s, m0,
         )  # fmt: skip
-        step = (1.0 - surface_fraction) / (scan - 1)
-        best, best_f, fails = math.inf, 0.0, False
-        for p in range(scan):
-            f = surface_fraction + p * step
-            z = f * z_soil
-            m_c = _critical_m(tb, z, c_total[j], tan_phi[j], gamma[j], gamma_sat[j], seismic,
-                              gamma_w)  # fmt: skip
-            m0 = min(max(max((z - water_table_depth) * beta, 0.0) / (z * cos2), 0.0), 1.0)
-            if math.isfinite(m_c) and m0 >= m_c:
-                fails = True
-            v = _intensity_at(z, cell, log_grid, offsets)
-            if v < best:
-                best, best_f = v, f
-        if fails:
+        top = min(min_slip_depth, z_soil)
+        initial = _depth_minimum(
+            True, top, z_soil, search[0], search[1], search[2], cell, log_grid, offsets
+        )
+        if initial < 1.0:
             out[i] = fails_code
             continue
-        a = max(best_f - step, surface_fraction) * z_soil
-        b = min(best_f + step, 1.0) * z_soil
-        x1, x2 = b - golden * (b - a), a + golden * (b - a)
-        f1, f2 = (
-            _intensity_at(x1, cell, log_grid, offsets),
-            _intensity_at(x2, cell, log_grid, offsets),
+        best = _depth_minimum(
+            False, top, z_soil, search[3], search[4], search[5], cell, log_grid, offsets
         )
-        best = min(best, f1, f2)
-        for _ in range(refine_steps):
-            if f1 <= f2:
-                b = x2
-                x2, f2 = x1, f1
-                x1 = b - golden * (b - a)
-                f1 = _intensity_at(x1, cell, log_grid, offsets)
-                best = min(best, f1)
-            else:
-                a = x1
-                x1, f1 = x2, f2
-                x2 = a + golden * (b - a)
-                f2 = _intensity_at(x2, cell, log_grid, offsets)
-                best = min(best, f2)
         out[i] = best * 1000.0 * 3600.0 if math.isfinite(best) else none_code
 
 
 @numba.njit(parallel=True, cache=True)
 def frequency_by_cell(
-    intensity, log_periods, log_design, shortest_p, breaks, codes, period, p, cls
+    intensity, log_periods, gumbel_y, log_design, bounds, breaks, codes, period, p, cls
 ):
     """The frequency step of :mod:`slopescreen.rainfall_frequency` in one pass per cell
     (tested equal to it): ``intensity`` (durations, cells) in mm/h with the critical-
     intensity codes -1 and -2; ``log_design`` (durations, return periods) the log of the
-    table's intensities times the uplift; ``codes`` (MORE_FREQUENT, RARER,
-    FAILS_WITHOUT_RAIN, NO_INTENSITY_FAILS); ``breaks`` falling. Writes the triggering
-    return period, the annual probability and the hazard class."""
+    table's intensities times the uplift; ``gumbel_y`` the periods' Gumbel variates;
+    ``bounds`` (p of the shortest period, p of the longest, 1 for a partial-duration
+    series else 0, 1 where RARER cells get a class of their own else 0); ``codes``
+    (MORE_FREQUENT, RARER, FAILS_WITHOUT_RAIN, NO_INTENSITY_FAILS); ``breaks`` falling.
+    Writes the triggering return period, the annual probability and the hazard class."""
     more_frequent, rarer, fails_code, none_code = codes[0], codes[1], codes[2], codes[3]
+    shortest_p, longest_p, partial, beyond = bounds[0], bounds[1], bounds[2], bounds[3]
     n_d, n_p = log_design.shape
     for i in numba.prange(intensity.shape[1]):
         best = math.inf
@@ -392,12 +422,15 @@ def frequency_by_cell(
                 more = True
             elif x <= log_design[d, n_p - 1]:
                 k = 0
-                while k < n_p - 2 and x > log_design[d, k + 1]:
+                while k < n_p - 2 and x >= log_design[d, k + 1]:
                     k += 1
                 lo, hi = log_design[d, k], log_design[d, k + 1]
                 share = (x - lo) / (hi - lo) if hi > lo else 0.0
-                t = log_periods[k] + share * (log_periods[k + 1] - log_periods[k])
-                best = min(best, math.exp(t))
+                t = math.exp(log_periods[k] + share * (log_periods[k + 1] - log_periods[k]))
+                lo_i, hi_i = math.exp(lo), math.exp(hi)
+                share = (ic - lo_i) / (hi_i - lo_i) if hi_i > lo_i else 0.0
+                y = gumbel_y[k] + share * (gumbel_y[k + 1] - gumbel_y[k])
+                best = min(best, t, 1.0 / -math.expm1(-math.exp(-y)))
         value = best if math.isfinite(best) else rarer
         if more:
             value = more_frequent
@@ -407,11 +440,13 @@ def frequency_by_cell(
             value = none_code
         period[i] = value
         if value > 0.0:
-            prob = 1.0 - math.exp(-1.0 / value)
+            prob = -math.expm1(-1.0 / value) if partial else 1.0 / value
         elif value == more_frequent:
             prob = shortest_p
         elif value == fails_code:
             prob = 1.0
+        elif value == rarer:
+            prob = longest_p
         else:
             prob = 0.0
         p[i] = prob
@@ -419,6 +454,10 @@ def frequency_by_cell(
         for b in breaks:
             if b > prob:
                 c += 1
+        if value == more_frequent:
+            c = 1
+        elif value == rarer and beyond:
+            c = breaks.size + 2
         cls[i] = c
 
 

@@ -37,6 +37,7 @@ from slopescreen.reliability import (
     moment_reliability_index,
     reliability_monte_carlo,
     taylor_points,
+    taylor_scales,
     taylor_sd,
 )
 
@@ -64,12 +65,19 @@ def critical_intensities(
 
 
 def _design_at(log_design: np.ndarray, log_periods: np.ndarray, period_yr: float) -> np.ndarray:
-    """Design intensity (mm/h) at a return period inside the table, log-log between rows;
-    ``log_design``: (return periods, cells)."""
+    """Design intensity (mm/h) at a return period inside the table, the higher of log-log
+    and Gumbel-variate interpolation between rows (as the return periods take the shorter:
+    :func:`slopescreen.rainfall_frequency.return_period_yr`); ``log_design``: (return
+    periods, cells)."""
+    from slopescreen.rainfall_frequency import gumbel_variate
+
     x = np.log(period_yr)
     k = int(np.clip(np.searchsorted(log_periods, x) - 1, 0, log_periods.size - 2))
     share = (x - log_periods[k]) / (log_periods[k + 1] - log_periods[k])
-    return np.exp(log_design[k] + share * (log_design[k + 1] - log_design[k]))
+    log_log = np.exp(log_design[k] + share * (log_design[k + 1] - log_design[k]))
+    y = gumbel_variate(np.exp([log_periods[k], x, log_periods[k + 1]]))
+    lo, hi = np.exp(log_design[k]), np.exp(log_design[k + 1])
+    return np.maximum(log_log, lo + (y[1] - y[0]) / (y[2] - y[0]) * (hi - lo))
 
 
 def annual_probability_with_spread(
@@ -102,7 +110,9 @@ def annual_probability_with_spread(
                 ic = critical_intensities(job, sub, d, **params)
                 rows = np.broadcast_to(per_cell[row][:, None, :], (periods.size, *ic.shape))
                 found.append(rf.return_period_yr(ic.astype(np.float32), periods, rows))
-            return rf.annual_probability(rf.triggering_return_period_yr(found), periods[0])
+            return rf.annual_probability(
+                rf.triggering_return_period_yr(found), periods[0], table.series, periods[-1]
+            )
 
         res = reliability_monte_carlo(  # the cells' slopes give the samples their shape
             annual,
@@ -119,6 +129,7 @@ def annual_probability_with_spread(
         ratio = np.where(mean_intensity > 0.0, per_cell[:, -1, :] / mean_intensity, -np.inf)
     critical = np.argmax(ratio, axis=0)
     points = taylor_points(values, correlations)
+    scales = taylor_scales(values, correlations)
     by_duration = [  # (duration, its cells, the block at them) for durations that are D*
         (d, cells, {k: v[cells] for k, v in sub.items()})
         for row, d in enumerate(table.durations_h)
@@ -145,8 +156,8 @@ def annual_probability_with_spread(
             key: np.minimum(capacity[key] / np.minimum(storm, conductivity[key]), FS_STAT_CAP)
             for key in points
         }
-        beta = moment_reliability_index(fs[None], taylor_sd(fs, correlations), rel.fs_distribution)
+        beta = moment_reliability_index(fs[None], taylor_sd(fs, correlations, scales), rel.fs_distribution)
         return np.maximum(normal_cdf(-beta), dry)
 
     edges = rf.band_edges(periods[0], periods[-1])
-    return rf.annual_probability_over_bands(triggered_by, dry, edges)
+    return rf.annual_probability_over_bands(triggered_by, dry, edges, table.series)

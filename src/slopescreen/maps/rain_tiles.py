@@ -16,6 +16,14 @@ if TYPE_CHECKING:
     from slopescreen.maps.scenario_tiles import TileJob
 
 
+def reach_yr(table: RainfallFrequency) -> float | None:
+    """The table's longest return period where the hazard breaks reach beyond it (cells
+    needing rarer rain get the class "beyond the design-rainfall table"), else None."""
+    from slopescreen.rainfall_frequency import table_reach_yr
+
+    return table_reach_yr(table.aep_breaks, table.return_periods_yr[-1], table.series)
+
+
 def intensity_name(duration_h: float) -> str:
     """The raster of the critical intensity of one duration."""
     return f"critical_intensity_{duration_h:g}h_mm_h.tif"
@@ -72,14 +80,22 @@ def rainfall_tile(
             ]
         )
         out["return_period"] = period
-        out["annual_probability"] = rf.annual_probability(period, table.return_periods_yr[0])
-        out["hazard_classes"] = rf.hazard_class(out["annual_probability"], table.aep_breaks)
+        out["annual_probability"] = rf.annual_probability(
+            period, table.return_periods_yr[0], table.series, table.return_periods_yr[-1]
+        )
+        out["hazard_classes"] = rf.hazard_class(
+            out["annual_probability"], table.aep_breaks, period, reach_yr(table)
+        )
     else:
         out |= _frequency_step(found, design * spec.uplift, table)
     if job.spreads and dry_probability is not None:
         spread = _annual_with_spread(job, block, design, found, dry_probability)
         out["annual_probability_spread"] = spread
-        out["hazard_classes_spread"] = rf.hazard_class(spread, table.aep_breaks)
+        classes = rf.hazard_class(spread, table.aep_breaks)
+        if (beyond := reach_yr(table)) is not None:  # below the table's reach: beyond it
+            floor = rf.annual_exceedance(beyond, table.series)
+            classes = np.where(spread < floor, len(table.aep_breaks) + 2, classes)
+        out["hazard_classes_spread"] = classes.astype(np.uint8)
     return out
 
 
@@ -93,11 +109,19 @@ def _frequency_step(
 
     n = found.shape[1]
     period, p, cls = np.empty(n), np.empty(n), np.empty(n, np.uint8)
+    periods = np.asarray(table.return_periods_yr, float)
+    bounds = [
+        float(rf.annual_exceedance(periods[0], table.series)),
+        float(rf.annual_exceedance(periods[-1], table.series)),
+        float(table.series == "partial_duration"),
+        float(reach_yr(table) is not None),
+    ]
     frequency_by_cell(  # the breaks were checked when the scenario file was read
         found,
-        np.log(np.asarray(table.return_periods_yr, float)),
+        np.log(periods),
+        rf.gumbel_variate(periods),
         np.log(design),
-        float(rf.annual_probability([rf.MORE_FREQUENT], table.return_periods_yr[0])[0]),
+        np.array(bounds),
         np.asarray(table.aep_breaks, float),
         np.array([rf.MORE_FREQUENT, rf.RARER, rf.FAILS_WITHOUT_RAIN, rf.NO_INTENSITY_FAILS]),
         period,

@@ -19,13 +19,12 @@ from slopescreen.maps.config import Config, Scenario
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.intensity_tables import table_settings, tables_for, unit_cells
 from slopescreen.maps.output_names import LEGACY_SCENARIO_FILES, SCENARIO_OUTPUTS
-from slopescreen.maps.rain_tiles import intensity_name
+from slopescreen.maps.rain_tiles import intensity_name, reach_yr
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, windows
 from slopescreen.maps.runners import Runner, serial_runner
 from slopescreen.maps.scenario_tiles import (
     BETA_CAP,
     CORE_FIELDS,
-    NO_FAILURE_CODE,
     TileJob,
     compute_tile,
 )
@@ -34,6 +33,7 @@ from slopescreen.maps.summary import summary_rows, write_summary
 from slopescreen.maps.terrain_cache import NODATA_F32
 from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
 from slopescreen.stability_classes import PF_CLASS_NAMES
+from slopescreen.storm import FAILS_BEFORE_STORM, NOT_BY_LATER
 
 RECHARGE = "critical_recharge_mm_day.tif"
 HAZARD_ZONES = "hazard_class_zones.gpkg"
@@ -97,7 +97,8 @@ def _sinks(
             **(
                 {
                     "fs_when": "minimum over depth and time from the start of the storm to "
-                    f"{sc.storm.later_h:g} h (bracketed and refined; see storm_summary)"
+                    f"{sc.storm.later_h:g} h (depth bracketed from the shallowest slip plane, "
+                    f"{sc.storm.min_slip_depth_m:g} m; time exact; see storm_summary)"
                 }
                 if sc.storm
                 else {}
@@ -135,7 +136,10 @@ def _sinks(
         sinks["storm_time_to_failure"] = f32(
             "storm_time_to_failure_h.tif",
             units="hours from the start of the storm until FS first drops below 1",
-            code_no_failure=f"{NO_FAILURE_CODE:g} (FS stays >= 1 up to {sc.storm.later_h:g} h)",
+            code_no_failure=f"{NOT_BY_LATER:g} (FS stays >= 1 up to {sc.storm.later_h:g} h)",
+            code_fails_before=f"{FAILS_BEFORE_STORM:g} (FS < 1 before the storm begins)",
+            method="first crossing of FS = 1 on 45 planes and the critical one, bisected in "
+            "time; the earlier end of the bracket",
         )
     if sc.rainfall is not None and cfg.rainfall_frequency is not None:
         sinks |= rainfall_sinks(cfg, sc, grid, out, base, with_probability)
@@ -187,7 +191,7 @@ def rainfall_sinks(
         )
         for d in table.durations_h
     }
-    names = rf.hazard_class_names(table.aep_breaks)
+    names = rf.hazard_class_names(table.aep_breaks, reach_yr(table))
     period_codes = {
         "code_more_frequent": f"{rf.MORE_FREQUENT:g} (triggered by rain more frequent than "
         f"{table.return_periods_yr[0]:g} yr)",
@@ -204,7 +208,11 @@ def rainfall_sinks(
             else ""
         ),
         "uplift": f"{sc.rainfall.uplift:g}",
-        "interpolation": "log intensity linear in log return period between table rows",
+        "interpolation": "between table rows the shorter return period of log intensity "
+        "linear in log T and intensity linear in the Gumbel variate -ln(-ln(1 - 1/T))",
+        "series": table.series
+        + ("" if table.series_stated else " (default: series not given in the scenario file)"),
+        "min_slip_depth_m": f"{sc.rainfall.min_slip_depth_m:g}",
     }
     sinks["return_period"] = f32(
         "triggering_return_period_yr.tif",
@@ -214,8 +222,10 @@ def rainfall_sinks(
     )
     sinks["annual_probability"] = f32(
         "annual_failure_probability.tif",
-        units="p = 1 - exp(-1/T) per year",
+        units=("p = 1 - exp(-1/T)" if table.series == "partial_duration" else "p = 1/T")
+        + " per year",
         more_frequent="the shortest tabulated period's p (a lower bound)",
+        rarer="the longest tabulated period's p (an upper bound)",
         **frequency,
     )
     if with_probability:
@@ -258,6 +268,8 @@ def probability_conventions(cfg: Config, sc: Scenario) -> dict[str, str]:
             "p_f": "Phi(-beta)",
             "correlation_model": "c'-phi' correlation used as the Pearson correlation of the "
             "inputs in the variance sum",
+            "clipping": "a point mean +- sd outside an input's physical range (c' < 0, say) "
+            "is clipped to it; dF is then the slope between the points times 2 sd",
         }
         if sc.storm is not None:
             out["storm"] = "at the critical depth and time of the mean parameters"
@@ -270,6 +282,7 @@ def probability_conventions(cfg: Config, sc: Scenario) -> dict[str, str]:
         f"{cfg.reliability.random_state}",
         "correlation_model": "c'-phi' correlation applied to the normal scores (Gaussian "
         "copula); the Pearson correlation of the sampled values can differ a little",
+        "clipping": "samples outside an input's physical range (c' < 0, say) are clipped to it",
     }
 
 
@@ -311,7 +324,7 @@ def intensity_key(units: SoilUnits, sc: Scenario, terrain_key: str, cfg: Config)
         repr(spec.long_term_infiltration_mm_day),
         repr(table.durations_h),
         repr(table.after_h),
-        repr((rt.DEPTH_SCAN, rt.REFINE_STEPS, rt.SURFACE_FRACTION)),
+        repr((rt.kernel_search().tolist(), spec.min_slip_depth_m, rt.MIN_SLIP_DEPTH_M)),
         repr(table_settings()),
     ]
     return content_key(*parts)
@@ -437,7 +450,9 @@ def run_scenario(
         from slopescreen.rainfall_frequency import hazard_class_names
 
         hazard_table = np.sum(hazard_tables, axis=0)
-        hazard_names = hazard_class_names(cfg.rainfall_frequency.aep_breaks)
+        hazard_names = hazard_class_names(
+            cfg.rainfall_frequency.aep_breaks, reach_yr(cfg.rainfall_frequency)
+        )
         rows_out += summary_rows(
             hazard_table, units.keys, hazard_names, sc.name, "annual_failure_probability"
         )
@@ -546,7 +561,7 @@ def draw_scenario_maps(
     unit_areas: np.ndarray,
 ) -> dict[str, Path]:
     """Every map of one scenario in the house style; returns {what it shows: PNG path}."""
-    from slopescreen.maps.palette import HOLDS_HEX
+    from slopescreen.maps.palette import FAILS_DRY_HEX, HOLDS_HEX
     from slopescreen.maps.quicklook import (
         CRITICAL_RECHARGE_SPECIALS,
         MapFrame,
@@ -609,7 +624,8 @@ def draw_scenario_maps(
             out / "storm_time_to_failure_h.tif",
             "hours after the storm began",
             specials=(
-                Special(NO_FAILURE_CODE, HOLDS_HEX, f"holds to {sc.storm.later_h:g} h (code -1)"),
+                Special(NOT_BY_LATER, HOLDS_HEX, f"holds to {sc.storm.later_h:g} h (code -1)"),
+                Special(FAILS_BEFORE_STORM, FAILS_DRY_HEX, "fails before the storm (code -2)"),
             ),
             value_range=(0.0, sc.storm.later_h),
         )
@@ -655,7 +671,7 @@ def draw_rainfall_maps(
             out / "hazard_class.png",
             f,
             read_for_map(out / "hazard_class.tif", f),
-            rf.hazard_class_names(table.aep_breaks),
+            rf.hazard_class_names(table.aep_breaks, reach_yr(table)),
             "how often rain starts failure",
         )
     }
@@ -733,6 +749,7 @@ def draw_thresholds(
                 seismic_coefficient=sc.seismic_coefficient,
                 specific_catchment_area_m=np.array(scas),
                 transmissivity_m2_day=t_day,
+                min_slip_depth_m=spec.min_slip_depth_m,
             )
             for d in table.durations_h
         ]

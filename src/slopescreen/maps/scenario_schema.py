@@ -45,6 +45,15 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
         ("quicklook_map", "true/false", "true", "draw the PNG maps of each scenario"),
         ("report", "true/false", "true", "write report.html and the comparison figures"),
     ],
+    "slip_planes": [
+        (
+            "min_slip_depth_m",
+            "0.001 to 1",
+            "0.05",
+            "shallowest slip plane (m) that storms, critical intensities and the back-analysis "
+            "of depth consider: thinner saturated skins are ignored",
+        ),
+    ],
     "reliability": [
         ("method", '"taylor" or "monte_carlo"', '"taylor"', "how P(FS < 1) is found"),
         ("samples", "10 to 1e7", "1000", "Monte Carlo only: samples per cell"),
@@ -95,6 +104,13 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
             "annual-probability breaks of the hazard classes",
         ),
         ("after_h", "0 to 1000", "24", "each storm is followed this long after its end"),
+        (
+            "series",
+            '"annual_maximum" or "partial_duration"',
+            '"annual_maximum" (stated)',
+            "what the table's return periods count: annual probability 1/T (annual maxima) "
+            "or 1 - exp(-1/T) (partial duration); the default is the higher of the two",
+        ),
     ],
     "scenario": [
         ("name", "1-64 letters, digits, _ . -", "required", "names the scenario's folder"),

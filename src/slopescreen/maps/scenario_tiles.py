@@ -45,7 +45,6 @@ CORE_FIELDS = (
     "diffusivity_m2_s",
 )
 BETA_CAP = 10.0  # reliability index stored within +-10 (P_f 0 or 1 gives +-inf)
-NO_FAILURE_CODE = -1.0  # time-to-failure code: FS stays >= 1 up to the later time
 
 
 @dataclass(frozen=True)
@@ -252,8 +251,8 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
         values["storm_fs_end"] = np.minimum(summary.end_min_fs, job.fs_cap)
         values["storm_fs_later"] = np.minimum(summary.later_min_fs, job.fs_cap)
         values["storm_failure_depth"] = summary.window_critical_depth_m
-        values["storm_time_to_failure"] = np.where(
-            np.isnan(summary.time_to_failure_h), NO_FAILURE_CODE, summary.time_to_failure_h
+        values["storm_time_to_failure"] = np.asarray(
+            summary.time_to_failure_h
         )
     else:
         m = np.empty(n)
@@ -324,12 +323,16 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     cut = read_block(job.cut_off, rows, cols) == 1
     add_areas(cut_table, codes * (valid & cut), out["classes"], cell_area)
     out["cut_table"] = cut_table
+    from slopescreen.maps.rain_tiles import reach_yr
+
+    n_hazard = 0 if job.rainfall is None else len(job.rainfall.aep_breaks) + 2
+    n_hazard += 0 if job.rainfall is None or reach_yr(job.rainfall) is None else 1
     if "hazard_classes" in out:
-        hazard_table = np.zeros((job.n_units + 1, len(job.rainfall.aep_breaks) + 2))  # type: ignore[union-attr]
+        hazard_table = np.zeros((job.n_units + 1, n_hazard))
         add_areas(hazard_table, codes * valid, out["hazard_classes"], cell_area)
         out["hazard_table"] = hazard_table
     if "hazard_classes_spread" in out:
-        spread_table = np.zeros((job.n_units + 1, len(job.rainfall.aep_breaks) + 2))  # type: ignore[union-attr]
+        spread_table = np.zeros((job.n_units + 1, n_hazard))
         add_areas(spread_table, codes * valid, out.pop("hazard_classes_spread"), cell_area)
         out["hazard_spread_table"] = spread_table
     if job.spreads:

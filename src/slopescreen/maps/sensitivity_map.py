@@ -174,7 +174,12 @@ def sensitivity(
             sd = spreads[name].sd if name in spreads else None
             if sd is None and name == "depth_m" and "depth_m" in spreads:
                 sd = spreads["depth_m"].sd
-            low, high, text = parameter_range(name, value, None if sd is None else float(sd))
+            upper = np.inf  # the moist unit weight stays at most the saturated one
+            if name == "unit_weight_kn_m3":
+                upper = float(tables["saturated_unit_weight_kn_m3"][code])
+            low, high, text = parameter_range(
+                name, value, None if sd is None else float(sd), upper=upper
+            )
             if low != high:
                 ranges[code][name] = (low, high)
                 how[(code, name)] = text

@@ -50,6 +50,7 @@ class SoilUnits:
     data_cells: int = 0  # DEM cells with data
     codes_sha256: str = ""  # content of the rasterized unit codes (set with the coverage)
     diffusivity_derived: frozenset[int] = frozenset()  # codes whose D0 is K / C0
+    saturated_defaulted: frozenset[int] = frozenset()  # codes whose gamma_sat is gamma
     lab_tests: dict[str, Path] = field(default_factory=dict)  # unit -> lab-test CSV fitted
 
     def unit_spreads(self, code: int) -> dict[str, Spread]:
@@ -138,6 +139,16 @@ class SoilUnits:
                 params["diffusivity_m2_s"][code] = (
                     params["hydraulic_conductivity_m_s"][code]
                     / params["moisture_capacity_per_m"][code]
+                )
+            moist = params["unit_weight_kn_m3"][code]
+            wet = params["saturated_unit_weight_kn_m3"][code]
+            defaulted = code in self.saturated_defaulted
+            if defaulted and "saturated_unit_weight_kn_m3" not in fields:
+                wet = params["saturated_unit_weight_kn_m3"][code] = max(moist, 9.81)  # "as above"
+            if wet < moist:
+                raise InputError(
+                    f"{where}: soil override for unit {unit!r}: saturated_unit_weight_kn_m3 "
+                    f"{wet:g} would be below unit_weight_kn_m3 ({moist:g}); give both"
                 )
         return dataclasses.replace(self, parameters=params)
 
@@ -355,6 +366,7 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
         np.isnan(params["diffusivity_m2_s"]), derived, params["diffusivity_m2_s"]
     )
     sat = params["saturated_unit_weight_kn_m3"]
+    sat_defaulted = np.flatnonzero(np.isnan(sat))
     sat[1:] = np.where(
         np.isnan(sat[1:]), np.maximum(params["unit_weight_kn_m3"][1:], 9.81), sat[1:]
     )
@@ -385,6 +397,7 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
         spreads=spreads,
         correlations=correlations,
         diffusivity_derived=frozenset(int(c) for c in np.flatnonzero(from_capacity)),
+        saturated_defaulted=frozenset(int(c) for c in sat_defaulted if c > 0),
         lab_tests={
             k: (Path(source).parent / str(records[k]["strength_lab_tests"]).strip()).resolve()
             for k in keys
