@@ -71,7 +71,9 @@ def test_required_cohesion_plugs_back():
     assert fs == pytest.approx(1.3, rel=1e-10)
     assert required_cohesion_kpa(15.0, 1.0, 35.0, 18.0) < 0.0  # friction alone suffices
     # flat ground: nothing drives, so no cohesion is needed (never NaN)
-    assert required_cohesion_kpa(0.0, 1.0, 35.0, 18.0) == pytest.approx(-18.0 * np.tan(np.radians(35.0)))
+    assert required_cohesion_kpa(0.0, 1.0, 35.0, 18.0) == pytest.approx(
+        -18.0 * np.tan(np.radians(35.0))
+    )
 
 
 def test_required_friction_plugs_back_and_nan_cases():

@@ -198,7 +198,7 @@ def test_compiled_kernel_equals_the_numpy_core():
     for capped in (False, True):
         out = np.empty(n)
         critical_intensity_by_unit(
-            12.0 * 3600.0, 36.0 * 3600.0, np.tan(np.radians(slope)),
+            np.array([12.0 * 3600.0]), np.array([36.0 * 3600.0]), np.tan(np.radians(slope)),
             sca if capped else np.empty(0), codes, unit["depth"], unit["c"],
             np.tan(np.radians(unit["phi"])), unit["gamma"], unit["gamma_sat"], unit["k"],
             unit["d0"], unit["t"], 0.7, 0.0, 0.0, 9.81, kernel_search(),
@@ -544,3 +544,55 @@ def test_a_run_with_tables_gives_the_kernels_maps_within_tolerance(tmp_path, mon
         compared += ok.sum()
         np.testing.assert_allclose(b[ok], a[ok], rtol=2e-3)
     assert compared > 100
+
+
+def test_the_steady_cap_never_lowers_the_water_table_below_its_initial_level():
+    # The cap is the steady water table of the rain added to the initial one (Montgomery &
+    # Dietrich 1994 is linear in recharge): m_ss = m0 + I a / (T sin). It only removes
+    # water, so I_c with it is never below I_c without it; and it never stands below the
+    # initial table, so it is never above the cap of the rain alone (m_ss = I a / (T sin),
+    # which lowered the table on cells with small catchments).
+    rng = np.random.default_rng(8)
+    n = 3000
+    soil = dict(
+        slope_deg=rng.uniform(25.0, 45.0, n), depth_m=rng.uniform(0.8, 2.5, n),
+        cohesion_kpa=rng.uniform(0.0, 6.0, n), friction_deg=rng.uniform(28.0, 38.0, n),
+        unit_weight_kn_m3=18.0, saturated_unit_weight_kn_m3=20.0,
+        hydraulic_conductivity_m_s=10.0 ** rng.uniform(-6.0, -4.5, n),
+        diffusivity_m2_s=10.0 ** rng.uniform(-5.0, -3.5, n),
+    )  # fmt: skip
+    water_table = soil["depth_m"] * rng.uniform(0.2, 1.0, n)
+    sca = 10.0 ** rng.uniform(0.3, 2.5, n)  # small catchments: where the old cap bound
+    free = critical_intensity_mm_h(24.0, water_table_depth_m=water_table, **soil)
+    capped = critical_intensity_mm_h(
+        24.0, water_table_depth_m=water_table, specific_catchment_area_m=sca, **soil
+    )
+    both = (free > 0.0) & (capped > 0.0)
+    assert both.sum() > 500
+    assert np.all(capped[both] >= free[both] * (1 - 1e-9))
+    assert np.array_equal(free == FAILS_WITHOUT_RAIN, capped == FAILS_WITHOUT_RAIN)
+    # the cap of the rain alone (the earlier rule), written here from its definition
+    z, cos2 = soil["depth_m"], np.cos(np.radians(soil["slope_deg"])) ** 2
+    t_m2_s = soil["hydraulic_conductivity_m_s"] * z * np.sqrt(cos2)
+    psi0_base = (z - water_table) * cos2  # initial head at the base
+    m0 = psi0_base / (z * cos2)
+    alone = m0 * t_m2_s * np.sqrt(1.0 - cos2) / sca * 3.6e6  # mm/h to hold m0 steadily
+    binding = both & (alone > capped)
+    assert binding.sum() > 20  # cells where the rain alone could not even hold the table
+    # there the earlier cap asked at least that much; the new one asks less
+    assert np.all(capped[binding] < alone[binding])
+
+
+def test_one_array_argument_broadcasts_with_scalars():
+    # a unit weight or a root cohesion per cell with every other argument a scalar
+    kw = dict(slope_deg=30.0, depth_m=1.5, cohesion_kpa=2.0, friction_deg=33.0,
+              water_table_depth_m=1.0, hydraulic_conductivity_m_s=1e-5,
+              diffusivity_m2_s=5e-5)  # fmt: skip
+    by_weight = critical_intensity_mm_h(12.0, unit_weight_kn_m3=np.array([17.0, 19.0]), **kw)
+    by_roots = critical_intensity_mm_h(
+        12.0, unit_weight_kn_m3=18.0, root_cohesion_kpa=np.array([0.0, 1.0]), **kw
+    )
+    assert by_weight.shape == by_roots.shape == (2,)
+    assert by_weight[0] != by_weight[1] and by_roots[1] > by_roots[0] > 0.0
+    for i, g in enumerate((17.0, 19.0)):
+        assert by_weight[i] == critical_intensity_mm_h(12.0, unit_weight_kn_m3=g, **kw)

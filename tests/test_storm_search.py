@@ -143,7 +143,7 @@ def test_the_time_to_failure_is_never_later_than_the_reference(searched):
     # The reference's first failing time is an upper bound of the true first crossing (on
     # its planes); ours is bisected on 46 planes: never later than it by more than one of
     # the reference's time steps.
-    _, _, later, found, ref_min, ref_first = searched
+    _, _, later, found, _ref_min, ref_first = searched
     ttf = found["ttf"]
     assert np.array_equal(ttf == NOT_BY_LATER, found["fs"] >= 1.0)
     assert np.array_equal(ttf == FAILS_BEFORE_STORM, found["initial"] < 1.0)
@@ -160,7 +160,9 @@ def test_storms_and_critical_intensities_agree(searched):
     ic, rain = found["ic"], cells["rain_mm_h"]
     fails = found["fs"] < 1.0
     assert np.array_equal(ic == FAILS_WITHOUT_RAIN, found["initial"] < 1.0)
-    assert np.all((ic[fails] == FAILS_WITHOUT_RAIN) | ((ic[fails] > 0.0) & (ic[fails] <= rain[fails] * 1.001)))
+    assert np.all(
+        (ic[fails] == FAILS_WITHOUT_RAIN) | ((ic[fails] > 0.0) & (ic[fails] <= rain[fails] * 1.001))
+    )
     clear = (ic > 0.0) & (ic < 0.99 * rain)
     assert clear.sum() > CELLS // 30
     assert np.all(found["fs"][clear] < 1.0)
@@ -188,7 +190,8 @@ def test_flat_ground_holds_in_every_rain_product():
     # critical intensity, finite depths and times; never NaN and no RuntimeWarning (the
     # suite turns warnings into errors).
     soil = dict(cohesion_kpa=np.array([0.0, 2.0]), friction_deg=33.0, unit_weight_kn_m3=18.0,
-                water_table_depth_m=0.0, hydraulic_conductivity_m_s=1e-5, diffusivity_m2_s=5e-5)  # fmt: skip
+                water_table_depth_m=0.0, hydraulic_conductivity_m_s=1e-5,
+                diffusivity_m2_s=5e-5)  # fmt: skip
     res = storm_summary(soil_depth_m=1.5, later_h=24.0, duration_h=12.0, slope_deg=0.0,
                         rain_mm_h=50.0, **soil)  # fmt: skip
     assert np.isinf(res.window_min_fs).all() and np.isinf(res.initial_min_fs).all()

@@ -529,7 +529,9 @@ RAIN_PATH_INPUTS = {
         '[rainfall_frequency] series: must be "annual_maximum" or "partial_duration"',
     ),
     "min slip depth too deep": (
-        lambda f: _edit(f / "scenarios.toml", "[classes]", "[slip_planes]\nmin_slip_depth_m = 2.0\n\n[classes]"),
+        lambda f: _edit(
+            f / "scenarios.toml", "[classes]", "[slip_planes]\nmin_slip_depth_m = 2.0\n\n[classes]"
+        ),
         "min_slip_depth_m must be in [0.001, 1] m, got 2",
     ),
     "integer beyond any float": (
@@ -554,10 +556,11 @@ RAIN_PATH_INPUTS = {
     ),
     "override saturated below moist": (
         lambda f: _edit(
-            f / "scenarios.toml", "saturation = 0.0\n",
+            f / "scenarios.toml",
+            "saturation = 0.0\n",
             "saturation = 0.0\n[scenario.soil.A]\nunit_weight_kn_m3 = 22.0\n"
             "saturated_unit_weight_kn_m3 = 20.0\n",
-        ),  # fmt: skip
+        ),
         "saturated_unit_weight_kn_m3 20 would be below unit_weight_kn_m3 (22); give both",
     ),
 }

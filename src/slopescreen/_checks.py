@@ -37,7 +37,9 @@ def checked(
     try:
         arr = np.asarray(value, dtype=float)
     except OverflowError:  # an integer beyond any float
-        raise InputError(f"{name} must be a number in {interval}, got {str(value)[:20]}...") from None
+        raise InputError(
+            f"{name} must be a number in {interval}, got {str(value)[:20]}..."
+        ) from None
     except (TypeError, ValueError):
         raise InputError(f"{name} must be a number, got {value!r}") from None
     if np.isnan(arr).any():

@@ -26,14 +26,14 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from slopescreen.errors import InputError
-from slopescreen.ranges import RANGES
-from slopescreen.storm import MIN_SLIP_DEPTH_M
 from slopescreen.inverse import (
     critical_depth,
     critical_saturation,
     required_cohesion_kpa,
     required_friction_deg,
 )
+from slopescreen.ranges import RANGES
+from slopescreen.storm import MIN_SLIP_DEPTH_M
 
 # parameter -> label with unit
 PARAMETERS: dict[str, str] = {

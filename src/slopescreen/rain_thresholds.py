@@ -46,20 +46,17 @@ from numpy.typing import ArrayLike
 
 from slopescreen._checks import checked
 from slopescreen.inverse import critical_saturation
-from slopescreen.storm import (  # noqa: F401  (re-exported: documented import paths)
+from slopescreen.storm import (
     DEPTH_BRACKETS as DEPTH_BRACKETS_FS,
+)
+from slopescreen.storm import (
     DEPTH_PLANES,
     DEPTH_REFINE_STEPS,
-    _LOG_STORM,
-    _PEAK_OFFSET,
     MIN_SLIP_DEPTH_M,
     SECONDS_PER_HOUR,
     _Columns,
-    _peak_time_by_bisection,
     depth_minimum,
     peak_response,
-    response_function,
-    response_rate,
 )
 
 FAILS_WITHOUT_RAIN = -1.0  # FS < 1 somewhere before the storm
@@ -157,10 +154,21 @@ def critical_intensity_mm_h(
         *(
             np.shape(x)
             for x in (
-                slope, z_soil, k, d0, d, i_lt, cohesion_kpa, friction_deg, unit_weight_kn_m3,
-                saturated_unit_weight_kn_m3, root_cohesion_kpa, seismic_coefficient,
-                specific_catchment_area_m, transmissivity_m2_day,
-            )  # fmt: skip
+                slope,
+                z_soil,
+                k,
+                d0,
+                d,
+                i_lt,
+                cohesion_kpa,
+                friction_deg,
+                unit_weight_kn_m3,
+                saturated_unit_weight_kn_m3,
+                root_cohesion_kpa,
+                seismic_coefficient,
+                specific_catchment_area_m,
+                transmissivity_m2_day,
+            )
             if x is not None
         )
     )
@@ -175,9 +183,9 @@ def critical_intensity_mm_h(
         "c": cells(cohesion_kpa),
         "phi": cells(friction_deg),
         "gamma": cells(unit_weight_kn_m3),
-        "gamma_sat": None if saturated_unit_weight_kn_m3 is None else cells(
-            saturated_unit_weight_kn_m3
-        ),
+        "gamma_sat": None
+        if saturated_unit_weight_kn_m3 is None
+        else cells(saturated_unit_weight_kn_m3),
         "c_root": cells(root_cohesion_kpa),
         "seismic": cells(seismic_coefficient),
         "d": cells(d),

@@ -16,8 +16,12 @@ annual probability and hazard classes.
   measured shortening stated in README). Below the shortest tabulated return period
   the value is the code ``MORE_FREQUENT`` (-1: triggered by rain more frequent than the
   table covers); above the longest, ``RARER`` (-2: no tabulated storm triggers it).
-- **Triggering return period**: the shortest over the tabulated durations (the most
-  frequent storm of any duration that starts failure).
+- **Triggering return period**: the shortest over the durations (the most frequent storm
+  of any duration that starts failure): over the tabulated durations, then, between the
+  neighbours of the shortest row, by golden-section search over log duration
+  (:func:`refined_return_period_yr`), with the table interpolated in log duration (log
+  intensity linear in log D) and the critical intensity computed at each duration tried,
+  so a minimum between two rows is not missed.
 - **Annual probability** by the table's series (key ``series``): ``annual_maximum``
   p = 1/T (T from annual maxima is defined by the annual exceedance probability), or
   ``partial_duration`` p = 1 - exp(-1/T) (Poisson occurrence of storms at least as large
@@ -48,6 +52,7 @@ NO_INTENSITY_FAILS = -4.0  # no intensity up to the soil's conductivity fails th
 DEFAULT_AEP_BREAKS = (0.1, 0.01, 0.001)
 SERIES_KINDS = ("annual_maximum", "partial_duration")
 BANDS = 256  # bands of storm level for the annual probability with soil spreads
+DURATION_STEPS = 12  # golden-section steps over log duration: two row spacings x 0.618^12
 
 
 def hazard_class_names(
@@ -240,6 +245,122 @@ def triggering_return_period_yr(per_duration: ArrayLike) -> np.ndarray:
     out = np.where((v == MORE_FREQUENT).any(axis=0), MORE_FREQUENT, out)
     out = np.where((v == FAILS_WITHOUT_RAIN).any(axis=0), FAILS_WITHOUT_RAIN, out)
     return np.where((v == NO_INTENSITY_FAILS).all(axis=0), NO_INTENSITY_FAILS, out)
+
+
+def design_at_duration(
+    durations_h: ArrayLike, design_mm_h: ArrayLike, duration_h: np.ndarray
+) -> np.ndarray:
+    """Design intensities (return periods, cells) at each cell's ``duration_h``, log
+    intensity linear in log duration between the table's rows (the power-law form in D,
+    common practice). ``design_mm_h``: (durations, return periods) or per cell
+    (durations, return periods, cells).
+
+    >>> t = idf_formula([1.0, 4.0], [2.0, 10.0], 20.0, 0.2, 0.0, 0.7)  # b = 0: exact
+    >>> design_at_duration([1.0, 4.0], t, np.array([2.0])).ravel().round(4).tolist()
+    [14.1421, 19.5123]
+    """
+    logd = np.log(np.asarray(durations_h, float))
+    design = np.asarray(design_mm_h, float)
+    x = np.log(np.asarray(duration_h, float))
+    j = np.clip(np.searchsorted(logd, x) - 1, 0, max(logd.size - 2, 0))
+    if logd.size == 1:
+        rows = design[0]
+        return rows[:, None] * np.ones(x.size) if rows.ndim == 1 else rows
+    w = (x - logd[j]) / (logd[j + 1] - logd[j])
+    if design.ndim == 2:
+        lo, hi = design[j].T, design[j + 1].T  # (periods, cells)
+    else:
+        cells = np.arange(x.size)
+        lo, hi = design[j, :, cells].T, design[j + 1, :, cells].T
+    return np.exp((1.0 - w) * np.log(lo) + w * np.log(hi))
+
+
+def refined_return_period_yr(
+    period: np.ndarray,
+    found_mm_h: np.ndarray,
+    durations_h: ArrayLike,
+    return_periods_yr: ArrayLike,
+    design_mm_h: ArrayLike,
+    critical_mm_h: Callable[[np.ndarray, np.ndarray], np.ndarray],
+    uplift: float = 1.0,
+    steps: int = DURATION_STEPS,
+) -> np.ndarray:
+    """The triggering return period searched between the table's rows, never above
+    ``period`` (the shortest over the rows). ``found_mm_h``: the cells' critical
+    intensities at the tabulated durations (durations, cells; codes -1, -2);
+    ``critical_mm_h(durations, cells)`` gives them at other durations (one per cell);
+    ``design_mm_h`` as in :func:`design_at_duration`, before ``uplift``.
+
+    Over duration the return period has up to two minima: where the falling critical
+    intensity and the falling design rainfall balance, and where the critical intensity
+    first exists (short storms need more than the soil takes in, I_c > K_z, up to some
+    duration). So, per cell with a critical intensity: golden-section search over log D
+    between the rows beside its shortest row; and where a row without a critical
+    intensity is followed by one with it, the duration where it first exists is bisected
+    in log D and searched from there to the next row.
+    A duration whose storm is more frequent than the table gives ``MORE_FREQUENT``.
+    """
+    from slopescreen.storm import _golden_minimum
+
+    out = np.array(period, float)
+    d = np.asarray(durations_h, float)
+    ic = np.asarray(found_mm_h, float)
+    cand = np.flatnonzero(
+        (ic > 0.0).any(axis=0) & (out != MORE_FREQUENT) & (out != FAILS_WITHOUT_RAIN)
+    )
+    if d.size < 2 or cand.size == 0:
+        return out
+    design = np.asarray(design_mm_h, float)
+    logd, n = np.log(d), d.size
+    mine = design if design.ndim == 2 else design[:, :, cand]
+
+    def periods_at(
+        duration: np.ndarray, cells: np.ndarray | None, where: np.ndarray, known=None
+    ) -> np.ndarray:
+        """Return periods of the cells at their durations (0: more frequent than the
+        table, inf: none in it); ``known``: their critical intensities where given."""
+        rows = design_at_duration(d, mine if mine.ndim == 2 else mine[:, :, where], duration)
+        found = critical_mm_h(duration, cells) if known is None else known
+        t = return_period_yr(found, return_periods_yr, rows, uplift)
+        return np.where(t > 0.0, t, np.where(t == MORE_FREQUENT, 0.0, np.inf))
+
+    every = np.arange(cand.size)
+    rows_t = np.array([
+        periods_at(np.full(cand.size, dd), None, every, ic[j, cand]) for j, dd in enumerate(d)
+    ])  # fmt: skip
+    best, k = np.min(rows_t, axis=0), np.argmin(rows_t, axis=0)
+    # golden-section search beside the shortest row, where a row lies inside the table
+    inside = np.flatnonzero(np.isfinite(best) & (best > 0.0))
+    if inside.size:
+        cells, j = cand[inside], k[inside]
+        value, _ = _golden_minimum(
+            lambda x: periods_at(np.exp(x), cells, inside),
+            logd[np.maximum(j - 1, 0)],
+            logd[np.minimum(j + 1, n - 1)],
+            steps,
+        )
+        best[inside] = np.minimum(best[inside], value)
+    # where a row without a critical intensity precedes one with it: the duration where
+    # it first exists (bisected), and a search from there to the row after
+    exists = ic[:, cand] > 0.0
+    first = np.argmax(exists, axis=0)
+    edge = np.flatnonzero(first > 0)
+    if edge.size:
+        cells, f = cand[edge], first[edge]
+        lo, hi = logd[f - 1], logd[f]
+        for _ in range(steps):
+            mid = 0.5 * (lo + hi)
+            has = critical_mm_h(np.exp(mid), cells) > 0.0
+            hi, lo = np.where(has, mid, hi), np.where(has, lo, mid)
+        value, _ = _golden_minimum(
+            lambda x: periods_at(np.exp(x), cells, edge), hi, logd[np.minimum(f + 1, n - 1)], steps
+        )
+        best[edge] = np.minimum(best[edge], np.minimum(value, periods_at(np.exp(hi), cells, edge)))
+    found = np.minimum(np.where(out[cand] > 0.0, out[cand], np.inf), best)
+    out[cand] = np.where(
+        found == 0.0, MORE_FREQUENT, np.where(np.isfinite(found), found, out[cand])
+    )
+    return out
 
 
 def annual_probability(

@@ -89,7 +89,8 @@ def storm_response(
     **soil: ArrayLike | None,
 ) -> tuple[StormSummary, np.ndarray]:
     """The storm search of :func:`slopescreen.storm.storm_summary` for cells, up to the
-    storm's ``later_h`` (or, with ``end_only``, just the end of the storm), and the equivalent saturation on the basal plane at the end of the storm.
+    storm's ``later_h`` (or, with ``end_only``, just the end of the storm), and the
+    equivalent saturation on the basal plane at the end of the storm.
     ``soil``: cohesion, friction, unit weights, root cohesion; ``seismic_coefficient`` acts
     throughout the storm."""
     hydro = dict(

@@ -75,7 +75,8 @@ def main() -> None:
         started = time.perf_counter()
         for d in durations:
             critical_intensity_by_unit(
-                d * 3600.0, (d + 24.0) * 3600.0, tan, sca, codes, depth, c, tan_phi, gamma,
+                np.array([d * 3600.0]), np.array([(d + 24.0) * 3600.0]), tan, sca, codes,
+                depth, c, tan_phi, gamma,
                 gamma_sat, k, d0, t, 1.0, 0.0, 0.0, 9.81, kernel_search(),
                 MIN_SLIP_DEPTH_M, _LOG_STORM, _PEAK_OFFSET, -1.0, -2.0, out,
             )  # fmt: skip

@@ -53,23 +53,27 @@ def node_count() -> int:
 
 def by_kernel(
     job: Any,
-    duration_h: float,
+    duration_h: float | np.ndarray,
     tan: np.ndarray,
     sca: np.ndarray,
     codes: np.ndarray,
     parameters: dict[str, np.ndarray] | None = None,
+    holds_before_rain: bool = False,
 ) -> np.ndarray:
     """Critical intensity (mm/h, codes -1 and -2) of cells by the compiled kernel, the soil
-    parameters looked up by code in ``parameters`` (default: the job's soil table)."""
+    parameters looked up by code in ``parameters`` (default: the job's soil table);
+    ``duration_h`` one duration for all cells or one per cell; ``holds_before_rain``: the
+    caller knows no cell fails before rain (the search for it is skipped)."""
     from slopescreen import rain_thresholds as rt
     from slopescreen.maps.kernels import critical_intensity_by_unit
 
     spec, table = job.scenario.rainfall, job.rainfall
     t = job.tables if parameters is None else parameters
     out = np.empty(tan.size)
+    duration_s = np.atleast_1d(np.asarray(duration_h, np.float64)) * 3600.0
     critical_intensity_by_unit(
-        duration_h * 3600.0,
-        (duration_h + table.after_h) * 3600.0,
+        duration_s,
+        duration_s + table.after_h * 3600.0,
         tan,
         sca,
         codes,
@@ -85,7 +89,7 @@ def by_kernel(
         spec.long_term_infiltration_mm_day / 1000.0 / 86400.0,
         float(job.scenario.seismic_coefficient),
         9.81,
-        rt.kernel_search(),
+        rt.kernel_search() * np.array([not holds_before_rain, 1, 1, 1, 1, 1]),
         spec.min_slip_depth_m,
         rt._LOG_STORM,
         rt._PEAK_OFFSET,

@@ -356,11 +356,15 @@ def critical_intensity_by_unit(
     out,
 ):
     """:func:`slopescreen.rain_thresholds.critical_intensity_mm_h` per cell (mm/h), the
-    soil looked up by unit code; ``sca`` an empty array for no steady cap. ``search``:
-    (planes, brackets, steps) of the storm's initial search, then of the intensity's. The
-    same searches as the numpy core (tested equal)."""
+    soil looked up by unit code; ``sca`` an empty array for no steady cap. ``duration_s``
+    and ``window_s``: one value for all cells or one per cell. ``search``: (planes,
+    brackets, steps) of the storm's initial search, then of the intensity's. The same
+    searches as the numpy core (tested equal)."""
     capped = sca.size == tan_slope.size
+    one_duration = duration_s.size == 1
     for i in numba.prange(tan_slope.size):
+        duration = duration_s[0] if one_duration else duration_s[i]
+        window = window_s[0] if one_duration else window_s[i]
         j = codes[i]
         tb = np.float64(tan_slope[i])
         cos2 = 1.0 / (1.0 + tb * tb)
@@ -373,12 +377,14 @@ def critical_intensity_by_unit(
         cell = (
             tb, z_soil, c_total[j], tan_phi[j], gamma[j], gamma_sat[j], k,
             4.0 * diffusivity[j] * cos2, water_table_depth, beta, seismic, gamma_w,
-            duration_s, window_s, np.float64(sca[i]) if capped else 0.0, t_m2_s, m0,
+            duration, window, np.float64(sca[i]) if capped else 0.0, t_m2_s, m0,
         )  # fmt: skip
         top = min(min_slip_depth, z_soil)
-        initial = _depth_minimum(
-            True, top, z_soil, search[0], search[1], search[2], cell, log_grid, offsets
-        )
+        initial = math.inf  # search[0] = 0: the caller knows the cells hold before rain
+        if search[0] > 0:
+            initial = _depth_minimum(
+                True, top, z_soil, search[0], search[1], search[2], cell, log_grid, offsets
+            )
         if initial < 1.0:
             out[i] = fails_code
             continue

@@ -29,7 +29,11 @@ SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     ("storm_fs_end.tif", "storm", "lowest FS over depth at the end of the storm"),
     ("storm_fs_later.tif", "storm", "lowest FS over depth at later_h"),
     ("storm_failure_depth_m.tif", "storm", "depth of the lowest FS"),
-    ("storm_time_to_failure_h.tif", "storm", "hours until FS first falls below 1; -1 never, -2 before the storm"),
+    (
+        "storm_time_to_failure_h.tif",
+        "storm",
+        "hours until FS first falls below 1; -1 never, -2 before the storm",
+    ),
     ("storm_time_to_failure_h.png", "storm, maps on", "map of the time to failure"),
     (
         "critical_intensity_<D>h_mm_h.tif",

@@ -64,11 +64,13 @@ def critical_intensities(
     return out.reshape(shape)
 
 
-def _design_at(log_design: np.ndarray, log_periods: np.ndarray, period_yr: float) -> np.ndarray:
+def _design_at(
+    log_design: np.ndarray, design: np.ndarray, log_periods: np.ndarray, period_yr: float
+) -> np.ndarray:
     """Design intensity (mm/h) at a return period inside the table, the higher of log-log
     and Gumbel-variate interpolation between rows (as the return periods take the shorter:
-    :func:`slopescreen.rainfall_frequency.return_period_yr`); ``log_design``: (return
-    periods, cells)."""
+    :func:`slopescreen.rainfall_frequency.return_period_yr`); ``log_design`` and
+    ``design``: (return periods, cells), logged and not."""
     from slopescreen.rainfall_frequency import gumbel_variate
 
     x = np.log(period_yr)
@@ -76,8 +78,8 @@ def _design_at(log_design: np.ndarray, log_periods: np.ndarray, period_yr: float
     share = (x - log_periods[k]) / (log_periods[k + 1] - log_periods[k])
     log_log = np.exp(log_design[k] + share * (log_design[k + 1] - log_design[k]))
     y = gumbel_variate(np.exp([log_periods[k], x, log_periods[k + 1]]))
-    lo, hi = np.exp(log_design[k]), np.exp(log_design[k + 1])
-    return np.maximum(log_log, lo + (y[1] - y[0]) / (y[2] - y[0]) * (hi - lo))
+    weight = (y[1] - y[0]) / (y[2] - y[0])
+    return np.maximum(log_log, design[k] + weight * (design[k + 1] - design[k]))
 
 
 def annual_probability_with_spread(
@@ -146,17 +148,20 @@ def annual_probability_with_spread(
         ic = np.where(ic == rt.FAILS_WITHOUT_RAIN, 0.0, ic)
         capacity[key] = np.where(ic == rt.NO_INTENSITY_FAILS, k_mm_h, ic)
         conductivity[key] = k_mm_h
-    log_design = np.log(np.take_along_axis(per_cell, critical[None, None, :], axis=0)[0])
+    design_at_critical = np.take_along_axis(per_cell, critical[None, None, :], axis=0)[0]
+    log_design = np.log(design_at_critical)
     log_periods = np.log(periods)
     dry = np.asarray(fails_without_rain, float)
 
     def triggered_by(period_yr: float) -> np.ndarray:
-        storm = _design_at(log_design, log_periods, period_yr)
+        storm = _design_at(log_design, design_at_critical, log_periods, period_yr)
         fs = {
             key: np.minimum(capacity[key] / np.minimum(storm, conductivity[key]), FS_STAT_CAP)
             for key in points
         }
-        beta = moment_reliability_index(fs[None], taylor_sd(fs, correlations, scales), rel.fs_distribution)
+        beta = moment_reliability_index(
+            fs[None], taylor_sd(fs, correlations, scales), rel.fs_distribution
+        )
         return np.maximum(normal_cdf(-beta), dry)
 
     edges = rf.band_edges(periods[0], periods[-1])

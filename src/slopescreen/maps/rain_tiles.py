@@ -43,7 +43,7 @@ def rainfall_tile(
     :mod:`slopescreen.rainfall_frequency`). Intensities enter the frequency step as float32,
     as stored, so a cached rerun gives the same bytes as a computed one."""
     from slopescreen import rainfall_frequency as rf
-    from slopescreen.maps.intensity_tables import critical_intensity
+    from slopescreen.maps.intensity_tables import by_kernel, critical_intensity
 
     spec, table = job.scenario.rainfall, job.rainfall
     assert spec is not None and table is not None
@@ -73,21 +73,35 @@ def rainfall_tile(
         out[f"intensity_{duration:g}"] = intensity.astype(np.float32).astype(np.float64)
     found = np.array([out[f"intensity_{d:g}"] for d in table.durations_h])
     if design.ndim == 3:  # gridded design rainfall: each cell its own table
-        period = rf.triggering_return_period_yr(
-            [
-                rf.return_period_yr(found[row], table.return_periods_yr, design[row], spec.uplift)
-                for row in range(len(table.durations_h))
-            ]
-        )
-        out["return_period"] = period
+        per_duration = [
+            rf.return_period_yr(found[row], table.return_periods_yr, design[row], spec.uplift)
+            for row in range(len(table.durations_h))
+        ]
+        period = rf.triggering_return_period_yr(per_duration)
+    else:
+        base = _frequency_step(found, design * spec.uplift, table)
+        period = base["return_period"]
+
+    def critical_at(durations_h: np.ndarray, cells: np.ndarray) -> np.ndarray:
+        # the cells searched have a critical intensity at some duration: they hold before
+        # rain, which does not depend on the duration
+        tan, sca = block["tan"][cells], block["sca"][cells]
+        return by_kernel(job, durations_h, tan, sca, c[cells], holds_before_rain=True)
+
+    refined = rf.refined_return_period_yr(
+        period, found, table.durations_h, table.return_periods_yr, design, critical_at,
+        spec.uplift,
+    )  # fmt: skip
+    if design.ndim == 3 or not np.array_equal(refined, period):
+        out["return_period"] = refined
         out["annual_probability"] = rf.annual_probability(
-            period, table.return_periods_yr[0], table.series, table.return_periods_yr[-1]
+            refined, table.return_periods_yr[0], table.series, table.return_periods_yr[-1]
         )
         out["hazard_classes"] = rf.hazard_class(
-            out["annual_probability"], table.aep_breaks, period, reach_yr(table)
+            out["annual_probability"], table.aep_breaks, refined, reach_yr(table)
         )
     else:
-        out |= _frequency_step(found, design * spec.uplift, table)
+        out |= base
     if job.spreads and dry_probability is not None:
         spread = _annual_with_spread(job, block, design, found, dry_probability)
         out["annual_probability_spread"] = spread

@@ -251,9 +251,7 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
         values["storm_fs_end"] = np.minimum(summary.end_min_fs, job.fs_cap)
         values["storm_fs_later"] = np.minimum(summary.later_min_fs, job.fs_cap)
         values["storm_failure_depth"] = summary.window_critical_depth_m
-        values["storm_time_to_failure"] = np.asarray(
-            summary.time_to_failure_h
-        )
+        values["storm_time_to_failure"] = np.asarray(summary.time_to_failure_h)
     else:
         m = np.empty(n)
         if sc.steady_recharge:
