@@ -176,6 +176,10 @@ def test_envelope_direct_shear(tmp_path, capsys):
         ("sigma3_kpa,sigma1_kpa\n-100,300\n200,500\n", "line 2, column sigma3_kpa: -100 kPa"),
         ("sigma3_kpa,sigma1_kpa\n100,300\n", "at least 2 tests"),
         ("a,b\n1,2\n", "header must name sigma3_kpa"),
+        (
+            "sigma3_kpa,deviator_kpa,normal_kpa,shear_kpa\n100,180,50,40\n200,300,100,69\n",
+            "header mixes triaxial (deviator_kpa, sigma3_kpa) and direct-shear",
+        ),
     ],
 )
 def test_envelope_bad_files(tmp_path, capsys, text, fragment):
@@ -184,6 +188,14 @@ def test_envelope_bad_files(tmp_path, capsys, text, fragment):
     err = capsys.readouterr().err
     assert fragment in err and str(csv) in err
     assert err.count("\n") == 1
+
+
+def test_a_figure_name_without_a_format_is_refused(tmp_path, capsys):
+    csv = _write(tmp_path, "normal_kpa,shear_kpa\n50,40\n100,69\n150,98\n")
+    assert main(["envelope", str(csv), "--plot", str(tmp_path / "d.figure")]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "--plot" in err and ".png" in err
+    assert not (tmp_path / "d.figure").exists()
 
 
 def test_missing_file(tmp_path, capsys):

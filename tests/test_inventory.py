@@ -149,6 +149,19 @@ def test_scoring_reads_the_maps_and_refuses_changed_ones(small_run, tmp_path, ca
     err = capsys.readouterr().err
     assert code == 2 and err.count("\n") == 1
     assert "fs.tif: changed since the run wrote it" in err
+    # every command that reads a finished scenario refuses it alike, and a deleted one
+    on_wet = ["--out", str(out), "--scenario", "wet"]
+    for argv in (
+        ["backcalc", str(toml), *on_wet, "--inventory", str(points)],
+        ["calibrate", str(toml), *on_wet, "--inventory", str(points)],
+        ["sensitivity", str(toml), *on_wet],
+    ):
+        assert main(argv) == 2, argv
+        err = capsys.readouterr().err
+        assert err.count("\n") == 1 and "fs.tif: changed since the run wrote it" in err
+    (out / "wet" / "fs.tif").unlink()
+    assert main(["sensitivity", str(toml), *on_wet]) == 2
+    assert "fs.tif: not an output of the run" in capsys.readouterr().err
 
 
 def test_points_off_the_map_are_counted_and_other_crs_reprojected(small_run, tmp_path, capsys):
@@ -334,3 +347,13 @@ def test_compiled_masses_equal_the_numpy_reference(n_thresholds):
         np.testing.assert_allclose(between, b, rtol=1e-12)
         np.testing.assert_allclose(tied, t, rtol=1e-12)
         assert counted == int(np.isfinite(score[sel]).sum())
+
+
+def test_a_multiplier_grid_too_fine_is_refused_before_it_is_built():
+    # 0.5:1.5:1e-9 would be 10^9 multipliers (7.45 GiB): one line, no MemoryError
+    from slopescreen.errors import InputError
+    from slopescreen.maps.calibration import parse_grid
+
+    with pytest.raises(InputError, match="at most 201 values, got 1,000,000,001"):
+        parse_grid("0.5:1.5:1e-9")
+    assert parse_grid("0.5:1.5:0.5").tolist() == [0.5, 1.0, 1.5]

@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 import rasterio
 from rasterio.transform import from_origin
+from shapely.geometry import box
 from region_files import SCENARIO_TEXT, SCENARIO_TEXT_WITH_MAPS, _dem, _polygons, write_raster
 
 from slopescreen.cli.main import main
@@ -224,6 +225,18 @@ INVENTORY_INPUTS = {
         "[inventory] test_share: ",
     ),
     "inventory file missing": (_inventory("", None), "[inventory] path: file not found"),
+    "inventory crs label wrong": (
+        _inventory("", _slides().set_crs("EPSG:4326", allow_override=True)),
+        "no feature can be placed in the DEM's CRS from the inventory's CRS",
+    ),
+    "inventory key empty": (
+        _inventory('key = "slide_id"\n', _slides(slide_id=["a", None, "c"])),
+        "feature 1: field 'slide_id' (key) holds no value; every landslide needs one",
+    ),
+    "inventory dates day or month first": (
+        _inventory('date_field = "when"\n', _slides(when=["03/04/2019", "05/06/2019", "2003"])),
+        "dates such as '03/04/2019' read as day/month or month/day",
+    ),
     "inventory unknown key": (
         _inventory("date_feild = 1\n", _slides()),
         "unknown key (did you mean date_field?)",
@@ -523,7 +536,48 @@ RAINFALL_INPUTS = {
         "rainfall scenario 'r' needs diffusivity_m2_s (or moisture_capacity_per_m)",
     ),
 }
+def _spike(folder):
+    with rasterio.open(folder / "dem.tif") as src:
+        profile, z = src.profile, src.read(1)
+    z[20, 25] = 1e30  # a spike: a vertical slope in the middle of a run
+    with rasterio.open(folder / "dem.tif", "w", **profile) as dst:
+        dst.write(z, 1)
+
+
+def _points_as_soils(folder):
+    frame = gpd.read_file(folder / "soils.geojson")
+    frame.geometry = frame.geometry.centroid
+    frame.to_file(folder / "soils.geojson", driver="GeoJSON")
+
+
+def _two_band_saturation(folder):
+    _saturation(folder, np.full((40, 50), 0.5))
+    with rasterio.open(folder / "m.tif") as src:
+        profile, z = src.profile, src.read(1)
+    with rasterio.open(folder / "m.tif", "w", **(profile | {"count": 2})) as dst:
+        dst.write(np.stack([z, z]))
+
+
 RAIN_PATH_INPUTS = {
+    "soil units as points": (_points_as_soils, "soil units must be polygons, found Point"),
+    "soil table row without unit": (
+        lambda f: _soil_table(f, TABLE.format(lab="") + ",silt,3,30,18,1.5,1e-5,\n"),
+        "table.csv: data row 3 has no value in column 'unit'",
+    ),
+    "saturation raster of two bands": (
+        _two_band_saturation,
+        "m.tif: saturation raster has 2 bands; give a raster of one band",
+    ),
+    "idf in the wrong unit": (
+        _rainfall(IDF_GOOD.replace("6,2,10", "6,2,900").replace("6,10,14", "6,10,950")
+                  .replace("1,2,30", "1,2,1000").replace("1,10,40", "1,10,1100")),
+        "idf.csv: duration 1 h, return period 2 yr: 1000 mm/h is beyond any rain",
+    ),  # fmt: skip
+    "idf durations in minutes": (
+        _rainfall(IDF_GOOD.replace("6,", "1440,")),
+        "idf.csv: duration 1440 h is over 1000 h",
+    ),
+    "dem spike": (_spike, "dem.tif: 1 elevations outside [-11000, 9000] m, e.g. 1e+30 m"),
     "series unknown": (
         _rainfall(table='idf_table = "idf.csv"\nseries = "annual"\n'),
         '[rainfall_frequency] series: must be "annual_maximum" or "partial_duration"',
@@ -573,6 +627,8 @@ BAD_OPTIONS = {
     "scheduler port": (["--scheduler", "tcp://127.0.0.1:99999"], "port 1-65535"),
     "workers negative": (["--workers", "-1"], "--workers -1"),
     "only unknown": (["--only", "nosuch"], "--only nosuch: no such scenario"),
+    "out empty": (["--out", ""], "--out '': must name a folder, got an empty text"),
+    "cache a file": (["--cache", __file__], "the cache must be a folder, found a file"),
 }
 
 
@@ -969,3 +1025,39 @@ def test_killed_rerun_leaves_old_or_new_files_and_says_so(moment, tmp_path):
     assert subprocess.run(_cli("run", toml, "--out", out, "--quiet")).returncode == 0
     assert _outputs(out) == _outputs(tmp_path / "new")
     assert not [p for p in out.rglob(".slopescreen-tmp-*")]
+
+
+def test_overlapping_soil_polygons_are_reported_with_the_winner(tmp_path, capsys):
+    # two units overlapping by a 50 m strip of the 400 m high region: 2.00 ha on the ground
+    toml = _region(tmp_path)
+    frame = gpd.read_file(tmp_path / "soils.geojson")
+    x0, y0, x1, y1 = frame.total_bounds
+    xm = (x0 + x1) / 2
+    frame.geometry = [box(x0, y0, xm + 50.0, y1), box(xm, y0, x1, y1)]
+    frame.to_file(tmp_path / "soils.geojson", driver="GeoJSON")
+    assert main(["check", str(toml)]) == 0
+    out = capsys.readouterr().out
+    assert "1 pairs of polygons of different soil units overlap (2.00 ha on the ground)" in out
+    assert "the later polygon in the file wins" in out
+
+
+
+def test_inventory_repairs_and_conventions_are_said(tmp_path, capsys):
+    # a null geometry dropped, a self-intersecting polygon repaired, one key for every
+    # feature, dates with slashes read day first because a day above 12 shows it
+    from shapely.geometry import Polygon
+
+    toml = _region(tmp_path)
+    bowtie = Polygon([(500100, 5000100), (500200, 5000200), (500200, 5000100), (500100, 5000200)])
+    frame = gpd.GeoDataFrame(
+        {"slide_id": ["same", "same", "same"], "when": ["14/03/2019", "02/04/2019", None]},
+        geometry=[bowtie, box(500300, 5000100, 500350, 5000150), None],
+        crs="EPSG:32633",
+    )
+    _inventory('key = "slide_id"\ndate_field = "when"\n', frame)(tmp_path)
+    assert main(["check", str(toml)]) == 0
+    out = capsys.readouterr().out
+    assert "1 features without geometry dropped" in out
+    assert "1 invalid geometries (self-intersecting polygons, say) repaired" in out
+    assert "all 2 features share the key 'same'" in out
+    assert "2 dates written with slashes read as day/month/year" in out

@@ -69,6 +69,13 @@ def read_lab_tests(path: str | Path) -> LabTests:
         raise InputError(f"{path}: no header row found")
     header_line, header = numbered[0]
     names = [h.strip().lower() for h in header]
+    triaxial = {"sigma3_kpa", "sigma1_kpa", "deviator_kpa"} & set(names)
+    shear = {"normal_kpa", "shear_kpa"} & set(names)
+    if triaxial and shear:
+        raise InputError(
+            f"{path}: line {header_line}: header mixes triaxial ({', '.join(sorted(triaxial))}) "
+            f"and direct-shear ({', '.join(sorted(shear))}) columns; give one kind per file"
+        )
     if "sigma3_kpa" in names:
         kind = "triaxial"
         if "sigma1_kpa" not in names and "deviator_kpa" not in names:

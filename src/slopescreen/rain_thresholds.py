@@ -44,6 +44,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import ArrayLike
 
+from slopescreen import storm
 from slopescreen._checks import checked
 from slopescreen.inverse import critical_saturation
 from slopescreen.storm import (
@@ -58,6 +59,13 @@ from slopescreen.storm import (
     depth_minimum,
     peak_response,
 )
+
+# the peak of the response lives with the storm physics; its documented import paths here
+_LOG_STORM = storm._LOG_STORM
+_PEAK_OFFSET = storm._PEAK_OFFSET
+_peak_time_by_bisection = storm._peak_time_by_bisection
+response_function = storm.response_function
+response_rate = storm.response_rate
 
 FAILS_WITHOUT_RAIN = -1.0  # FS < 1 somewhere before the storm
 NO_INTENSITY_FAILS = -2.0  # no intensity up to K_z (or the steady cap) brings FS to 1

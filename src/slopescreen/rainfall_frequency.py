@@ -129,9 +129,26 @@ def check_axes(
         raise InputError(f"{where}: needs at least one duration and two return periods")
     if (d <= 0).any() or (t <= 1.0).any():
         raise InputError(f"{where}: durations must be > 0 h and return periods > 1 year")
+    if d[-1] > 1000.0:
+        raise InputError(
+            f"{where}: duration {d[-1]:g} h is over 1000 h; durations are in hours "
+            "(minutes given?)"
+        )
     if np.unique(d).size != d.size or np.unique(t).size != t.size:
         raise InputError(f"{where}: a duration or return period appears twice")
     return d, t
+
+
+def plausible_intensity_mm_h(duration_h: ArrayLike) -> np.ndarray:
+    """An upper bound of rain intensity over a duration: 500 mm/h for one hour and 100 mm/h
+    over 24 hours (above the largest point rainfalls recorded; common practice), a power
+    law in duration between and beyond them.
+
+    >>> plausible_intensity_mm_h([1.0, 24.0]).round(1).tolist()
+    [500.0, 100.0]
+    """
+    d = np.asarray(duration_h, float)
+    return 500.0 * d ** (np.log(100.0 / 500.0) / np.log(24.0))
 
 
 def check_table(
@@ -151,6 +168,14 @@ def check_table(
         raise InputError(
             f"{where}: duration {d[r]:g} h, return period {t[c]:g} yr: intensity must be a "
             f"number > 0, got {i[r, c]:g}"
+        )
+    limit = plausible_intensity_mm_h(d)[:, None]
+    if (i > limit).any():
+        r, c = np.argwhere(i > limit)[0]
+        raise InputError(
+            f"{where}: duration {d[r]:g} h, return period {t[c]:g} yr: {i[r, c]:g} mm/h is "
+            f"beyond any rain of that duration (above {limit[r, 0]:.0f} mm/h); intensities "
+            "are in mm/h (inches, mm per day, or a depth given?)"
         )
     rises = np.diff(i, axis=1) > 0.0
     if not rises.all():

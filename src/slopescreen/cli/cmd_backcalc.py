@@ -51,11 +51,11 @@ def run(args: argparse.Namespace) -> int:
 
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
-    from slopescreen.cli.cmd_run import default_out
+    from slopescreen.cli.options import out_folder
     from slopescreen.maps.backcalc import back_analyse
     from slopescreen.maps.finished_run import locked_run, record_results
 
-    out = args.out or default_out(args.scenarios)
+    out = out_folder(args.out, args.scenarios)
     with locked_run(args.scenarios, out, args.inventory) as (done, inv):
         sc = done.scenario(args.scenario)
         entry, files = back_analyse(done, sc, inv, args.parameter)

@@ -71,14 +71,13 @@ def run(args: argparse.Namespace) -> int:
 
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
-    from slopescreen.cli.cmd_run import default_out
-    from slopescreen.cli.options import check_workers
+    from slopescreen.cli.options import check_workers, out_folder
     from slopescreen.maps.calibration import calibrate, parse_grid
     from slopescreen.maps.engine import tile_runner
     from slopescreen.maps.finished_run import locked_run, record_results
 
     candidates = parse_grid(args.multipliers)
-    out = args.out or default_out(args.scenarios)
+    out = out_folder(args.out, args.scenarios)
     check_workers(getattr(args, "workers", 0))
     with (
         locked_run(args.scenarios, out, args.inventory) as (done, inv),

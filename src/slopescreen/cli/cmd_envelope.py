@@ -32,11 +32,26 @@ def add_to(sub: Any) -> None:
     add_json_option(parser)
 
 
+FIGURE_SUFFIXES = (".png", ".pdf", ".svg", ".jpg", ".jpeg")
+
+
+def check_figure_path(plot: Path) -> None:
+    """InputError unless the figure's name ends in a format the figure can be saved in."""
+    from slopescreen.errors import InputError
+
+    if plot.suffix.lower() not in FIGURE_SUFFIXES:
+        raise InputError(
+            f"--plot {plot}: name the figure with one of {', '.join(FIGURE_SUFFIXES)}"
+        )
+
+
 def fit_file(path: Path, plot: Path | None = None):
     """Read, fit and (optionally) plot one lab-test file."""
     from slopescreen.envelope import fit_direct_shear, fit_envelope
     from slopescreen.labtests import read_lab_tests
 
+    if plot is not None:
+        check_figure_path(plot)
     tests = read_lab_tests(path)
     cols = tests.columns
     if tests.kind == "triaxial":

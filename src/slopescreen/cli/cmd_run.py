@@ -17,7 +17,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
-from slopescreen.cli.options import command_parser
+from slopescreen.cli.options import command_parser, out_folder
 
 
 def add_to(sub: Any) -> None:
@@ -33,7 +33,6 @@ def add_to(sub: Any) -> None:
     parser.add_argument("scenarios", type=Path, metavar="SCENARIOS.toml")
     parser.add_argument(
         "--out",
-        type=Path,
         default=None,
         help="output folder (default: <scenario file name>_output)",
     )
@@ -58,17 +57,13 @@ def add_to(sub: Any) -> None:
     parser.add_argument("--quiet", action="store_true", help="no progress bars")
 
 
-def default_out(scenarios: Path) -> Path:
-    return Path(f"{scenarios.stem}_output")
-
-
 def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import caution_block
     from slopescreen.cli.options import check_workers
     from slopescreen.maps.engine import run as run_engine
 
     check_workers(args.workers)
-    out = args.out or default_out(args.scenarios)
+    out = out_folder(args.out, args.scenarios)
     run_engine(
         args.scenarios,
         out,

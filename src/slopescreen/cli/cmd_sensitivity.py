@@ -36,11 +36,11 @@ def run(args: argparse.Namespace) -> int:
 
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
-    from slopescreen.cli.cmd_run import default_out
+    from slopescreen.cli.options import out_folder
     from slopescreen.maps.finished_run import locked_run, record_results
     from slopescreen.maps.sensitivity_map import sensitivity
 
-    out = args.out or default_out(args.scenarios)
+    out = out_folder(args.out, args.scenarios)
     with locked_run(args.scenarios, out, None, read=False) as (done, _):
         sc = done.scenario(args.scenario)
         entry, files = sensitivity(done, sc)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+from pathlib import Path
 from typing import Any
 
 # (option, core keyword, help, default); None default = required
@@ -103,6 +104,20 @@ def dump_json(obj: object) -> str:
     return json.dumps(obj, indent=2, allow_nan=False)
 
 
+def out_folder(value: str | Path | None, scenarios: Path) -> Path:
+    """The output folder of --out: the default beside the scenario file's name when not
+    given; InputError for an empty text (it would mean the current folder)."""
+    from slopescreen.errors import InputError
+
+    if value is None:
+        return Path(f"{scenarios.stem}_output")
+    if isinstance(value, Path):  # from another command (demo), not from the shell
+        return value
+    if not value.strip():
+        raise InputError("--out '': must name a folder, got an empty text")
+    return Path(value)
+
+
 def run_folder_options(
     parser: argparse.ArgumentParser, scenario: bool = False, inventory: bool = True
 ) -> None:
@@ -113,7 +128,6 @@ def run_folder_options(
     parser.add_argument("scenarios", type=Path, metavar="SCENARIOS.toml")
     parser.add_argument(
         "--out",
-        type=Path,
         default=None,
         help="the run's output folder (default: <scenario file name>_output)",
     )

@@ -277,10 +277,10 @@ def parse_grid(text: str | None) -> np.ndarray:
             f"--multipliers {text!r}: need 0 < LOW <= 1 <= HIGH <= 10 and 0 < STEP <= HIGH - LOW"
         )
     n = round((high - low) / step)
+    if n + 1 > 201:  # before the grid is built: a tiny step would ask for gigabytes
+        raise InputError(f"--multipliers {text!r}: at most 201 values, got {n + 1:,}")
     values = np.round(low + step * np.arange(n + 1), 10)
     values = values[values <= high + 1e-9]
-    if values.size > 201:
-        raise InputError(f"--multipliers {text!r}: at most 201 values, got {values.size}")
     return np.unique(np.r_[values, 1.0])
 
 

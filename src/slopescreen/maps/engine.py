@@ -135,7 +135,9 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     voids = {"cells": 0, "area_m2": 0.0}
 
     def valid_tile(rows: slice, cols: slice) -> np.ndarray:
-        ok = np.isfinite(read_elevations(cfg.region.dem, "m", rows, cols))
+        z = read_elevations(cfg.region.dem, cfg.region.dem_elevation_unit, rows, cols)
+        ok = np.isfinite(z)
+        _check_elevations(cfg.region.dem, grid, z, ok, rows, cols)
         area = np.broadcast_to(grid.ground.cell_area_m2(rows, cols), ok.shape)
         voids["cells"] += int((~ok).sum())
         voids["area_m2"] += float(area[~ok].sum())
@@ -224,6 +226,25 @@ def check_scheduler_address(address: str) -> None:
         )
 
 
+ELEVATION_RANGE_M = (-11_000.0, 9_000.0)  # below the deepest trench, above the highest peak
+
+
+def _check_elevations(
+    dem: Path, grid: Grid, z: np.ndarray, ok: np.ndarray, rows: slice, cols: slice
+) -> None:
+    """InputError for an elevation no place on Earth has (a spike, or a no-data value the
+    DEM does not declare): it would give a vertical slope in the middle of a run."""
+    low, high = ELEVATION_RANGE_M
+    bad = ok & ((z < low) | (z > high))
+    if bad.any():
+        r, c = np.argwhere(bad)[0]
+        x, y = grid.transform * (cols.start + c + 0.5, rows.start + r + 0.5)
+        raise InputError(
+            f"{dem}: {int(bad.sum())} elevations outside [{low:g}, {high:g}] m, e.g. "
+            f"{z[r, c]:g} m at x = {x:g}, y = {y:g} (a spike, or an undeclared no-data value?)"
+        )
+
+
 def _check_subfolders(out: Path, names: Iterable[str]) -> None:
     for name in names:
         path = out / name
@@ -270,6 +291,8 @@ def run(
     if scheduler:
         check_scheduler_address(scheduler)
     cache = cache_dir if cache_dir is not None else out / ".cache"
+    if cache.exists() and not cache.is_dir():
+        raise InputError(f"{cache}: the cache must be a folder, found a file")
     real_folder(out)
     subfolders = ["terrain", COMPARISON_FOLDER, *(s.name for s in chosen)]
     _check_subfolders(out, subfolders if cache_dir is not None else [*subfolders, ".cache"])

@@ -37,12 +37,15 @@ class FinishedRun:
     soils: SoilUnits
 
     def scenario(self, name: str) -> Scenario:
+        """The finished scenario ``name``; InputError if the run did not finish it or its
+        fs.tif changed or went missing since."""
         ran = self.manifest.get("scenarios_finished", [])
         if name not in ran:
             raise InputError(
                 f"--scenario {name}: not a scenario of the run in {self.out}; scenarios: "
                 f"{', '.join(ran)}"
             )
+        self.verified(f"{name}/fs.tif")  # the scenario's result as the run wrote it
         return next(s for s in self.cfg.scenarios if s.name == name)
 
     def verified(self, relative: str) -> Path:

@@ -17,6 +17,7 @@ landslides (``split = "date"``), or the cells of spatial blocks drawn with proba
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -74,6 +75,13 @@ def _fail(path: Path, message: str) -> InputError:
     return InputError(f"{path}: {message}")
 
 
+def _crs_name(path: Path) -> str:
+    import pyogrio
+
+    crs = pyogrio.read_info(path).get("crs")
+    return str(crs) if crs else "unknown"
+
+
 def _read_frame(spec: InventorySpec) -> Any:
     import geopandas as gpd
 
@@ -93,9 +101,35 @@ def _read_frame(spec: InventorySpec) -> Any:
             raise _fail(path, f"no field {name!r} ({label}); fields: {fields or 'none'}")
     if frame.crs is None:
         raise _fail(path, "landslide inventory has no coordinate reference system")
-    frame = frame[frame.geometry.notna() & ~frame.geometry.is_empty].reset_index(drop=True)
+    keep = frame.geometry.notna() & ~frame.geometry.is_empty
+    dropped = int((~keep).sum())
+    frame = frame[keep].reset_index(drop=True)
     if len(frame) == 0:
         raise _fail(path, "no geometry: every feature of the inventory is empty")
+    frame.attrs["notes"] = []
+    if dropped:
+        frame.attrs["notes"].append(f"{path.name}: {dropped} features without geometry dropped")
+    invalid = ~frame.geometry.is_valid
+    if invalid.any():  # self-intersecting polygons, say: repaired, and said
+        frame.loc[invalid, "geometry"] = frame.geometry[invalid].make_valid()
+        frame.attrs["notes"].append(
+            f"{path.name}: {int(invalid.sum())} invalid geometries (self-intersecting "
+            "polygons, say) repaired with shapely's make_valid"
+        )
+    if spec.key is not None:
+        keys = frame[spec.key]
+        blank = keys.isna() | (keys.astype(str).str.strip() == "")
+        if blank.any():
+            raise _fail(
+                path,
+                f"feature {int(np.flatnonzero(blank.to_numpy())[0])}: field {spec.key!r} (key) "
+                "holds no value; every landslide needs one",
+            )
+        if len(frame) > 1 and keys.astype(str).str.strip().nunique() == 1:
+            frame.attrs["notes"].append(
+                f"{path.name}: all {len(frame)} features share the key {str(keys.iloc[0])!r} "
+                f"(field {spec.key!r}): scored as one landslide"
+            )
     kinds = set(frame.geometry.geom_type)
     if kinds <= {"Point", "MultiPoint"}:
         return frame, "points"
@@ -107,11 +141,38 @@ def _read_frame(spec: InventorySpec) -> Any:
     )
 
 
-def _dates(spec: InventorySpec, frame: Any) -> list[str | None]:
+SLASH_DATE = re.compile(r"^(\d{1,2})[/.](\d{1,2})[/.](\d{4})$")
+
+
+def _slash_order(spec: InventorySpec, column: Any) -> tuple[bool | None, list[str]]:
+    """Whether dates written with slashes (14/03/2019) put the day first, from the column's
+    own values (a first part above 12 is a day; a second part above 12 is a day); None
+    where there are none. InputError where the column cannot tell."""
+    found = [m for v in column if v is not None and (m := SLASH_DATE.match(str(v).strip()))]
+    if not found:
+        return None, []
+    first = max(int(m.group(1)) for m in found)
+    second = max(int(m.group(2)) for m in found)
+    if (first > 12) == (second > 12):
+        raise _fail(
+            spec.path,
+            f"field {spec.date_field!r} (date_field): dates such as {found[0].group(0)!r} "
+            "read as day/month or month/day; write ISO dates (2019-03-14)",
+        )
+    order = "day/month/year" if first > 12 else "month/day/year"
+    return first > 12, [
+        f"{spec.path.name}: {len(found)} dates written with slashes read as {order} "
+        f"(a {'first' if first > 12 else 'second'} part above 12 shows it)"
+    ]
+
+
+def _dates(spec: InventorySpec, frame: Any) -> tuple[list[str | None], list[str]]:
+    """Each feature's date (ISO) and a note on how dates with slashes were read."""
     import pandas as pd
 
     if spec.date_field is None:
-        return [None] * len(frame)
+        return [None] * len(frame), []
+    day_first, notes = _slash_order(spec, frame[spec.date_field])
     out: list[str | None] = []
     for i, value in enumerate(frame[spec.date_field]):
         text = str(value).strip() if value is not None else ""
@@ -122,6 +183,10 @@ def _dates(spec: InventorySpec, frame: Any) -> list[str | None]:
                 stamp = pd.Timestamp(year=int(value), month=1, day=1)
             elif text.isdigit() and len(text) == 4:
                 stamp = pd.Timestamp(year=int(text), month=1, day=1)
+            elif (m := SLASH_DATE.match(text)) is not None:
+                a, b, year = int(m.group(1)), int(m.group(2)), int(m.group(3))
+                day, month = (a, b) if day_first else (b, a)
+                stamp = pd.Timestamp(year=year, month=month, day=day)
             else:
                 stamp = pd.Timestamp(value)
             if pd.isna(stamp):
@@ -133,7 +198,7 @@ def _dates(spec: InventorySpec, frame: Any) -> list[str | None]:
                 "date; give an ISO date (2019-03-14) or a year",
             ) from None
         out.append(stamp.date().isoformat())
-    return out
+    return out, notes
 
 
 def _point_cells(grid: Grid, geoms: Any) -> list[tuple[np.ndarray, np.ndarray]]:
@@ -194,13 +259,29 @@ def read_inventory(spec: InventorySpec, grid: Grid, dem_elevation_unit: str = "m
         raise _fail(
             spec.path, f"part = {spec.part!r} applies to polygons; this inventory holds points"
         )
-    dates = _dates(spec, frame)
+    dates, date_notes = _dates(spec, frame)
     names = (
         [str(v).strip() for v in frame[spec.key]]
         if spec.key is not None
         else [str(i + 1) for i in range(len(frame))]
     )
+    notes = [*frame.attrs.get("notes", []), *date_notes]
     frame = frame.to_crs(grid.crs)
+    placed = np.isfinite(frame.geometry.bounds.to_numpy()).all(axis=1)
+    if not placed.any():
+        raise _fail(
+            spec.path,
+            f"no feature can be placed in the DEM's CRS from the inventory's CRS "
+            f"({_crs_name(spec.path)}): is the inventory's CRS label right?",
+        )
+    if not placed.all():
+        notes.append(
+            f"{spec.path.name}: {int((~placed).sum())} features cannot be placed in the "
+            "DEM's CRS and are dropped"
+        )
+        frame = frame[placed].reset_index(drop=True)
+        names = [n for n, ok in zip(names, placed, strict=True) if ok]
+        dates = [d for d, ok in zip(dates, placed, strict=True) if ok]
     if kind == "points":
         per_feature = _point_cells(grid, frame.geometry)
     else:
@@ -242,6 +323,7 @@ def read_inventory(spec: InventorySpec, grid: Grid, dem_elevation_unit: str = "m
         features=len(frame),
         outside=int((~on_grid).sum()),
     )
+    inv.warnings.extend(notes)
     if inv.outside:
         inv.warnings.append(
             f"{spec.path.name}: {inv.outside} of {len(slide_names)} landslides lie outside the "

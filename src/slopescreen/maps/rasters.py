@@ -164,6 +164,10 @@ def read_on_grid(
     with src:
         if src.crs is None:
             raise InputError(f"{path}: {what} raster has no coordinate reference system")
+        if src.count != 1:
+            raise InputError(
+                f"{path}: {what} raster has {src.count} bands; give a raster of one band"
+            )
         with WarpedVRT(
             src,
             crs=grid.crs,

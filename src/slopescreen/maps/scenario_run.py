@@ -83,6 +83,11 @@ def _sinks(
         base["rain_raster"] = (
             f"{sc.rain_raster.name} ({sc.rain_unit[0]}) resampled bilinearly onto the DEM grid"
         )
+    if sc.saturation_raster is not None:
+        base["saturation_raster"] = (
+            f"{sc.saturation_raster.name} resampled bilinearly onto the DEM grid (any grid, "
+            "shift or CRS)"
+        )
 
     def f32(name: str, **tags: str) -> RasterSink:
         return RasterSink(out / name, grid, "float32", NODATA_F32, tags=base | tags)

@@ -277,8 +277,13 @@ def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
             f"{', '.join([key_field, *ALL_COLUMNS])}"
         )
     table: dict[str, dict[str, Any]] = {}
-    for row in rows:
-        key = str(row[key_field]).strip()
+    for line, row in enumerate(rows, start=2):
+        key = str(row[key_field] or "").strip()
+        if not key:
+            raise InputError(
+                f"{path}: data row {line - 1} has no value in column {key_field!r} "
+                "(soil_unit_field); every row needs a soil unit"
+            )
         if key in table:
             raise InputError(f"{path}: unit {key!r} appears twice in the soil table")
         table[key] = row
@@ -304,6 +309,14 @@ def read_polygons(region: Region) -> Any:
     frame = frame[frame.geometry.notna() & ~frame.geometry.is_empty]
     if frame.empty:
         raise InputError(f"{region.soil_units}: no polygons")
+    kinds = set(frame.geometry.geom_type)
+    if not kinds <= {"Polygon", "MultiPolygon"}:
+        other = sorted(kinds - {"Polygon", "MultiPolygon"})
+        raise InputError(
+            f"{region.soil_units}: soil units must be polygons, found {', '.join(other)} "
+            f"({int((~frame.geometry.geom_type.isin(['Polygon', 'MultiPolygon'])).sum())} "
+            "features)"
+        )
     labels = frame[region.soil_unit_field]
     blank = labels.isna() | (labels.astype(str).str.strip() == "")
     if blank.any():
@@ -314,6 +327,29 @@ def read_polygons(region: Region) -> Any:
         )
     frame[region.soil_unit_field] = labels.astype(str).str.strip()
     return frame
+
+
+def _overlaps(polygons: Any, key: str, grid: Grid) -> str:
+    """A line saying where polygons of different units overlap (and which wins), or ""."""
+    import shapely
+
+    geometry = polygons.geometry.to_numpy()
+    left, right = polygons.sindex.query(geometry, predicate="intersects")
+    pairs = (left < right) & (polygons[key].to_numpy()[left] != polygons[key].to_numpy()[right])
+    left, right = left[pairs], right[pairs]
+    if left.size == 0:
+        return ""
+    shared = shapely.intersection(geometry[left], geometry[right])
+    shared = shared[shapely.area(shared) > 0.0]
+    if shared.size == 0:
+        return ""
+    from slopescreen.maps.zones import ground_areas_m2
+
+    area_ha = float(np.sum(ground_areas_m2(shared, grid))) / 10_000.0
+    return (
+        f"{shared.size} pairs of polygons of different soil units overlap ({area_ha:,.2f} ha "
+        "on the ground); where they do, the later polygon in the file wins"
+    )
 
 
 def load_soils(region: Region, grid: Grid) -> SoilUnits:
@@ -387,6 +423,9 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
         warnings.append(f"soil units entirely outside the DEM: {', '.join(outside)}")
     polygons = frame.loc[inside, [key, "geometry"]].copy()
     polygons["code"] = [keys.index(k) + 1 for k in polygons[key]]
+    overlap = _overlaps(polygons.reset_index(drop=True), key, grid)
+    if overlap:
+        warnings.append(overlap)
     units = SoilUnits(
         keys=keys,
         parameters=params,
