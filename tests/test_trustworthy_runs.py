@@ -15,8 +15,8 @@ import numpy as np
 import pytest
 import rasterio
 from rasterio.transform import from_origin
-from shapely.geometry import box
 from region_files import SCENARIO_TEXT, SCENARIO_TEXT_WITH_MAPS, _dem, _polygons, write_raster
+from shapely.geometry import box
 
 from slopescreen.cli.main import main
 from slopescreen.maps.engine import run
@@ -536,6 +536,8 @@ RAINFALL_INPUTS = {
         "rainfall scenario 'r' needs diffusivity_m2_s (or moisture_capacity_per_m)",
     ),
 }
+
+
 def _spike(folder):
     with rasterio.open(folder / "dem.tif") as src:
         profile, z = src.profile, src.read(1)
@@ -569,10 +571,14 @@ RAIN_PATH_INPUTS = {
         "m.tif: saturation raster has 2 bands; give a raster of one band",
     ),
     "idf in the wrong unit": (
-        _rainfall(IDF_GOOD.replace("6,2,10", "6,2,900").replace("6,10,14", "6,10,950")
-                  .replace("1,2,30", "1,2,1000").replace("1,10,40", "1,10,1100")),
+        _rainfall(
+            IDF_GOOD.replace("6,2,10", "6,2,900")
+            .replace("6,10,14", "6,10,950")
+            .replace("1,2,30", "1,2,1000")
+            .replace("1,10,40", "1,10,1100")
+        ),
         "idf.csv: duration 1 h, return period 2 yr: 1000 mm/h is beyond any rain",
-    ),  # fmt: skip
+    ),
     "idf durations in minutes": (
         _rainfall(IDF_GOOD.replace("6,", "1440,")),
         "idf.csv: duration 1440 h is over 1000 h",
@@ -1039,7 +1045,6 @@ def test_overlapping_soil_polygons_are_reported_with_the_winner(tmp_path, capsys
     out = capsys.readouterr().out
     assert "1 pairs of polygons of different soil units overlap (2.00 ha on the ground)" in out
     assert "the later polygon in the file wins" in out
-
 
 
 def test_inventory_repairs_and_conventions_are_said(tmp_path, capsys):

@@ -131,8 +131,7 @@ def check_axes(
         raise InputError(f"{where}: durations must be > 0 h and return periods > 1 year")
     if d[-1] > 1000.0:
         raise InputError(
-            f"{where}: duration {d[-1]:g} h is over 1000 h; durations are in hours "
-            "(minutes given?)"
+            f"{where}: duration {d[-1]:g} h is over 1000 h; durations are in hours (minutes given?)"
         )
     if np.unique(d).size != d.size or np.unique(t).size != t.size:
         raise InputError(f"{where}: a duration or return period appears twice")

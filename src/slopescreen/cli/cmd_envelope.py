@@ -40,9 +40,7 @@ def check_figure_path(plot: Path) -> None:
     from slopescreen.errors import InputError
 
     if plot.suffix.lower() not in FIGURE_SUFFIXES:
-        raise InputError(
-            f"--plot {plot}: name the figure with one of {', '.join(FIGURE_SUFFIXES)}"
-        )
+        raise InputError(f"--plot {plot}: name the figure with one of {', '.join(FIGURE_SUFFIXES)}")
 
 
 def fit_file(path: Path, plot: Path | None = None):
