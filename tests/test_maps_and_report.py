@@ -64,6 +64,18 @@ def test_palette_is_distinguishable_under_colour_vision_deficiencies():
         assert closest >= MIN_DISTANCE, (cvd, closest)
 
 
+def test_the_fails_before_the_storm_code_stands_apart_from_the_time_ramp():
+    # the code's colour against every colour of the time-to-failure ramp, the no-data grey
+    # and "holds", normal vision and simulated deficiencies (colorspacious, CAM02-UCS)
+    from slopescreen.maps.palette import FAILS_BEFORE_HEX, HOLDS_HEX, ramp
+
+    others = [*ramp(64), hex_rgb(NO_DATA_HEX), hex_rgb(HOLDS_HEX)]
+    for cvd in (None, *CVD_TYPES):
+        code = _ucs(hex_rgb(FAILS_BEFORE_HEX), cvd)
+        closest = min(np.linalg.norm(code - _ucs(c, cvd)) for c in others)
+        assert closest >= 30.0, (cvd, closest)
+
+
 def test_palette_least_stable_most_prominent_and_no_traffic_light():
     lab = srgb_to_lab(class_rgb(4))
     # lightness rises from the least stable (darkest, most prominent) to the most stable

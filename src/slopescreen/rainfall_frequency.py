@@ -65,14 +65,14 @@ def hazard_class_names(
     >>> hazard_class_names((0.1, 0.01))
     ['1 in 10 years or more often', '1 in 10 to 1 in 100 years', 'rarer than 1 in 100 years']
     >>> hazard_class_names((0.1, 0.01), 50.0)[-1]
-    'beyond the design-rainfall table (rarer than 1 in 50 years)'
+    'beyond the design-rainfall table (> 50 yr)'
     """
     periods = [f"{1.0 / b:g}" for b in breaks]
     names = [f"1 in {periods[0]} years or more often"]
     names += [f"1 in {a} to 1 in {b} years" for a, b in itertools.pairwise(periods)]
     names.append(f"rarer than 1 in {periods[-1]} years")
     if beyond_yr is not None:
-        names.append(f"beyond the design-rainfall table (rarer than 1 in {beyond_yr:g} years)")
+        names.append(f"beyond the design-rainfall table (> {beyond_yr:g} yr)")
     return names
 
 

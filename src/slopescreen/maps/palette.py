@@ -22,6 +22,9 @@ NO_DATA_HEX = "#8c8c8c"
 # special codes of continuous maps: "fails even when dry" and "holds even when saturated"
 FAILS_DRY_HEX = "#24092f"
 HOLDS_HEX = "#cfe0ee"
+# storm time to failure: fails before the storm; at least 32 CAM02-UCS units from every
+# colour of the ramp, the no-data grey and HOLDS_HEX, with or without simulated deficiencies
+FAILS_BEFORE_HEX = "#000000"
 PARTIAL_HEX = "#a9b89a"  # ratio map: within the design-rainfall table in one scenario only
 NO_RAIN_HEX = "#f4f6f8"  # return-period map: no rain starts failure (paler than HOLDS_HEX)
 RELIEF_LIGHTNESS = 8.0  # L* shift at full light or full shade (of 100)

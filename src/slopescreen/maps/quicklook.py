@@ -152,16 +152,21 @@ def draw_classes(
     return _draw(target, frame, lut[np.clip(classes, 0, len(names))], handles, legend_title)
 
 
+LEGEND_WIDTH = 46  # characters of a legend label before it wraps (the margin's width)
+
+
 def class_legend(
     names: list[str], no_data_label: str, colours: np.ndarray | None = None
 ) -> tuple[np.ndarray, list]:
     """(colour per class code 0..n, legend patches) of a class map: code 0 (no result)
     grey, then ``colours`` (default the class palette), one patch each, no data last."""
+    import textwrap
+
     from matplotlib.patches import Patch
 
     colours = class_rgb(len(names)) if colours is None else colours
     lut = np.vstack([hex_rgb(NO_DATA_HEX), colours])
-    labels = [*names, no_data_label]
+    labels = [textwrap.fill(n, LEGEND_WIDTH) for n in [*names, no_data_label]]
     return lut, [
         Patch(facecolor=lut[(i + 1) % len(lut)], edgecolor="0.3", label=label)
         for i, label in enumerate(labels)

@@ -566,7 +566,7 @@ def draw_scenario_maps(
     unit_areas: np.ndarray,
 ) -> dict[str, Path]:
     """Every map of one scenario in the house style; returns {what it shows: PNG path}."""
-    from slopescreen.maps.palette import FAILS_DRY_HEX, HOLDS_HEX
+    from slopescreen.maps.palette import FAILS_BEFORE_HEX, HOLDS_HEX
     from slopescreen.maps.quicklook import (
         CRITICAL_RECHARGE_SPECIALS,
         MapFrame,
@@ -630,7 +630,7 @@ def draw_scenario_maps(
             "hours after the storm began",
             specials=(
                 Special(NOT_BY_LATER, HOLDS_HEX, f"holds to {sc.storm.later_h:g} h (code -1)"),
-                Special(FAILS_BEFORE_STORM, FAILS_DRY_HEX, "fails before the storm (code -2)"),
+                Special(FAILS_BEFORE_STORM, FAILS_BEFORE_HEX, "fails before the storm (code -2)"),
             ),
             value_range=(0.0, sc.storm.later_h),
         )
