@@ -192,3 +192,20 @@ def test_reliability_on_flat_ground_is_certain_to_hold():
             assert not np.isnan(field).any()
         assert res.probability_of_failure[0] == 0.0
         assert 0.0 < res.probability_of_failure[1] < 1.0
+
+
+def test_back_analysed_depths_stay_within_the_soil_depth_range():
+    # The depth at which FS reaches 1 (critical_depth) is a solution of the back-analysis
+    # only between the shallowest slip plane and the range table's deepest soil (50 m):
+    # a cohesive soil on a gentle slope needs thousands of metres, which is no solution.
+    from slopescreen.back_analysis import value_at_failure
+
+    kw = dict(cohesion_kpa=np.array([2.0, 30.0, 0.1]), friction_deg=30.0,
+              unit_weight_kn_m3=18.0, depth_m=1.0)  # fmt: skip
+    slope = np.array([35.0, 30.05, 40.0])
+    raw = critical_depth(slope, kw["cohesion_kpa"], 30.0, 18.0, 0.0)
+    assert raw[1] > 1000.0 and 0.05 < raw[0] < 50.0 and raw[2] < 0.05
+    found = value_at_failure("depth_m", slope, 0.0, 100.0, **kw)
+    assert found[0] == pytest.approx(raw[0]) and np.isnan(found[1]) and np.isnan(found[2])
+    shallower = value_at_failure("depth_m", slope, 0.0, 100.0, min_slip_depth_m=0.001, **kw)
+    assert shallower[2] == pytest.approx(raw[2])

@@ -105,15 +105,8 @@ def _dems(tmp):
     out = {}
 
     def tif(name, z, dtype="float32", nodata=-9999.0, unit="m"):
-        path = tmp / f"{name}.tif"
-        with rasterio.open(
-            path, "w", driver="GTiff", width=z.shape[1], height=z.shape[0], count=1,
-            dtype=dtype, crs="EPSG:32633", transform=from_origin(X0, Y0, CELL, CELL),
-            nodata=nodata,
-        ) as dst:  # fmt: skip
-            dst.write(z.astype(dtype), 1)
-        out[name] = (path.name, unit)
-        return path
+        _raster(tmp / f"{name}.tif", z, X0, Y0, CELL, dtype, nodata, "EPSG:32633")
+        out[name] = (f"{name}.tif", unit)
 
     z = _surface(30, 36)
     tif("valley_lake_cliff", z)
@@ -143,12 +136,7 @@ def _dems(tmp):
     left = tmp / "left.tif"
     right = tmp / "right.tif"
     for path, part, x_off in ((left, z[:, :18], 0), (right, z[:, 18:], 18)):
-        with rasterio.open(
-            path, "w", driver="GTiff", width=part.shape[1], height=part.shape[0], count=1,
-            dtype="float32", crs="EPSG:32633",
-            transform=from_origin(X0 + x_off * CELL, Y0, CELL, CELL), nodata=-9999.0,
-        ) as dst:  # fmt: skip
-            dst.write(part.astype("float32"), 1)
+        _raster(path, part, X0 + x_off * CELL, Y0, CELL, "float32", -9999.0, "EPSG:32633")
     vrt = tmp / "mosaic.vrt"
     vrt.write_text(_vrt(z.shape, [(left.name, 0), (right.name, 18)], (18, 18)))
     out["vrt_mosaic"] = (vrt.name, "m")
@@ -183,10 +171,13 @@ def _real_dems(tmp):
 
 
 def _geographic(path, z, west, north, step, dtype, nodata):
+    _raster(path, z, west, north, step, dtype, nodata, "EPSG:4326")
+
+
+def _raster(path, z, west, north, step, dtype, nodata, crs):
     with rasterio.open(
         path, "w", driver="GTiff", width=z.shape[1], height=z.shape[0], count=1,
-        dtype=dtype, crs="EPSG:4326", transform=from_origin(west, north, step, step),
-        nodata=nodata,
+        dtype=dtype, crs=crs, transform=from_origin(west, north, step, step), nodata=nodata,
     ) as dst:  # fmt: skip
         dst.write(z.astype(dtype), 1)
 
@@ -230,11 +221,12 @@ def gauntlet(tmp_path_factory):
         _geographic(tmp / f"wet_{name}.tif", np.full((20, 20), 0.6), x0, y1,
                     (x1 - x0) / 19.0, "float32", -1.0)  # fmt: skip
     (tmp / "soils.csv").write_text(SOIL_TABLE)
-    with rasterio.open(
-        tmp / "wet.tif", "w", driver="GTiff", width=60, height=50, count=1, dtype="float32",
-        crs="EPSG:32633", transform=from_origin(X0 - 50, Y0 + 50, 10.0, 10.0), nodata=-1.0,
-    ) as dst:  # fmt: skip
-        dst.write(np.full((50, 60), 0.6, np.float32), 1)
+    header = SOIL_TABLE.splitlines()[0].split(",")
+    keep = [i for i, name in enumerate(header) if not name.endswith("_sd")]
+    plain = [",".join(line.split(",")[i] for i in keep) for line in SOIL_TABLE.splitlines()]
+    (tmp / "soils_plain.csv").write_text("\n".join(plain) + "\n")  # no spreads
+    wet = np.full((50, 60), 0.6)
+    _raster(tmp / "wet.tif", wet, X0 - 50, Y0 + 50, 10.0, "float32", -1.0, "EPSG:32633")
     durations, periods = [1.0, 6.0, 24.0], [2.0, 10.0, 100.0]
     grid = idf_formula(durations, periods, 30.0, 0.2, 0.3, 0.75)
     rows = ["duration_h,return_period_yr,intensity_mm_h"] + [
@@ -262,6 +254,18 @@ CASES = [
     "constant", "int16_voids", "feet", "esri_ascii", "vrt_mosaic", "real_fault",
     "real_coast_sea", "real_coast_void",
 ]  # fmt: skip
+
+
+def test_rain_scenarios_without_spreads_on_flat_and_cliff_terrain(gauntlet):
+    tmp, dems = gauntlet
+    dem, unit = dems["valley_lake_cliff"]
+    config = _scenario_file(tmp, "plain", dem, unit)
+    config.write_text(config.read_text().replace('"soils.csv"', '"soils_plain.csv"'))
+    run(config, tmp / "out_plain", progress=False, echo=lambda s: None)
+    assert not (tmp / "out_plain" / "rain" / "probability_of_failure.tif").exists()
+    with rasterio.open(tmp / "out_plain" / "rain" / "annual_failure_probability.tif") as src:
+        p = src.read(1, masked=True).compressed()
+    assert p.size > 0 and ((p >= 0) & (p <= 1)).all()
 
 
 @pytest.mark.parametrize("name", CASES)

@@ -500,6 +500,10 @@ RAINFALL_INPUTS = {
         _gridded({k: np.full((40, 30), v) for k, v in GRID.items()}),
         "i_1_2.tif: design rainfall intensity_mm_h raster does not cover the DEM",
     ),
+    "gridded idf in the wrong unit": (
+        _gridded({k: np.full((40, 50), v * 40.0) for k, v in GRID.items()}),
+        "i_1_2.tif: 1200 mm/h over 1 h at x = 500005, y = 5.0004e+06 is beyond any rain",
+    ),
     "gridded idf raster missing": (
         _rainfall("duration_h,return_period_yr,intensity_raster_mm_h\n1,2,nosuch.tif\n"),
         "idf.csv: line 2: intensity_raster_mm_h: file not found",
@@ -586,7 +590,7 @@ RAIN_PATH_INPUTS = {
     "dem spike": (_spike, "dem.tif: 1 elevations outside [-11000, 9000] m, e.g. 1e+30 m"),
     "series unknown": (
         _rainfall(table='idf_table = "idf.csv"\nseries = "annual"\n'),
-        '[rainfall_frequency] series: must be "annual_maximum" or "partial_duration"',
+        "[rainfall_frequency] series: must be one of annual_maximum, partial_duration, got",
     ),
     "min slip depth too deep": (
         lambda f: _edit(
@@ -1066,3 +1070,33 @@ def test_inventory_repairs_and_conventions_are_said(tmp_path, capsys):
     assert "1 invalid geometries (self-intersecting polygons, say) repaired" in out
     assert "all 2 features share the key 'same'" in out
     assert "2 dates written with slashes read as day/month/year" in out
+
+
+def test_a_run_that_fails_midway_leaves_the_previous_run_whole(tmp_path, monkeypatch):
+    # a failure only the run can meet (a full disk, say) after its first scenario has been
+    # written: the previous run's files come back, byte for byte, and no mixed folder stays
+    import slopescreen.maps.engine as engine
+
+    toml = _region(tmp_path / "region")
+    out = tmp_path / "out"
+    run(toml, out, progress=False, echo=lambda s: None)
+    before = _files(out)
+    real = engine.run_scenario
+    calls = []
+
+    def second_fails(*args, **kwargs):
+        calls.append(1)
+        if len(calls) == 2:
+            raise OSError(28, "No space left on device")
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(engine, "run_scenario", second_fails)
+    _edit(toml, "recharge_mm_day = 40.0", "recharge_mm_day = 20.0")  # new results to write
+    with pytest.raises(OSError, match="No space left"):
+        run(toml, out, progress=False, echo=lambda s: None)
+    assert len(calls) == 2
+    assert _files(out) == before
+    assert not [p for p in out.iterdir() if p.name.startswith(".slopescreen-")]
+    monkeypatch.setattr(engine, "run_scenario", real)
+    run(toml, out, progress=False, echo=lambda s: None)  # the folder is usable again
+    assert _files(out) != before

@@ -407,6 +407,15 @@ class _Reader:
         except InputError as exc:
             raise self.fail(table, key, str(exc)) from None
 
+    def choice(
+        self, table: str, data: dict[str, Any], key: str, options: Iterable[str], default: str
+    ) -> str:
+        """A text that must be one of ``options``."""
+        value = self.text(table, data, key, default)
+        if value not in options:
+            raise self.fail(table, key, f"must be one of {', '.join(options)}, got {_shown(value)}")
+        return value
+
     def text(self, table: str, data: dict[str, Any], key: str, default: str | None = None) -> str:
         value = data.get(key, default)
         if value is None:
@@ -520,18 +529,8 @@ def load_config(path: str | Path) -> Config:
 
     rel = r.table("", data, "reliability")
     r.known("reliability", rel, allowed("reliability"))
-    method = r.text("reliability", rel, "method", "taylor")
-    if method not in RELIABILITY_METHODS:
-        raise r.fail(
-            "reliability",
-            "method",
-            f"must be one of {', '.join(RELIABILITY_METHODS)}, got {method!r}",
-        )
-    fs_dist = r.text("reliability", rel, "fs_distribution", "lognormal")
-    if fs_dist not in ("normal", "lognormal"):
-        raise r.fail(
-            "reliability", "fs_distribution", f"must be normal or lognormal, got {fs_dist!r}"
-        )
+    method = r.choice("reliability", rel, "method", RELIABILITY_METHODS, "taylor")
+    fs_dist = r.choice("reliability", rel, "fs_distribution", ("lognormal", "normal"), "lognormal")
     _refuse_unused_reliability(r, rel, method, raw_storms=_has_storm(data.get("scenario")))
     reliability = ReliabilitySpec(
         method=method,
@@ -612,13 +611,7 @@ def _rainfall_frequency(
 
     path = r.file("rainfall_frequency", table, "idf_table")
     durations, periods, grid, rasters, depths = read_idf(path)
-    series = r.text("rainfall_frequency", table, "series", "annual_maximum")
-    if series not in SERIES_KINDS:
-        raise r.fail(
-            "rainfall_frequency",
-            "series",
-            f'must be "annual_maximum" or "partial_duration", got {_shown(series)}',
-        )
+    series = r.choice("rainfall_frequency", table, "series", SERIES_KINDS, "annual_maximum")
     breaks = table.get("aep_breaks", [0.1, 0.01, 0.001])
     shape = "a list of 1 to 8 falling annual probabilities in (0, 1)"
     if (

@@ -13,6 +13,7 @@ What a run guarantees (README, "What a run guarantees"):
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import platform
@@ -238,11 +239,45 @@ def _check_elevations(
     bad = ok & ((z < low) | (z > high))
     if bad.any():
         r, c = np.argwhere(bad)[0]
-        x, y = grid.transform * (cols.start + c + 0.5, rows.start + r + 0.5)
+        x, y = grid.centre_xy(rows.start + r, cols.start + c)
         raise InputError(
             f"{dem}: {int(bad.sum())} elevations outside [{low:g}, {high:g}] m, e.g. "
             f"{z[r, c]:g} m at x = {x:g}, y = {y:g} (a spike, or an undeclared no-data value?)"
         )
+
+
+RUN_FILES = ("manifest.json", "report.html")  # rewritten by every run
+
+
+@contextlib.contextmanager
+def _previous_restored_on_failure(
+    out: Path, subfolders: Iterable[str], staging: Path
+) -> Iterator[None]:
+    """Move what this run rewrites (its manifest and report, the terrain, comparison and
+    chosen scenario folders) into the private ``staging`` folder; if the run then fails,
+    remove what it wrote under those names and put the previous ones back, so a failed run
+    never leaves a mixed folder. On success the previous ones go with ``staging``. (A
+    killed process cannot restore: its manifest says which scenarios it finished.)"""
+    aside = staging / "previous"
+    aside.mkdir()
+    names = [*RUN_FILES, *subfolders]
+    moved = []
+    for name in names:
+        if (out / name).exists():
+            os.replace(out / name, aside / name)
+            moved.append(name)
+    try:
+        yield
+    except BaseException:
+        for name in names:
+            path = out / name
+            if path.is_dir() and not path.is_symlink():
+                shutil.rmtree(path)
+            elif path.exists() or path.is_symlink():
+                path.unlink()
+        for name in moved:
+            os.replace(aside / name, out / name)
+        raise
 
 
 def _check_subfolders(out: Path, names: Iterable[str]) -> None:
@@ -301,10 +336,13 @@ def run(
         with (
             private_folder(out) as staging,
             tile_runner(workers, scheduler, echo) as (runner, numba_threads),
+            contextlib.ExitStack() as stack,
         ):
             inputs = prepare(cfg, codes_target=staging / "soil_unit.tif")
             timings.add("read and check inputs", started)
-            # nothing in the output folder has changed so far; from here on it says its state
+            # nothing in the output folder has changed so far; from here on it says its state,
+            # and a failure puts the previous run's outputs back (_previous_restored_on_failure)
+            stack.enter_context(_previous_restored_on_failure(out, subfolders, staging))
             state.missing = [s.name for s in chosen]
             write_state(out, cfg, inputs, chosen, timings, state)
             if cfg.report or (out / "report.html").exists():
@@ -314,38 +352,38 @@ def run(
             steps = _Steps(timings, state, echo, progress, runner, numba_threads)
             _terrain_and_scenarios(cfg, inputs, chosen, out, cache, steps)
             _known_landslides(cfg, inputs, out, steps)
-        started = time.perf_counter()
-        state.finished_utc = utc_now()
-        if cfg.report:
-            small, changes = _comparison(cfg, inputs.grid, out, state)
-            facts = RunFacts(
-                state.started_utc,
-                state.finished_utc,
-                __version__,
-                state.command,
-                inputs.hashes,
-                void_note(inputs.voids),
-            )
-            write_report(
-                out / "report.html",
-                cfg,
-                inputs.grid,
-                inputs.soils,
-                stability_class_names(cfg.fs_breaks),
-                state.summaries,
-                facts,
-                small,
-                changes,
-                extras,
-                validation_section(state.validation, out),
-            )
-            state.outputs.append("report.html")
-        else:
-            (out / "report.html").unlink(missing_ok=True)
-            shutil.rmtree(out / COMPARISON_FOLDER, ignore_errors=True)
-        timings.add("report", started)
-        state.complete = True
-        target = write_state(out, cfg, inputs, chosen, timings, state)
+            started = time.perf_counter()
+            state.finished_utc = utc_now()
+            if cfg.report:
+                small, changes = _comparison(cfg, inputs.grid, out, state)
+                facts = RunFacts(
+                    state.started_utc,
+                    state.finished_utc,
+                    __version__,
+                    state.command,
+                    inputs.hashes,
+                    void_note(inputs.voids),
+                )
+                write_report(
+                    out / "report.html",
+                    cfg,
+                    inputs.grid,
+                    inputs.soils,
+                    stability_class_names(cfg.fs_breaks),
+                    state.summaries,
+                    facts,
+                    small,
+                    changes,
+                    extras,
+                    validation_section(state.validation, out),
+                )
+                state.outputs.append("report.html")
+            else:
+                (out / "report.html").unlink(missing_ok=True)
+                shutil.rmtree(out / COMPARISON_FOLDER, ignore_errors=True)
+            timings.add("report", started)
+            state.complete = True
+            target = write_state(out, cfg, inputs, chosen, timings, state)
     echo(f"report: {out / 'report.html'}; manifest: {target}")
     return target
 

@@ -38,6 +38,10 @@ class Grid:
     def spacing_note(self) -> str:
         return self.ground.note
 
+    def centre_xy(self, row: int, col: int) -> tuple[float, float]:
+        """Map coordinates of the centre of the cell (row, col): where an error points."""
+        return self.transform * (col + 0.5, row + 0.5)  # type: ignore[operator]
+
 
 MAX_CELLS = 2**31 - 1  # routing is tiled; whole-grid steps are checked to 4 x 10^8 cells
 

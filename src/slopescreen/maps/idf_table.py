@@ -21,7 +21,7 @@ import numpy as np
 
 from slopescreen.errors import InputError
 from slopescreen.maps.grid import Grid
-from slopescreen.rainfall_frequency import check_axes, check_table
+from slopescreen.rainfall_frequency import check_axes, check_table, plausible_intensity_mm_h
 from slopescreen.textfiles import read_text
 
 NUMBERS = ("intensity_mm_h", "depth_mm")
@@ -126,7 +126,9 @@ def check_gridded(
     where: Path,
 ) -> None:
     """Every raster readable, georeferenced and covering every DEM cell with a value > 0;
-    in every cell, intensity rising with return period and falling with duration. One
+    in every cell, intensity plausible for its duration
+    (:func:`slopescreen.rainfall_frequency.plausible_intensity_mm_h`), rising with return
+    period and falling with duration. One
     InputError naming the raster(s) and the place otherwise."""
     from slopescreen.maps.rasters import read_on_grid, windows
 
@@ -137,6 +139,16 @@ def check_gridded(
     for r, c in windows(grid):
         block = gridded_block(rasters, durations_h, depths, grid, r, c)
         cells = needed(r, c)
+        limit = plausible_intensity_mm_h(np.asarray(durations_h, float))[:, None, None, None]
+        beyond = (block > limit) & cells[None, None]
+        if beyond.any():
+            i, j, y, x = np.argwhere(beyond)[0]
+            gx, gy = grid.centre_xy(r.start + y, c.start + x)
+            raise InputError(
+                f"{rasters[i][j]}: {block[i, j, y, x]:g} mm/h over {durations_h[i]:g} h at "
+                f"x = {gx:.6g}, y = {gy:.6g} is beyond any rain of that duration (above "
+                f"{float(limit[i, 0, 0, 0]):.0f} mm/h); in mm/h (or mm for depth rasters)?"
+            )
         rises = np.diff(block, axis=1) > 0.0
         falls = np.diff(block, axis=0) < 0.0
         for ok, axis in ((rises, 1), (falls, 0)):
@@ -144,7 +156,7 @@ def check_gridded(
             if bad.any():
                 i, j, y, x = np.argwhere(bad)[0]
                 a, b = (i, j), (i + 1, j) if axis == 0 else (i, j + 1)
-                gx, gy = grid.transform * (c.start + x + 0.5, r.start + y + 0.5)
+                gx, gy = grid.centre_xy(r.start + y, c.start + x)
                 rule = "fall with duration" if axis == 0 else "rise with return period"
                 raise InputError(
                     f"{where}: intensity must {rule}: {rasters[a[0]][a[1]].name} "

@@ -202,7 +202,7 @@ def read_on_grid(
                     gap = needed(r, c) & ~finite
                     if gap.any():
                         i, j = np.argwhere(gap)[0]
-                        x, y = grid.transform * (c.start + j + 0.5, r.start + i + 0.5)
+                        x, y = grid.centre_xy(r.start + i, c.start + j)
                         raise InputError(
                             f"{path}: {what} raster does not cover the DEM {grid.path.name}: "
                             f"no value at x = {x:.6g}, y = {y:.6g} (row {r.start + i}, "
