@@ -18,18 +18,23 @@ depth:
   psi_c <= beta Z (the hydrostatic cap) and I_c <= K_z (the rest would run off).
 
 With ``specific_catchment_area_m`` given, the water table can rise no higher than the steady
-state of the same rain (Montgomery & Dietrich 1994 with recharge R = I: m_ss = min(1,
-I a / (T sin alpha)), T = K z cos alpha): failure at Z then also needs I >= I_ss(Z), the
-intensity whose steady water table gives psi_c at Z. So as the duration grows, I_c tends to
-the critical steady recharge of :func:`slopescreen.scenario.critical_recharge_mm_day`
-divided by 24 (mm/day to mm/h) where the base of the soil governs; as it shrinks, G_max
-tends to 0 and I_c exceeds K_z (code ``NO_INTENSITY_FAILS``).
+state of the rain added to the initial water table (Montgomery & Dietrich 1994 is linear in
+recharge: m_ss = m_0 + I a / (T sin alpha), T = K z cos alpha, m_0 the initial table's
+share of the soil depth), never below the initial state: failure at Z then also needs
+I >= I_ss(Z), the intensity whose steady rise above m_0 gives psi_c at Z. The cap only
+removes water, so it never lowers I_c. As the duration shrinks, G_max tends to 0 and I_c
+exceeds K_z (code ``NO_INTENSITY_FAILS``); as it grows without bound from a table at the
+base, I_c tends to the critical steady recharge of
+:func:`slopescreen.scenario.critical_recharge_mm_day` divided by 24 (slowly: Iverson's
+response has no lateral inflow).
 
-The minimum over depth is bracketed on ``DEPTH_SCAN`` planes (from ``SURFACE_FRACTION`` of
-the soil depth to its base) and refined by golden-section search within the bracket of the
-lowest scanned plane (``REFINE_STEPS`` steps: the bracket of two plane spacings shrinks by
-0.618^30, about 5e-7); tested against a dense scan of the same closed form and against
-bisection on :func:`slopescreen.storm.storm_factor_of_safety`.
+The minimum over depth is :func:`slopescreen.storm.depth_minimum` on ``DEPTH_SCAN`` planes
+from the shallowest slip plane (``min_slip_depth_m``, the storm's) to the base, the
+``DEPTH_BRACKETS`` lowest local minima refined by golden section (``REFINE_STEPS``); "fails
+before any rain" is the storm search's own initial minimum, so storms and critical
+intensities agree. Tested against a dense scan of the same closed form, against bisection
+on :func:`slopescreen.storm.storm_factor_of_safety`, and against the storm search on 3,000
+random cells (tests/test_storm_search.py).
 
 References
 ----------

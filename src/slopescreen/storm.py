@@ -426,6 +426,13 @@ class _Columns:
         self.c, self.tan_phi = cells(c), cells(np.tan(np.radians(phi)))
         self.k_h = cells(col.seismic)
 
+    def subset(self, cells: np.ndarray) -> _Columns:
+        """The same columns restricted to ``cells`` (a boolean mask over the cells)."""
+        sub = _Columns.__new__(_Columns)
+        for name, value in vars(self).items():
+            sub.__dict__[name] = value[cells] if isinstance(value, np.ndarray) else value
+        return sub
+
     def fs_at_head(self, z: np.ndarray, psi: np.ndarray) -> np.ndarray:
         """FS on the plane at depth z under pressure head psi; +inf where nothing drives."""
         m = np.clip(np.maximum(psi, 0.0) / (z * self.cos * self.cos), 0.0, 1.0)
@@ -575,9 +582,7 @@ def _first_failure(
     before the peak is bisected (the earlier end of the bracket kept); the earliest of
     ``FAILURE_PLANES`` planes and the critical one, then golden-section search over depth
     around the earliest plane."""
-    sub = _Columns.__new__(_Columns)
-    for name, value in vars(cols).items():
-        sub.__dict__[name] = value[todo] if isinstance(value, np.ndarray) else value
+    sub = cols.subset(todo)
 
     def crossing(z: np.ndarray, hi: np.ndarray | None = None) -> np.ndarray:
         hi = sub.peak_time_h(z) if hi is None else hi
