@@ -278,17 +278,23 @@ RAINFALL_CHANGES = {
 }
 
 
-def test_every_rainfall_key_changes_the_outputs(region, tmp_path):
-    from slopescreen.maps.scenario_schema import allowed
+def _write_idf(region):
+    """Two invented power-law design-rainfall tables (idf.csv, idf2.csv) in the region."""
     from slopescreen.rainfall_frequency import idf_formula
 
-    assert set(RAINFALL_CHANGES) == allowed("rainfall_frequency") | allowed("scenario.rainfall")
     for name, a in (("idf.csv", 18.0), ("idf2.csv", 30.0)):
         durations, periods = (1.0, 6.0, 24.0), (2.0, 10.0, 100.0)
         grid = idf_formula(durations, periods, a, 0.2, 0.3, 0.75)
         rows = [f"{d:g},{t:g},{grid[i, j]:.4f}" for i, d in enumerate(durations)
                 for j, t in enumerate(periods)]  # fmt: skip
         (region / name).write_text("duration_h,return_period_yr,intensity_mm_h\n" + "\n".join(rows))
+
+
+def test_every_rainfall_key_changes_the_outputs(region, tmp_path):
+    from slopescreen.maps.scenario_schema import allowed
+
+    assert set(RAINFALL_CHANGES) == allowed("rainfall_frequency") | allowed("scenario.rainfall")
+    _write_idf(region)
     head = _text("uniform").split("[[scenario]]")[0]
     base_text = head + RAINFALL.format(extra="", table="")
     base = _run(region, tmp_path, "rain_base", base_text)
@@ -317,6 +323,7 @@ def test_the_shallowest_slip_plane_changes_storms_and_rainfall(region, tmp_path)
         base = _run(region, tmp_path, "slip_base", base_text)
         deeper = base_text + "\n[slip_planes]\nmin_slip_depth_m = 0.5\n"
         assert _run(region, tmp_path, "slip_deeper", deeper) != base
+    _write_idf(region)
     head = _text("uniform", soil=soil).split("[[scenario]]")[0]
     tail = "[scenario.soil.A]\n" + soil + "\n"
     rain = head + RAINFALL.format(extra="", table="") + tail
