@@ -442,11 +442,15 @@ class _Columns:
         fs = ratio_or_inf(resisting_stress(self.c, self.tan_phi, sigma, u), tau)
         return np.where(np.isnan(fs), np.inf, fs)
 
+    def _head_of(self, z: np.ndarray, response: np.ndarray) -> np.ndarray:
+        """psi = (Z - d) beta + Z (I_Z/K_z) G, capped at beta Z, for a response G."""
+        return np.minimum((z - self.d) * self.beta + z * self.ratio * response, self.beta * z)
+
     def head(self, z: np.ndarray, t_h: float | np.ndarray) -> np.ndarray:
         t = np.asarray(t_h, float) * SECONDS_PER_HOUR
         scale = z * z / self.d_hat
         response = response_function(t / scale) - response_function((t - self.duration) / scale)
-        return np.minimum((z - self.d) * self.beta + z * self.ratio * response, self.beta * z)
+        return self._head_of(z, response)
 
     def fs(self, z: np.ndarray, t_h: float | np.ndarray) -> np.ndarray:
         """FS at vertical depth z and time t (h); +inf where nothing drives (never NaN)."""
@@ -462,8 +466,7 @@ class _Columns:
         rises, and the head is highest at :meth:`peak_time_h` (exact in time)."""
         scale = self.d_hat / (z * z)
         g = peak_response(self.duration * scale, self.window * scale)
-        psi = np.minimum((z - self.d) * self.beta + z * self.ratio * g, self.beta * z)
-        return self.fs_at_head(z, psi)
+        return self.fs_at_head(z, self._head_of(z, g))
 
 
 def storm_summary(

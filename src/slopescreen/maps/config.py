@@ -43,7 +43,7 @@ from typing import Any
 from slopescreen._checks import checked
 from slopescreen.errors import InputError
 from slopescreen.maps.scenario_schema import SCHEMA, allowed
-from slopescreen.rainfall_frequency import SERIES_KINDS
+from slopescreen.rainfall_frequency import SERIES_KINDS, hazard_class_names, table_reach_yr
 from slopescreen.ranges import RANGES
 from slopescreen.stability_classes import DEFAULT_FS_BREAKS, check_breaks
 from slopescreen.storm import MIN_SLIP_DEPTH_M
@@ -148,6 +148,17 @@ class RainfallFrequency:
     def files(self) -> list[Path]:
         """The table and the rasters it names."""
         return [self.idf_table, *(p for row in self.rasters for p in row)]
+
+    @property
+    def reach_yr(self) -> float | None:
+        """The table's longest return period where the hazard breaks reach beyond it (cells
+        needing rarer rain get the class "beyond the design-rainfall table"), else None."""
+        return table_reach_yr(self.aep_breaks, self.return_periods_yr[-1], self.series)
+
+    @property
+    def hazard_names(self) -> list[str]:
+        """The hazard classes' names, most frequent first (codes 1..n; 0 is no data)."""
+        return hazard_class_names(self.aep_breaks, self.reach_yr)
 
 
 @dataclass(frozen=True)
@@ -287,8 +298,6 @@ class Config:
         rain = self.rainfall_frequency
         if rain is None:
             return []
-        from slopescreen.rainfall_frequency import table_reach_yr
-
         out = []
         if not rain.series_stated:
             out.append(
@@ -296,7 +305,7 @@ class Config:
                 f"{rain.idf_table.name} are read as annual maxima (annual probability 1/T, "
                 'the higher reading); write series = "partial_duration" if they are not'
             )
-        reach = table_reach_yr(rain.aep_breaks, rain.return_periods_yr[-1], rain.series)
+        reach = rain.reach_yr
         if reach is not None:
             out.append(
                 f"[rainfall_frequency] aep_breaks reach beyond {rain.idf_table.name} (longest "

@@ -71,6 +71,9 @@ def by_kernel(
     t = job.tables if parameters is None else parameters
     out = np.empty(tan.size)
     duration_s = np.atleast_1d(np.asarray(duration_h, np.float64)) * 3600.0
+    search = rt.kernel_search()
+    if holds_before_rain:
+        search[0] = 0  # no planes for the minimum before rain: the kernel skips it
     critical_intensity_by_unit(
         duration_s,
         duration_s + table.after_h * 3600.0,
@@ -89,7 +92,7 @@ def by_kernel(
         spec.long_term_infiltration_mm_day / 1000.0 / 86400.0,
         float(job.scenario.seismic_coefficient),
         9.81,
-        rt.kernel_search() * np.array([not holds_before_rain, 1, 1, 1, 1, 1]),
+        search,
         spec.min_slip_depth_m,
         rt._LOG_STORM,
         rt._PEAK_OFFSET,

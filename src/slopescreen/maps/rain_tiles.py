@@ -16,14 +16,6 @@ if TYPE_CHECKING:
     from slopescreen.maps.scenario_tiles import TileJob
 
 
-def reach_yr(table: RainfallFrequency) -> float | None:
-    """The table's longest return period where the hazard breaks reach beyond it (cells
-    needing rarer rain get the class "beyond the design-rainfall table"), else None."""
-    from slopescreen.rainfall_frequency import table_reach_yr
-
-    return table_reach_yr(table.aep_breaks, table.return_periods_yr[-1], table.series)
-
-
 def intensity_name(duration_h: float) -> str:
     """The raster of the critical intensity of one duration."""
     return f"critical_intensity_{duration_h:g}h_mm_h.tif"
@@ -98,7 +90,7 @@ def rainfall_tile(
             refined, table.return_periods_yr[0], table.series, table.return_periods_yr[-1]
         )
         out["hazard_classes"] = rf.hazard_class(
-            out["annual_probability"], table.aep_breaks, refined, reach_yr(table)
+            out["annual_probability"], table.aep_breaks, refined, table.reach_yr
         )
     else:
         out |= base
@@ -106,7 +98,7 @@ def rainfall_tile(
         spread = _annual_with_spread(job, block, design, found, dry_probability)
         out["annual_probability_spread"] = spread
         classes = rf.hazard_class(spread, table.aep_breaks)
-        if (beyond := reach_yr(table)) is not None:  # below the table's reach: beyond it
+        if (beyond := table.reach_yr) is not None:  # below the table's reach: beyond it
             floor = rf.annual_exceedance(beyond, table.series)
             classes = np.where(spread < floor, len(table.aep_breaks) + 2, classes)
         out["hazard_classes_spread"] = classes.astype(np.uint8)
@@ -128,7 +120,7 @@ def _frequency_step(
         float(rf.annual_exceedance(periods[0], table.series)),
         float(rf.annual_exceedance(periods[-1], table.series)),
         float(table.series == "partial_duration"),
-        float(reach_yr(table) is not None),
+        float(table.reach_yr is not None),
     ]
     frequency_by_cell(  # the breaks were checked when the scenario file was read
         found,

@@ -19,7 +19,7 @@ from slopescreen.maps.config import Config, Scenario
 from slopescreen.maps.grid import Grid
 from slopescreen.maps.intensity_tables import table_settings, tables_for, unit_cells
 from slopescreen.maps.output_names import LEGACY_SCENARIO_FILES, SCENARIO_OUTPUTS
-from slopescreen.maps.rain_tiles import intensity_name, reach_yr
+from slopescreen.maps.rain_tiles import intensity_name
 from slopescreen.maps.rasters import RasterSink, all_or_nothing, windows
 from slopescreen.maps.runners import Runner, serial_runner
 from slopescreen.maps.scenario_tiles import (
@@ -196,7 +196,7 @@ def rainfall_sinks(
         )
         for d in table.durations_h
     }
-    names = rf.hazard_class_names(table.aep_breaks, reach_yr(table))
+    names = table.hazard_names
     period_codes = {
         "code_more_frequent": f"{rf.MORE_FREQUENT:g} (triggered by rain more frequent than "
         f"{table.return_periods_yr[0]:g} yr)",
@@ -452,12 +452,8 @@ def run_scenario(
         pf_areas = [float(a) / 10_000.0 for a in pf_table[1:, 1:].sum(axis=0)]
     hazard_areas, hazard_names = None, []
     if hazard_tables and cfg.rainfall_frequency is not None:
-        from slopescreen.rainfall_frequency import hazard_class_names
-
         hazard_table = np.sum(hazard_tables, axis=0)
-        hazard_names = hazard_class_names(
-            cfg.rainfall_frequency.aep_breaks, reach_yr(cfg.rainfall_frequency)
-        )
+        hazard_names = cfg.rainfall_frequency.hazard_names
         rows_out += summary_rows(
             hazard_table, units.keys, hazard_names, sc.name, "annual_failure_probability"
         )
@@ -676,7 +672,7 @@ def draw_rainfall_maps(
             out / "hazard_class.png",
             f,
             read_for_map(out / "hazard_class.tif", f),
-            rf.hazard_class_names(table.aep_breaks, reach_yr(table)),
+            table.hazard_names,
             "how often rain starts failure",
         )
     }

@@ -321,10 +321,8 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     cut = read_block(job.cut_off, rows, cols) == 1
     add_areas(cut_table, codes * (valid & cut), out["classes"], cell_area)
     out["cut_table"] = cut_table
-    from slopescreen.maps.rain_tiles import reach_yr
-
-    n_hazard = 0 if job.rainfall is None else len(job.rainfall.aep_breaks) + 2
-    n_hazard += 0 if job.rainfall is None or reach_yr(job.rainfall) is None else 1
+    # one column per hazard class and one for no data (code 0)
+    n_hazard = 0 if job.rainfall is None else len(job.rainfall.hazard_names) + 1
     if "hazard_classes" in out:
         hazard_table = np.zeros((job.n_units + 1, n_hazard))
         add_areas(hazard_table, codes * valid, out["hazard_classes"], cell_area)
