@@ -69,9 +69,9 @@ def _dense(soil, top, slope, c, phi, gamma, gamma_sat, d, rain_m_s, k, d0, dur_s
         out_first[i] = first
 
 
-def _cells(n, seed):
+def _cells(n, draw):
     """Random columns: c' = 0 on 30%, slopes 0-60 degrees, storms 0.01 to 1000 h."""
-    rng = np.random.default_rng(seed)
+    rng = np.random.default_rng(draw)
     cohesion = np.where(rng.random(n) < 0.3, 0.0, rng.uniform(0.0, 10.0, n))
     gamma = rng.uniform(15.0, 20.0, n)
     return {
@@ -97,7 +97,7 @@ def _storm(group):
 @pytest.fixture(scope="module")
 def searched():
     """Each cell's storm summary and critical intensity, and the dense reference."""
-    cells = _cells(CELLS, seed=23)
+    cells = _cells(CELLS, draw=23)
     n = cells["soil"].size
     duration, later = np.empty(n), np.empty(n)
     found = {k: np.empty(n) for k in ("fs", "initial", "ttf", "ic")}
