@@ -327,7 +327,7 @@ def hidden_fs() -> np.ndarray:
     import tempfile
     import tomllib
 
-    from slopescreen.maps.engine import run
+    from slopescreen.maps.region.engine import run
 
     with tempfile.TemporaryDirectory() as work:
         folder = Path(work)

@@ -18,7 +18,7 @@ from openpyxl import Workbook  # noqa: E402
 from openpyxl.styles import Font  # noqa: E402
 
 from slopescreen.cautions import CAUTIONS  # noqa: E402
-from slopescreen.labtests import read_lab_tests  # noqa: E402
+from slopescreen.maps.io.labtests import read_lab_tests  # noqa: E402
 
 DEFAULT_OUT = HERE / "slopescreen_demo.xlsx"
 LAB_TESTS = HERE.parent / "demo_region" / "lab_tests.csv"

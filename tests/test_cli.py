@@ -107,7 +107,11 @@ def test_help_is_plain_text_with_defaults(command, capsys):
     if command == "calibrate":
         assert "(default 0.2)" in text and "0.5:1.5:0.05" in text
     if command == "run":
-        from slopescreen.maps.output_names import RUN_OUTPUTS, SCENARIO_OUTPUTS, TERRAIN_OUTPUTS
+        from slopescreen.maps.outputs.output_names import (
+            RUN_OUTPUTS,
+            SCENARIO_OUTPUTS,
+            TERRAIN_OUTPUTS,
+        )
 
         for name, _, _ in (*TERRAIN_OUTPUTS, *SCENARIO_OUTPUTS, *RUN_OUTPUTS):
             assert name in text
@@ -293,7 +297,7 @@ def test_one_range_per_quantity_in_shell_soil_table_and_cells(tmp_path, capsys):
                  "--friction-deg", "30", "--unit-weight", "19"])  # fmt: skip
     assert code == 2 and "depth_m must be in [0.05, 50] m, got 0" in capsys.readouterr().err
     assert "unit_weight_kn_m3 must be in [5, 30] kN/m3" in udf.SS_FS(30, 1.5, 2, 30, 190)
-    from slopescreen.maps.config import SOIL_FIELDS
+    from slopescreen.maps.region.config import SOIL_FIELDS
 
     assert SOIL_FIELDS["unit_weight_kn_m3"][:2] == (5.0, 30.0)
 

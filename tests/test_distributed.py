@@ -9,8 +9,8 @@ import numpy as np
 import pytest
 import rasterio
 
-from slopescreen.maps import rasters
-from slopescreen.maps.engine import run
+from slopescreen.maps.io import rasters
+from slopescreen.maps.region.engine import run
 
 ROOT = Path(__file__).resolve().parents[1]
 SCENARIOS = ROOT / "demo_region" / "quillbrook_scenarios.toml"

@@ -17,11 +17,11 @@ from region_files import PARAMS, write_raster
 from shapely.geometry import box
 
 from slopescreen.errors import InputError
-from slopescreen.maps.engine import run
-from slopescreen.maps.grid import read_grid
-from slopescreen.maps.ground import MAX_INTERPOLATION_ERROR, _Measure, ground_geometry
-from slopescreen.maps.quicklook import scale_bar
-from slopescreen.maps.terrain_cache import terrain_products
+from slopescreen.maps.io.grid import read_grid
+from slopescreen.maps.outputs.quicklook import scale_bar
+from slopescreen.maps.region.engine import run
+from slopescreen.maps.region.terrain_cache import terrain_products
+from slopescreen.maps.terrain.ground import MAX_INTERPOLATION_ERROR, _Measure, ground_geometry
 
 GEOD = Geod(ellps="WGS84")
 WEST, NORTH, STEP, ROWS, COLS = 10.40, 49.10, 0.002, 100, 150  # about 22 km x 22 km at 49 N

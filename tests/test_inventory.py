@@ -17,8 +17,8 @@ from sklearn.metrics import roc_auc_score
 
 from slopescreen import factor_of_safety
 from slopescreen.cli.main import main
-from slopescreen.maps.engine import run
-from slopescreen.outputs import file_sha256
+from slopescreen.maps.io.safe_writes import file_sha256
+from slopescreen.maps.region.engine import run
 
 ORIGIN = (500000.0, 5000400.0)  # upper-left corner of region_files' DEM, 10 m cells
 
@@ -194,9 +194,9 @@ def test_polygons_mark_their_highest_cells_or_all(tmp_path, capsys):
     assert cells["inputs_sha256"]["inventory"] == file_sha256(tmp_path / "r" / "slide.geojson")
     # the reader's five cells are the five highest of the rectangle (rows 20-25, columns
     # 10-13) by the DEM's own values
-    from slopescreen.maps.config import InventorySpec
-    from slopescreen.maps.grid import read_grid
-    from slopescreen.maps.inventory import read_inventory
+    from slopescreen.maps.inventory.reading import read_inventory
+    from slopescreen.maps.io.grid import read_grid
+    from slopescreen.maps.region.config import InventorySpec
 
     inv = read_inventory(
         InventorySpec(tmp_path / "r" / "slide.geojson"), read_grid(tmp_path / "r" / "dem.tif")
@@ -330,7 +330,7 @@ def test_calibration_on_a_dask_cluster_matches_serial(small_run, tmp_path, capsy
 
 @pytest.mark.parametrize("n_thresholds", [0, 1, 7, 3000])
 def test_compiled_masses_equal_the_numpy_reference(n_thresholds):
-    from slopescreen.maps.kernels import add_masses
+    from slopescreen.maps.region.kernels import add_masses
     from slopescreen.validation import masses_around
 
     rng = np.random.default_rng(n_thresholds)
@@ -352,7 +352,7 @@ def test_compiled_masses_equal_the_numpy_reference(n_thresholds):
 def test_a_multiplier_grid_too_fine_is_refused_before_it_is_built():
     # 0.5:1.5:1e-9 would be 10^9 multipliers (7.45 GiB): one line, no MemoryError
     from slopescreen.errors import InputError
-    from slopescreen.maps.calibration import parse_grid
+    from slopescreen.maps.inventory.calibration import parse_grid
 
     with pytest.raises(InputError, match="at most 201 values, got 1,000,000,001"):
         parse_grid("0.5:1.5:1e-9")

@@ -18,7 +18,7 @@ import rasterio
 from slopescreen import factor_of_safety, fit_envelope
 from slopescreen.cli.main import main
 from slopescreen.hydrology import steady_state_saturation
-from slopescreen.maps.engine import run
+from slopescreen.maps.region.engine import run
 
 ROOT = Path(__file__).resolve().parents[1]
 REGION = ROOT / "demo_region"

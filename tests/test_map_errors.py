@@ -14,7 +14,7 @@ from region_files import PARAMS, SCENARIO_TEXT, _dem, _polygons
 from shapely.geometry import box
 
 from slopescreen.cli.main import main
-from slopescreen.maps import scenario_run, scenario_tiles
+from slopescreen.maps.region import scenario_run, scenario_tiles
 
 
 @pytest.fixture

@@ -15,8 +15,8 @@ from colorspacious import cspace_convert
 from matplotlib.image import imread
 from region_files import write_raster
 
-from slopescreen.maps.grid import read_grid
-from slopescreen.maps.palette import (
+from slopescreen.maps.io.grid import read_grid
+from slopescreen.maps.outputs.palette import (
     CLASS_HEX,
     NO_DATA_HEX,
     class_rgb,
@@ -25,7 +25,7 @@ from slopescreen.maps.palette import (
     shade,
     srgb_to_lab,
 )
-from slopescreen.maps.quicklook import MapFrame, axis_labels, draw_classes, read_for_map
+from slopescreen.maps.outputs.quicklook import MapFrame, axis_labels, draw_classes, read_for_map
 from slopescreen.stability_classes import PF_CLASS_NAMES
 
 CVD_TYPES = ("deuteranomaly", "protanomaly", "tritanomaly")
@@ -67,7 +67,7 @@ def test_palette_is_distinguishable_under_colour_vision_deficiencies():
 def test_the_fails_before_the_storm_code_stands_apart_from_the_time_ramp():
     # the code's colour against every colour of the time-to-failure ramp, the no-data grey
     # and "holds", normal vision and simulated deficiencies (colorspacious, CAM02-UCS)
-    from slopescreen.maps.palette import FAILS_BEFORE_HEX, HOLDS_HEX, ramp
+    from slopescreen.maps.outputs.palette import FAILS_BEFORE_HEX, HOLDS_HEX, ramp
 
     others = [*ramp(64), hex_rgb(NO_DATA_HEX), hex_rgb(HOLDS_HEX)]
     for cvd in (None, *CVD_TYPES):
@@ -197,7 +197,7 @@ def test_report_content(demo_out):
 def test_report_methods_only_for_what_ran(tmp_path):
     from test_map_engine import SCENARIOS
 
-    from slopescreen.maps.engine import run
+    from slopescreen.maps.region.engine import run
 
     out = tmp_path / "out"
     run(SCENARIOS, out, only=["dry_season", "wet_season"], progress=False, echo=lambda _: None)
@@ -273,7 +273,7 @@ def _two_scenarios(folder, extra=""):
 
 def test_comparison_keys_change_the_report_or_are_refused(tmp_path):
     from slopescreen.errors import InputError
-    from slopescreen.maps.engine import run
+    from slopescreen.maps.region.engine import run
 
     quiet = {"progress": False, "echo": lambda _: None}
     plain = _two_scenarios(tmp_path)
@@ -301,7 +301,7 @@ def test_comparison_keys_change_the_report_or_are_refused(tmp_path):
 
 def test_deprecated_names_read_for_one_release(tmp_path):
     from slopescreen.errors import InputError
-    from slopescreen.maps.config import load_config
+    from slopescreen.maps.region.config import load_config
 
     path = _two_scenarios(tmp_path)
     old = path.read_text().replace("[classes]", "[hazard]")
@@ -320,8 +320,8 @@ def test_deprecated_names_read_for_one_release(tmp_path):
 
 def test_misspelt_soil_column_gets_a_suggestion(tmp_path):
     from slopescreen.errors import InputError
-    from slopescreen.maps.config import load_config
-    from slopescreen.maps.engine import prepare
+    from slopescreen.maps.region.config import load_config
+    from slopescreen.maps.region.engine import prepare
 
     path = _two_scenarios(tmp_path)
     (tmp_path / "t.csv").write_text(
@@ -337,8 +337,8 @@ def test_misspelt_soil_column_gets_a_suggestion(tmp_path):
 
 
 def test_scenario_file_reference_is_current():
-    from slopescreen.maps.config import SOIL_FIELDS, STORM_KEYS, WETNESS_KEYS
-    from slopescreen.maps.scenario_schema import SOIL_MEANINGS, allowed, markdown
+    from slopescreen.maps.region.config import SOIL_FIELDS, STORM_KEYS, WETNESS_KEYS
+    from slopescreen.maps.region.scenario_schema import SOIL_MEANINGS, allowed, markdown
 
     # the documented keys are exactly those the reader takes ranges and meanings for
     assert set(SOIL_MEANINGS) == set(SOIL_FIELDS)
@@ -346,6 +346,6 @@ def test_scenario_file_reference_is_current():
     assert set(WETNESS_KEYS) <= allowed("scenario")
 
     docs = Path(__file__).resolve().parents[1] / "docs" / "scenario-file.md"
-    assert docs.read_text() == markdown(), "run: python -m slopescreen.maps.scenario_schema"
+    assert docs.read_text() == markdown(), "run: python -m slopescreen.maps.region.scenario_schema"
     for key in ("soil_layer", "soil_unit_field", "did you mean friction_deg?", "[comparison]"):
         assert key in docs.read_text()

@@ -2,7 +2,7 @@
 
 import pytest
 
-from slopescreen.outputs import replacing, write_text
+from slopescreen.maps.io.safe_writes import replacing, write_text
 
 
 def test_interrupted_write_keeps_previous(tmp_path):

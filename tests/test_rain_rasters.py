@@ -9,7 +9,7 @@ from rasterio.warp import transform as warp_points
 from region_files import _dem, _polygons, write_raster
 
 from slopescreen.hydrology import steady_state_saturation
-from slopescreen.maps.engine import run
+from slopescreen.maps.region.engine import run
 from slopescreen.scenario import cell_transmissivity_m2_day
 
 HEAD = (

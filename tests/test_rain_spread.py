@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 
 from slopescreen import rainfall_frequency as rf
-from slopescreen.maps.config import RainfallFrequency, RainfallSpec, ReliabilitySpec
-from slopescreen.maps.rain_spread import annual_probability_with_spread, critical_intensities
+from slopescreen.maps.region.config import RainfallFrequency, RainfallSpec, ReliabilitySpec
+from slopescreen.maps.region.rain_spread import annual_probability_with_spread, critical_intensities
 from slopescreen.rain_thresholds import critical_intensity_mm_h
 from slopescreen.reliability import Spread, reliability_fosm
 from slopescreen.stability import factor_of_safety

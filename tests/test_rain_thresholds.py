@@ -172,7 +172,7 @@ def test_tabulated_peak_equals_bisection():
 
 
 def test_compiled_kernel_equals_the_numpy_core():
-    from slopescreen.maps.kernels import critical_intensity_by_unit
+    from slopescreen.maps.region.kernels import critical_intensity_by_unit
     from slopescreen.rain_thresholds import (
         _LOG_STORM,
         _PEAK_OFFSET,
@@ -260,7 +260,7 @@ def test_rainfall_scenario_maps_equal_the_core(tmp_path):
     at every mapped cell (the engine's compiled kernel, its tiles and its storage)."""
     import rasterio
 
-    from slopescreen.maps.engine import run
+    from slopescreen.maps.region.engine import run
     from slopescreen.rainfall_frequency import (
         annual_probability,
         hazard_class,
@@ -368,7 +368,7 @@ def test_demo_uplift_only_makes_failure_more_frequent(demo_out):
 def test_a_new_uplift_reuses_the_critical_intensities(tmp_path):
     """The agency's rerun: a new climate scenario (uplift) reuses the verified critical
     intensities and gives the same bytes as a cold run; a new water table does not."""
-    from slopescreen.maps.engine import run
+    from slopescreen.maps.region.engine import run
 
     def outputs(out):
         return {
@@ -410,7 +410,7 @@ def test_gridded_design_rainfall_gives_each_cell_its_own_return_period(tmp_path)
     from rasterio.transform import from_origin
     from region_files import write_raster
 
-    from slopescreen.maps.engine import run
+    from slopescreen.maps.region.engine import run
 
     toml, _ = _rain_region(tmp_path)
     durations, periods = (1.0, 6.0, 24.0), (2.0, 10.0, 100.0)
@@ -463,8 +463,8 @@ def test_tables_of_critical_intensity_match_the_kernel():
     (twice the centre check's 0.1%: bilinear error peaks near the centre, not beyond it)."""
     from types import SimpleNamespace
 
-    from slopescreen.maps import intensity_tables as it
-    from slopescreen.maps.config import RainfallFrequency, RainfallSpec
+    from slopescreen.maps.region import intensity_tables as it
+    from slopescreen.maps.region.config import RainfallFrequency, RainfallSpec
 
     def unit(*values):
         return np.array([np.nan, *values])
@@ -502,7 +502,7 @@ def test_tables_of_critical_intensity_match_the_kernel():
     assert ok.sum() > 500  # the slopes between failing before rain and never failing
     error = np.abs(found[ok] - exact[ok]) / exact[ok]
     assert error.max() <= 2 * it.TOLERANCE, error.max()
-    from slopescreen.maps.kernels import intensity_from_table
+    from slopescreen.maps.region.kernels import intensity_from_table
 
     out, flag = np.empty(n), np.zeros(n, bool)
     t = tables[(1, 6.0)]
@@ -521,9 +521,9 @@ def test_a_run_with_tables_gives_the_kernels_maps_within_tolerance(tmp_path, mon
     intensity within 0.2% of the run without tables, the codes the same."""
     import rasterio
 
-    from slopescreen.maps import intensity_tables
-    from slopescreen.maps.engine import run
-    from slopescreen.maps.rain_tiles import intensity_name
+    from slopescreen.maps.region import intensity_tables
+    from slopescreen.maps.region.engine import run
+    from slopescreen.maps.region.rain_tiles import intensity_name
 
     toml, _ = _rain_region(tmp_path)
     run(toml, tmp_path / "kernel", progress=False, echo=lambda s: None)

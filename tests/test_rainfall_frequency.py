@@ -155,7 +155,7 @@ def test_tables_that_are_not_monotone_are_refused(change, fragment):
 def test_the_compiled_frequency_step_equals_the_core():
     # the map engine's one-pass kernel against the numpy functions above, with codes,
     # values on table rows, beyond both ends and zero
-    from slopescreen.maps.kernels import frequency_by_cell
+    from slopescreen.maps.region.kernels import frequency_by_cell
 
     rng = np.random.default_rng(4)
     table = idf_formula(DURATIONS, PERIODS, A, M, B, N) * 1.2
@@ -191,7 +191,7 @@ def test_the_compiled_frequency_step_equals_the_core():
 def _kernel_intensity(cells, after_h=24.0):
     """I_c (mm/h, codes) of the cells at per-cell durations by the compiled kernel, each
     cell its own parameter row (the map engine's call)."""
-    from slopescreen.maps.kernels import critical_intensity_by_unit
+    from slopescreen.maps.region.kernels import critical_intensity_by_unit
     from slopescreen.rain_thresholds import (
         _LOG_STORM,
         _PEAK_OFFSET,

@@ -5,7 +5,7 @@ import math
 import numpy as np
 import pytest
 
-from slopescreen.routing import fill_depressions, specific_catchment_area
+from slopescreen.maps.terrain.routing import fill_depressions, specific_catchment_area
 
 
 def _plane(rows, cols, d, angle_deg):
@@ -40,7 +40,8 @@ def test_plane_at_oblique_angle(angle, square_on, oblique):
     # split (Tarboton 1997), which disperses oblique flow: cells fed from the edge the flow
     # crosses nearly square-on (left) and from the edge it crosses obliquely (top), all
     # cells with at least 150 m of upslope length. The ranges are measured and stated in
-    # README and slopescreen.routing: on oblique planes a/b is a flow length only to them.
+    # README and slopescreen.maps.terrain.routing: on oblique planes a/b is a flow length only
+    # to them.
     d, n = 10.0, 200
     _, sca = specific_catchment_area(_plane(n, n, d, angle), d, d)
     t = math.radians(angle)
@@ -224,7 +225,7 @@ def test_flat_steps_are_the_shortest_step_counts_across_each_flat():
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import dijkstra
 
-    from slopescreen import flow_kernels, routing
+    from slopescreen.maps.terrain import flow_kernels, routing
 
     rng = np.random.default_rng(5)
     y, x = np.mgrid[0:70, 0:80]

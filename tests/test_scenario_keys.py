@@ -9,8 +9,8 @@ import rasterio
 from region_files import PARAMS, _dem, _polygons
 from shapely.geometry import box
 
-from slopescreen.maps.config import SOIL_FIELDS, STORM_KEYS
-from slopescreen.maps.engine import run
+from slopescreen.maps.region.config import SOIL_FIELDS, STORM_KEYS
+from slopescreen.maps.region.engine import run
 
 SOIL = dict(PARAMS, diffusivity_m2_s=1e-4)
 KINDS = {
@@ -232,7 +232,7 @@ INVENTORY_CHANGES = {
 
 
 def test_every_inventory_key_changes_the_outputs(region, tmp_path):
-    from slopescreen.maps.scenario_schema import allowed
+    from slopescreen.maps.region.scenario_schema import allowed
 
     assert set(INVENTORY_CHANGES) == allowed("inventory")
     rng = np.random.default_rng(4)
@@ -291,7 +291,7 @@ def _write_idf(region):
 
 
 def test_every_rainfall_key_changes_the_outputs(region, tmp_path):
-    from slopescreen.maps.scenario_schema import allowed
+    from slopescreen.maps.region.scenario_schema import allowed
 
     assert set(RAINFALL_CHANGES) == allowed("rainfall_frequency") | allowed("scenario.rainfall")
     _write_idf(region)
@@ -314,7 +314,7 @@ def test_every_rainfall_key_changes_the_outputs(region, tmp_path):
 
 def test_the_shallowest_slip_plane_changes_storms_and_rainfall(region, tmp_path):
     # [slip_planes] min_slip_depth_m: storms and critical intensities look no shallower
-    from slopescreen.maps.scenario_schema import allowed
+    from slopescreen.maps.region.scenario_schema import allowed
 
     assert allowed("slip_planes") == {"min_slip_depth_m"}
     soil = "cohesion_kpa = 0.0\ndepth_m = 2.0"  # cohesionless: the minimum is near the top

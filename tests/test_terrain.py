@@ -10,8 +10,8 @@ import rasterio
 from rasterio.transform import from_origin
 from region_files import write_raster
 
-from slopescreen.maps.grid import read_dem
-from slopescreen.terrain import grid_gradient, hillshade, slope_deg
+from slopescreen.maps.io.grid import read_dem
+from slopescreen.maps.terrain.slope import grid_gradient, hillshade, slope_deg
 
 _write = write_raster
 

@@ -21,7 +21,7 @@ from rasterio.transform import from_origin
 from shapely.geometry import box
 
 from slopescreen.errors import InputError
-from slopescreen.maps.engine import run
+from slopescreen.maps.region.engine import run
 from slopescreen.rainfall_frequency import idf_formula
 
 X0, Y0, CELL = 500000.0, 5000400.0, 10.0

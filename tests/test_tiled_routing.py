@@ -4,9 +4,9 @@ independent distance transform."""
 import numpy as np
 import pytest
 
-from slopescreen import flow_kernels, routing
-from slopescreen.maps.runners import serial_runner
-from slopescreen.maps.tiled_routing import ArraySource, Layout, fill_tiles, route_array
+from slopescreen.maps.region.runners import serial_runner
+from slopescreen.maps.terrain import flow_kernels, routing
+from slopescreen.maps.terrain.tiled_routing import ArraySource, Layout, fill_tiles, route_array
 
 U = 2.0**-53  # float64 unit roundoff
 
@@ -90,7 +90,7 @@ def test_tiled_area_equals_whole_grid_within_summation_order(tmp_path):
     # Same receivers and shares; the areas differ only by the order of summation. Both are
     # sums of positive terms, each an area times at most L shares (L <= number of cells),
     # with at most 9 roundings a step and one a round: the stated bound of
-    # slopescreen.maps.tiled_routing, relative difference <= 2 (9 L + R + 1) u.
+    # slopescreen.maps.terrain.tiled_routing, relative difference <= 2 (9 L + R + 1) u.
     rng = np.random.default_rng(2)
     for trial in range(4):
         z = _rough(rng, integers=trial % 2 == 1, holes=trial >= 2)

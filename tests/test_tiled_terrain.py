@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 import rasterio
 
-from slopescreen.maps import terrain_cache
-from slopescreen.maps.engine import run
+from slopescreen.maps.region import terrain_cache
+from slopescreen.maps.region.engine import run
 
 SCENARIOS = Path(__file__).resolve().parents[1] / "demo_region" / "quillbrook_scenarios.toml"
 TERRAIN = ("specific_catchment_area_m.tif", "catchment_cut_off.tif", "slope_deg.tif")
@@ -38,7 +38,7 @@ def test_terrain_by_tiles_here_and_on_a_cluster(tmp_path, monkeypatch):
     whole, tiles = (_read(tmp_path / o, TERRAIN[0]) for o in ("whole", "tiles"))
     data = whole != terrain_cache.NODATA_F32
     assert np.array_equal(data, tiles != terrain_cache.NODATA_F32)
-    # stated bound (slopescreen.maps.tiled_routing): the area differs by summation order
+    # stated bound (slopescreen.maps.terrain.tiled_routing): the area differs by summation order
     # only, far below float32's resolution: at most one unit in the last place
     np.testing.assert_allclose(tiles[data], whole[data], rtol=2.0**-23, atol=0)
     for name in TERRAIN[1:]:

@@ -19,7 +19,7 @@ from region_files import SCENARIO_TEXT, SCENARIO_TEXT_WITH_MAPS, _dem, _polygons
 from shapely.geometry import box
 
 from slopescreen.cli.main import main
-from slopescreen.maps.engine import run
+from slopescreen.maps.region.engine import run
 
 
 def _files(out):
@@ -1075,7 +1075,7 @@ def test_inventory_repairs_and_conventions_are_said(tmp_path, capsys):
 def test_a_run_that_fails_midway_leaves_the_previous_run_whole(tmp_path, monkeypatch):
     # a failure only the run can meet (a full disk, say) after its first scenario has been
     # written: the previous run's files come back, byte for byte, and no mixed folder stays
-    import slopescreen.maps.engine as engine
+    import slopescreen.maps.region.engine as engine
 
     toml = _region(tmp_path / "region")
     out = tmp_path / "out"

@@ -1,6 +1,6 @@
 """Benchmark 1: the per-cell factor-of-safety kernel against the memory limit.
 
-Times the map engine's per-cell kernel (slopescreen.maps.kernels.fs_by_unit: tan(slope),
+Times the map engine's per-cell kernel (slopescreen.maps.region.kernels.fs_by_unit: tan(slope),
 unit code and saturation in, FS out, soil parameters looked up by unit) and, in the same
 run, ``np.copyto`` of the same number of bytes; prints the ratio (target: at most 3x). Also
 the broadcasting kernel used for probabilities (fs_ufunc, all inputs float64) and the numpy
@@ -37,7 +37,7 @@ def main() -> None:
     import numba
 
     from slopescreen import factor_of_safety
-    from slopescreen.maps.kernels import fs_by_unit, fs_ufunc
+    from slopescreen.maps.region.kernels import fs_by_unit, fs_ufunc
 
     parser = argparse.ArgumentParser()
     parser.add_argument("--cells", type=int, default=20_000_000)

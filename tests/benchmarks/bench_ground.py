@@ -24,9 +24,9 @@ def main() -> None:
     from _terrain import convergent_dem
     from rasterio.transform import from_origin
 
-    from slopescreen.maps.grid import read_grid
-    from slopescreen.maps.ground import ground_geometry
-    from slopescreen.maps.terrain_cache import terrain_products
+    from slopescreen.maps.io.grid import read_grid
+    from slopescreen.maps.region.terrain_cache import terrain_products
+    from slopescreen.maps.terrain.ground import ground_geometry
 
     parser = argparse.ArgumentParser()
     parser.add_argument("--size", type=int, default=4000)

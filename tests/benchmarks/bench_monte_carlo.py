@@ -19,7 +19,7 @@ import numpy as np
 def main() -> None:
     from _terrain import peak_rss_mb
 
-    from slopescreen.maps.scenario_tiles import _fs_fast
+    from slopescreen.maps.region.scenario_tiles import _fs_fast
     from slopescreen.reliability import Spread, reliability_monte_carlo
 
     parser = argparse.ArgumentParser()

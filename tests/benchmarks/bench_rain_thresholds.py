@@ -3,7 +3,7 @@ by side in one run.
 
 The thresholds (durations 1, 3, 6, 12, 24, 48, 72 and 96 h) are computed two ways on CELLS
 random cells of three soil units: `critical_intensity_by_unit` on every cell, and the
-large-grid path of :mod:`slopescreen.maps.intensity_tables` (a table per unit and
+large-grid path of :mod:`slopescreen.maps.region.intensity_tables` (a table per unit and
 duration, built once per run, interpolated per cell, the kernel where a table cannot
 answer). The steady scenario is measured two ways too: its per-cell kernels alone
 (`steady_saturation_by_unit`, `fs_by_unit`) on the same cells, and a whole steady
@@ -27,14 +27,14 @@ def main() -> None:
 
     import numpy as np
 
-    from slopescreen.maps.config import RainfallFrequency, RainfallSpec
-    from slopescreen.maps.intensity_tables import (
+    from slopescreen.maps.region.config import RainfallFrequency, RainfallSpec
+    from slopescreen.maps.region.intensity_tables import (
         build_table,
         critical_intensity,
         stack_tables,
         table_coordinates,
     )
-    from slopescreen.maps.kernels import (
+    from slopescreen.maps.region.kernels import (
         critical_intensity_by_unit,
         fs_by_unit,
         steady_saturation_by_unit,

@@ -20,7 +20,7 @@ import time
 def main() -> None:
     import numpy as np
 
-    from slopescreen.maps.kernels import frequency_by_cell
+    from slopescreen.maps.region.kernels import frequency_by_cell
     from slopescreen.rainfall_frequency import (
         annual_probability,
         hazard_class,

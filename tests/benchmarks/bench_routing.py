@@ -36,7 +36,7 @@ def compare(z: np.ndarray, cell: float, label: str) -> tuple[np.ndarray, np.ndar
     contributing areas of slopescreen and pyflwdir."""
     from _terrain import peak_rss_mb
 
-    from slopescreen.routing import specific_catchment_area
+    from slopescreen.maps.terrain.routing import specific_catchment_area
 
     n = z.shape[0]
     specific_catchment_area(z[:64, :64].astype(np.float64), cell, cell)  # compile once

@@ -26,11 +26,11 @@ def main() -> None:
     from rasterio.transform import from_origin
     from shapely.geometry import Point
 
-    from slopescreen.maps.config import InventorySpec
-    from slopescreen.maps.grid import read_grid
-    from slopescreen.maps.inventory import read_inventory
-    from slopescreen.maps.rasters import RasterSink, all_or_nothing, read_block, windows
-    from slopescreen.maps.scoring import score_scenario
+    from slopescreen.maps.inventory.reading import read_inventory
+    from slopescreen.maps.inventory.scoring import score_scenario
+    from slopescreen.maps.io.grid import read_grid
+    from slopescreen.maps.io.rasters import RasterSink, all_or_nothing, read_block, windows
+    from slopescreen.maps.region.config import InventorySpec
     from slopescreen.stability_classes import classify
 
     parser = argparse.ArgumentParser()

@@ -2,7 +2,7 @@
 
 The benchmark's convergent DEM (N x N, default 10,000 x 10,000 = 10^8 cells) is written to a
 .npy file; each way runs in its own child process (so each peak is its own): the whole grid
-in memory (``slopescreen.routing.route``, its directions on every core), tiles of T x T
+in memory (``slopescreen.maps.terrain.routing.route``, its directions on every core), tiles of T x T
 (default 4000) on a thread per core in one process (what ``slopescreen run`` does without a
 cluster), and the same tiles one after another on one thread (what one dask worker does
 with its share of the tiles). Reports the times, the ratio of tiles to whole (target:
@@ -30,9 +30,8 @@ import numpy as np
 def _child(way: str, folder: Path, tile: int) -> None:
     import resource
 
-    from slopescreen import routing
-    from slopescreen.maps import tiled_routing
-    from slopescreen.maps.runners import serial_runner, threaded_runner
+    from slopescreen.maps.region.runners import serial_runner, threaded_runner
+    from slopescreen.maps.terrain import routing, tiled_routing
 
     dem = np.load(folder / "dem.npy", mmap_mode="r")
     n = dem.shape[0]

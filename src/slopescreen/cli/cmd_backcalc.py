@@ -52,8 +52,8 @@ def run(args: argparse.Namespace) -> int:
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
     from slopescreen.cli.options import out_folder
-    from slopescreen.maps.backcalc import back_analyse
-    from slopescreen.maps.finished_run import locked_run, record_results
+    from slopescreen.maps.inventory.backcalc import back_analyse
+    from slopescreen.maps.inventory.finished_run import locked_run, record_results
 
     out = out_folder(args.out, args.scenarios)
     with locked_run(args.scenarios, out, args.inventory) as (done, inv):

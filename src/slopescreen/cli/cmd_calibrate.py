@@ -72,9 +72,9 @@ def run(args: argparse.Namespace) -> int:
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
     from slopescreen.cli.options import check_workers, out_folder
-    from slopescreen.maps.calibration import calibrate, parse_grid
-    from slopescreen.maps.engine import tile_runner
-    from slopescreen.maps.finished_run import locked_run, record_results
+    from slopescreen.maps.inventory.calibration import calibrate, parse_grid
+    from slopescreen.maps.inventory.finished_run import locked_run, record_results
+    from slopescreen.maps.region.engine import tile_runner
 
     candidates = parse_grid(args.multipliers)
     out = out_folder(args.out, args.scenarios)

@@ -26,9 +26,9 @@ def add_to(sub: Any) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from slopescreen.maps.config import load_config
-    from slopescreen.maps.engine import prepare, void_note
-    from slopescreen.maps.output_names import SCENARIO_OUTPUTS, written
+    from slopescreen.maps.outputs.output_names import SCENARIO_OUTPUTS, written
+    from slopescreen.maps.region.config import load_config
+    from slopescreen.maps.region.engine import prepare, void_note
     from slopescreen.stability_classes import class_names
 
     cfg = load_config(args.scenarios)

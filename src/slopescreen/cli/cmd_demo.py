@@ -61,7 +61,7 @@ def read_slope_file(path: Path) -> dict[str, Any]:
     import tomllib
 
     from slopescreen.cli.options import SLOPE_OPTIONS
-    from slopescreen.textfiles import read_text
+    from slopescreen.maps.io.textfiles import read_text
 
     try:
         data = tomllib.loads(read_text(path, "slope file"))
@@ -138,7 +138,7 @@ def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import caution_block
     from slopescreen.cli import cmd_envelope, cmd_slope
     from slopescreen.cli.options import dump_json
-    from slopescreen.outputs import write_text
+    from slopescreen.maps.io.safe_writes import write_text
 
     region = find_region(args.region)
     out = args.out
@@ -159,11 +159,11 @@ def run(args: argparse.Namespace) -> int:
     write_text(out / "hillside_check.json", dump_json(record) + "\n")
     print(f"\nresults written: {out / 'hillside_check.json'}\n")
 
-    from slopescreen.maps.engine import run as run_region
+    from slopescreen.maps.region.engine import run as run_region
 
     scenarios = region / "quillbrook_scenarios.toml"
     print(f"regional run: {scenarios}")
-    from slopescreen.maps.report import Extras
+    from slopescreen.maps.outputs.report import Extras
 
     extras = Extras(out / "mohr_circles.png", fit.as_dict(), record, tests_path)
     run_region(scenarios, out, progress=sys.stderr.isatty(), extras=extras)

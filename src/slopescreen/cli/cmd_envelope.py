@@ -46,7 +46,7 @@ def check_figure_path(plot: Path) -> None:
 def fit_file(path: Path, plot: Path | None = None):
     """Read, fit and (optionally) plot one lab-test file."""
     from slopescreen.envelope import fit_direct_shear, fit_envelope
-    from slopescreen.labtests import read_lab_tests
+    from slopescreen.maps.io.labtests import read_lab_tests
 
     if plot is not None:
         check_figure_path(plot)
@@ -59,7 +59,7 @@ def fit_file(path: Path, plot: Path | None = None):
         fit = fit_direct_shear(cols["normal_kpa"], cols["shear_kpa"])
     if plot is not None:
         if tests.kind == "triaxial":
-            from slopescreen.mohr_plot import plot_mohr_circles
+            from slopescreen.maps.outputs.mohr_plot import plot_mohr_circles
 
             u = cols.get("pore_pressure_kpa", 0.0)
             plot_mohr_circles(
@@ -71,7 +71,7 @@ def fit_file(path: Path, plot: Path | None = None):
                 title=f"Mohr circles at failure: {path.name}",
             )
         else:
-            from slopescreen.mohr_plot import plot_direct_shear
+            from slopescreen.maps.outputs.mohr_plot import plot_direct_shear
 
             plot_direct_shear(
                 cols["normal_kpa"],

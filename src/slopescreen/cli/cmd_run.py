@@ -21,7 +21,7 @@ from slopescreen.cli.options import command_parser, out_folder
 
 
 def add_to(sub: Any) -> None:
-    from slopescreen.maps.output_names import listing
+    from slopescreen.maps.outputs.output_names import listing
 
     parser = command_parser(
         sub,
@@ -60,7 +60,7 @@ def add_to(sub: Any) -> None:
 def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import caution_block
     from slopescreen.cli.options import check_workers
-    from slopescreen.maps.engine import run as run_engine
+    from slopescreen.maps.region.engine import run as run_engine
 
     check_workers(args.workers)
     out = out_folder(args.out, args.scenarios)

@@ -43,9 +43,9 @@ def run(args: argparse.Namespace) -> int:
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
     from slopescreen.cli.options import check_workers, out_folder
-    from slopescreen.maps.engine import tile_runner
-    from slopescreen.maps.finished_run import locked_run, record_results
-    from slopescreen.maps.inventory_scores import score_all
+    from slopescreen.maps.inventory.finished_run import locked_run, record_results
+    from slopescreen.maps.inventory.score_files import score_all
+    from slopescreen.maps.region.engine import tile_runner
 
     out = out_folder(args.out, args.scenarios)
     check_workers(args.workers)

@@ -37,8 +37,8 @@ def run(args: argparse.Namespace) -> int:
 def execute(args: argparse.Namespace) -> None:
     """The command's work and its lines of results (no cautions: the caller prints them)."""
     from slopescreen.cli.options import out_folder
-    from slopescreen.maps.finished_run import locked_run, record_results
-    from slopescreen.maps.sensitivity_map import sensitivity
+    from slopescreen.maps.inventory.finished_run import locked_run, record_results
+    from slopescreen.maps.inventory.sensitivity_map import sensitivity
 
     out = out_folder(args.out, args.scenarios)
     with locked_run(args.scenarios, out, None, read=False) as (done, _):

@@ -1,0 +1,165 @@
+"""A finished run's folder as the input of the inventory checks (``score``, ``backcalc``,
+``calibrate``, ``sensitivity``): the manifest must say complete, the scenario file, DEM
+and soil table must be the ones the run read, and every raster used must still hold the
+bytes the manifest recorded. Results are added to the manifest and the report's
+validation section is rewritten in place.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from slopescreen.errors import InputError
+from slopescreen.maps.io.grid import Grid, read_grid
+from slopescreen.maps.io.safe_writes import file_sha256, write_text
+from slopescreen.maps.region.config import Config, InventorySpec, Scenario, load_config
+from slopescreen.maps.region.soils import SoilUnits, load_soils
+
+if TYPE_CHECKING:
+    from slopescreen.maps.inventory.reading import Inventory
+
+VALIDATION_FOLDER = "validation"
+SECTION_START = "<!-- slopescreen:validation -->"
+SECTION_END = "<!-- /slopescreen:validation -->"
+
+
+@dataclass
+class FinishedRun:
+    cfg: Config
+    out: Path
+    manifest: dict[str, Any]
+    grid: Grid
+    soils: SoilUnits
+
+    def scenario(self, name: str) -> Scenario:
+        """The finished scenario ``name``; InputError if the run did not finish it or its
+        fs.tif changed or went missing since."""
+        ran = self.manifest.get("scenarios_finished", [])
+        if name not in ran:
+            raise InputError(
+                f"--scenario {name}: not a scenario of the run in {self.out}; scenarios: "
+                f"{', '.join(ran)}"
+            )
+        self.verified(f"{name}/fs.tif")  # the scenario's result as the run wrote it
+        return next(s for s in self.cfg.scenarios if s.name == name)
+
+    def verified(self, relative: str) -> Path:
+        """A file of the run, checked against the SHA-256 the manifest recorded."""
+        recorded = self.manifest.get("outputs", {}).get(relative)
+        path = self.out / relative
+        if recorded is None or not path.is_file():
+            raise InputError(f"{path}: not an output of the run in {self.out}; run again")
+        if file_sha256(path) != recorded:
+            raise InputError(
+                f"{path}: changed since the run wrote it (SHA-256 differs from manifest.json); "
+                "run again"
+            )
+        return path
+
+
+def open_run(config_path: Path, out: Path) -> FinishedRun:
+    """The finished run in ``out`` of the scenario file ``config_path``; InputError if the
+    run is missing, unfinished, or its inputs have changed since."""
+    cfg = load_config(config_path)
+    target = out / "manifest.json"
+    try:
+        manifest = json.loads(target.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise InputError(f"{target}: no run here; run the scenario file first") from None
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"{target}: not a slopescreen manifest ({exc})") from None
+    if not isinstance(manifest, dict) or manifest.get("tool") != "slopescreen":
+        raise InputError(f"{target}: not a slopescreen manifest")
+    if not manifest.get("complete"):
+        raise InputError(f"{target}: the run did not finish (complete: false); run again")
+    hashes = manifest.get("inputs_sha256", {})
+    now = {"scenario_file": cfg.path, "dem": cfg.region.dem, "soil_table": cfg.region.soil_table}
+    for key, path in now.items():
+        if path is not None and hashes.get(key) != file_sha256(path):
+            raise InputError(
+                f"{path}: differs from the {key.replace('_', ' ')} the run in {out} read; "
+                "run again first"
+            )
+    grid = read_grid(cfg.region.dem)
+    return FinishedRun(cfg, out, manifest, grid, load_soils(cfg.region, grid))
+
+
+def inventory_spec(cfg: Config, path: Path | None) -> InventorySpec:
+    """The scenario file's [inventory], its path replaced by ``--inventory`` when given."""
+    if path is None:
+        if cfg.inventory is None:
+            raise InputError(f"{cfg.path}: no [inventory] table; give --inventory FILE or add one")
+        return cfg.inventory
+    if not path.is_file():
+        raise InputError(f"--inventory {path}: file not found")
+    spec = cfg.inventory or InventorySpec(path=path)
+    return spec.with_path(path.resolve())
+
+
+def record_results(
+    run: FinishedRun, key: str, entry: str, value: object, files: list[Path]
+) -> Path:
+    """Add ``value`` to the manifest under ``key`` (as ``entry`` within it, or the whole
+    key when ``entry`` is empty), record the files' SHA-256 and rewrite the report's
+    validation section."""
+    manifest = run.manifest
+    if entry:
+        section = manifest.setdefault(key, {})
+        section[entry] = value
+    else:
+        manifest[key] = value
+    outputs = manifest.setdefault("outputs", {})
+    for f in files:
+        outputs[f.relative_to(run.out).as_posix()] = file_sha256(f)
+    manifest["outputs"] = dict(sorted(outputs.items()))
+    refresh_report(run.out, manifest)
+    if (run.out / "report.html").exists():
+        outputs["report.html"] = file_sha256(run.out / "report.html")
+    return write_text(
+        run.out / "manifest.json", json.dumps(manifest, indent=2, allow_nan=False) + "\n"
+    )
+
+
+def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
+    """Rewrite the validation section of report.html from the manifest (no report: none)."""
+    from slopescreen.maps.outputs.validation_report import validation_section
+
+    report = out / "report.html"
+    if not report.exists():
+        return
+    text = report.read_text(encoding="utf-8")
+    start, end = text.find(SECTION_START), text.find(SECTION_END)
+    if start < 0 or end < start:
+        raise InputError(
+            f"{report}: no validation section (written by an older version); run again"
+        )
+    section = validation_section(manifest, out)
+    write_text(report, text[: start + len(SECTION_START)] + section + text[end:])
+
+
+@contextmanager
+def locked_run(
+    config_path: Path, out: Path, inventory: Path | None, read: bool = True
+) -> Iterator[tuple[FinishedRun, Inventory | None]]:
+    """The finished run and (with ``read``) its inventory, the output folder held by this
+    command alone."""
+    import os
+
+    from slopescreen.maps.inventory.reading import read_inventory
+    from slopescreen.maps.io.locks import folder_lock
+    from slopescreen.maps.region.engine import utc_now
+
+    if not (out / "manifest.json").is_file():
+        raise InputError(f"{out / 'manifest.json'}: no run here; run the scenario file first")
+    with folder_lock(out, f"PID {os.getpid()}, started {utc_now()}"):
+        done = open_run(config_path, out)
+        if not read:
+            yield done, None
+            return
+        spec = inventory_spec(done.cfg, inventory)
+        yield done, read_inventory(spec, done.grid, done.cfg.region.dem_elevation_unit)

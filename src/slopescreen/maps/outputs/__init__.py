@@ -1,0 +1,1 @@
+"""What a run writes: output names, summaries, zones, palette, maps, figures and the report."""

@@ -1,0 +1,515 @@
+"""The run report: one self-contained HTML page (images embedded), written atomically.
+
+First screen: region, run date (UTC), what ran, the cautions and the scenario comparison.
+Then each scenario's maps and tables, the inputs (soil table with spreads, lab fits with
+their Mohr figures, the demo's hillside check), the methods of what ran with their
+sources, and coverage warnings. Tables scroll inside their own box; empty values are "-".
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import math
+import os
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from slopescreen.cautions import CAUTIONS
+from slopescreen.maps.io.grid import Grid
+from slopescreen.maps.io.safe_writes import write_text
+from slopescreen.maps.outputs.comparison import FOLDER as COMPARISON_FOLDER
+from slopescreen.maps.outputs.comparison import ClassChange
+from slopescreen.maps.region.config import SOIL_FIELDS, Config
+from slopescreen.maps.region.scenario_run import ScenarioSummary
+from slopescreen.maps.region.soils import SoilUnits
+from slopescreen.stability_classes import PF_CLASS_NAMES
+
+_STYLE = """
+body{font-family:system-ui,sans-serif;max-width:1100px;margin:1.5em auto;padding:0 1em;
+color:#222;line-height:1.45}
+h1{font-size:1.6em;margin-bottom:0.2em}h2{border-bottom:2px solid #5a1a78;padding-bottom:2px;
+margin-top:2em}.meta{color:#555}
+.tbl{overflow-x:auto;max-width:100%;margin:0.5em 0 1.2em}
+table{border-collapse:collapse}
+td,th{border:1px solid #bbb;padding:3px 7px;font-size:0.88em;text-align:right;
+vertical-align:top;white-space:nowrap}
+th{background:#f0eef3}td.l,th.l{text-align:left}td.w,th.w{white-space:normal;min-width:24em;
+text-align:left}
+.caution{border:2px solid #8a2a2a;background:#fbeeee;padding:0.5em 1em;margin:1em 0}
+.warn{color:#8a4b00}img{max-width:100%;border:1px solid #ccc;margin:0.4em 0}
+.up{color:#5a1a78;font-weight:600}.down{color:#1f4e79}
+code{font-size:0.9em;overflow-wrap:anywhere}
+"""
+EMPTY = "-"
+
+
+@dataclass
+class Extras:
+    """What the report shows beside the run: the demo's lab fit and hillside check."""
+
+    mohr_png: Path | None = None
+    lab_fit: dict[str, object] | None = None
+    hillside: dict[str, object] | None = None
+    lab_tests: Path | None = None  # the file the demo's fit came from
+
+
+@dataclass
+class RunFacts:
+    started_utc: str
+    finished_utc: str
+    version: str
+    command: Sequence[str]
+    hashes: dict[str, str] = field(default_factory=dict)
+    dem_no_data: str = ""
+
+
+def _e(x: object) -> str:
+    return html.escape(str(x))
+
+
+def _num(value: object, fmt: str = ".4g") -> str:
+    """A number for a table: '-' for NaN, None or empty."""
+    if value is None or value == "":
+        return EMPTY
+    try:
+        v = float(value)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        return _e(value)
+    return EMPTY if not math.isfinite(v) else format(v, fmt)
+
+
+def _table(
+    head: Sequence[str], rows: Sequence[Sequence[str]], left: int = 1, wrap_last: bool = False
+) -> str:
+    """A table in its own scrolling box; the first ``left`` columns align left, and the
+    last wraps its text with ``wrap_last``. Cells are HTML already (escape them with _e or
+    _num)."""
+    cls = ["l" if i < left else "" for i in range(len(head))]
+    if wrap_last:
+        cls[-1] = "w"
+    th = "".join(f"<th class='{c}'>{_e(h)}</th>" for c, h in zip(cls, head, strict=True))
+    body = "".join(
+        "<tr>" + "".join(f"<td class='{c}'>{v}</td>" for c, v in zip(cls, r, strict=True)) + "</tr>"
+        for r in rows
+    )
+    return f"<div class='tbl'><table><tr>{th}</tr>{body}</table></div>"
+
+
+def _cautions() -> str:
+    items = "".join(f"<li>{_e(c)}</li>" for c in CAUTIONS)
+    return f'<div class="caution"><strong>Cautions</strong><ul>{items}</ul></div>'
+
+
+def _image(path: Path | None, alt: str) -> str:
+    if path is None or not path.exists():
+        return ""
+    data = base64.b64encode(path.read_bytes()).decode("ascii")
+    return f'<img alt="{_e(alt)}" src="data:image/png;base64,{data}">'
+
+
+def _relative(path: Path | str, cfg: Config) -> str:
+    """A path as the scenario file names it: relative to the scenario file's folder."""
+    return os.path.relpath(Path(path), cfg.path.parent).replace(os.sep, "/")
+
+
+def _ha(value: float, total: float) -> str:
+    share = f" ({100 * value / total:.1f}%)" if total else ""
+    return f"{value:,.2f} ha{share}"
+
+
+def _comparison(
+    cfg: Config,
+    class_names: list[str],
+    scenarios: list[ScenarioSummary],
+    small_multiples: Path | None,
+    changes: list[ClassChange],
+) -> list[str]:
+    names = [s.name for s in scenarios]
+    base_name = cfg.comparison.baseline or names[0]
+    parts = ["<h2>Scenario comparison</h2>"]
+    if small_multiples is not None:
+        parts.append(_image(small_multiples, "factor-of-safety classes of every scenario"))
+    baseline = next((s for s in scenarios if s.name == base_name), None)
+    if baseline is None:
+        parts.append(f"<p>Baseline {_e(base_name)} was not run (--only): no changes shown.</p>")
+    else:
+        parts.append(
+            f"<p>Ground area of each class; in brackets the change from the baseline "
+            f"scenario <strong>{_e(base_name)}</strong>"
+            f"{'' if cfg.comparison.baseline else ' (the first scenario run)'}.</p>"
+        )
+    rows = []
+    for i, cls in enumerate(class_names):
+        row = [_e(cls)]
+        for s in scenarios:
+            cell = f"{s.class_areas_ha[i]:,.1f} ha"
+            if baseline is not None and s is not baseline:
+                d = s.class_areas_ha[i] - baseline.class_areas_ha[i]
+                mark = "up" if (d > 0) == (i < len(class_names) // 2) and d else "down"
+                cell += f" <span class='{mark}'>({d:+,.1f})</span>" if d else " (0)"
+            row.append(cell)
+        rows.append(row)
+    parts.append(_table(["class", *names], rows))
+    for ch in changes:
+        less, more, same = ch.areas_ha
+        worse, better, _ = ch.names
+        what = "hazard class" if worse == "more frequent" else "class"
+        parts.append(
+            f"<h3>Where the {what} changes: {_e(ch.first)} to {_e(ch.second)}</h3><p>"
+            f"{less:,.1f} ha {worse}, {more:,.1f} ha {better} and {same:,.1f} ha in the "
+            f"same class in {_e(ch.second)} than in {_e(ch.first)}.</p>"
+            + _image(ch.png, f"{what} change {ch.first} to {ch.second}")
+        )
+        r = ch.ratio
+        if r is not None and r.median is not None:
+            parts.append(
+                f"<p>Triggering return period: on the {r.area_ha:,.1f} ha with a return period "
+                f"within the design-rainfall table in both, the median of {_e(ch.second)}'s "
+                f"over {_e(ch.first)}'s is {r.median:.2f}; it shortens on "
+                f"{100 * r.share_shorter:.0f}% of that area "
+                f"(<code>{COMPARISON_FOLDER}/{_e(r.raster.name)}</code>).</p>"
+                + _image(r.png, f"return-period ratio {ch.second} over {ch.first}")
+            )
+    return parts
+
+
+def _scenario_section(s: ScenarioSummary, class_names: list[str], unit_keys: list[str]) -> str:
+    mapped = sum(s.class_areas_ha)
+    parts = [
+        f"<h2 id='sc-{_e(s.name)}'>Scenario {_e(s.name)}</h2>",
+        f"<p>{_e(s.description)}</p>" if s.description else "",
+        f"<p><strong>Loads:</strong> {_e(s.loads)}</p>",
+    ]
+    for what, png in s.maps.items():
+        parts.append(f"<h3>{_e(what[:1].upper() + what[1:])}</h3>" + _image(png, what))
+    rows = []
+    for key, areas in zip(unit_keys, s.unit_class_areas_ha, strict=True):
+        total = sum(areas)
+        rows.append([_e(key), *(_ha(a, total) for a in areas), f"{total:,.2f} ha"])
+    rows.append(
+        ["<strong>all</strong>", *(_ha(a, mapped) for a in s.class_areas_ha), f"{mapped:,.2f} ha"]
+    )
+    parts.append("<h3>Area by soil unit</h3>" + _table(["soil unit", *class_names, "mapped"], rows))
+    if s.hazard_areas_ha is not None:
+        parts.append(
+            "<h3>Hazard: how often rain starts failure</h3><p>Ground area by the annual "
+            "probability that a storm of any tabulated duration brings FS below 1 (a "
+            "<em>hazard</em> in the zoning sense: it carries a frequency). Cells already "
+            "below FS 1 before the rain count in the most frequent class.</p>"
+            + _table(
+                ["class", "area"]
+                + (["area with soil spreads"] if s.hazard_spread_areas_ha is not None else []),
+                [
+                    [_e(n), _ha(a, mapped)]
+                    + (
+                        [_ha(s.hazard_spread_areas_ha[i], mapped)]
+                        if s.hazard_spread_areas_ha
+                        else []
+                    )
+                    for i, (n, a) in enumerate(zip(s.hazard_names, s.hazard_areas_ha, strict=True))
+                ],
+            )
+            + (
+                "<p>With soil spreads: the annual probability over rainfall frequency and soil "
+                "uncertainty together (<code>annual_failure_probability_with_spread.tif</code>; "
+                "a year's storms of every duration taken at one return-period level); units "
+                "without spreads are not counted there.</p>"
+                if s.hazard_spread_areas_ha is not None
+                else ""
+            )
+        )
+    if s.cut_off_ha and mapped:
+        parts.append(
+            f"<p>{s.cut_off_ha:,.2f} ha ({100 * s.cut_off_ha / mapped:.1f}% of the mapped area) "
+            "drain from beyond a no-data cell or the DEM's edge: there the specific catchment "
+            "area and the wetness are lower bounds (<code>terrain/catchment_cut_off.tif</code>)."
+            "</p>"
+        )
+    if s.zones:
+        zone_rows = [
+            [
+                _e(z["class_name"]),
+                _e(z["soil_unit"]),
+                _num(z["area_ha"], ",.2f"),
+                _num(z["mean_slope_deg"], ".1f"),
+            ]
+            for z in s.zones
+        ]
+        parts.append(
+            "<h3>Largest low-margin zones</h3>"
+            + _table(["class", "soil unit", "area (ha)", "mean slope (deg)"], zone_rows, left=2)
+        )
+    files = ", ".join(f"<code>{_e(s.name)}/{_e(f)}</code>" for f in s.outputs)
+    parts.append(f"<p class='meta'>Files: {files}</p>")
+    parts += [f"<p class='warn'>{_e(w)}</p>" for w in s.warnings]
+    return "\n".join(parts)
+
+
+def _soil_table(cfg: Config, soils: SoilUnits) -> str:
+    fields = [
+        f
+        for f in SOIL_FIELDS
+        if any(math.isfinite(float(soils.parameters[f][c])) for c in range(1, len(soils.keys) + 1))
+    ]
+    rows = []
+    for code, key in enumerate(soils.keys, start=1):
+        spreads = soils.spreads.get(code, {})
+        text = []
+        for name, sp in spreads.items():
+            kind = sp.distribution
+            if kind in ("normal", "lognormal"):
+                text.append(f"{name}: {kind}, sd {float(sp.sd):.3g}")
+            else:
+                text.append(f"{name}: {kind} {float(sp.low):.3g} to {float(sp.high):.3g}")
+        if soils.correlations.get(code):
+            text.append(f"c'-phi' correlation {soils.correlations[code]:+.2f}")
+        if key in soils.lab_tests:
+            text.append(f"strength fitted to {_relative(soils.lab_tests[key], cfg)}")
+        rows.append(
+            [
+                _e(key),
+                *(_num(soils.parameters[f][code]) for f in fields),
+                _e("; ".join(text)) or EMPTY,
+            ]
+        )
+    head = ["unit", *fields, "spread (drives the probability of failure)"]
+    return _table(head, rows, wrap_last=True)
+
+
+def _lab_fits(cfg: Config, soils: SoilUnits, extras: Extras, work: Path) -> list[str]:
+    from slopescreen.cli.cmd_envelope import fit_file
+
+    parts = []
+    fits: list[tuple[str, Path, object, Path]] = []
+    demo = extras.lab_tests.resolve() if extras.lab_tests is not None else None
+    for unit, path in soils.lab_tests.items():
+        png = work / f"mohr_{len(fits)}.png"
+        _, fit = fit_file(path, png)
+        label = f"soil unit {unit}" + (" and the demo hillside" if path == demo else "")
+        fits.append((label, path, fit, png))
+    shown = set(soils.lab_tests.values())
+    if extras.lab_fit is not None and extras.mohr_png is not None and demo not in shown:
+        parts.append(_fit_block("the demo hillside", extras.lab_fit, None, extras.mohr_png))
+    for label, path, fit, png in fits:
+        parts.append(_fit_block(label, fit.as_dict(), _relative(path, cfg), png))  # type: ignore[attr-defined]
+    return parts
+
+
+def _fit_block(label: str, fit: dict[str, object], source: str | None, png: Path) -> str:
+    rows = [
+        ["c' (kPa)", _num(fit.get("cohesion_kpa"), ".2f"), _num(fit.get("cohesion_se_kpa"), ".2f")],
+        [
+            "phi' (deg)",
+            _num(fit.get("friction_deg"), ".2f"),
+            _num(fit.get("friction_se_deg"), ".2f"),
+        ],
+    ]
+    cov = fit.get("covariance")
+    corr = None
+    if isinstance(cov, list) and len(cov) == 2 and cov[0][0] > 0 and cov[1][1] > 0:
+        corr = cov[0][1] / math.sqrt(cov[0][0] * cov[1][1])
+    where = f" from <code>{_e(source)}</code>" if source else ""
+    return (
+        f"<h3>Lab fit for {_e(label)}{where}</h3>"
+        + _table(["parameter", "value", "standard error"], rows)
+        + (
+            f"<p>Correlation of the c' and phi' estimates: {_num(corr, '+.2f')}.</p>"
+            if corr is not None
+            else ""
+        )
+        + _image(png, f"Mohr circles and envelope, {label}")
+    )
+
+
+def _hillside(record: dict[str, object]) -> str:
+    inputs = record.get("inputs", {})
+    results = record.get("results", {})
+    rows = [[_e(k), _num(v)] for k, v in dict(inputs).items()]  # type: ignore[arg-type]
+    for key, value in dict(results).items():  # type: ignore[arg-type]
+        items = value.items() if isinstance(value, dict) else [(key, value)]
+        rows += [[f"<strong>{_e(k)}</strong>", _num(v)] for k, v in items]
+    return f"<h3>Hillside check: {_e(record.get('slope', ''))}</h3>" + _table(
+        ["quantity", "value"], rows
+    )
+
+
+def _methods(cfg: Config, scenarios: list[ScenarioSummary], soils: SoilUnits) -> str:
+    ran = [sc for sc in cfg.scenarios if sc.name in {s.name for s in scenarios}]
+    items = [
+        "Slope by Horn (1981), from one-sided differences where the 3x3 window touches no "
+        "data or the DEM's edge; every length and area on the ground, from the CRS's "
+        "ellipsoid (cell axes measured by geodesics with pyproj).",
+        "Factor of safety by the infinite-slope limit equilibrium with slope-parallel "
+        "seepage and Mohr-Coulomb strength on effective stress (Haefeli 1948; Skempton &amp; "
+        "DeLory 1957; Sidle &amp; Ochiai 2006), with the pseudo-static horizontal load k_h "
+        "where given.",
+    ]
+    items.append(
+        "Critical recharge (every scenario) and steady wetness: depressions filled level "
+        "(the Priority-Flood surface, Barnes et al. 2014, computed by basins after "
+        "Cordonnier et al. 2019; tile by tile after Barnes 2016), flats drained "
+        "by steps to their outlet; flow by D-infinity (Tarboton 1997); "
+        "specific catchment area = contributing area / contour width; "
+        "m = min(1, R a/b / (T sin beta)), "
+        "T = K z cos beta (Beven &amp; Kirkby 1979; O'Loughlin 1986; Montgomery &amp; "
+        "Dietrich 1994)."
+    )
+    if any(sc.storm is not None for sc in ran):
+        items.append(
+            "Design storms: pressure head by the linearised infiltration solution of Iverson "
+            "(2000), capped at the hydrostatic value with the water table at the surface; "
+            "suction neglected; FS the minimum over depth and time, bracketed and refined "
+            "(golden-section search)."
+        )
+    if any(sc.rainfall is not None for sc in ran) and cfg.rainfall_frequency is not None:
+        rain = cfg.rainfall_frequency
+        items.append(
+            "Rainfall frequency: per cell and tabulated duration, the smallest constant "
+            "intensity bringing the minimum FS (over depth, and over the storm and "
+            f"{rain.after_h:g} h after it) to 1, in closed form from the pressure head of "
+            "Iverson (2000), its minimum over depth bracketed on 48 planes and refined "
+            "(golden-section search), capped by the steady water table of the same rain "
+            "(Montgomery &amp; Dietrich 1994). Return period from the design-rainfall table, "
+            "log intensity linear in log return period between rows; the triggering storm "
+            "is the most frequent over the durations; annual probability 1 - exp(-1/T); "
+            "classes at annual probabilities " + ", ".join(f"{b:g}" for b in rain.aep_breaks) + "."
+        )
+        if soils.spreads:
+            how = (
+                "Monte Carlo over the soil parameters (each sample's own triggering return period)"
+                if cfg.reliability.method == "monte_carlo"
+                else "the Taylor-series method on the rain factor of safety I_c / min(i, K_z) "
+                "at the critical duration, summed over 256 bands of storm level (conservative)"
+            )
+            items.append(
+                "Annual probability with soil spreads: the year's storms of every duration at "
+                f"one return-period level; P(failure | level) by {how}."
+            )
+    if any(sc.saturation_raster is not None for sc in ran):
+        items.append("Saturation rasters: the user's m, resampled to the DEM's grid.")
+    if any(sc.rain_raster is not None for sc in ran):
+        items.append(
+            "Rain rasters (recharge or storm intensity): the user's grid resampled "
+            "bilinearly onto the DEM's grid; it covers every cell of the DEM."
+        )
+    if soils.spreads and any(s.probability_areas_ha for s in scenarios):
+        rel = cfg.reliability
+        if rel.method == "taylor" or any(sc.storm is not None for sc in ran):
+            items.append(
+                "Probability of failure by the Taylor-series method (Duncan 2000), FS "
+                f"{rel.fs_distribution}. Under this method the class <em>1 in 2 or more</em> "
+                "is where the median of the FS distribution is below 1: the mean FS below 1 "
+                "(normal) or below sqrt(1 + V^2) (lognormal). It therefore repeats the "
+                "<em>failing</em> class up to that small shift; the spread shows in the "
+                "other classes."
+            )
+        if rel.method == "monte_carlo":
+            items.append(
+                f"Probability of failure by Monte Carlo, {rel.samples} samples (random_state "
+                f"{rel.random_state}), c'-phi' correlation through a Gaussian copula."
+            )
+    if soils.lab_tests:
+        items.append(
+            "Lab fits: least-squares line through the tops of the Mohr circles (s'-t; Lambe "
+            "&amp; Whitman 1969) or the direct-shear points, standard errors from the "
+            "residuals (Draper &amp; Smith 1998)."
+        )
+    return "<h2>Methods</h2><ul>" + "".join(f"<li>{i}</li>" for i in items) + "</ul>"
+
+
+def write_report(
+    target: Path,
+    cfg: Config,
+    grid: Grid,
+    soils: SoilUnits,
+    class_names: list[str],
+    scenarios: list[ScenarioSummary],
+    facts: RunFacts,
+    small_multiples: Path | None = None,
+    changes: Sequence[ClassChange] = (),
+    extras: Extras | None = None,
+    validation: str = "",
+) -> Path:
+    """The report; ``validation`` is the known-landslides section (HTML), kept between
+    markers so the inventory commands can rewrite it in place."""
+    import tempfile
+
+    from slopescreen.maps.inventory.finished_run import SECTION_END, SECTION_START
+
+    extras = extras or Extras()
+    ran = ", ".join(s.name for s in scenarios)
+    parts = [
+        "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+        "<meta name='viewport' content='width=device-width, initial-scale=1'>"
+        f"<title>slopescreen: {_e(cfg.region.name)}</title><style>{_STYLE}</style></head><body>",
+        f"<h1>Shallow-landslide susceptibility screening: {_e(cfg.region.name)}</h1>",
+        f"<p class='meta'>Run {_e(facts.started_utc)} to {_e(facts.finished_utc)} (UTC) with "
+        f"slopescreen {_e(facts.version)}; scenario file <code>{_e(cfg.path.name)}</code>; "
+        f"{len(scenarios)} scenario(s): {_e(ran)}.</p>",
+        "<p>Factor-of-safety classes are a <em>susceptibility</em> map: where failure is more "
+        "or less likely under each scenario, with no annual frequency attached.</p>",
+        _cautions(),
+    ]
+    parts += _comparison(cfg, class_names, scenarios, small_multiples, list(changes))
+    with_pf = [s for s in scenarios if s.probability_areas_ha]
+    if with_pf:
+        rows = [
+            [_e(name), *(f"{s.probability_areas_ha[i]:,.1f} ha" for s in with_pf)]  # type: ignore[index]
+            for i, name in enumerate(PF_CLASS_NAMES)
+        ]
+        parts.append(
+            "<h3>Probability of failure</h3><p>P(FS &lt; 1) from the spread of the soil "
+            "parameters (not an annual frequency). Areas of the units that have spreads.</p>"
+            + _table(["chance that FS < 1", *(s.name for s in with_pf)], rows)
+        )
+    parts += [_scenario_section(s, class_names, soils.keys) for s in scenarios]
+    parts.append(SECTION_START + validation + SECTION_END)
+
+    t = grid.transform
+    parts.append("<h2>Inputs</h2>")
+    rows = [
+        [
+            "DEM",
+            f"<code>{_e(_relative(cfg.region.dem, cfg))}</code>: {grid.width} x "
+            f"{grid.height} cells, elevations in {_e(cfg.region.dem_elevation_unit)}",
+        ],
+        ["ground geometry", _e(grid.spacing_note)],
+        ["CRS", _e(grid.crs.to_string())],  # type: ignore[attr-defined]
+        ["DEM no data", _e(facts.dem_no_data or "not counted")],
+        ["origin", f"{t.c:.10g}, {t.f:.10g} (upper-left corner)"],  # type: ignore[attr-defined]
+        [
+            "soil units",
+            f"<code>{_e(_relative(soils.sources['polygons'], cfg))}</code>, "
+            f"parameters from <code>{_e(_relative(soils.sources['parameters'], cfg))}</code>",
+        ],
+        [
+            "class breaks",
+            f"FS {', '.join(f'{b:g}' for b in cfg.fs_breaks)}; zones of the two "
+            f"least stable classes, minimum mapping unit {cfg.min_zone_area_m2:g} m2",
+        ],
+        [
+            "FS cap",
+            f"FS above {cfg.fs_cap:g} (flat ground: no driving stress) stored as {cfg.fs_cap:g}",
+        ],
+        ["command", f"<code>{_e(' '.join(facts.command))}</code>"],
+    ]
+    parts.append(_table(["input", "value"], [[_e(a), b] for a, b in rows], 2, wrap_last=True))
+    parts.append("<h3>Soil parameters</h3>" + _soil_table(cfg, soils))
+    with tempfile.TemporaryDirectory() as work:
+        parts += _lab_fits(cfg, soils, extras, Path(work))
+        if extras.hillside is not None:
+            parts.append(_hillside(extras.hillside))
+        parts.append(_methods(cfg, scenarios, soils))
+        hashes = [[_e(k), f"<code>{_e(v)}</code>"] for k, v in facts.hashes.items()]
+        parts.append("<h3>Input hashes (SHA-256)</h3>" + _table(["input", "SHA-256"], hashes, 2))
+        warnings = soils.warnings + [w for s in scenarios for w in s.warnings]
+        parts.append("<h2>Coverage and warnings</h2>")
+        parts.append(
+            "<ul>" + "".join(f"<li class='warn'>{_e(w)}</li>" for w in warnings) + "</ul>"
+            if warnings
+            else "<p>All DEM data cells lie in a soil unit; no warnings.</p>"
+        )
+        parts.append(_cautions() + "</body></html>\n")
+        return write_text(target, "\n".join(parts))

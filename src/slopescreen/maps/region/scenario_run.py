@@ -1,0 +1,776 @@
+"""One scenario over the grid: tiles computed (here or on dask workers) and written in
+tile order, area tables summed in tile order, then the summary, zones and map.
+
+The per-tile maths lives in :mod:`slopescreen.maps.region.scenario_tiles`.
+"""
+
+from __future__ import annotations
+
+import shutil
+from collections.abc import Callable, Iterable
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+import numpy as np
+
+from slopescreen import __version__
+from slopescreen.maps.io.cache import building, content_key, usable_entry
+from slopescreen.maps.io.grid import Grid
+from slopescreen.maps.io.rasters import RasterSink, all_or_nothing, windows
+from slopescreen.maps.outputs.output_names import LEGACY_SCENARIO_FILES, SCENARIO_OUTPUTS
+from slopescreen.maps.outputs.summary import summary_rows, write_summary
+from slopescreen.maps.region.config import Config, Scenario
+from slopescreen.maps.region.intensity_tables import table_settings, tables_for, unit_cells
+from slopescreen.maps.region.rain_tiles import intensity_name
+from slopescreen.maps.region.runners import Runner, serial_runner
+from slopescreen.maps.region.scenario_tiles import (
+    BETA_CAP,
+    CORE_FIELDS,
+    TileJob,
+    compute_tile,
+)
+from slopescreen.maps.region.soils import SoilUnits
+from slopescreen.maps.region.terrain_cache import NODATA_F32
+from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
+from slopescreen.stability_classes import PF_CLASS_NAMES
+from slopescreen.storm import FAILS_BEFORE_STORM, NOT_BY_LATER
+
+RECHARGE = "critical_recharge_mm_day.tif"
+HAZARD_ZONES = "hazard_class_zones.gpkg"
+# every file a scenario folder can hold; those a run does not write are removed from it
+SCENARIO_FILES = (*(f for f, _, _ in SCENARIO_OUTPUTS), *LEGACY_SCENARIO_FILES)
+
+
+@dataclass
+class ScenarioSummary:
+    name: str
+    wetness: str
+    seismic_coefficient: float
+    overrides: dict[str, dict[str, float]]
+    class_areas_ha: list[float]  # per FS class, all units
+    maps: dict[str, Path]  # what each map shows -> its PNG
+    warnings: list[str]
+    probability_areas_ha: list[float] | None = None  # per probability class
+    outputs: list[str] = field(default_factory=list)  # file names in the scenario folder
+    description: str = ""
+    cut_off_ha: float = 0.0  # mapped area whose upslope area is cut off by a void or edge
+    loads: str = ""  # every load that changes the result, in words
+    unit_class_areas_ha: list[list[float]] = field(default_factory=list)  # unit x class
+    zones: list[dict[str, object]] = field(default_factory=list)  # largest, by area
+    hazard_areas_ha: list[float] | None = None  # per hazard class (rainfall scenarios)
+    hazard_names: list[str] = field(default_factory=list)
+    hazard_spread_areas_ha: list[float] | None = None  # the same with the soil spreads
+
+
+def _sinks(
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    out: Path,
+    names: list[str],
+    with_probability: bool,
+) -> dict[str, RasterSink]:
+    from slopescreen.maps.outputs.quicklook import colour_table
+
+    base = {
+        "slopescreen_version": __version__,
+        "scenario": sc.name,
+        "wetness": sc.wetness,
+        "seismic_coefficient": f"{sc.seismic_coefficient:g}",
+        "ground_geometry": grid.ground.note,
+    }
+    if sc.rain_raster is not None:
+        base["rain_raster"] = (
+            f"{sc.rain_raster.name} ({sc.rain_unit[0]}) resampled bilinearly onto the DEM grid"
+        )
+    if sc.saturation_raster is not None:
+        base["saturation_raster"] = (
+            f"{sc.saturation_raster.name} resampled bilinearly onto the DEM grid (any grid, "
+            "shift or CRS)"
+        )
+
+    def f32(name: str, **tags: str) -> RasterSink:
+        return RasterSink(out / name, grid, "float32", NODATA_F32, tags=base | tags)
+
+    sinks = {
+        "fs": f32(
+            "fs.tif",
+            units="factor of safety (dimensionless)",
+            fs_cap=f"{cfg.fs_cap:g}",
+            fs_cap_note=f"FS above {cfg.fs_cap:g}, including flat ground with no driving "
+            f"stress, is stored as {cfg.fs_cap:g}",
+            **(
+                {
+                    "fs_when": "minimum over depth and time from the start of the storm to "
+                    f"{sc.storm.later_h:g} h (depth bracketed from the shallowest slip plane, "
+                    f"{sc.storm.min_slip_depth_m:g} m; time exact; see storm_summary)"
+                }
+                if sc.storm
+                else {}
+            ),
+        ),
+        "saturation": f32("saturation.tif", units="saturation ratio m = h_w / z"),
+        "classes": RasterSink(
+            out / "stability_class.tif",
+            grid,
+            "uint8",
+            0,
+            resampling="nearest",
+            colormap=colour_table(len(names)),
+            tags=base
+            | {f"class_{i}": n for i, n in enumerate(names, start=1)}
+            | {"class_0": "no data"},
+        ),
+    }
+    sinks["recharge"] = f32(RECHARGE, **recharge_tags(sc))
+    if sc.storm is not None:
+        sinks["storm_fs_end"] = f32(
+            "storm_fs_end.tif",
+            units="minimum FS over depth",
+            when=f"at the end of the storm, {sc.storm.duration_h:g} h after it began",
+        )
+        sinks["storm_fs_later"] = f32(
+            "storm_fs_later.tif",
+            units="minimum FS over depth",
+            when=f"{sc.storm.later_h:g} h after the storm began",
+        )
+        sinks["storm_failure_depth"] = f32(
+            "storm_failure_depth_m.tif",
+            units="m, vertical depth of the minimum FS over depth and time (fs.tif)",
+        )
+        sinks["storm_time_to_failure"] = f32(
+            "storm_time_to_failure_h.tif",
+            units="hours from the start of the storm until FS first drops below 1",
+            code_no_failure=f"{NOT_BY_LATER:g} (FS stays >= 1 up to {sc.storm.later_h:g} h)",
+            code_fails_before=f"{FAILS_BEFORE_STORM:g} (FS < 1 before the storm begins)",
+            method="first crossing of FS = 1 on 45 planes and the critical one, bisected in "
+            "time; the earlier end of the bracket",
+        )
+    if sc.rainfall is not None and cfg.rainfall_frequency is not None:
+        sinks |= rainfall_sinks(cfg, sc, grid, out, base, with_probability)
+    if with_probability:
+        conventions = probability_conventions(cfg, sc)
+        sinks["probability"] = f32(
+            "probability_of_failure.tif", units="P(FS < 1), 0 to 1", **conventions
+        )
+        sinks["reliability"] = f32(
+            "reliability_index.tif",
+            units="reliability index beta",
+            cap=f"stored within +-{BETA_CAP:g}",
+            **conventions,
+        )
+    return sinks
+
+
+def rainfall_sinks(
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    out: Path,
+    base: dict[str, str],
+    with_probability: bool = False,
+) -> dict[str, RasterSink]:
+    """The rasters of a rainfall-frequency scenario: critical intensity per duration,
+    triggering return period, annual probability of failure (with the soil spreads too,
+    where given), hazard classes."""
+    from slopescreen import rainfall_frequency as rf
+    from slopescreen.maps.outputs.quicklook import colour_table
+
+    table = cfg.rainfall_frequency
+    assert table is not None and sc.rainfall is not None
+    window = f"minimum FS over depth and over the storm and {table.after_h:g} h after it"
+    codes = {
+        "code_fails_without_rain": "-1 (FS < 1 before any rain)",
+        "code_no_intensity": "-2 (no intensity up to K_z brings FS to 1)",
+    }
+
+    def f32(name: str, **tags: str) -> RasterSink:
+        return RasterSink(out / name, grid, "float32", NODATA_F32, tags=base | tags)
+
+    sinks = {
+        f"intensity_{d:g}": f32(
+            intensity_name(d),
+            units=f"mm/h: the constant intensity of a {d:g}-hour storm bringing the {window} "
+            "to 1 (Iverson 2000)",
+            **codes,
+        )
+        for d in table.durations_h
+    }
+    names = table.hazard_names
+    period_codes = {
+        "code_more_frequent": f"{rf.MORE_FREQUENT:g} (triggered by rain more frequent than "
+        f"{table.return_periods_yr[0]:g} yr)",
+        "code_rarer": f"{rf.RARER:g} (no tabulated storm triggers failure)",
+        "code_fails_without_rain": f"{rf.FAILS_WITHOUT_RAIN:g}",
+        "code_no_intensity": f"{rf.NO_INTENSITY_FAILS:g}",
+    }
+    frequency = {
+        "idf_table": table.idf_table.name
+        + (
+            f" (gridded: {sum(map(len, table.rasters))} rasters resampled bilinearly onto "
+            "the DEM grid)"
+            if table.rasters
+            else ""
+        ),
+        "uplift": f"{sc.rainfall.uplift:g}",
+        "interpolation": "between table rows the shorter return period of log intensity "
+        "linear in log T and intensity linear in the Gumbel variate -ln(-ln(1 - 1/T))",
+        "series": table.series
+        + ("" if table.series_stated else " (default: series not given in the scenario file)"),
+        "min_slip_depth_m": f"{sc.rainfall.min_slip_depth_m:g}",
+    }
+    sinks["return_period"] = f32(
+        "triggering_return_period_yr.tif",
+        units="years: the most frequent tabulated storm (any duration) that starts failure",
+        **period_codes,
+        **frequency,
+    )
+    sinks["annual_probability"] = f32(
+        "annual_failure_probability.tif",
+        units=("p = 1 - exp(-1/T)" if table.series == "partial_duration" else "p = 1/T")
+        + " per year",
+        more_frequent="the shortest tabulated period's p (a lower bound)",
+        rarer="the longest tabulated period's p (an upper bound)",
+        **frequency,
+    )
+    if with_probability:
+        how = (
+            f"Monte Carlo, {cfg.reliability.samples} samples (random_state "
+            f"{cfg.reliability.random_state}): mean of each sample's p(T)"
+            if cfg.reliability.method == "monte_carlo"
+            else f"Taylor series (Duncan 2000) on the critical intensity, "
+            f"{cfg.reliability.fs_distribution}, summed over {rf.BANDS} bands of storm level"
+        )
+        sinks["annual_probability_spread"] = f32(
+            "annual_failure_probability_with_spread.tif",
+            units="per year: rainfall frequency and soil spreads together",
+            method=how,
+            storms="a year's storms of every duration at one return-period level",
+            **frequency,
+        )
+    sinks["hazard_classes"] = RasterSink(
+        out / "hazard_class.tif",
+        grid,
+        "uint8",
+        0,
+        resampling="nearest",
+        colormap=colour_table(len(names)),
+        tags=base | {f"class_{i}": n for i, n in enumerate(names, start=1)} | frequency,
+    )
+    return sinks
+
+
+def probability_conventions(cfg: Config, sc: Scenario) -> dict[str, str]:
+    """How P_f and beta were obtained, for the raster tags and the report."""
+    if sc.storm is not None or cfg.reliability.method == "taylor":
+        lognormal = cfg.reliability.fs_distribution == "lognormal"
+        out = {
+            "method": "taylor",
+            "fs_distribution": cfg.reliability.fs_distribution,
+            "beta": "ln(F / sqrt(1 + V^2)) / sqrt(ln(1 + V^2)), V = sigma_F / F (Duncan 2000)"
+            if lognormal
+            else "(F - 1) / sigma_F",
+            "p_f": "Phi(-beta)",
+            "correlation_model": "c'-phi' correlation used as the Pearson correlation of the "
+            "inputs in the variance sum",
+            "clipping": "a point mean +- sd outside an input's physical range (c' < 0, say) "
+            "is clipped to it; dF is then the slope between the points times 2 sd",
+        }
+        if sc.storm is not None:
+            out["storm"] = "at the critical depth and time of the mean parameters"
+        return out
+    return {
+        "method": "monte_carlo",
+        "fs_distribution": "none assumed: P_f is the share of samples with FS < 1",
+        "beta": "-Phi^-1(P_f) (generalised reliability index)",
+        "p_f": f"share of {cfg.reliability.samples} samples with FS < 1, random_state "
+        f"{cfg.reliability.random_state}",
+        "correlation_model": "c'-phi' correlation applied to the normal scores (Gaussian "
+        "copula); the Pearson correlation of the sampled values can differ a little",
+        "clipping": "samples outside an input's physical range (c' < 0, say) are clipped to it",
+    }
+
+
+def recharge_tags(sc: Scenario) -> dict[str, str]:
+    return {
+        "slopescreen_version": __version__,
+        "seismic_coefficient": f"{sc.seismic_coefficient:g}",
+        "units": "mm/day of steady recharge bringing FS to 1",
+        "code_fails_when_dry": f"{FAILS_WHEN_DRY:g}",
+        "code_holds_when_saturated": f"{HOLDS_WHEN_SATURATED:g}",
+    }
+
+
+def recharge_key(units: SoilUnits, sc: Scenario, terrain_key: str) -> str:
+    """Content key of a critical-recharge raster: terrain (DEM content), the rasterized soil
+    units, every unit's parameters, the seismic load and the program version."""
+    parts: list[str | bytes] = [terrain_key, units.codes_sha256, __version__]
+    for name in CORE_FIELDS:
+        parts += [name, np.ascontiguousarray(units.parameters[name], np.float64).tobytes()]
+    parts.append(repr(float(sc.seismic_coefficient)))
+    return content_key(*parts)
+
+
+def intensity_key(units: SoilUnits, sc: Scenario, terrain_key: str, cfg: Config) -> str:
+    """Content key of a rainfall scenario's critical intensities: everything but the
+    design-rainfall table, the uplift and the class breaks (a new table or climate scenario
+    reuses them): terrain, soil units and parameters, the seismic load, the antecedent
+    water table, the durations and window, the search's settings and the program version."""
+    from slopescreen import rain_thresholds as rt
+
+    table, spec = cfg.rainfall_frequency, sc.rainfall
+    assert table is not None and spec is not None
+    parts: list[str | bytes] = [terrain_key, units.codes_sha256, __version__]
+    for name in CORE_FIELDS:
+        parts += [name, np.ascontiguousarray(units.parameters[name], np.float64).tobytes()]
+    parts += [
+        repr(float(sc.seismic_coefficient)),
+        repr(spec.initial_water_table_depth_m),
+        repr(spec.long_term_infiltration_mm_day),
+        repr(table.durations_h),
+        repr(table.after_h),
+        repr((rt.kernel_search().tolist(), spec.min_slip_depth_m, rt.MIN_SLIP_DEPTH_M)),
+        repr(table_settings()),
+    ]
+    return content_key(*parts)
+
+
+def run_scenario(
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    soils: SoilUnits,
+    terrain_dir: Path,
+    terrain_cache: Path,
+    terrain_key: str,
+    out: Path,
+    names: list[str],
+    progress: Callable[[Iterable, int, str], Iterable],
+    runner: Runner = serial_runner,
+    numba_threads: int = 0,
+    echo: Callable[[str], None] = print,
+) -> tuple[ScenarioSummary, list[dict[str, object]]]:
+    """Write every output of one scenario into ``out``; ``terrain_cache`` is the folder of
+    the terrain cache entry, and critical recharge is cached beside it (in its parent)."""
+    from slopescreen.maps.outputs.zones import low_margin_zones, write_zones
+
+    where = f"{cfg.path}: scenario {sc.name}"
+    units = soils.with_overrides(sc.soil_overrides, where)
+    entry_name = f"critical_recharge-{recharge_key(units, sc, terrain_key)}"
+    entry = usable_entry(terrain_cache.parent, entry_name, echo)
+    cached = entry is not None
+    recharge_file = entry / RECHARGE if entry is not None else None
+    intensity_entry, intensity_cached = None, None
+    if sc.rainfall is not None and cfg.rainfall_frequency is not None:
+        intensity_entry = f"critical_intensity-{intensity_key(units, sc, terrain_key, cfg)}"
+        intensity_cached = usable_entry(terrain_cache.parent, intensity_entry, echo)
+        if intensity_cached is not None:
+            echo(f"scenario {sc.name}: critical intensities reused from cache (verified)")
+    job = TileJob(
+        grid=grid,
+        scenario=sc,
+        tables=units.parameters,
+        spreads={code: units.unit_spreads(code) for code in units.spreads},
+        correlations=units.correlations,
+        slope_deg=terrain_dir / "slope_deg.tif",
+        slope_tan=terrain_cache / "slope_tan.tif",
+        sca=terrain_dir / "specific_catchment_area_m.tif",
+        codes=terrain_dir / "soil_unit.tif",
+        cut_off=terrain_dir / "catchment_cut_off.tif",
+        recharge_cache=recharge_file,
+        fs_breaks=cfg.fs_breaks,
+        fs_cap=cfg.fs_cap,
+        reliability=cfg.reliability,
+        n_units=len(units.keys),
+        numba_threads=numba_threads,
+        rainfall=cfg.rainfall_frequency if sc.rainfall is not None else None,
+        intensity_cache=intensity_cached,
+    )
+    if sc.rainfall is not None and intensity_cached is None:
+        job = replace(job, intensity_tables=tables_for(job, unit_cells(job.codes, grid)))
+        if job.intensity_tables:
+            codes = {c for t in job.intensity_tables.values() for c in t.units}
+            used = sorted(units.keys[code - 1] for code in codes)
+            echo(f"scenario {sc.name}: critical intensities from tables for {', '.join(used)}")
+    with_probability = bool(units.spreads)
+    sinks = _sinks(cfg, sc, grid, out, names, with_probability)
+    tables, pf_tables, cut_tables, hazard_tables, spread_tables = [], [], [], [], []
+    missing = 0
+    with all_or_nothing(*sinks.values()):
+        tiles = [(job, rows, cols) for rows, cols in windows(grid)]
+        results = runner(compute_tile, tiles)
+        for res in progress(results, len(tiles), sc.name):
+            for name, sink in sinks.items():
+                sink.write(res["rows"], res["cols"], res[name])
+            tables.append(res["table"])
+            cut_tables.append(res["cut_table"])
+            if with_probability:
+                pf_tables.append(res["pf_table"])
+            if "hazard_table" in res:
+                hazard_tables.append(res["hazard_table"])
+            if "hazard_spread_table" in res:
+                spread_tables.append(res["hazard_spread_table"])
+            missing += res["missing_wetness"]
+    if not cached:  # the output holds exactly the cached values; its tags are this scenario's
+        info = {"seismic_coefficient": sc.seismic_coefficient, "terrain_key": terrain_key}
+        with building(terrain_cache.parent, entry_name, info) as work:
+            shutil.copyfile(out / RECHARGE, work / RECHARGE)
+    if intensity_entry is not None and intensity_cached is None:
+        info = {"terrain_key": terrain_key, "durations_h": list(cfg.rainfall_frequency.durations_h)}  # type: ignore[union-attr]
+        with building(terrain_cache.parent, intensity_entry, info) as work:
+            for d in cfg.rainfall_frequency.durations_h:  # type: ignore[union-attr]
+                shutil.copyfile(out / intensity_name(d), work / intensity_name(d))
+    table = np.sum(tables, axis=0)  # in tile order: the same sums whatever ran the tiles
+    warnings: list[str] = []
+    if missing:
+        warnings.append(
+            f"scenario {sc.name}: {missing} cells have no value in "
+            f"{(sc.saturation_raster or sc.rain_raster).name} and are left unmapped"  # type: ignore[union-attr]
+        )
+    if with_probability:
+        without = [k for i, k in enumerate(units.keys, start=1) if i not in units.spreads]
+        if without:
+            warnings.append(
+                f"scenario {sc.name}: no probability for soil units without "
+                f"spreads: {', '.join(without)}"
+            )
+        if sc.storm is not None and cfg.reliability.method == "monte_carlo":
+            warnings.append(
+                f"scenario {sc.name}: storm probability by the Taylor-series "
+                "method (Monte Carlo over depth and time is not offered)"
+            )
+    cut_table = np.sum(cut_tables, axis=0)
+    rows_out = summary_rows(
+        table, units.keys, names, sc.name, "factor_of_safety", cut_table=cut_table
+    )
+    pf_areas = None
+    if with_probability:
+        pf_table = np.sum(pf_tables, axis=0)
+        rows_out += summary_rows(
+            pf_table, units.keys, list(PF_CLASS_NAMES), sc.name, "probability_of_failure"
+        )
+        pf_areas = [float(a) / 10_000.0 for a in pf_table[1:, 1:].sum(axis=0)]
+    hazard_areas, hazard_names = None, []
+    if hazard_tables and cfg.rainfall_frequency is not None:
+        hazard_table = np.sum(hazard_tables, axis=0)
+        hazard_names = cfg.rainfall_frequency.hazard_names
+        rows_out += summary_rows(
+            hazard_table, units.keys, hazard_names, sc.name, "annual_failure_probability"
+        )
+        hazard_areas = hazard_table[1:, 1:] / 10_000.0
+    spread_areas = None
+    if spread_tables:
+        spread_table = np.sum(spread_tables, axis=0)
+        rows_out += summary_rows(
+            spread_table,
+            units.keys,
+            hazard_names,
+            sc.name,
+            "annual_failure_probability_with_spread",
+        )
+        spread_areas = [float(a) / 10_000.0 for a in spread_table[1:, 1:].sum(axis=0)]
+    write_summary(rows_out, out / "summary.csv")
+    largest: list[dict[str, object]] = []
+    if cfg.zones:
+        zones = low_margin_zones(
+            out / "stability_class.tif",
+            job.codes,
+            grid,
+            units.keys,
+            names,
+            cfg.min_zone_area_m2,
+            sc.name,
+            terrain_dir / "slope_deg.tif",
+        )
+        write_zones(zones, out / "low_margin_zones.gpkg")
+        largest = largest_zones(zones)
+        if hazard_areas is not None:  # the two most frequent hazard classes, the same way
+            hazard_zones = low_margin_zones(
+                out / "hazard_class.tif",
+                job.codes,
+                grid,
+                units.keys,
+                hazard_names,
+                cfg.min_zone_area_m2,
+                sc.name,
+                terrain_dir / "slope_deg.tif",
+            ).rename(columns={"stability_class": "hazard_class"})
+            write_zones(hazard_zones, out / HAZARD_ZONES)
+    unit_areas = table[1:, 1:] / 10_000.0
+    maps: dict[str, Path] = {}
+    if cfg.quicklook_map:
+        maps = draw_scenario_maps(cfg, sc, grid, units.keys, names, terrain_dir, out, unit_areas)
+        if hazard_areas is not None:
+            maps |= draw_rainfall_maps(cfg, sc, grid, units.keys, terrain_dir, out, hazard_areas)
+            maps["rainfall thresholds"] = draw_thresholds(cfg, sc, grid, units, terrain_dir, out)
+    areas = [float(a) / 10_000.0 for a in table[1:, 1:].sum(axis=0)]
+    written = {s.target.name for s in sinks.values()} | {"summary.csv"}
+    written |= {p.name for p in maps.values()}
+    if cfg.zones:
+        written.add("low_margin_zones.gpkg")
+        if hazard_areas is not None:
+            written.add(HAZARD_ZONES)
+    for stale in set(SCENARIO_FILES) - written:  # left by an earlier run of another config
+        (out / stale).unlink(missing_ok=True)
+    for stale in out.glob("critical_intensity_*h_mm_h.tif"):
+        if stale.name not in written:
+            stale.unlink()
+    outputs = sorted(written)
+    return ScenarioSummary(
+        sc.name,
+        sc.wetness,
+        sc.seismic_coefficient,
+        sc.soil_overrides,
+        areas,
+        maps,
+        warnings,
+        pf_areas,
+        outputs,
+        sc.description,
+        float(cut_table[1:, 1:].sum()) / 10_000.0,
+        sc.loads,
+        unit_areas.tolist(),
+        largest,
+        hazard_areas.sum(axis=0).tolist() if hazard_areas is not None else None,
+        hazard_names,
+        spread_areas,
+    ), rows_out
+
+
+def largest_zones(zones: object, count: int = 10) -> list[dict[str, object]]:
+    """The ``count`` largest zones: class, soil unit, ground area and mean slope."""
+    frame = zones.sort_values("area_m2", ascending=False, kind="stable").head(count)  # type: ignore[attr-defined]
+    return [
+        {
+            "class_name": str(r.class_name),
+            "soil_unit": str(r.soil_unit),
+            "area_ha": float(r.area_m2) / 10_000.0,
+            "mean_slope_deg": float(r.mean_slope_deg),
+        }
+        for r in frame.itertuples()
+    ]
+
+
+def draw_scenario_maps(
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    unit_keys: list[str],
+    names: list[str],
+    terrain_dir: Path,
+    out: Path,
+    unit_areas: np.ndarray,
+) -> dict[str, Path]:
+    """Every map of one scenario in the house style; returns {what it shows: PNG path}."""
+    from slopescreen.maps.outputs.palette import FAILS_BEFORE_HEX, HOLDS_HEX
+    from slopescreen.maps.outputs.quicklook import (
+        CRITICAL_RECHARGE_SPECIALS,
+        MapFrame,
+        Special,
+        draw_classes,
+        draw_values,
+        read_for_map,
+    )
+    from slopescreen.stability_classes import classify_probability
+
+    region = cfg.region.name
+
+    def frame(what: str, inset: bool = False) -> MapFrame:
+        return MapFrame(
+            grid,
+            terrain_dir / "hillshade.tif",
+            f"{region}: {what}",
+            f"scenario {sc.name}: {sc.loads}",
+            soil_codes=terrain_dir / "soil_unit.tif",
+            zones=out / "low_margin_zones.gpkg" if cfg.zones else None,
+            inset=(unit_keys, unit_areas) if inset else None,
+        )
+
+    f = frame("factor-of-safety classes (susceptibility, no annual frequency)", inset=True)
+    maps = {
+        "stability classes": draw_classes(
+            out / "stability_class.png",
+            f,
+            read_for_map(out / "stability_class.tif", f),
+            names,
+            "factor of safety",
+        )
+    }
+    if (out / "probability_of_failure.tif").exists():
+        f = frame("probability of failure P(FS < 1) from parameter spread")
+        pf = read_for_map(out / "probability_of_failure.tif", f).astype(np.float64)
+        pf[pf < 0.0] = np.nan
+        maps["probability of failure"] = draw_classes(
+            out / "probability_of_failure.png",
+            f,
+            classify_probability(pf),
+            list(PF_CLASS_NAMES),
+            "chance that FS < 1",
+            "no result (no spread given, or no data)",
+        )
+    f = frame("critical steady recharge (rain that starts failure)")
+    maps["critical recharge"] = draw_values(
+        out / RECHARGE.replace(".tif", ".png"),
+        f,
+        out / RECHARGE,
+        "steady recharge bringing FS to 1 (mm/day, log scale)",
+        log=True,
+        specials=CRITICAL_RECHARGE_SPECIALS,
+    )
+    if sc.storm is not None:
+        f = frame("time from the start of the storm until FS falls below 1")
+        maps["storm time to failure"] = draw_values(
+            out / "storm_time_to_failure_h.png",
+            f,
+            out / "storm_time_to_failure_h.tif",
+            "hours after the storm began",
+            specials=(
+                Special(NOT_BY_LATER, HOLDS_HEX, f"holds to {sc.storm.later_h:g} h (code -1)"),
+                Special(FAILS_BEFORE_STORM, FAILS_BEFORE_HEX, "fails before the storm (code -2)"),
+            ),
+            value_range=(0.0, sc.storm.later_h),
+        )
+    return maps
+
+
+def draw_rainfall_maps(
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    unit_keys: list[str],
+    terrain_dir: Path,
+    out: Path,
+    hazard_areas: np.ndarray,
+) -> dict[str, Path]:
+    """The hazard-class and return-period maps of a rainfall scenario."""
+    from slopescreen import rainfall_frequency as rf
+    from slopescreen.maps.outputs.palette import CLASS_HEX, FAILS_DRY_HEX, HOLDS_HEX, NO_RAIN_HEX
+    from slopescreen.maps.outputs.quicklook import (
+        MapFrame,
+        Special,
+        draw_classes,
+        draw_values,
+        read_for_map,
+    )
+
+    table = cfg.rainfall_frequency
+    assert table is not None
+
+    def frame(what: str, inset: bool = False) -> MapFrame:
+        return MapFrame(
+            grid,
+            terrain_dir / "hillshade.tif",
+            f"{cfg.region.name}: {what}",
+            f"scenario {sc.name}: {sc.loads}; design rain {table.idf_table.name}",
+            soil_codes=terrain_dir / "soil_unit.tif",
+            inset=(unit_keys, hazard_areas) if inset else None,
+        )
+
+    f = frame("hazard: annual probability that rain starts failure", inset=True)
+    maps = {
+        "hazard classes": draw_classes(
+            out / "hazard_class.png",
+            f,
+            read_for_map(out / "hazard_class.tif", f),
+            table.hazard_names,
+            "how often rain starts failure",
+        )
+    }
+    f = frame("return period of the rain that starts failure")
+    t0, t1 = table.return_periods_yr[0], table.return_periods_yr[-1]
+    maps["triggering return period"] = draw_values(
+        out / "triggering_return_period_yr.png",
+        f,
+        out / "triggering_return_period_yr.tif",
+        "return period of the triggering storm (years, log scale)",
+        log=True,
+        specials=(
+            Special(rf.FAILS_WITHOUT_RAIN, FAILS_DRY_HEX, "fails before any rain (code -3)"),
+            Special(rf.MORE_FREQUENT, CLASS_HEX[0], f"more often than 1 in {t0:g} yr (code -1)"),
+            Special(rf.RARER, HOLDS_HEX, f"rarer than 1 in {t1:g} yr (code -2)"),
+            Special(rf.NO_INTENSITY_FAILS, NO_RAIN_HEX, "no rain starts failure (code -4)"),
+        ),
+        value_range=(t0, t1),
+    )
+    return maps
+
+
+def draw_thresholds(
+    cfg: Config, sc: Scenario, grid: Grid, units: SoilUnits, terrain_dir: Path, out: Path
+) -> Path:
+    """rainfall_thresholds.png: each unit's critical intensity against duration at its
+    median slope and specific catchment area, over the design-rainfall curves."""
+    from slopescreen.maps.inventory.sensitivity_map import SensitivityJob, unit_medians
+    from slopescreen.maps.outputs.validation_plots import threshold_figure
+    from slopescreen.rain_thresholds import critical_intensity_mm_h
+
+    table, spec = cfg.rainfall_frequency, sc.rainfall
+    assert table is not None and spec is not None
+    p = units.parameters
+    job = SensitivityJob(
+        grid=grid,
+        slope_deg=terrain_dir / "slope_deg.tif",
+        sca=terrain_dir / "specific_catchment_area_m.tif",
+        saturation=out / "saturation.tif",
+        codes=terrain_dir / "soil_unit.tif",
+        tables={},
+        ranges={},
+        recharge_mm_day=None,
+        seismic=float(sc.seismic_coefficient),
+        fs_breaks=cfg.fs_breaks,
+        n_units=len(units.keys),
+    )
+    medians, steep = unit_medians(job), unit_medians(job, share=0.9)
+    # one column per unit and slope (median, steepest 10%), all durations vectorised
+    labels, codes, slopes, scas = [], [], [], []
+    for code, (slope, sca, _) in medians.items():
+        for label, slope_deg in (("median", slope), ("steep 10%", steep[code][0])):
+            labels.append(f"{units.keys[code - 1]} ({label} slope {slope_deg:.0f} deg)")
+            codes.append(code)
+            slopes.append(slope_deg)
+            scas.append(sca)
+    c = np.array(codes, int)
+    t_day = p["transmissivity_m2_day"][c]
+    columns = np.array(
+        [
+            critical_intensity_mm_h(
+                d,
+                after_h=table.after_h,
+                slope_deg=np.array(slopes),
+                depth_m=p["depth_m"][c],
+                cohesion_kpa=p["cohesion_kpa"][c],
+                friction_deg=p["friction_deg"][c],
+                unit_weight_kn_m3=p["unit_weight_kn_m3"][c],
+                saturated_unit_weight_kn_m3=p["saturated_unit_weight_kn_m3"][c],
+                root_cohesion_kpa=p["root_cohesion_kpa"][c],
+                water_table_depth_m=spec.initial_water_table_depth_m,
+                hydraulic_conductivity_m_s=p["hydraulic_conductivity_m_s"][c],
+                diffusivity_m2_s=p["diffusivity_m2_s"][c],
+                long_term_infiltration_m_s=spec.long_term_infiltration_mm_day / 8.64e7,
+                seismic_coefficient=sc.seismic_coefficient,
+                specific_catchment_area_m=np.array(scas),
+                transmissivity_m2_day=t_day,
+                min_slip_depth_m=spec.min_slip_depth_m,
+            )
+            for d in table.durations_h
+        ]
+    )  # durations x columns
+    thresholds = {label: columns[:, i] for i, label in enumerate(labels)}
+    if table.rasters:  # gridded: each raster's median, stated on the plot
+        from slopescreen.maps.region.idf_table import regional_intensities
+
+        design = regional_intensities(table.rasters, table.durations_h, table.depth_rasters)
+    else:
+        design = np.array(table.intensity_mm_h)
+    intensity = design * spec.uplift
+    return threshold_figure(
+        out / "rainfall_thresholds.png",
+        table.durations_h,
+        thresholds,
+        table.return_periods_yr,
+        intensity,
+        f"{cfg.region.name}: {sc.name}. Critical rain per soil unit at its median and its "
+        f"steepest 10% slope (median catchment), water table {spec.initial_water_table_depth_m:g}"
+        " m deep",
+        "median of the gridded design rainfall" if table.rasters else "design rainfall",
+    )

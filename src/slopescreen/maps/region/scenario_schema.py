@@ -1,0 +1,227 @@
+"""Every key the scenario file accepts, in one table: the reader in
+:mod:`slopescreen.maps.region.config` takes its allowed keys from here, and
+``docs/scenario-file.md`` is generated from it (``python -m
+slopescreen.maps.region.scenario_schema > docs/scenario-file.md``; a test checks the file is
+current), so the documentation cannot drift from what is read.
+"""
+
+from __future__ import annotations
+
+from slopescreen.ranges import RANGES
+
+# table -> [(key, type and range, default, meaning)]
+SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
+    "region": [
+        ("name", "text", "the file's name", "shown in titles, the report and the manifest"),
+        ("dem", "path", "required", "elevation raster GDAL reads (any CRS, north-up)"),
+        ("dem_elevation_unit", '"m" or "ft"', '"m"', "unit of the DEM's values"),
+        ("soil_units", "path", "required", "soil-unit polygons in any format geopandas reads"),
+        ("soil_layer", "text", "the first layer", "layer of a multi-layer soil file"),
+        (
+            "soil_unit_field",
+            "text",
+            '"unit"',
+            "polygon field naming the unit; the soil table's key column has the same name",
+        ),
+        (
+            "soil_table",
+            "path",
+            "none (fields on the polygons)",
+            "CSV of unit parameters joined on the key column (see below)",
+        ),
+    ],
+    "classes": [
+        (
+            "fs_breaks",
+            "1 to 8 increasing numbers > 0",
+            "[1.0, 1.3, 1.5]",
+            "FS class breaks (read from [hazard] before 0.2)",
+        ),
+        ("min_zone_area_m2", "0 to 1e9", "0", "low-margin zones smaller than this are dropped"),
+    ],
+    "outputs": [
+        ("fs_cap", "1.5 to 1e6", "10", "FS above this (e.g. flat ground) is stored as the cap"),
+        ("zones", "true/false", "true", "write low_margin_zones.gpkg (hazard_zones before 0.2)"),
+        ("quicklook_map", "true/false", "true", "draw the PNG maps of each scenario"),
+        ("report", "true/false", "true", "write report.html and the comparison figures"),
+    ],
+    "slip_planes": [
+        (
+            "min_slip_depth_m",
+            "0.001 to 1",
+            "0.05",
+            "shallowest slip plane (m) that storms, critical intensities and the back-analysis "
+            "of depth consider: thinner saturated skins are ignored",
+        ),
+    ],
+    "reliability": [
+        ("method", '"taylor" or "monte_carlo"', '"taylor"', "how P(FS < 1) is found"),
+        ("samples", "10 to 1e7", "1000", "Monte Carlo only: samples per cell"),
+        ("random_state", "0 to 2^32 - 1", "0", "Monte Carlo only: same number, same map"),
+        ("fs_distribution", '"lognormal" or "normal"', '"lognormal"', "Taylor series only"),
+    ],
+    "comparison": [
+        ("baseline", "a scenario name", "the first scenario run", "areas compared with it"),
+        (
+            "pairs",
+            "list of [first, second] names",
+            "none",
+            "a class-change map for each pair, in the report and comparison/",
+        ),
+    ],
+    "inventory": [
+        ("path", "path", "required", "known landslides: points or polygons geopandas reads"),
+        ("key", "text", "feature number", "field naming each landslide (same key: one slide)"),
+        (
+            "date_field",
+            "text",
+            "none",
+            "each landslide's date (ISO or year): the newest are held out, not blocks",
+        ),
+        (
+            "part",
+            '"scarp" or "whole"',
+            '"scarp"',
+            "polygons: the highest 20% of their cells by elevation, or all of them",
+        ),
+        ("block_size_m", "10 to 1e6", "500", "no date_field: held-out blocks' side on the ground"),
+        ("test_share", "0.05 to 0.95", "0.3", "share of landslides (date) or blocks held out"),
+        ("random_state", "0 to 2^32 - 1", "0", "no date_field: same number, same blocks"),
+    ],
+    "rainfall_frequency": [
+        (
+            "idf_table",
+            "path",
+            "required",
+            "CSV: duration_h, return_period_yr and intensity_mm_h (or depth_mm, or a raster "
+            "path per row: intensity_raster_mm_h or depth_raster_mm for gridded design "
+            "rainfall), every duration for every return period",
+        ),
+        (
+            "aep_breaks",
+            "1 to 8 falling numbers in (0, 1)",
+            "[0.1, 0.01, 0.001]",
+            "annual-probability breaks of the hazard classes",
+        ),
+        ("after_h", "0 to 1000", "24", "each storm is followed this long after its end"),
+        (
+            "series",
+            '"annual_maximum" or "partial_duration"',
+            '"annual_maximum" (stated)',
+            "what the table's return periods count: annual probability 1/T (annual maxima) "
+            "or 1 - exp(-1/T) (partial duration); the default is the higher of the two",
+        ),
+    ],
+    "scenario": [
+        ("name", "1-64 letters, digits, _ . -", "required", "names the scenario's folder"),
+        ("description", "text", "none", "shown in the report and the manifest"),
+        ("saturation", "0 to 1", "-", "uniform saturation ratio m (one wetness key)"),
+        ("saturation_raster", "path", "-", "raster of m on any grid (one wetness key)"),
+        (
+            "recharge_mm_day",
+            "0 to 10000, or a raster path",
+            "-",
+            "steady recharge R, mm/day; a raster on any grid is resampled bilinearly "
+            "(one wetness key)",
+        ),
+        ("storm", "table", "-", "a design storm, [scenario.storm] (one wetness key)"),
+        (
+            "rainfall",
+            "table",
+            "-",
+            "critical storms and how often they come, [scenario.rainfall] (one wetness key)",
+        ),
+        (
+            "seismic_coefficient",
+            f"{RANGES['seismic_coefficient'][0]:g} to {RANGES['seismic_coefficient'][1]:g}",
+            "0",
+            "horizontal pseudo-static coefficient k_h",
+        ),
+        ("soil", "table of units", "none", "[scenario.soil.UNIT]: any soil field below"),
+    ],
+    "scenario.storm": [
+        (
+            "rain_mm_h",
+            "0 to 1000, or a raster path",
+            "required",
+            "rain intensity; a raster on any grid (e.g. radar) is resampled bilinearly",
+        ),
+        ("duration_h", "0.01 to 1000", "required", "storm duration"),
+        ("later_h", "duration_h to 10000", "duration_h", "look again this long after the start"),
+        ("initial_water_table_depth_m", "0 to 100", "required", "water table before the storm"),
+        ("long_term_infiltration_mm_day", "0 to 1000", "0", "steady infiltration before it"),
+    ],
+    "scenario.rainfall": [
+        ("initial_water_table_depth_m", "0 to 100", "required", "water table before the rain"),
+        ("long_term_infiltration_mm_day", "0 to 1000", "0", "steady infiltration before it"),
+        ("uplift", "0.1 to 10", "1", "every tabulated intensity times this (climate scenario)"),
+    ],
+}
+
+SOIL_MEANINGS = {
+    "cohesion_kpa": "effective cohesion c' (kPa); required unless strength_lab_tests",
+    "friction_deg": "effective friction angle phi' (degrees); required unless lab tests",
+    "unit_weight_kn_m3": "unit weight above the water table (kN/m3); required",
+    "depth_m": "vertical depth of the slip plane (m); required",
+    "saturated_unit_weight_kn_m3": "unit weight below the water table (default: as above)",
+    "root_cohesion_kpa": "apparent root cohesion (kPa, default 0)",
+    "hydraulic_conductivity_m_s": "K (m/s): steady wetness T = K z cos(beta), and storms",
+    "transmissivity_m2_day": "T (m2/day) instead of K, for steady wetness",
+    "diffusivity_m2_s": "hydraulic diffusivity D0 (m2/s), storms and rainfall",
+    "moisture_capacity_per_m": "C0 (1/m), storms and rainfall: D0 = K / C0 if D0 not given",
+}
+
+
+def allowed(table: str) -> set[str]:
+    """The keys a table accepts."""
+    return {row[0] for row in SCHEMA[table]}
+
+
+def markdown() -> str:
+    """The scenario-file reference as Markdown."""
+    from slopescreen.maps.region.config import SPREAD_SUFFIXES, UNCERTAIN_FIELDS
+
+    lines = [
+        "# The scenario file",
+        "",
+        "Generated from `src/slopescreen/maps/region/scenario_schema.py` (do not edit by hand: run",
+        "`python -m slopescreen.maps.region.scenario_schema > docs/scenario-file.md`). Paths are",
+        "relative to the scenario file. A key not listed is refused, with the nearest",
+        "allowed name suggested; a key that cannot matter (e.g. `samples` without Monte",
+        "Carlo) is refused too. See `demo_region/quillbrook_scenarios.toml` for an example.",
+        "",
+    ]
+    for table, rows in SCHEMA.items():
+        title = f"[[{table}]]" if table == "scenario" else f"[{table}]"
+        lines += [f"## `{title}`", "", "| key | allowed | default | meaning |", "|---|---|---|---|"]
+        lines += [f"| `{k}` | {t} | {d} | {m} |" for k, t, d, m in rows]
+        lines.append("")
+    lines += [
+        "## Soil fields (soil table columns, polygon fields, or `[scenario.soil.UNIT]`)",
+        "",
+        "The soil table is a CSV whose key column is named like `soil_unit_field` (e.g.",
+        "`unit`), one row per unit; optional `name` and `description` columns. A misspelt",
+        'column is refused with a suggestion ("did you mean friction_deg?").',
+        "",
+        "| field | allowed | meaning |",
+        "|---|---|---|",
+    ]
+    for name, meaning in SOIL_MEANINGS.items():
+        low, high = RANGES[name][:2]
+        lines.append(f"| `{name}` | {low:g} to {high:g} | {meaning} |")
+    suffixes = ", ".join(f"`{s}`" for s in SPREAD_SUFFIXES)
+    lines += [
+        "",
+        "Spreads for the probability of failure: any of "
+        + ", ".join(f"`{f}`" for f in UNCERTAIN_FIELDS)
+        + f" may carry the suffixes {suffixes} (`_distribution`: `normal`, `lognormal`,",
+        "`uniform`, `triangular`); `c_phi_correlation` (-1 to 1) correlates c' and phi';",
+        "`strength_lab_tests` names a lab-test CSV whose fitted c', phi', standard errors and",
+        "correlation become the unit's strength and its spread.",
+        "",
+    ]
+    return "\n".join(lines)
+
+
+if __name__ == "__main__":
+    print(markdown(), end="")

@@ -1,0 +1,372 @@
+"""The per-tile maths of a scenario: every per-cell output and area table of one tile.
+
+Every tile is computed by :func:`compute_tile` from files on disk and a small picklable
+:class:`TileJob`, so the same function runs in this process or on dask workers; results are
+written and summed in tile order (see :mod:`slopescreen.maps.region.scenario_run`), so a
+distributed run gives the same bytes as a serial one.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from functools import partial
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from slopescreen.errors import InputError
+from slopescreen.maps.io.grid import Grid
+from slopescreen.maps.io.rasters import read_block, read_on_grid
+from slopescreen.maps.outputs.summary import add_areas
+from slopescreen.maps.region.config import RainfallFrequency, ReliabilitySpec, Scenario
+from slopescreen.maps.region.soils import SoilUnits
+from slopescreen.maps.region.terrain_cache import NODATA_F32
+from slopescreen.reliability import Spread, reliability_fosm, reliability_monte_carlo
+from slopescreen.scenario import (
+    Storm,
+    critical_recharge_mm_day,
+    storm_fs_at,
+    storm_response,
+)
+from slopescreen.stability_classes import PF_CLASS_NAMES, classify, classify_probability
+
+# soil parameters the core takes
+CORE_FIELDS = (
+    "cohesion_kpa",
+    "friction_deg",
+    "unit_weight_kn_m3",
+    "depth_m",
+    "saturated_unit_weight_kn_m3",
+    "root_cohesion_kpa",
+    "hydraulic_conductivity_m_s",
+    "transmissivity_m2_day",
+    "diffusivity_m2_s",
+)
+BETA_CAP = 10.0  # reliability index stored within +-10 (P_f 0 or 1 gives +-inf)
+
+
+@dataclass(frozen=True)
+class TileJob:
+    """What a tile computation needs; small and picklable (no arrays of the grid)."""
+
+    grid: Grid
+    scenario: Scenario
+    tables: dict[str, np.ndarray]  # soil parameters by unit code, overrides applied
+    spreads: dict[int, dict[str, Spread]]
+    correlations: dict[int, float]
+    slope_deg: Path
+    slope_tan: Path
+    sca: Path
+    codes: Path
+    cut_off: Path  # catchment_cut_off.tif: 1 where the upslope area is cut off
+    recharge_cache: Path | None  # verified critical recharge for these terrain, soils and load
+    fs_breaks: tuple[float, ...]
+    fs_cap: float
+    reliability: ReliabilitySpec
+    n_units: int
+    numba_threads: int = 0  # 0: numba's default (all cores)
+    rainfall: RainfallFrequency | None = None  # the design-rainfall table (rainfall scenarios)
+    intensity_cache: Path | None = None  # verified critical intensities (rainfall scenarios)
+    # tables of critical intensity by duration on large grids (intensity_tables.UnitTables)
+    intensity_tables: dict[float, Any] = field(default_factory=dict)
+
+
+def core_storm(sc: Scenario, rain_mm_h: np.ndarray | None = None) -> Storm | None:
+    """The scenario's storm for the core; ``rain_mm_h`` per cell where a raster gives it."""
+    if sc.storm is None:
+        return None
+    st = sc.storm
+    return Storm(
+        rain_mm_h=st.rain_mm_h if rain_mm_h is None else rain_mm_h,  # type: ignore[arg-type]
+        duration_h=st.duration_h,
+        later_h=st.later_h,
+        water_table_depth_m=st.initial_water_table_depth_m,
+        long_term_infiltration_m_s=st.long_term_infiltration_mm_day / 1000 / 86400,
+    )
+
+
+def check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
+    if sc.storm is None and sc.rainfall is None:
+        return
+    kind = "storm" if sc.storm is not None else "rainfall"
+    for code, key in enumerate(units.keys, start=1):
+        for name in ("hydraulic_conductivity_m_s", "diffusivity_m2_s"):
+            if np.isnan(units.parameters[name][code]):
+                extra = " (or moisture_capacity_per_m)" if name == "diffusivity_m2_s" else ""
+                raise InputError(
+                    f"{where}: {kind} scenario {sc.name!r} needs {name}{extra} for soil unit "
+                    f"{key!r}"
+                )
+
+
+def _fs_fast(seismic: float, tan_slope: np.ndarray, saturation: Any, **p: Any) -> np.ndarray:
+    """FS of cells by the compiled kernel (parameters may be arrays of samples)."""
+    from slopescreen.maps.region.kernels import fs_ufunc
+
+    tan_phi = np.tan(np.radians(np.asarray(p["friction_deg"], float)))
+    gamma = np.asarray(p["unit_weight_kn_m3"], float)
+    gamma_sat = p.get("saturated_unit_weight_kn_m3")
+    return fs_ufunc(
+        tan_slope,
+        p["depth_m"],
+        np.asarray(p["cohesion_kpa"], float) + np.asarray(p.get("root_cohesion_kpa", 0.0), float),
+        tan_phi,
+        gamma,
+        gamma if gamma_sat is None else gamma_sat,
+        saturation,
+        seismic,
+        9.81,
+    )
+
+
+def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) -> np.ndarray:
+    """FS of a unit's cells for the reliability methods (samples broadcast over cells)."""
+    if sc.storm is not None:  # at the critical plane and time of the mean parameters
+        p.pop("specific_catchment_area_m")
+        storm = core_storm(sc, block.get("rain"))
+        assert storm is not None
+        return storm_fs_at(
+            p.pop("slope_deg"),
+            storm,
+            block["storm_depth_fraction"],
+            block["storm_time_h"],
+            seismic_coefficient=sc.seismic_coefficient,
+            **p,
+        )
+    slope = p.pop("slope_deg")
+    sca = p.pop("specific_catchment_area_m")
+    if sc.steady_recharge:
+        from slopescreen.hydrology import steady_state_saturation
+        from slopescreen.scenario import cell_transmissivity_m2_day
+
+        t = cell_transmissivity_m2_day(
+            p.get("hydraulic_conductivity_m_s", np.nan),
+            p.get("transmissivity_m2_day", np.nan),
+            p["depth_m"],
+            slope,
+        )
+        rain = block["rain"] if "rain" in block else sc.recharge_mm_day
+        m = steady_state_saturation(rain, sca, slope, t)
+    else:
+        m = block["saturation"]
+    return _fs_fast(sc.seismic_coefficient, block["tan"], m, **p)
+
+
+def units_with_spreads(
+    job: TileJob, block: dict[str, np.ndarray]
+) -> Iterator[tuple[np.ndarray, dict[str, np.ndarray], dict[str, Any], dict]]:
+    """For each soil unit of the block that has spreads: its cells (mask), the block at
+    them, its soil values (numbers, spreads as ``Spread``) and the c'-phi' correlation."""
+    codes = block["codes"]
+    for code in np.unique(codes):
+        spreads = job.spreads.get(int(code))
+        if not spreads:
+            continue
+        sel = codes == code
+        values: dict[str, Any] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
+        values.update(spreads)
+        rho = job.correlations.get(int(code), 0.0)
+        corr = {("cohesion_kpa", "friction_deg"): rho} if rho else {}
+        yield sel, {k: v[sel] for k, v in block.items()}, values, corr
+
+
+def probability(job: TileJob, block: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+    """(P_f, reliability index) for a tile's cells; NaN for units without spreads."""
+    sc, rel = job.scenario, job.reliability
+    codes = block["codes"]
+    pf = np.full(codes.shape, np.nan)
+    beta = np.full(codes.shape, np.nan)
+    method = "taylor" if sc.storm is not None else rel.method
+    for sel, sub, values, corr in units_with_spreads(job, block):
+        values["slope_deg"] = sub["slope"]
+        values["specific_catchment_area_m"] = sub["sca"]
+        fs_of = partial(_fs_for_probability, sc, sub)
+        if method == "monte_carlo":
+            res = reliability_monte_carlo(
+                fs_of, values, corr, samples=rel.samples, random_state=rel.random_state
+            )
+        else:
+            res = reliability_fosm(fs_of, values, corr, fs_distribution=rel.fs_distribution)
+        pf[sel] = res.probability_of_failure
+        beta[sel] = np.clip(res.reliability_index, -BETA_CAP, BETA_CAP)
+    return pf, beta
+
+
+def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
+    """Every per-cell output of one scenario on one tile, with its area tables.
+
+    Critical recharge does not depend on wetness: it covers every cell with terrain and a
+    soil unit (read from the verified cache when there is one), so a cached raster serves
+    any scenario with the same terrain, soils and seismic load.
+    """
+    from slopescreen.maps.region.kernels import fs_by_unit, steady_saturation_by_unit
+
+    if job.numba_threads:
+        import numba
+
+        numba.set_num_threads(job.numba_threads)
+    sc = job.scenario
+    tan = read_block(job.slope_tan, rows, cols)
+    sca = read_block(job.sca, rows, cols)
+    codes = read_block(job.codes, rows, cols)
+    terrain_ok = (codes > 0) & (tan != NODATA_F32) & (sca != NODATA_F32)
+    valid = terrain_ok.copy()
+    out: dict[str, Any] = {"rows": rows, "cols": cols, "missing_wetness": 0}
+    m_grid = rain_grid = None
+    if sc.saturation_raster is not None:
+        m_grid = read_on_grid(sc.saturation_raster, job.grid, "saturation", (0.0, 1.0), rows, cols)
+        out["missing_wetness"] = int((valid & ~np.isfinite(m_grid)).sum())
+        valid &= np.isfinite(m_grid)
+    if sc.rain_raster is not None:  # checked to cover every DEM cell before the run
+        key, low, high = sc.rain_unit
+        rain_grid = np.clip(
+            read_on_grid(sc.rain_raster, job.grid, key, (low, high), rows, cols), low, high
+        )
+        out["missing_wetness"] = int((valid & ~np.isfinite(rain_grid)).sum())
+        valid &= np.isfinite(rain_grid)
+    c = codes[valid]
+    block = {"tan": tan[valid], "sca": sca[valid], "codes": c}
+    if rain_grid is not None:
+        block["rain"] = rain_grid[valid]
+    t = job.tables
+    n = c.size
+    values: dict[str, np.ndarray] = {}
+    if sc.storm is not None or job.spreads:
+        block["slope"] = read_block(job.slope_deg, rows, cols)[valid].astype(np.float64)
+    params = {name: t[name][c] for name in CORE_FIELDS} if sc.storm is not None else {}
+    if sc.storm is not None:
+        storm = core_storm(sc, block.get("rain"))
+        assert storm is not None
+        summary, m = storm_response(
+            block["slope"],
+            storm,
+            seismic_coefficient=float(sc.seismic_coefficient),
+            **{k: v for k, v in params.items() if k != "transmissivity_m2_day"},
+        )
+        fs = summary.window_min_fs
+        block["storm_depth_fraction"] = summary.window_critical_depth_m / params["depth_m"]
+        block["storm_time_h"] = summary.window_critical_time_h
+        values["storm_fs_end"] = np.minimum(summary.end_min_fs, job.fs_cap)
+        values["storm_fs_later"] = np.minimum(summary.later_min_fs, job.fs_cap)
+        values["storm_failure_depth"] = summary.window_critical_depth_m
+        values["storm_time_to_failure"] = np.asarray(summary.time_to_failure_h)
+    else:
+        m = np.empty(n)
+        if sc.steady_recharge:
+            steady_saturation_by_unit(
+                block["rain"] if "rain" in block else np.array([sc.recharge_mm_day], float),
+                block["tan"],
+                block["sca"],
+                c,
+                t["depth_m"],
+                t["hydraulic_conductivity_m_s"],
+                t["transmissivity_m2_day"],
+                m,
+            )
+        elif sc.rainfall is not None:  # before the rain: the water table d below the ground
+            depth = t["depth_m"][c]
+            m = np.clip((depth - sc.rainfall.initial_water_table_depth_m) / depth, 0.0, 1.0)
+        elif m_grid is not None:
+            m = m_grid[valid]
+            bad = (m < 0.0) | (m > 1.0)
+            if bad.any():
+                raise InputError(
+                    f"{sc.saturation_raster}: saturation values must be in [0, 1], "
+                    f"found {float(m[bad][0]):g}"
+                )
+        else:
+            m[:] = sc.saturation
+        fs = np.empty(n)
+        fs_by_unit(
+            block["tan"],
+            c,
+            m,
+            t["depth_m"],
+            t["cohesion_kpa"] + t["root_cohesion_kpa"],
+            np.tan(np.radians(t["friction_deg"])),
+            t["unit_weight_kn_m3"],
+            t["saturated_unit_weight_kn_m3"],
+            float(sc.seismic_coefficient),
+            9.81,
+            fs,
+        )
+    block["saturation"] = np.broadcast_to(m, (n,))
+    values["classes"] = classify(fs, job.fs_breaks)
+    values["fs"] = np.minimum(fs, job.fs_cap)
+    values["saturation"] = block["saturation"]
+    if job.spreads:
+        values["probability"], values["reliability"] = probability(job, block)
+    if sc.rainfall is not None and job.rainfall is not None:
+        from slopescreen.maps.region.rain_tiles import rainfall_tile
+
+        values |= rainfall_tile(job, block, rows, cols, valid, values.get("probability"))
+    shape = codes.shape
+    for name, v in values.items():
+        whole = name in ("classes", "hazard_classes", "hazard_classes_spread")
+        full = np.zeros(shape, np.uint8) if whole else np.full(shape, NODATA_F32, np.float32)
+        full[valid] = v if whole else np.nan_to_num(v, nan=NODATA_F32)
+        out[name] = full
+    out["recharge"] = (
+        read_block(job.recharge_cache, rows, cols)
+        if job.recharge_cache is not None
+        else _recharge_tile(job, rows, cols, terrain_ok, codes, sca)
+    )
+    cell_area = job.grid.ground.cell_area_m2(rows, cols)
+    table = np.zeros((job.n_units + 1, len(job.fs_breaks) + 2))
+    add_areas(table, codes * valid, out["classes"], cell_area)
+    out["table"] = table
+    cut_table = np.zeros_like(table)
+    cut = read_block(job.cut_off, rows, cols) == 1
+    add_areas(cut_table, codes * (valid & cut), out["classes"], cell_area)
+    out["cut_table"] = cut_table
+    # one column per hazard class and one for no data (code 0)
+    n_hazard = 0 if job.rainfall is None else len(job.rainfall.hazard_names) + 1
+    if "hazard_classes" in out:
+        hazard_table = np.zeros((job.n_units + 1, n_hazard))
+        add_areas(hazard_table, codes * valid, out["hazard_classes"], cell_area)
+        out["hazard_table"] = hazard_table
+    if "hazard_classes_spread" in out:
+        spread_table = np.zeros((job.n_units + 1, n_hazard))
+        add_areas(spread_table, codes * valid, out.pop("hazard_classes_spread"), cell_area)
+        out["hazard_spread_table"] = spread_table
+    if job.spreads:
+        pf_table = np.zeros((job.n_units + 1, len(PF_CLASS_NAMES) + 1))
+        pf_classes = np.zeros(shape, np.uint8)
+        pf_classes[valid] = classify_probability(values["probability"])
+        add_areas(pf_table, codes * valid, pf_classes, cell_area)
+        out["pf_table"] = pf_table
+    return out
+
+
+def _recharge_tile(
+    job: TileJob,
+    rows: slice,
+    cols: slice,
+    cells: np.ndarray,
+    codes: np.ndarray,
+    sca: np.ndarray,
+) -> np.ndarray:
+    """Critical recharge (mm/day) on the tile's cells with terrain and a soil unit."""
+    c = codes[cells]
+    params = {name: job.tables[name][c] for name in CORE_FIELDS}
+    slope = read_block(job.slope_deg, rows, cols)[cells].astype(np.float64)
+    recharge = critical_recharge_mm_day(
+        slope, sca[cells], seismic_coefficient=job.scenario.seismic_coefficient, **params
+    )
+    full = np.full(codes.shape, NODATA_F32, np.float32)
+    full[cells] = np.nan_to_num(recharge, nan=NODATA_F32)
+    return full
+
+
+def add_tile(total: dict[Any, Any], result: dict[Any, Any]) -> None:
+    """Add one tile's sums to ``total`` (arrays and numbers added, tuples element by
+    element); called in tile order, so the sums are the same whatever ran the tiles."""
+    for key, value in result.items():
+        if key not in total:
+            total[key] = value
+        elif isinstance(value, tuple):
+            total[key] = tuple(a + b for a, b in zip(total[key], value, strict=True))
+        else:
+            total[key] = total[key] + value

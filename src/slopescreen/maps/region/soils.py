@@ -1,0 +1,447 @@
+"""Soil units: polygons (geopandas) and their parameters, rasterized onto the DEM grid."""
+
+from __future__ import annotations
+
+import csv
+import dataclasses
+import hashlib
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from slopescreen.errors import InputError
+from slopescreen.maps.io.grid import Grid
+from slopescreen.maps.io.textfiles import read_text
+from slopescreen.maps.region.config import (
+    HYDRAULIC_FIELDS,
+    SOIL_FIELDS,
+    SPREAD_SUFFIXES,
+    UNCERTAIN_FIELDS,
+    Region,
+    did_you_mean,
+)
+from slopescreen.reliability import Spread, spread
+
+EXTRA_COLUMNS = ("c_phi_correlation", "strength_lab_tests")
+ALL_COLUMNS = (
+    "name",
+    "description",
+    *SOIL_FIELDS,
+    *(f + s for f in UNCERTAIN_FIELDS for s in SPREAD_SUFFIXES),
+    *EXTRA_COLUMNS,
+)
+
+
+@dataclass
+class SoilUnits:
+    """Units numbered 1..N in key order; code 0 is 'no unit'."""
+
+    keys: list[str]
+    parameters: dict[str, np.ndarray]  # field -> values by code (index 0 = NaN)
+    polygons: Any  # GeoDataFrame of "code" and geometry, in the DEM's CRS
+    unmapped_share: float  # share of DEM data cells without a unit
+    warnings: list[str] = field(default_factory=list)
+    sources: dict[str, str] = field(default_factory=dict)
+    spreads: dict[int, dict[str, Spread]] = field(default_factory=dict)  # by unit code
+    correlations: dict[int, float] = field(default_factory=dict)  # c'-phi' by unit code
+    data_cells: int = 0  # DEM cells with data
+    codes_sha256: str = ""  # content of the rasterized unit codes (set with the coverage)
+    diffusivity_derived: frozenset[int] = frozenset()  # codes whose D0 is K / C0
+    saturated_defaulted: frozenset[int] = frozenset()  # codes whose gamma_sat is gamma
+    lab_tests: dict[str, Path] = field(default_factory=dict)  # unit -> lab-test CSV fitted
+
+    def unit_spreads(self, code: int) -> dict[str, Spread]:
+        """The unit's spreads, centred on its current (possibly overridden) means."""
+        out = {}
+        for name, sp in self.spreads.get(code, {}).items():
+            shift = float(self.parameters[name][code]) - float(sp.mean)
+            out[name] = dataclasses.replace(
+                sp,
+                mean=sp.mean + shift,
+                low=sp.low + shift,
+                mode=sp.mode + shift,
+                high=sp.high + shift,
+            )
+        return out
+
+    def rasterize(self, grid: Grid, rows: slice, cols: slice) -> np.ndarray:
+        """uint16 unit codes of one tile (0: no unit), from the polygons that touch it."""
+        from rasterio import features
+        from rasterio.windows import Window, transform
+        from shapely.geometry import box
+
+        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+        t = transform(window, grid.transform)
+        shape = (rows.stop - rows.start, cols.stop - cols.start)
+        x0, y1 = t.c, t.f
+        x1, y0 = t.c + t.a * shape[1], t.f + t.e * shape[0]
+        hits = self.polygons.sindex.query(box(x0, y0, x1, y1))
+        if len(hits) == 0:
+            return np.zeros(shape, np.uint16)
+        part = self.polygons.iloc[np.sort(hits)]
+        return features.rasterize(
+            zip(part.geometry, part["code"], strict=True),
+            out_shape=shape,
+            transform=t,
+            fill=0,
+            dtype="uint16",
+        )
+
+    def measure_coverage(self, grid: Grid, valid_tile: Any, sink: Any = None) -> None:
+        """Rasterize tile by tile (into ``sink`` when given) and report unmapped cells."""
+        from slopescreen.maps.io.rasters import windows
+
+        data_cells = unmapped = 0
+        digest = hashlib.sha256()
+        for rows, cols in windows(grid):
+            codes = self.rasterize(grid, rows, cols)
+            valid = valid_tile(rows, cols)
+            codes[~valid] = 0
+            digest.update(f"{rows.start},{cols.start},{codes.shape}".encode())
+            digest.update(np.ascontiguousarray(codes).tobytes())
+            data_cells += int(valid.sum())
+            unmapped += int((valid & (codes == 0)).sum())
+            if sink is not None:
+                sink.write(rows, cols, codes)
+        self.data_cells = data_cells
+        self.codes_sha256 = digest.hexdigest()
+        self.unmapped_share = unmapped / data_cells if data_cells else 0.0
+        self.warnings = [w for w in self.warnings if "lie in no soil unit" not in w]
+        if unmapped:
+            self.warnings.append(
+                f"{self.unmapped_share:.1%} of the DEM's data cells "
+                f"({unmapped} cells) lie in no soil unit and are left unmapped"
+            )
+
+    def with_overrides(self, overrides: dict[str, dict[str, float]], where: str) -> SoilUnits:
+        """A copy with per-unit parameter overrides applied (unknown units are errors)."""
+        params = {k: v.copy() for k, v in self.parameters.items()}
+        for unit, fields in overrides.items():
+            if unit not in self.keys:
+                raise InputError(
+                    f"{where}: soil override for unknown unit {unit!r}; units: "
+                    f"{', '.join(self.keys)}"
+                )
+            code = self.keys.index(unit) + 1
+            for name, value in fields.items():
+                params[name][code] = value
+                if name in HYDRAULIC_FIELDS:  # one hydraulic property replaces the other
+                    other = next(h for h in HYDRAULIC_FIELDS if h != name)
+                    params[other][code] = np.nan
+            capacity = "moisture_capacity_per_m" in fields
+            conductivity = "hydraulic_conductivity_m_s" in fields
+            if "diffusivity_m2_s" not in fields and (
+                capacity or (conductivity and code in self.diffusivity_derived)
+            ):  # D0 = K / C0 follows a new K or C0
+                params["diffusivity_m2_s"][code] = (
+                    params["hydraulic_conductivity_m_s"][code]
+                    / params["moisture_capacity_per_m"][code]
+                )
+            moist = params["unit_weight_kn_m3"][code]
+            wet = params["saturated_unit_weight_kn_m3"][code]
+            defaulted = code in self.saturated_defaulted
+            if defaulted and "saturated_unit_weight_kn_m3" not in fields:
+                wet = params["saturated_unit_weight_kn_m3"][code] = max(moist, 9.81)  # "as above"
+            if wet < moist:
+                raise InputError(
+                    f"{where}: soil override for unit {unit!r}: saturated_unit_weight_kn_m3 "
+                    f"{wet:g} would be below unit_weight_kn_m3 ({moist:g}); give both"
+                )
+        return dataclasses.replace(self, parameters=params)
+
+
+def _to_float(source: str, unit: str, name: str, value: Any) -> float:
+    if value is None or (isinstance(value, str) and not value.strip()):
+        return math.nan
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise InputError(
+            f"{source}: unit {unit!r}, field {name}: {value!r} is not a number"
+        ) from None
+    return number
+
+
+def _check_unit(source: str, unit: str, values: dict[str, float]) -> None:
+    for name, (low, high, required) in SOIL_FIELDS.items():
+        v = values.get(name, math.nan)
+        if math.isnan(v):
+            if required:
+                raise InputError(
+                    f"{source}: unit {unit!r}, field {name}: missing; required, "
+                    f"allowed range [{low:g}, {high:g}]"
+                )
+            continue
+        if not low <= v <= high:
+            raise InputError(
+                f"{source}: unit {unit!r}, field {name}: {v:g} is outside the "
+                f"allowed range [{low:g}, {high:g}]"
+            )
+    if all(math.isnan(values.get(h, math.nan)) for h in HYDRAULIC_FIELDS):
+        raise InputError(
+            f"{source}: unit {unit!r}: needs hydraulic_conductivity_m_s or transmissivity_m2_day"
+        )
+    sat = values.get("saturated_unit_weight_kn_m3", math.nan)
+    if not math.isnan(sat) and sat < values["unit_weight_kn_m3"]:
+        raise InputError(
+            f"{source}: unit {unit!r}, field saturated_unit_weight_kn_m3: {sat:g} "
+            f"is below unit_weight_kn_m3 ({values['unit_weight_kn_m3']:g})"
+        )
+
+
+def _unit_spreads(
+    source: str, unit: str, record: dict[str, Any], values: dict[str, float]
+) -> tuple[dict[str, Spread], float]:
+    """Spreads of one unit from its columns (and a lab-test envelope fit, which also sets the
+    unit's cohesion and friction means); ``values`` is updated with those means."""
+    spreads: dict[str, Spread] = {}
+    rho = 0.0
+    lab = record.get("strength_lab_tests")
+    if isinstance(lab, str) and lab.strip():
+        from slopescreen.cli.cmd_envelope import fit_file
+
+        path = (Path(source).parent / lab.strip()).resolve()
+        try:
+            _, fit = fit_file(path)
+            c, phi, rho = fit.strength_spreads()
+        except InputError as exc:
+            raise InputError(f"{source}: unit {unit!r}, field strength_lab_tests: {exc}") from None
+        values["cohesion_kpa"] = max(float(c.mean), 0.0)
+        values["friction_deg"] = float(phi.mean)
+        spreads["cohesion_kpa"] = dataclasses.replace(c, mean=np.asarray(values["cohesion_kpa"]))
+        spreads["friction_deg"] = phi
+    for name in UNCERTAIN_FIELDS:
+        raw = {suffix[1:]: record.get(name + suffix) for suffix in SPREAD_SUFFIXES}
+        given = {
+            k: v
+            for k, v in raw.items()
+            if k != "distribution" and not math.isnan(_to_float(source, unit, name + "_" + k, v))
+        }
+        if not given:
+            continue
+        kind = str(raw.get("distribution") or "").strip() or (
+            "triangular" if "mode" in given else "uniform" if "low" in given else "normal"
+        )
+        numbers = {k: _to_float(source, unit, name + "_" + k, v) for k, v in given.items()}
+        if kind in ("normal", "lognormal"):
+            numbers["mean"] = values.get(name, math.nan)
+            if math.isnan(numbers["mean"]):
+                raise InputError(
+                    f"{source}: unit {unit!r}, field {name}: a spread needs the "
+                    "mean value in the field itself"
+                )
+        try:
+            spreads[name] = spread(kind, **numbers)
+        except InputError as exc:
+            raise InputError(f"{source}: unit {unit!r}, field {name} spread: {exc}") from None
+        if math.isnan(values.get(name, math.nan)):
+            values[name] = float(spreads[name].mean)
+    corr = _to_float(source, unit, "c_phi_correlation", record.get("c_phi_correlation"))
+    if not math.isnan(corr):
+        if not -1.0 <= corr <= 1.0:
+            raise InputError(
+                f"{source}: unit {unit!r}, field c_phi_correlation: {corr:g} is "
+                "outside the allowed range [-1, 1]"
+            )
+        if not {"cohesion_kpa", "friction_deg"} <= set(spreads):
+            raise InputError(
+                f"{source}: unit {unit!r}, field c_phi_correlation: needs spreads "
+                "for both cohesion_kpa and friction_deg"
+            )
+        rho = corr
+    return spreads, rho
+
+
+def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
+    text = read_text(path, "soil table")
+    try:
+        rows = list(
+            csv.DictReader(
+                line
+                for line in text.splitlines()
+                if line.strip() and not line.lstrip().startswith("#")
+            )
+        )
+    except csv.Error as exc:
+        raise InputError(f"{path}: soil table is not readable CSV ({exc})") from None
+    if not rows or key_field not in rows[0]:
+        raise InputError(f"{path}: soil table needs a column {key_field!r} (soil_unit_field)")
+    unknown = sorted(set(map(str, rows[0])) - set(ALL_COLUMNS) - {key_field})
+    if unknown:
+        raise InputError(
+            f"{path}: unknown column {unknown[0]!r}"
+            f"{did_you_mean(unknown[0], [key_field, *ALL_COLUMNS])}; allowed: "
+            f"{', '.join([key_field, *ALL_COLUMNS])}"
+        )
+    table: dict[str, dict[str, Any]] = {}
+    for line, row in enumerate(rows, start=2):
+        key = str(row[key_field] or "").strip()
+        if not key:
+            raise InputError(
+                f"{path}: data row {line - 1} has no value in column {key_field!r} "
+                "(soil_unit_field); every row needs a soil unit"
+            )
+        if key in table:
+            raise InputError(f"{path}: unit {key!r} appears twice in the soil table")
+        table[key] = row
+    return table
+
+
+def read_polygons(region: Region) -> Any:
+    import geopandas as gpd
+
+    kwargs = {"layer": region.soil_layer} if region.soil_layer else {}
+    try:
+        frame = gpd.read_file(region.soil_units, **kwargs)
+    except Exception as exc:  # any reader failure is a problem with the user file
+        first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        raise InputError(f"{region.soil_units}: cannot read soil polygons ({first})") from None
+    if region.soil_unit_field not in frame.columns:
+        raise InputError(
+            f"{region.soil_units}: no field {region.soil_unit_field!r} "
+            f"(soil_unit_field); fields: {', '.join(map(str, frame.columns))}"
+        )
+    if frame.crs is None:
+        raise InputError(f"{region.soil_units}: soil polygons have no coordinate reference system")
+    frame = frame[frame.geometry.notna() & ~frame.geometry.is_empty]
+    if frame.empty:
+        raise InputError(f"{region.soil_units}: no polygons")
+    kinds = set(frame.geometry.geom_type)
+    if not kinds <= {"Polygon", "MultiPolygon"}:
+        other = sorted(kinds - {"Polygon", "MultiPolygon"})
+        raise InputError(
+            f"{region.soil_units}: soil units must be polygons, found {', '.join(other)} "
+            f"({int((~frame.geometry.geom_type.isin(['Polygon', 'MultiPolygon'])).sum())} "
+            "features)"
+        )
+    labels = frame[region.soil_unit_field]
+    blank = labels.isna() | (labels.astype(str).str.strip() == "")
+    if blank.any():
+        raise InputError(
+            f"{region.soil_units}: feature {int(np.flatnonzero(blank.to_numpy())[0])} has no "
+            f"value in field {region.soil_unit_field!r} (soil_unit_field); every polygon "
+            "needs a soil unit"
+        )
+    frame[region.soil_unit_field] = labels.astype(str).str.strip()
+    return frame
+
+
+def _overlaps(polygons: Any, key: str, grid: Grid) -> str:
+    """A line saying where polygons of different units overlap (and which wins), or ""."""
+    import shapely
+
+    geometry = polygons.geometry.to_numpy()
+    left, right = polygons.sindex.query(geometry, predicate="intersects")
+    pairs = (left < right) & (polygons[key].to_numpy()[left] != polygons[key].to_numpy()[right])
+    left, right = left[pairs], right[pairs]
+    if left.size == 0:
+        return ""
+    shared = shapely.intersection(geometry[left], geometry[right])
+    shared = shared[shapely.area(shared) > 0.0]
+    if shared.size == 0:
+        return ""
+    from slopescreen.maps.outputs.zones import ground_areas_m2
+
+    area_ha = float(np.sum(ground_areas_m2(shared, grid))) / 10_000.0
+    return (
+        f"{shared.size} pairs of polygons of different soil units overlap ({area_ha:,.2f} ha "
+        "on the ground); where they do, the later polygon in the file wins"
+    )
+
+
+def load_soils(region: Region, grid: Grid) -> SoilUnits:
+    """Read, validate and reproject the soil units onto ``grid``'s CRS (their coverage is
+    measured, tile by tile, by :meth:`SoilUnits.measure_coverage`)."""
+    from shapely.geometry import box
+
+    frame = read_polygons(region)
+    key = region.soil_unit_field
+    keys = sorted(frame[key].unique())
+    if region.soil_table is not None:
+        table = _table_from_csv(region.soil_table, key)
+        source = str(region.soil_table)
+        missing = [k for k in keys if k not in table]
+        if missing:
+            raise InputError(
+                f"{source}: unit {missing[0]!r} from {region.soil_units.name} has "
+                "no row in the soil table"
+            )
+        records = {k: table[k] for k in keys}
+    else:
+        source = str(region.soil_units)
+        records = {}
+        for k in keys:
+            rows = frame[frame[key] == k]
+            first = rows.iloc[0]
+            for name in ALL_COLUMNS:
+                if name in rows.columns and rows[name].nunique(dropna=False) > 1:
+                    raise InputError(
+                        f"{source}: unit {k!r}, field {name}: polygons of one unit "
+                        "disagree; give one value per unit"
+                    )
+            records[k] = {name: first[name] for name in ALL_COLUMNS if name in rows.columns}
+    params = {name: np.full(len(keys) + 1, np.nan) for name in SOIL_FIELDS}
+    spreads: dict[int, dict[str, Spread]] = {}
+    correlations: dict[int, float] = {}
+    for code, k in enumerate(keys, start=1):
+        values = {name: _to_float(source, k, name, records[k].get(name)) for name in SOIL_FIELDS}
+        unit_spreads, rho = _unit_spreads(source, k, records[k], values)
+        _check_unit(source, k, values)
+        for name, v in values.items():
+            params[name][code] = v
+        if unit_spreads:
+            spreads[code] = unit_spreads
+            correlations[code] = rho
+    # hydraulic diffusivity D0 = K / C0 where only the moisture capacity C0 is given
+    derived = params["hydraulic_conductivity_m_s"] / params["moisture_capacity_per_m"]
+    from_capacity = np.isnan(params["diffusivity_m2_s"]) & np.isfinite(derived)
+    params["diffusivity_m2_s"] = np.where(
+        np.isnan(params["diffusivity_m2_s"]), derived, params["diffusivity_m2_s"]
+    )
+    sat = params["saturated_unit_weight_kn_m3"]
+    sat_defaulted = np.flatnonzero(np.isnan(sat))
+    sat[1:] = np.where(
+        np.isnan(sat[1:]), np.maximum(params["unit_weight_kn_m3"][1:], 9.81), sat[1:]
+    )
+    params["root_cohesion_kpa"][1:] = np.nan_to_num(params["root_cohesion_kpa"][1:])
+
+    frame = frame.to_crs(grid.crs)
+    t = grid.transform
+    dem_box = box(t.c, t.f + t.e * grid.height, t.c + t.a * grid.width, t.f)
+    inside = frame.intersects(dem_box)
+    warnings: list[str] = []
+    if not inside.any():
+        raise InputError(
+            f"{region.soil_units}: no soil polygon overlaps the DEM "
+            f"{grid.path.name} (after reprojection to the DEM's CRS)"
+        )
+    outside = sorted(set(frame.loc[~inside, key]) - set(frame.loc[inside, key]))
+    if outside:
+        warnings.append(f"soil units entirely outside the DEM: {', '.join(outside)}")
+    polygons = frame.loc[inside, [key, "geometry"]].copy()
+    polygons["code"] = [keys.index(k) + 1 for k in polygons[key]]
+    overlap = _overlaps(polygons.reset_index(drop=True), key, grid)
+    if overlap:
+        warnings.append(overlap)
+    units = SoilUnits(
+        keys=keys,
+        parameters=params,
+        polygons=polygons[["code", "geometry"]].reset_index(drop=True),
+        unmapped_share=0.0,
+        warnings=warnings,
+        sources={"polygons": str(region.soil_units), "parameters": source},
+        spreads=spreads,
+        correlations=correlations,
+        diffusivity_derived=frozenset(int(c) for c in np.flatnonzero(from_capacity)),
+        saturated_defaulted=frozenset(int(c) for c in sat_defaulted if c > 0),
+        lab_tests={
+            k: (Path(source).parent / str(records[k]["strength_lab_tests"]).strip()).resolve()
+            for k in keys
+            if isinstance(records[k].get("strength_lab_tests"), str)
+            and str(records[k]["strength_lab_tests"]).strip()
+        },
+    )
+    return units
