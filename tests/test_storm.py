@@ -219,11 +219,11 @@ def test_window_minimum_and_time_to_failure_agree():
 
 
 def test_prepared_columns_match_the_public_function():
-    from slopescreen.storm import _Columns
+    from slopescreen.storm import StormColumns
 
     soil, kw = _random_cells(500, draw=2)
     kw["seismic_coefficient"] = 0.1
-    cols = _Columns(6.0, 24.0, soil.shape, **kw)
+    cols = StormColumns(6.0, 24.0, soil.shape, **kw)
     for frac, t in ((0.1, 0.0), (0.5, 3.0), (1.0, 6.0), (0.7, 20.0)):
         ref = np.asarray(storm_factor_of_safety(frac * soil, t, duration_h=6.0, **kw))
         assert np.allclose(cols.fs(frac * soil, t), np.where(np.isnan(ref), np.inf, ref),

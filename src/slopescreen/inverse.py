@@ -20,9 +20,9 @@ from numpy.typing import ArrayLike
 from slopescreen._checks import as_result, checked
 from slopescreen.stability import (
     WATER_UNIT_WEIGHT_KN_M3,
-    _column,
-    _stresses_unclipped,
+    checked_column,
     factor_of_safety,
+    stresses_unclipped,
 )
 
 _TOL = 1e-12
@@ -73,7 +73,7 @@ def _linear_in(unknown: str, **column_args: ArrayLike | None) -> tuple[np.ndarra
     Both are linear in depth and in saturation, so two evaluations fix them exactly.
     """
     (s0, t0), (s_1, t_1) = (
-        _stresses_unclipped(_column(**column_args, **{unknown: x}))[2:] for x in (0.0, 1.0)
+        stresses_unclipped(checked_column(**column_args, **{unknown: x}))[2:] for x in (0.0, 1.0)
     )
     return s0, s_1 - s0, t0, t_1 - t0
 
@@ -196,7 +196,7 @@ def required_cohesion_kpa(
     5.367
     """
     zero, tan_phi, target = _strength_terms(0.0, root_cohesion_kpa, friction_deg, target_fs)
-    col = _column(
+    col = checked_column(
         slope_deg,
         depth_m,
         unit_weight_kn_m3,
@@ -206,7 +206,7 @@ def required_cohesion_kpa(
         seismic_coefficient,
         water_unit_weight_kn_m3,
     )
-    _, _, sigma_eff, tau = _stresses_unclipped(col)
+    _, _, sigma_eff, tau = stresses_unclipped(col)
     c = target * tau - zero - np.maximum(sigma_eff, 0.0) * tan_phi
     return as_result(c)
 
@@ -236,7 +236,7 @@ def required_friction_deg(
     30.0
     """
     c_total, _, target = _strength_terms(cohesion_kpa, root_cohesion_kpa, 0.0, target_fs)
-    col = _column(
+    col = checked_column(
         slope_deg,
         depth_m,
         unit_weight_kn_m3,
@@ -246,7 +246,7 @@ def required_friction_deg(
         seismic_coefficient,
         water_unit_weight_kn_m3,
     )
-    _, _, sigma_eff, tau = _stresses_unclipped(col)
+    _, _, sigma_eff, tau = stresses_unclipped(col)
     with np.errstate(all="ignore"):
         phi = np.degrees(np.arctan((target * tau - c_total) / sigma_eff))
     return as_result(np.where(sigma_eff > 0.0, phi, np.nan))
@@ -308,7 +308,7 @@ def critical_slope_deg(
     c_total, tan_phi, target = _strength_terms(
         cohesion_kpa, root_cohesion_kpa, friction_deg, target_fs
     )
-    flat = _column(
+    flat = checked_column(
         0.0,
         depth_m,
         unit_weight_kn_m3,
@@ -318,7 +318,7 @@ def critical_slope_deg(
         seismic_coefficient,
         water_unit_weight_kn_m3,
     )
-    load, _, drained, _ = _stresses_unclipped(flat)  # at beta = 0: W, u, W - u
+    load, _, drained, _ = stresses_unclipped(flat)  # at beta = 0: W, u, W - u
     k = flat.seismic
     with np.errstate(all="ignore"):
         kink = np.where(k > 0.0, 2.0 * np.arctan(drained / (load * k)), np.pi)

@@ -60,7 +60,7 @@ from slopescreen.storm import (
     DEPTH_REFINE_STEPS,
     MIN_SLIP_DEPTH_M,
     SECONDS_PER_HOUR,
-    _Columns,
+    StormColumns,
     depth_minimum,
     peak_response,
 )
@@ -224,7 +224,7 @@ def critical_intensity_mm_h(
     top = np.minimum(shallowest, p["z_soil"])
 
     # before the storm: the storm search's own initial minimum (the same planes and steps)
-    before = _Columns(
+    before = StormColumns(
         0.0,
         0.0,
         shape,

@@ -324,7 +324,7 @@ def refined_return_period_yr(
     in log D and searched from there to the next row.
     A duration whose storm is more frequent than the table gives ``MORE_FREQUENT``.
     """
-    from slopescreen.storm import _golden_minimum
+    from slopescreen.storm import golden_minimum
 
     out = np.array(period, float)
     d = np.asarray(durations_h, float)
@@ -357,7 +357,7 @@ def refined_return_period_yr(
     inside = np.flatnonzero(np.isfinite(best) & (best > 0.0))
     if inside.size:
         cells, j = cand[inside], k[inside]
-        value, _ = _golden_minimum(
+        value, _ = golden_minimum(
             lambda x: periods_at(np.exp(x), cells, inside),
             logd[np.maximum(j - 1, 0)],
             logd[np.minimum(j + 1, n - 1)],
@@ -376,7 +376,7 @@ def refined_return_period_yr(
             mid = 0.5 * (lo + hi)
             has = critical_mm_h(np.exp(mid), cells) > 0.0
             hi, lo = np.where(has, mid, hi), np.where(has, lo, mid)
-        value, _ = _golden_minimum(
+        value, _ = golden_minimum(
             lambda x: periods_at(np.exp(x), cells, edge), hi, logd[np.minimum(f + 1, n - 1)], steps
         )
         best[edge] = np.minimum(best[edge], np.minimum(value, periods_at(np.exp(hi), cells, edge)))

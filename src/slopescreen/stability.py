@@ -51,8 +51,9 @@ class SlipPlaneStresses(NamedTuple):
     driving_shear_kpa: np.ndarray | float
 
 
-class _Column(NamedTuple):
-    """Validated inputs of one soil column (private)."""
+class Column(NamedTuple):
+    """Validated inputs of soil columns (arrays broadcast together; slope in radians),
+    shared by the inverse solutions and the storm search."""
 
     beta: np.ndarray  # radians
     depth_m: np.ndarray
@@ -64,7 +65,7 @@ class _Column(NamedTuple):
     water_unit_weight: np.ndarray
 
 
-def _column(
+def checked_column(
     slope_deg: ArrayLike,
     depth_m: ArrayLike,
     unit_weight_kn_m3: ArrayLike,
@@ -73,7 +74,8 @@ def _column(
     surcharge_kpa: ArrayLike,
     seismic_coefficient: ArrayLike,
     water_unit_weight_kn_m3: ArrayLike,
-) -> _Column:
+) -> Column:
+    """The inputs of :func:`slip_plane_stresses`, range-checked once and broadcast."""
     slope = checked("slope_deg", slope_deg, 0.0, 90.0, high_open=True)
     depth = checked("depth_m", depth_m, 0.0)
     gamma = checked("unit_weight_kn_m3", unit_weight_kn_m3, 0.0, low_open=True)
@@ -94,7 +96,7 @@ def _column(
         )
     q = checked("surcharge_kpa", surcharge_kpa, 0.0)
     k_h = checked("seismic_coefficient", seismic_coefficient, 0.0, 1.0, high_open=True)
-    return _Column(np.radians(slope), depth, m, gamma, gamma_sat, q, k_h, gamma_w)
+    return Column(np.radians(slope), depth, m, gamma, gamma_sat, q, k_h, gamma_w)
 
 
 def slip_plane_terms(
@@ -129,7 +131,7 @@ def resisting_stress(
     return cohesion_total + 0.5 * (effective + abs(effective)) * tan_friction
 
 
-def _stresses_unclipped(col: _Column) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+def stresses_unclipped(col: Column) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """sigma, u, sigma - u (not clipped) and tau_d for a validated column."""
     sigma, u, tau = slip_plane_terms(
         np.cos(col.beta),
@@ -165,7 +167,7 @@ def slip_plane_stresses(
     >>> [round(float(x), 3) for x in s]
     [28.5, 7.358, 21.143, 16.454]
     """
-    col = _column(
+    col = checked_column(
         slope_deg,
         depth_m,
         unit_weight_kn_m3,
@@ -175,7 +177,7 @@ def slip_plane_stresses(
         seismic_coefficient,
         water_unit_weight_kn_m3,
     )
-    sigma, u, sigma_eff, tau = _stresses_unclipped(col)
+    sigma, u, sigma_eff, tau = stresses_unclipped(col)
     return SlipPlaneStresses(
         as_result(sigma), as_result(u), as_result(np.maximum(sigma_eff, 0.0)), as_result(tau)
     )
@@ -235,7 +237,7 @@ def factor_of_safety(
     >>> factor_of_safety([10.0, 20.0, 30.0], 1.5, 5.0, 32.0, 19.0, 1.0).round(3)
     array([2.74 , 1.376, 0.929])
     """
-    col = _column(
+    col = checked_column(
         slope_deg,
         depth_m,
         unit_weight_kn_m3,
@@ -248,7 +250,7 @@ def factor_of_safety(
     c = checked("cohesion_kpa", cohesion_kpa, 0.0)
     c_root = checked("root_cohesion_kpa", root_cohesion_kpa, 0.0)
     phi = checked("friction_deg", friction_deg, 0.0, 90.0, high_open=True)
-    sigma, u, _, tau = _stresses_unclipped(col)
+    sigma, u, _, tau = stresses_unclipped(col)
     resisting = resisting_stress(c + c_root, np.tan(np.radians(phi)), sigma, u)
     return as_result(ratio_or_inf(resisting, tau))
 

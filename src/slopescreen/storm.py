@@ -42,7 +42,7 @@ from slopescreen._checks import as_result, checked
 from slopescreen._normal import erfc
 from slopescreen.stability import (
     WATER_UNIT_WEIGHT_KN_M3,
-    _column,
+    checked_column,
     factor_of_safety,
     ratio_or_inf,
     resisting_stress,
@@ -292,7 +292,7 @@ class StormSummary(NamedTuple):
     window_critical_time_h: np.ndarray
 
 
-def _golden_minimum(
+def golden_minimum(
     fn: Callable[[np.ndarray], np.ndarray],
     lo: np.ndarray,
     hi: np.ndarray,
@@ -367,7 +367,7 @@ def depth_minimum(
     for k in ranked[: min(brackets, planes)]:
         a = np.take_along_axis(zs, np.maximum(k - 1, 0)[None], axis=0)[0]
         b = np.take_along_axis(zs, np.minimum(k + 1, planes - 1)[None], axis=0)[0]
-        value, z = _golden_minimum(fn, a, b, steps)
+        value, z = golden_minimum(fn, a, b, steps)
         better = value < best
         best, where = np.where(better, value, best), np.where(better, z, where)
     return best, where
@@ -381,7 +381,7 @@ _COLUMN_KEYS = {
 }  # fmt: skip
 
 
-class _Columns:
+class StormColumns:
     """Storm inputs of many columns checked once, with FS(Z, t) in plain arithmetic: the
     same equations as :func:`storm_factor_of_safety` (tested equal), for the many
     evaluations of the depth search; and the peak of the pressure head over the window at
@@ -390,7 +390,7 @@ class _Columns:
     def __init__(
         self, duration_h: float, later_h: float, shape: tuple[int, ...], **kw: ArrayLike
     ) -> None:
-        col = _column(  # the unit weights and k_h checked as factor_of_safety checks them
+        col = checked_column(  # the unit weights and k_h checked as factor_of_safety checks them
             kw["slope_deg"],
             0.0,
             kw["unit_weight_kn_m3"],
@@ -426,9 +426,9 @@ class _Columns:
         self.c, self.tan_phi = cells(c), cells(np.tan(np.radians(phi)))
         self.k_h = cells(col.seismic)
 
-    def subset(self, cells: np.ndarray) -> _Columns:
+    def subset(self, cells: np.ndarray) -> StormColumns:
         """The same columns restricted to ``cells`` (a boolean mask over the cells)."""
-        sub = _Columns.__new__(_Columns)
+        sub = StormColumns.__new__(StormColumns)
         for name, value in vars(self).items():
             sub.__dict__[name] = value[cells] if isinstance(value, np.ndarray) else value
         return sub
@@ -548,7 +548,7 @@ def _summary_block(
     kwargs: dict[str, ArrayLike],
 ) -> StormSummary:
     """:func:`storm_summary` for one block of cells."""
-    cols = _Columns(end, later, shape, **kwargs)
+    cols = StormColumns(end, later, shape, **kwargs)
     base = np.broadcast_to(soil, shape).astype(float)
     top = np.minimum(shallowest, base)
 
@@ -573,7 +573,7 @@ def _summary_block(
 
 
 def _first_failure(
-    cols: _Columns,
+    cols: StormColumns,
     todo: np.ndarray,
     top: np.ndarray,
     base: np.ndarray,
@@ -602,6 +602,6 @@ def _first_failure(
     k = np.argmin(times, axis=0)
     a = np.take_along_axis(zs, np.maximum(k - 1, 0)[None], axis=0)[0]
     b = np.take_along_axis(zs, np.minimum(k + 1, FAILURE_PLANES - 1)[None], axis=0)[0]
-    refined, _ = _golden_minimum(crossing, a, b, DEPTH_REFINE_STEPS // 2)
+    refined, _ = golden_minimum(crossing, a, b, DEPTH_REFINE_STEPS // 2)
     critical = crossing(z_min[todo], t_min[todo].copy())  # FS < 1 at the minimum's time
     return np.minimum(np.minimum(times.min(axis=0), refined), critical)

@@ -19,7 +19,7 @@ import numpy as np
 def main() -> None:
     from _terrain import peak_rss_mb
 
-    from slopescreen.maps.region.scenario_tiles import _fs_fast
+    from slopescreen.maps.region.scenario_tiles import fs_fast
     from slopescreen.reliability import Spread, reliability_monte_carlo
 
     parser = argparse.ArgumentParser()
@@ -41,7 +41,7 @@ def main() -> None:
     }
 
     def fs_of(tan_slope, saturation, **p):
-        return _fs_fast(0.0, tan_slope, saturation, **p)
+        return fs_fast(0.0, tan_slope, saturation, **p)
 
     corr = {("cohesion_kpa", "friction_deg"): -0.3}
     reliability_monte_carlo(fs_of, values, corr, samples=10, random_state=1)  # compile

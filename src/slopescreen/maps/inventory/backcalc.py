@@ -10,15 +10,16 @@ import numpy as np
 
 from slopescreen.back_analysis import PARAMETERS, summary_by_group, value_at_failure
 from slopescreen.errors import InputError
-from slopescreen.maps.inventory.finished_run import VALIDATION_FOLDER, FinishedRun
+from slopescreen.maps.inventory.finished_run import FinishedRun
 from slopescreen.maps.inventory.reading import Inventory
 from slopescreen.maps.io.rasters import read_at_cells
 from slopescreen.maps.io.safe_writes import real_folder
+from slopescreen.maps.outputs.output_names import VALIDATION_FOLDER
 from slopescreen.maps.outputs.summary import write_summary
 from slopescreen.maps.outputs.validation_plots import histogram_figure
 from slopescreen.maps.region.config import Scenario
-from slopescreen.maps.region.scenario_tiles import CORE_FIELDS
 from slopescreen.maps.region.terrain_cache import NODATA_F32
+from slopescreen.maps.region.tile_job import CORE_FIELDS
 
 NO_SOLUTION = {
     "cohesion_kpa": "the slope holds with c' = 0, or the ground is flat",

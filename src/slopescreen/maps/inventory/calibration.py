@@ -25,15 +25,17 @@ import numpy as np
 
 from slopescreen.errors import InputError
 from slopescreen.maps.inventory.backcalc import cell_inputs, steady_only
-from slopescreen.maps.inventory.finished_run import VALIDATION_FOLDER, FinishedRun
+from slopescreen.maps.inventory.finished_run import FinishedRun
 from slopescreen.maps.inventory.reading import FEW_CELLS, Inventory
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.rasters import read_block, windows
 from slopescreen.maps.io.safe_writes import real_folder, write_text
+from slopescreen.maps.outputs.output_names import VALIDATION_FOLDER
 from slopescreen.maps.region.config import Scenario
 from slopescreen.maps.region.runners import Runner, serial_runner
-from slopescreen.maps.region.scenario_tiles import _fs_fast, add_tile
+from slopescreen.maps.region.scenario_tiles import fs_fast
 from slopescreen.maps.region.terrain_cache import NODATA_F32
+from slopescreen.maps.region.tile_job import add_tile
 from slopescreen.validation import grouped_curves, held_out_blocks, masses_around
 
 CALIBRATED = ("cohesion_kpa", "friction_deg", "root_cohesion_kpa")
@@ -81,7 +83,7 @@ def unit_fs(
     p[parameter] *= multiplier
     if p["friction_deg"] >= 90.0:
         p["friction_deg"] = 89.999
-    fs = _fs_fast(seismic, tan_slope, saturation, **p)
+    fs = fs_fast(seismic, tan_slope, saturation, **p)
     return np.minimum(fs, fs_cap).astype(np.float32).astype(np.float64)
 
 
@@ -177,7 +179,7 @@ class Search:
         self.cells_recomputed = 0
 
     def tables(self, multipliers: dict[int, float]) -> dict[str, np.ndarray]:
-        from slopescreen.maps.region.scenario_tiles import CORE_FIELDS
+        from slopescreen.maps.region.tile_job import CORE_FIELDS
 
         t = {name: self.base[name].copy() for name in CORE_FIELDS}
         for code, k in multipliers.items():

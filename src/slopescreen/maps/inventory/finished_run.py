@@ -23,10 +23,6 @@ from slopescreen.maps.region.soils import SoilUnits, load_soils
 if TYPE_CHECKING:
     from slopescreen.maps.inventory.reading import Inventory
 
-VALIDATION_FOLDER = "validation"
-SECTION_START = "<!-- slopescreen:validation -->"
-SECTION_END = "<!-- /slopescreen:validation -->"
-
 
 @dataclass
 class FinishedRun:
@@ -127,7 +123,11 @@ def record_results(
 
 def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
     """Rewrite the validation section of report.html from the manifest (no report: none)."""
-    from slopescreen.maps.outputs.validation_report import validation_section
+    from slopescreen.maps.outputs.validation_report import (
+        SECTION_END,
+        SECTION_START,
+        validation_section,
+    )
 
     report = out / "report.html"
     if not report.exists():
@@ -151,8 +151,8 @@ def locked_run(
     import os
 
     from slopescreen.maps.inventory.reading import read_inventory
+    from slopescreen.maps.io.clock import utc_now
     from slopescreen.maps.io.locks import folder_lock
-    from slopescreen.maps.region.engine import utc_now
 
     if not (out / "manifest.json").is_file():
         raise InputError(f"{out / 'manifest.json'}: no run here; run the scenario file first")

@@ -24,8 +24,8 @@ from slopescreen.maps.inventory.reading import FEW_CELLS, Inventory
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.rasters import read_block, windows
 from slopescreen.maps.region.runners import Runner, serial_runner, threaded_runner
-from slopescreen.maps.region.scenario_tiles import add_tile
 from slopescreen.maps.region.terrain_cache import NODATA_F32
+from slopescreen.maps.region.tile_job import add_tile
 from slopescreen.stability_classes import classify
 from slopescreen.validation import RankCurves, auc_standard_error, grouped_curves, held_out_blocks
 

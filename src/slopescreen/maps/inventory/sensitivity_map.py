@@ -10,7 +10,6 @@ half a bin at any map size.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -18,70 +17,24 @@ import numpy as np
 
 from slopescreen.errors import InputError
 from slopescreen.maps.inventory.backcalc import steady_only
-from slopescreen.maps.inventory.finished_run import VALIDATION_FOLDER, FinishedRun
-from slopescreen.maps.io.grid import Grid
-from slopescreen.maps.io.rasters import read_block, windows
+from slopescreen.maps.inventory.finished_run import FinishedRun
+from slopescreen.maps.io.rasters import windows
 from slopescreen.maps.io.safe_writes import real_folder
+from slopescreen.maps.outputs.output_names import VALIDATION_FOLDER
 from slopescreen.maps.outputs.summary import write_summary
 from slopescreen.maps.outputs.validation_plots import tornado_figure
 from slopescreen.maps.region.config import Scenario
 from slopescreen.maps.region.runners import Runner, serial_runner
-from slopescreen.maps.region.scenario_tiles import CORE_FIELDS, add_tile
-from slopescreen.maps.region.terrain_cache import NODATA_F32
+from slopescreen.maps.region.tile_job import CORE_FIELDS, summed_tiles
+from slopescreen.maps.region.unit_medians import (
+    SensitivityJob,
+    tile_inputs,
+    unit_medians,
+)
 from slopescreen.sensitivity import parameter_range, steady_fs
 from slopescreen.stability_classes import classify
 
 VARIED = ("cohesion_kpa", "friction_deg", "root_cohesion_kpa", "unit_weight_kn_m3", "depth_m")
-SLOPE_BINS = np.linspace(0.0, 90.0, 9001)  # 0.01 degree
-SCA_BINS = np.linspace(-2.0, 8.0, 11_501)  # log10(m): 0.2% wide
-M_BINS = np.linspace(0.0, 1.0, 1001)
-
-
-@dataclass(frozen=True)
-class SensitivityJob:
-    grid: Grid
-    slope_deg: Path
-    sca: Path
-    saturation: Path
-    codes: Path
-    tables: dict[str, np.ndarray]
-    ranges: dict[int, dict[str, tuple[float, float]]]  # unit -> parameter -> (low, high)
-    recharge_mm_day: float | None
-    seismic: float
-    fs_breaks: tuple[float, ...]
-    n_units: int
-
-
-def _tile_inputs(job: SensitivityJob, rows: slice, cols: slice) -> dict[str, np.ndarray]:
-    v = {
-        "slope": read_block(job.slope_deg, rows, cols).astype(np.float64),
-        "sca": read_block(job.sca, rows, cols).astype(np.float64),
-        "m": read_block(job.saturation, rows, cols).astype(np.float64),
-        "codes": read_block(job.codes, rows, cols).astype(np.int64),
-    }
-    ok = (v["codes"] > 0) & (v["slope"] != NODATA_F32) & (v["sca"] != NODATA_F32)
-    ok &= v["m"] != NODATA_F32
-    v["ok"] = ok
-    v["area"] = np.broadcast_to(job.grid.ground.cell_area_m2(rows, cols), ok.shape)
-    return v
-
-
-def histogram_tile(job: SensitivityJob, rows: slice, cols: slice) -> dict[str, np.ndarray]:
-    """Per unit, area histograms of slope, log10 SCA and m (for the medians)."""
-    v = _tile_inputs(job, rows, cols)
-    out = {}
-    for name, values, bins in (
-        ("slope", v["slope"], SLOPE_BINS),
-        ("sca", np.log10(np.maximum(v["sca"], 1e-2)), SCA_BINS),
-        ("m", v["m"], M_BINS),
-    ):
-        h = np.zeros((job.n_units + 1, bins.size - 1))
-        for code in range(1, job.n_units + 1):
-            sel = v["ok"] & (v["codes"] == code)
-            if sel.any():
-                h[code] = np.histogram(values[sel], bins, weights=v["area"][sel])[0]
-        out[name] = h
-    return out
 
 
 def _fs(job: SensitivityJob, code: int, v: dict, sel: np.ndarray, **change: float) -> np.ndarray:
@@ -98,7 +51,7 @@ def _fs(job: SensitivityJob, code: int, v: dict, sel: np.ndarray, **change: floa
 
 def class_change_tile(job: SensitivityJob, rows: slice, cols: slice) -> dict[str, Any]:
     """Per (unit, parameter, side): ground area whose FS class differs from the base."""
-    v = _tile_inputs(job, rows, cols)
+    v = tile_inputs(job, rows, cols)
     out: dict[str, Any] = {"area": np.zeros(job.n_units + 1)}
     for code, ranges in job.ranges.items():
         sel = v["ok"] & (v["codes"] == code)
@@ -112,39 +65,6 @@ def class_change_tile(job: SensitivityJob, rows: slice, cols: slice) -> dict[str
                 changed = classify(_fs(job, code, v, sel, **{name: value}), job.fs_breaks) != base
                 out[(code, name, side)] = float(area[changed].sum())
     return out
-
-
-def unit_medians(
-    job: SensitivityJob, runner: Runner = serial_runner, share: float = 0.5
-) -> dict[int, tuple[float, float, float]]:
-    """Per unit code with mapped cells: median (or another quantile ``share`` of the area)
-    slope (degrees), specific catchment area (m) and saturation m, from area histograms
-    gathered tile by tile (half a bin exact)."""
-    hist = _sum(runner(histogram_tile, [(job, r, c) for r, c in windows(job.grid)]))
-    out = {}
-    for code in range(1, job.n_units + 1):
-        if hist["slope"][code].sum() > 0:
-            out[code] = (
-                _median(hist["slope"][code], SLOPE_BINS, share),
-                10.0 ** _median(hist["sca"][code], SCA_BINS, share),
-                _median(hist["m"][code], M_BINS, share),
-            )
-    return out
-
-
-def _median(hist: np.ndarray, bins: np.ndarray, share: float = 0.5) -> float:
-    cum = np.cumsum(hist)
-    if cum[-1] <= 0:
-        return float("nan")
-    i = int(np.searchsorted(cum, cum[-1] * share))
-    return float((bins[i] + bins[i + 1]) / 2.0)
-
-
-def _sum(results: Any) -> dict[Any, Any]:
-    total: dict[Any, Any] = {}
-    for res in results:  # in tile order
-        add_tile(total, res)
-    return total
 
 
 def sensitivity(
@@ -198,7 +118,7 @@ def sensitivity(
     )
     tiles = [(job, r, c) for r, c in windows(done.grid)]
     medians = unit_medians(job, runner)
-    changes = _sum(runner(class_change_tile, tiles))
+    changes = summed_tiles(runner(class_change_tile, tiles))
     rows: list[dict[str, object]] = []
     tornado: dict[str, tuple[float, list[tuple[str, float, float, str]]]] = {}
     for code, key in enumerate(units.keys, start=1):

@@ -4,6 +4,9 @@ README and the removal of stale files (standard library only, so ``--help`` stay
 
 from __future__ import annotations
 
+# the folder of the known-landslide checks, beside the scenario folders
+VALIDATION_FOLDER = "validation"
+
 # (file, written when, what it holds)
 TERRAIN_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     ("slope_deg.tif", "always", "slope angle on the ground (Horn 1981)"),

@@ -8,8 +8,6 @@ sources, and coverage warnings. Tables scroll inside their own box; empty values
 
 from __future__ import annotations
 
-import base64
-import html
 import math
 import os
 from collections.abc import Sequence
@@ -21,6 +19,13 @@ from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.safe_writes import write_text
 from slopescreen.maps.outputs.comparison import FOLDER as COMPARISON_FOLDER
 from slopescreen.maps.outputs.comparison import ClassChange
+from slopescreen.maps.outputs.html_parts import (
+    EMPTY,
+    boxed_table,
+    embedded_image,
+    esc,
+    num,
+)
 from slopescreen.maps.region.config import SOIL_FIELDS, Config
 from slopescreen.maps.region.scenario_run import ScenarioSummary
 from slopescreen.maps.region.soils import SoilUnits
@@ -42,7 +47,6 @@ text-align:left}
 .up{color:#5a1a78;font-weight:600}.down{color:#1f4e79}
 code{font-size:0.9em;overflow-wrap:anywhere}
 """
-EMPTY = "-"
 
 
 @dataclass
@@ -65,48 +69,9 @@ class RunFacts:
     dem_no_data: str = ""
 
 
-def _e(x: object) -> str:
-    return html.escape(str(x))
-
-
-def _num(value: object, fmt: str = ".4g") -> str:
-    """A number for a table: '-' for NaN, None or empty."""
-    if value is None or value == "":
-        return EMPTY
-    try:
-        v = float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        return _e(value)
-    return EMPTY if not math.isfinite(v) else format(v, fmt)
-
-
-def _table(
-    head: Sequence[str], rows: Sequence[Sequence[str]], left: int = 1, wrap_last: bool = False
-) -> str:
-    """A table in its own scrolling box; the first ``left`` columns align left, and the
-    last wraps its text with ``wrap_last``. Cells are HTML already (escape them with _e or
-    _num)."""
-    cls = ["l" if i < left else "" for i in range(len(head))]
-    if wrap_last:
-        cls[-1] = "w"
-    th = "".join(f"<th class='{c}'>{_e(h)}</th>" for c, h in zip(cls, head, strict=True))
-    body = "".join(
-        "<tr>" + "".join(f"<td class='{c}'>{v}</td>" for c, v in zip(cls, r, strict=True)) + "</tr>"
-        for r in rows
-    )
-    return f"<div class='tbl'><table><tr>{th}</tr>{body}</table></div>"
-
-
 def _cautions() -> str:
-    items = "".join(f"<li>{_e(c)}</li>" for c in CAUTIONS)
+    items = "".join(f"<li>{esc(c)}</li>" for c in CAUTIONS)
     return f'<div class="caution"><strong>Cautions</strong><ul>{items}</ul></div>'
-
-
-def _image(path: Path | None, alt: str) -> str:
-    if path is None or not path.exists():
-        return ""
-    data = base64.b64encode(path.read_bytes()).decode("ascii")
-    return f'<img alt="{_e(alt)}" src="data:image/png;base64,{data}">'
 
 
 def _relative(path: Path | str, cfg: Config) -> str:
@@ -130,19 +95,19 @@ def _comparison(
     base_name = cfg.comparison.baseline or names[0]
     parts = ["<h2>Scenario comparison</h2>"]
     if small_multiples is not None:
-        parts.append(_image(small_multiples, "factor-of-safety classes of every scenario"))
+        parts.append(embedded_image(small_multiples, "factor-of-safety classes of every scenario"))
     baseline = next((s for s in scenarios if s.name == base_name), None)
     if baseline is None:
-        parts.append(f"<p>Baseline {_e(base_name)} was not run (--only): no changes shown.</p>")
+        parts.append(f"<p>Baseline {esc(base_name)} was not run (--only): no changes shown.</p>")
     else:
         parts.append(
             f"<p>Ground area of each class; in brackets the change from the baseline "
-            f"scenario <strong>{_e(base_name)}</strong>"
+            f"scenario <strong>{esc(base_name)}</strong>"
             f"{'' if cfg.comparison.baseline else ' (the first scenario run)'}.</p>"
         )
     rows = []
     for i, cls in enumerate(class_names):
-        row = [_e(cls)]
+        row = [esc(cls)]
         for s in scenarios:
             cell = f"{s.class_areas_ha[i]:,.1f} ha"
             if baseline is not None and s is not baseline:
@@ -151,26 +116,26 @@ def _comparison(
                 cell += f" <span class='{mark}'>({d:+,.1f})</span>" if d else " (0)"
             row.append(cell)
         rows.append(row)
-    parts.append(_table(["class", *names], rows))
+    parts.append(boxed_table(["class", *names], rows))
     for ch in changes:
         less, more, same = ch.areas_ha
         worse, better, _ = ch.names
         what = "hazard class" if worse == "more frequent" else "class"
         parts.append(
-            f"<h3>Where the {what} changes: {_e(ch.first)} to {_e(ch.second)}</h3><p>"
+            f"<h3>Where the {what} changes: {esc(ch.first)} to {esc(ch.second)}</h3><p>"
             f"{less:,.1f} ha {worse}, {more:,.1f} ha {better} and {same:,.1f} ha in the "
-            f"same class in {_e(ch.second)} than in {_e(ch.first)}.</p>"
-            + _image(ch.png, f"{what} change {ch.first} to {ch.second}")
+            f"same class in {esc(ch.second)} than in {esc(ch.first)}.</p>"
+            + embedded_image(ch.png, f"{what} change {ch.first} to {ch.second}")
         )
         r = ch.ratio
         if r is not None and r.median is not None:
             parts.append(
                 f"<p>Triggering return period: on the {r.area_ha:,.1f} ha with a return period "
-                f"within the design-rainfall table in both, the median of {_e(ch.second)}'s "
-                f"over {_e(ch.first)}'s is {r.median:.2f}; it shortens on "
+                f"within the design-rainfall table in both, the median of {esc(ch.second)}'s "
+                f"over {esc(ch.first)}'s is {r.median:.2f}; it shortens on "
                 f"{100 * r.share_shorter:.0f}% of that area "
-                f"(<code>{COMPARISON_FOLDER}/{_e(r.raster.name)}</code>).</p>"
-                + _image(r.png, f"return-period ratio {ch.second} over {ch.first}")
+                f"(<code>{COMPARISON_FOLDER}/{esc(r.raster.name)}</code>).</p>"
+                + embedded_image(r.png, f"return-period ratio {ch.second} over {ch.first}")
             )
     return parts
 
@@ -178,31 +143,33 @@ def _comparison(
 def _scenario_section(s: ScenarioSummary, class_names: list[str], unit_keys: list[str]) -> str:
     mapped = sum(s.class_areas_ha)
     parts = [
-        f"<h2 id='sc-{_e(s.name)}'>Scenario {_e(s.name)}</h2>",
-        f"<p>{_e(s.description)}</p>" if s.description else "",
-        f"<p><strong>Loads:</strong> {_e(s.loads)}</p>",
+        f"<h2 id='sc-{esc(s.name)}'>Scenario {esc(s.name)}</h2>",
+        f"<p>{esc(s.description)}</p>" if s.description else "",
+        f"<p><strong>Loads:</strong> {esc(s.loads)}</p>",
     ]
     for what, png in s.maps.items():
-        parts.append(f"<h3>{_e(what[:1].upper() + what[1:])}</h3>" + _image(png, what))
+        parts.append(f"<h3>{esc(what[:1].upper() + what[1:])}</h3>" + embedded_image(png, what))
     rows = []
     for key, areas in zip(unit_keys, s.unit_class_areas_ha, strict=True):
         total = sum(areas)
-        rows.append([_e(key), *(_ha(a, total) for a in areas), f"{total:,.2f} ha"])
+        rows.append([esc(key), *(_ha(a, total) for a in areas), f"{total:,.2f} ha"])
     rows.append(
         ["<strong>all</strong>", *(_ha(a, mapped) for a in s.class_areas_ha), f"{mapped:,.2f} ha"]
     )
-    parts.append("<h3>Area by soil unit</h3>" + _table(["soil unit", *class_names, "mapped"], rows))
+    parts.append(
+        "<h3>Area by soil unit</h3>" + boxed_table(["soil unit", *class_names, "mapped"], rows)
+    )
     if s.hazard_areas_ha is not None:
         parts.append(
             "<h3>Hazard: how often rain starts failure</h3><p>Ground area by the annual "
             "probability that a storm of any tabulated duration brings FS below 1 (a "
             "<em>hazard</em> in the zoning sense: it carries a frequency). Cells already "
             "below FS 1 before the rain count in the most frequent class.</p>"
-            + _table(
+            + boxed_table(
                 ["class", "area"]
                 + (["area with soil spreads"] if s.hazard_spread_areas_ha is not None else []),
                 [
-                    [_e(n), _ha(a, mapped)]
+                    [esc(n), _ha(a, mapped)]
                     + (
                         [_ha(s.hazard_spread_areas_ha[i], mapped)]
                         if s.hazard_spread_areas_ha
@@ -230,20 +197,22 @@ def _scenario_section(s: ScenarioSummary, class_names: list[str], unit_keys: lis
     if s.zones:
         zone_rows = [
             [
-                _e(z["class_name"]),
-                _e(z["soil_unit"]),
-                _num(z["area_ha"], ",.2f"),
-                _num(z["mean_slope_deg"], ".1f"),
+                esc(z["class_name"]),
+                esc(z["soil_unit"]),
+                num(z["area_ha"], ",.2f"),
+                num(z["mean_slope_deg"], ".1f"),
             ]
             for z in s.zones
         ]
         parts.append(
             "<h3>Largest low-margin zones</h3>"
-            + _table(["class", "soil unit", "area (ha)", "mean slope (deg)"], zone_rows, left=2)
+            + boxed_table(
+                ["class", "soil unit", "area (ha)", "mean slope (deg)"], zone_rows, left=2
+            )
         )
-    files = ", ".join(f"<code>{_e(s.name)}/{_e(f)}</code>" for f in s.outputs)
+    files = ", ".join(f"<code>{esc(s.name)}/{esc(f)}</code>" for f in s.outputs)
     parts.append(f"<p class='meta'>Files: {files}</p>")
-    parts += [f"<p class='warn'>{_e(w)}</p>" for w in s.warnings]
+    parts += [f"<p class='warn'>{esc(w)}</p>" for w in s.warnings]
     return "\n".join(parts)
 
 
@@ -269,13 +238,13 @@ def _soil_table(cfg: Config, soils: SoilUnits) -> str:
             text.append(f"strength fitted to {_relative(soils.lab_tests[key], cfg)}")
         rows.append(
             [
-                _e(key),
-                *(_num(soils.parameters[f][code]) for f in fields),
-                _e("; ".join(text)) or EMPTY,
+                esc(key),
+                *(num(soils.parameters[f][code]) for f in fields),
+                esc("; ".join(text)) or EMPTY,
             ]
         )
     head = ["unit", *fields, "spread (drives the probability of failure)"]
-    return _table(head, rows, wrap_last=True)
+    return boxed_table(head, rows, wrap_last=True)
 
 
 def _lab_fits(cfg: Config, soils: SoilUnits, extras: Extras, work: Path) -> list[str]:
@@ -299,38 +268,42 @@ def _lab_fits(cfg: Config, soils: SoilUnits, extras: Extras, work: Path) -> list
 
 def _fit_block(label: str, fit: dict[str, object], source: str | None, png: Path) -> str:
     rows = [
-        ["c' (kPa)", _num(fit.get("cohesion_kpa"), ".2f"), _num(fit.get("cohesion_se_kpa"), ".2f")],
+        [
+            "c' (kPa)",
+            num(fit.get("cohesion_kpa"), ".2f"),
+            num(fit.get("cohesion_se_kpa"), ".2f"),
+        ],
         [
             "phi' (deg)",
-            _num(fit.get("friction_deg"), ".2f"),
-            _num(fit.get("friction_se_deg"), ".2f"),
+            num(fit.get("friction_deg"), ".2f"),
+            num(fit.get("friction_se_deg"), ".2f"),
         ],
     ]
     cov = fit.get("covariance")
     corr = None
     if isinstance(cov, list) and len(cov) == 2 and cov[0][0] > 0 and cov[1][1] > 0:
         corr = cov[0][1] / math.sqrt(cov[0][0] * cov[1][1])
-    where = f" from <code>{_e(source)}</code>" if source else ""
+    where = f" from <code>{esc(source)}</code>" if source else ""
     return (
-        f"<h3>Lab fit for {_e(label)}{where}</h3>"
-        + _table(["parameter", "value", "standard error"], rows)
+        f"<h3>Lab fit for {esc(label)}{where}</h3>"
+        + boxed_table(["parameter", "value", "standard error"], rows)
         + (
-            f"<p>Correlation of the c' and phi' estimates: {_num(corr, '+.2f')}.</p>"
+            f"<p>Correlation of the c' and phi' estimates: {num(corr, '+.2f')}.</p>"
             if corr is not None
             else ""
         )
-        + _image(png, f"Mohr circles and envelope, {label}")
+        + embedded_image(png, f"Mohr circles and envelope, {label}")
     )
 
 
 def _hillside(record: dict[str, object]) -> str:
     inputs = record.get("inputs", {})
     results = record.get("results", {})
-    rows = [[_e(k), _num(v)] for k, v in dict(inputs).items()]  # type: ignore[arg-type]
+    rows = [[esc(k), num(v)] for k, v in dict(inputs).items()]  # type: ignore[arg-type]
     for key, value in dict(results).items():  # type: ignore[arg-type]
         items = value.items() if isinstance(value, dict) else [(key, value)]
-        rows += [[f"<strong>{_e(k)}</strong>", _num(v)] for k, v in items]
-    return f"<h3>Hillside check: {_e(record.get('slope', ''))}</h3>" + _table(
+        rows += [[f"<strong>{esc(k)}</strong>", num(v)] for k, v in items]
+    return f"<h3>Hillside check: {esc(record.get('slope', ''))}</h3>" + boxed_table(
         ["quantity", "value"], rows
     )
 
@@ -436,18 +409,18 @@ def write_report(
     markers so the inventory commands can rewrite it in place."""
     import tempfile
 
-    from slopescreen.maps.inventory.finished_run import SECTION_END, SECTION_START
+    from slopescreen.maps.outputs.validation_report import SECTION_END, SECTION_START
 
     extras = extras or Extras()
     ran = ", ".join(s.name for s in scenarios)
     parts = [
         "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
         "<meta name='viewport' content='width=device-width, initial-scale=1'>"
-        f"<title>slopescreen: {_e(cfg.region.name)}</title><style>{_STYLE}</style></head><body>",
-        f"<h1>Shallow-landslide susceptibility screening: {_e(cfg.region.name)}</h1>",
-        f"<p class='meta'>Run {_e(facts.started_utc)} to {_e(facts.finished_utc)} (UTC) with "
-        f"slopescreen {_e(facts.version)}; scenario file <code>{_e(cfg.path.name)}</code>; "
-        f"{len(scenarios)} scenario(s): {_e(ran)}.</p>",
+        f"<title>slopescreen: {esc(cfg.region.name)}</title><style>{_STYLE}</style></head><body>",
+        f"<h1>Shallow-landslide susceptibility screening: {esc(cfg.region.name)}</h1>",
+        f"<p class='meta'>Run {esc(facts.started_utc)} to {esc(facts.finished_utc)} (UTC) with "
+        f"slopescreen {esc(facts.version)}; scenario file <code>{esc(cfg.path.name)}</code>; "
+        f"{len(scenarios)} scenario(s): {esc(ran)}.</p>",
         "<p>Factor-of-safety classes are a <em>susceptibility</em> map: where failure is more "
         "or less likely under each scenario, with no annual frequency attached.</p>",
         _cautions(),
@@ -456,13 +429,13 @@ def write_report(
     with_pf = [s for s in scenarios if s.probability_areas_ha]
     if with_pf:
         rows = [
-            [_e(name), *(f"{s.probability_areas_ha[i]:,.1f} ha" for s in with_pf)]  # type: ignore[index]
+            [esc(name), *(f"{s.probability_areas_ha[i]:,.1f} ha" for s in with_pf)]  # type: ignore[index]
             for i, name in enumerate(PF_CLASS_NAMES)
         ]
         parts.append(
             "<h3>Probability of failure</h3><p>P(FS &lt; 1) from the spread of the soil "
             "parameters (not an annual frequency). Areas of the units that have spreads.</p>"
-            + _table(["chance that FS < 1", *(s.name for s in with_pf)], rows)
+            + boxed_table(["chance that FS < 1", *(s.name for s in with_pf)], rows)
         )
     parts += [_scenario_section(s, class_names, soils.keys) for s in scenarios]
     parts.append(SECTION_START + validation + SECTION_END)
@@ -472,17 +445,17 @@ def write_report(
     rows = [
         [
             "DEM",
-            f"<code>{_e(_relative(cfg.region.dem, cfg))}</code>: {grid.width} x "
-            f"{grid.height} cells, elevations in {_e(cfg.region.dem_elevation_unit)}",
+            f"<code>{esc(_relative(cfg.region.dem, cfg))}</code>: {grid.width} x "
+            f"{grid.height} cells, elevations in {esc(cfg.region.dem_elevation_unit)}",
         ],
-        ["ground geometry", _e(grid.spacing_note)],
-        ["CRS", _e(grid.crs.to_string())],  # type: ignore[attr-defined]
-        ["DEM no data", _e(facts.dem_no_data or "not counted")],
+        ["ground geometry", esc(grid.spacing_note)],
+        ["CRS", esc(grid.crs.to_string())],  # type: ignore[attr-defined]
+        ["DEM no data", esc(facts.dem_no_data or "not counted")],
         ["origin", f"{t.c:.10g}, {t.f:.10g} (upper-left corner)"],  # type: ignore[attr-defined]
         [
             "soil units",
-            f"<code>{_e(_relative(soils.sources['polygons'], cfg))}</code>, "
-            f"parameters from <code>{_e(_relative(soils.sources['parameters'], cfg))}</code>",
+            f"<code>{esc(_relative(soils.sources['polygons'], cfg))}</code>, "
+            f"parameters from <code>{esc(_relative(soils.sources['parameters'], cfg))}</code>",
         ],
         [
             "class breaks",
@@ -493,21 +466,23 @@ def write_report(
             "FS cap",
             f"FS above {cfg.fs_cap:g} (flat ground: no driving stress) stored as {cfg.fs_cap:g}",
         ],
-        ["command", f"<code>{_e(' '.join(facts.command))}</code>"],
+        ["command", f"<code>{esc(' '.join(facts.command))}</code>"],
     ]
-    parts.append(_table(["input", "value"], [[_e(a), b] for a, b in rows], 2, wrap_last=True))
+    parts.append(boxed_table(["input", "value"], [[esc(a), b] for a, b in rows], 2, wrap_last=True))
     parts.append("<h3>Soil parameters</h3>" + _soil_table(cfg, soils))
     with tempfile.TemporaryDirectory() as work:
         parts += _lab_fits(cfg, soils, extras, Path(work))
         if extras.hillside is not None:
             parts.append(_hillside(extras.hillside))
         parts.append(_methods(cfg, scenarios, soils))
-        hashes = [[_e(k), f"<code>{_e(v)}</code>"] for k, v in facts.hashes.items()]
-        parts.append("<h3>Input hashes (SHA-256)</h3>" + _table(["input", "SHA-256"], hashes, 2))
+        hashes = [[esc(k), f"<code>{esc(v)}</code>"] for k, v in facts.hashes.items()]
+        parts.append(
+            "<h3>Input hashes (SHA-256)</h3>" + boxed_table(["input", "SHA-256"], hashes, 2)
+        )
         warnings = soils.warnings + [w for s in scenarios for w in s.warnings]
         parts.append("<h2>Coverage and warnings</h2>")
         parts.append(
-            "<ul>" + "".join(f"<li class='warn'>{_e(w)}</li>" for w in warnings) + "</ul>"
+            "<ul>" + "".join(f"<li class='warn'>{esc(w)}</li>" for w in warnings) + "</ul>"
             if warnings
             else "<p>All DEM data cells lie in a soil unit; no warnings.</p>"
         )

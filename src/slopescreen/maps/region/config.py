@@ -43,7 +43,12 @@ from typing import Any
 from slopescreen._checks import checked
 from slopescreen.errors import InputError
 from slopescreen.maps.io.textfiles import read_text
-from slopescreen.maps.region.scenario_schema import SCHEMA, allowed
+from slopescreen.maps.region.scenario_schema import (
+    SCHEMA,
+    allowed,
+    limits,
+    numeric_keys,
+)
 from slopescreen.rainfall_frequency import SERIES_KINDS, hazard_class_names, table_reach_yr
 from slopescreen.ranges import RANGES
 from slopescreen.stability_classes import DEFAULT_FS_BREAKS, check_breaks
@@ -64,31 +69,18 @@ SOIL_FIELDS: dict[str, tuple[float, float, bool]] = {
     )
 }
 HYDRAULIC_FIELDS = ("hydraulic_conductivity_m_s", "transmissivity_m2_day")
-# fields that may carry a spread for probability of failure
-UNCERTAIN_FIELDS = (
-    "cohesion_kpa",
-    "friction_deg",
-    "unit_weight_kn_m3",
-    "depth_m",
-    "root_cohesion_kpa",
-    "hydraulic_conductivity_m_s",
-    "transmissivity_m2_day",
-)
-SPREAD_SUFFIXES = ("_sd", "_cov", "_low", "_mode", "_high", "_distribution")
 WETNESS_KEYS = ("saturation", "saturation_raster", "recharge_mm_day", "storm", "rainfall")
-RAINFALL_KEYS: dict[str, tuple[float, float]] = {
-    "initial_water_table_depth_m": (0.0, 100.0),
-    "long_term_infiltration_mm_day": (0.0, 1000.0),
-    "uplift": (0.1, 10.0),
-}
-RECHARGE_RANGE = (0.0, 10000.0)
-STORM_KEYS: dict[str, tuple[float, float]] = {
-    "rain_mm_h": (0.0, 1000.0),
-    "duration_h": (0.01, 1000.0),
-    "later_h": (0.0, 10000.0),
-    "initial_water_table_depth_m": (0.0, 100.0),
-    "long_term_infiltration_mm_day": (0.0, 1000.0),
-}
+RAINFALL_KEYS = numeric_keys("scenario.rainfall")
+RECHARGE_RANGE = limits("scenario", "recharge_mm_day")
+STORM_KEYS = numeric_keys("scenario.storm")
+
+
+def _whole(table: str, key: str) -> tuple[int, int]:
+    """An integer key's (low, high) from the schema."""
+    low, high = limits(table, key)
+    return int(low), int(high)
+
+
 RELIABILITY_METHODS = ("taylor", "monte_carlo")
 _NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
 # names the run gives to its own files and folders beside the scenario folders
@@ -530,11 +522,13 @@ def load_config(path: str | Path) -> Config:
         breaks = tuple(float(b) for b in check_breaks(raw_breaks))
     except (InputError, TypeError, ValueError) as exc:
         raise r.fail(classes_table, "fs_breaks", str(exc)) from None
-    min_zone = r.number(classes_table, haz, "min_zone_area_m2", 0.0, 1e9, 0.0)
+    min_zone = r.number(
+        classes_table, haz, "min_zone_area_m2", *limits("classes", "min_zone_area_m2"), 0.0
+    )
 
     out = r.renamed("outputs", r.table("", data, "outputs"), notes)
     r.known("outputs", out, allowed("outputs"))
-    fs_cap = r.number("outputs", out, "fs_cap", 1.5, 1e6, 10.0)
+    fs_cap = r.number("outputs", out, "fs_cap", *limits("outputs", "fs_cap"), 10.0)
 
     rel = r.table("", data, "reliability")
     r.known("reliability", rel, allowed("reliability"))
@@ -543,8 +537,10 @@ def load_config(path: str | Path) -> Config:
     _refuse_unused_reliability(r, rel, method, raw_storms=_has_storm(data.get("scenario")))
     reliability = ReliabilitySpec(
         method=method,
-        samples=r.integer("reliability", rel, "samples", 10, 10_000_000, 1000),
-        random_state=r.integer("reliability", rel, "random_state", 0, 2**32 - 1, 0),
+        samples=r.integer("reliability", rel, "samples", *_whole("reliability", "samples"), 1000),
+        random_state=r.integer(
+            "reliability", rel, "random_state", *_whole("reliability", "random_state"), 0
+        ),
         fs_distribution=fs_dist,
     )
 
@@ -561,7 +557,13 @@ def load_config(path: str | Path) -> Config:
     slip = r.table("", data, "slip_planes")
     r.known("slip_planes", slip, allowed("slip_planes"))
     min_slip = float(
-        r.number("slip_planes", slip, "min_slip_depth_m", 0.001, 1.0, MIN_SLIP_DEPTH_M)
+        r.number(
+            "slip_planes",
+            slip,
+            "min_slip_depth_m",
+            *limits("slip_planes", "min_slip_depth_m"),
+            MIN_SLIP_DEPTH_M,
+        )
     )
     scenarios = [_with_min_slip_depth(s, min_slip) for s in scenarios]
     zones = r.flag("outputs", out, "zones", True)
@@ -639,7 +641,15 @@ def _rainfall_frequency(
         rasters=rasters,
         depth_rasters=depths,
         aep_breaks=tuple(float(b) for b in breaks),
-        after_h=float(r.number("rainfall_frequency", table, "after_h", 0.0, 1000.0, 24.0)),
+        after_h=float(
+            r.number(
+                "rainfall_frequency",
+                table,
+                "after_h",
+                *limits("rainfall_frequency", "after_h"),
+                24.0,
+            )
+        ),
         series=series,
         series_stated="series" in table,
     )
@@ -663,16 +673,20 @@ def _inventory(r: _Reader, data: Any) -> InventorySpec:
                     key,
                     "applies to the spatial-block split only (without date_field); remove it",
                 )
-    share = r.number("inventory", data, "test_share", 0.05, 0.95, 0.3)
+    share = r.number("inventory", data, "test_share", *limits("inventory", "test_share"), 0.3)
     return InventorySpec(
         path=r.file("inventory", data, "path"),
         key=r.text("inventory", data, "key") if "key" in data else None,
         date_field=date_field,
         part=part,
         split=split,
-        block_size_m=float(r.number("inventory", data, "block_size_m", 10.0, 1e6, 500.0)),
+        block_size_m=float(
+            r.number("inventory", data, "block_size_m", *limits("inventory", "block_size_m"), 500.0)
+        ),
         test_share=float(share),
-        random_state=r.integer("inventory", data, "random_state", 0, 2**32 - 1, 0),
+        random_state=r.integer(
+            "inventory", data, "random_state", *_whole("inventory", "random_state"), 0
+        ),
     )
 
 
@@ -830,14 +844,16 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
         storm=storm,
         name=name,
         description=r.text(table, sc, "description", "-") if "description" in sc else "",
-        saturation=r.number(table, sc, "saturation", 0.0, 1.0),
+        saturation=r.number(table, sc, "saturation", *limits("scenario", "saturation")),
         saturation_raster=r.file(table, sc, "saturation_raster")
         if "saturation_raster" in sc
         else None,
         recharge_mm_day=r.number(table, sc, "recharge_mm_day", *RECHARGE_RANGE),
         rain_raster=rain_raster,
         seismic_coefficient=float(
-            r.number(table, sc, "seismic_coefficient", *RANGES["seismic_coefficient"][:2], 0.0)
+            r.number(
+                table, sc, "seismic_coefficient", *limits("scenario", "seismic_coefficient"), 0.0
+            )
         ),
         soil_overrides=overrides,
     )

@@ -24,7 +24,6 @@ import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass, field
-from datetime import UTC, datetime
 from html import escape
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -36,6 +35,7 @@ from slopescreen.cautions import CAUTIONS
 from slopescreen.errors import InputError
 from slopescreen.maps.inventory.reading import Inventory
 from slopescreen.maps.io.cache import recorded_sha256
+from slopescreen.maps.io.clock import utc_now
 from slopescreen.maps.io.grid import Grid, dem_files_sha256, read_elevations, read_grid
 from slopescreen.maps.io.locks import folder_lock
 from slopescreen.maps.io.rasters import RasterSink, all_or_nothing, read_on_grid
@@ -212,10 +212,6 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
         inventory = read_inventory(cfg.inventory, grid, cfg.region.dem_elevation_unit)
         hashes["inventory"] = file_sha256(cfg.inventory.path)
     return Inputs(cfg, grid, soils, hashes, dem_files, voids, inventory)
-
-
-def utc_now() -> str:
-    return datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
 def check_scheduler_address(address: str) -> None:
@@ -439,7 +435,7 @@ def _comparison(
 def _known_landslides(cfg: Config, inputs: Inputs, out: Path, steps: _Steps) -> None:
     """Score the scenarios against the inventory ([inventory]); results of the inventory
     commands from an earlier run (validation/) describe other maps and are removed."""
-    from slopescreen.maps.inventory.finished_run import VALIDATION_FOLDER
+    from slopescreen.maps.outputs.output_names import VALIDATION_FOLDER
 
     shutil.rmtree(out / VALIDATION_FOLDER, ignore_errors=True)
     (out / "inventory_scores.csv").unlink(missing_ok=True)

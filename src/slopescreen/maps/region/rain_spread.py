@@ -48,7 +48,7 @@ def critical_intensities(
     """I_c (mm/h, codes -1 and -2) of the block's cells for parameters that may be arrays
     of samples broadcast against the cells (shape: the broadcast shape)."""
     from slopescreen.maps.region.intensity_tables import by_kernel
-    from slopescreen.maps.region.scenario_tiles import CORE_FIELDS as names
+    from slopescreen.maps.region.tile_job import CORE_FIELDS as names
 
     # one signature of the compiled kernel for every caller: float64 cells, int64 codes
     shape = np.broadcast_shapes(block["tan"].shape, *(np.shape(params[n]) for n in names))

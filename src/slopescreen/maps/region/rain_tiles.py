@@ -13,7 +13,7 @@ from slopescreen.maps.io.rasters import read_block
 from slopescreen.maps.region.config import RainfallFrequency
 
 if TYPE_CHECKING:
-    from slopescreen.maps.region.scenario_tiles import TileJob
+    from slopescreen.maps.region.tile_job import TileJob
 
 
 def intensity_name(duration_h: float) -> str:
@@ -147,7 +147,7 @@ def _annual_with_spread(
     """Annual probability of failure with the soil spreads, unit by unit (NaN for units
     without spreads): :mod:`slopescreen.maps.region.rain_spread`."""
     from slopescreen.maps.region.rain_spread import annual_probability_with_spread
-    from slopescreen.maps.region.scenario_tiles import units_with_spreads
+    from slopescreen.maps.region.tile_job import units_with_spreads
 
     result = np.full(block["codes"].shape, np.nan)
     for sel, sub, values, corr in units_with_spreads(job, block):

@@ -23,14 +23,10 @@ from slopescreen.maps.region.config import Config, Scenario
 from slopescreen.maps.region.intensity_tables import table_settings, tables_for, unit_cells
 from slopescreen.maps.region.rain_tiles import intensity_name
 from slopescreen.maps.region.runners import Runner, serial_runner
-from slopescreen.maps.region.scenario_tiles import (
-    BETA_CAP,
-    CORE_FIELDS,
-    TileJob,
-    compute_tile,
-)
+from slopescreen.maps.region.scenario_tiles import BETA_CAP, compute_tile
 from slopescreen.maps.region.soils import SoilUnits
 from slopescreen.maps.region.terrain_cache import NODATA_F32
+from slopescreen.maps.region.tile_job import CORE_FIELDS, TileJob
 from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
 from slopescreen.stability_classes import PF_CLASS_NAMES
 from slopescreen.storm import FAILS_BEFORE_STORM, NOT_BY_LATER
@@ -700,8 +696,8 @@ def draw_thresholds(
 ) -> Path:
     """rainfall_thresholds.png: each unit's critical intensity against duration at its
     median slope and specific catchment area, over the design-rainfall curves."""
-    from slopescreen.maps.inventory.sensitivity_map import SensitivityJob, unit_medians
     from slopescreen.maps.outputs.validation_plots import threshold_figure
+    from slopescreen.maps.region.unit_medians import SensitivityJob, unit_medians
     from slopescreen.rain_thresholds import critical_intensity_mm_h
 
     table, spec = cfg.rainfall_frequency, sc.rainfall

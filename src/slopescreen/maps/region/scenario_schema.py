@@ -7,10 +7,50 @@ current), so the documentation cannot drift from what is read.
 
 from __future__ import annotations
 
+import math
+from dataclasses import dataclass
+
 from slopescreen.ranges import RANGES
 
+
+def _shown(x: float) -> str:
+    """A bound as the docs and messages write it: 1e6, 2^32 - 1, 0.05."""
+    if x == 2**32 - 1:
+        return "2^32 - 1"
+    if x >= 1e5 and math.log10(x).is_integer():
+        return f"1e{int(math.log10(x))}"
+    return f"{x:g}"
+
+
+@dataclass(frozen=True)
+class Span:
+    """A numeric key's allowed range, stated once: the reader checks these numbers and the
+    docs and messages print them. ``low_text`` names a bound the reader checks against
+    another key (``later_h`` from ``duration_h``); ``also`` adds what else is accepted."""
+
+    low: float
+    high: float
+    low_text: str = ""
+    also: str = ""
+
+    def __str__(self) -> str:
+        return f"{self.low_text or _shown(self.low)} to {_shown(self.high)}{self.also}"
+
+
+# fields that may carry a spread for probability of failure
+UNCERTAIN_FIELDS = (
+    "cohesion_kpa",
+    "friction_deg",
+    "unit_weight_kn_m3",
+    "depth_m",
+    "root_cohesion_kpa",
+    "hydraulic_conductivity_m_s",
+    "transmissivity_m2_day",
+)
+SPREAD_SUFFIXES = ("_sd", "_cov", "_low", "_mode", "_high", "_distribution")
+
 # table -> [(key, type and range, default, meaning)]
-SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
+SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
     "region": [
         ("name", "text", "the file's name", "shown in titles, the report and the manifest"),
         ("dem", "path", "required", "elevation raster GDAL reads (any CRS, north-up)"),
@@ -37,10 +77,10 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
             "[1.0, 1.3, 1.5]",
             "FS class breaks (read from [hazard] before 0.2)",
         ),
-        ("min_zone_area_m2", "0 to 1e9", "0", "low-margin zones smaller than this are dropped"),
+        ("min_zone_area_m2", Span(0, 1e9), "0", "low-margin zones smaller than this are dropped"),
     ],
     "outputs": [
-        ("fs_cap", "1.5 to 1e6", "10", "FS above this (e.g. flat ground) is stored as the cap"),
+        ("fs_cap", Span(1.5, 1e6), "10", "FS above this (e.g. flat ground) is stored as the cap"),
         ("zones", "true/false", "true", "write low_margin_zones.gpkg (hazard_zones before 0.2)"),
         ("quicklook_map", "true/false", "true", "draw the PNG maps of each scenario"),
         ("report", "true/false", "true", "write report.html and the comparison figures"),
@@ -48,7 +88,7 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
     "slip_planes": [
         (
             "min_slip_depth_m",
-            "0.001 to 1",
+            Span(0.001, 1),
             "0.05",
             "shallowest slip plane (m) that storms, critical intensities and the back-analysis "
             "of depth consider: thinner saturated skins are ignored",
@@ -56,8 +96,8 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
     ],
     "reliability": [
         ("method", '"taylor" or "monte_carlo"', '"taylor"', "how P(FS < 1) is found"),
-        ("samples", "10 to 1e7", "1000", "Monte Carlo only: samples per cell"),
-        ("random_state", "0 to 2^32 - 1", "0", "Monte Carlo only: same number, same map"),
+        ("samples", Span(10, 1e7), "1000", "Monte Carlo only: samples per cell"),
+        ("random_state", Span(0, 2**32 - 1), "0", "Monte Carlo only: same number, same map"),
         ("fs_distribution", '"lognormal" or "normal"', '"lognormal"', "Taylor series only"),
     ],
     "comparison": [
@@ -84,9 +124,14 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
             '"scarp"',
             "polygons: the highest 20% of their cells by elevation, or all of them",
         ),
-        ("block_size_m", "10 to 1e6", "500", "no date_field: held-out blocks' side on the ground"),
-        ("test_share", "0.05 to 0.95", "0.3", "share of landslides (date) or blocks held out"),
-        ("random_state", "0 to 2^32 - 1", "0", "no date_field: same number, same blocks"),
+        (
+            "block_size_m",
+            Span(10, 1e6),
+            "500",
+            "no date_field: held-out blocks' side on the ground",
+        ),
+        ("test_share", Span(0.05, 0.95), "0.3", "share of landslides (date) or blocks held out"),
+        ("random_state", Span(0, 2**32 - 1), "0", "no date_field: same number, same blocks"),
     ],
     "rainfall_frequency": [
         (
@@ -103,7 +148,7 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
             "[0.1, 0.01, 0.001]",
             "annual-probability breaks of the hazard classes",
         ),
-        ("after_h", "0 to 1000", "24", "each storm is followed this long after its end"),
+        ("after_h", Span(0, 1000), "24", "each storm is followed this long after its end"),
         (
             "series",
             '"annual_maximum" or "partial_duration"',
@@ -115,11 +160,11 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
     "scenario": [
         ("name", "1-64 letters, digits, _ . -", "required", "names the scenario's folder"),
         ("description", "text", "none", "shown in the report and the manifest"),
-        ("saturation", "0 to 1", "-", "uniform saturation ratio m (one wetness key)"),
+        ("saturation", Span(0, 1), "-", "uniform saturation ratio m (one wetness key)"),
         ("saturation_raster", "path", "-", "raster of m on any grid (one wetness key)"),
         (
             "recharge_mm_day",
-            "0 to 10000, or a raster path",
+            Span(0, 10000, also=", or a raster path"),
             "-",
             "steady recharge R, mm/day; a raster on any grid is resampled bilinearly "
             "(one wetness key)",
@@ -133,7 +178,7 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
         ),
         (
             "seismic_coefficient",
-            f"{RANGES['seismic_coefficient'][0]:g} to {RANGES['seismic_coefficient'][1]:g}",
+            Span(*RANGES["seismic_coefficient"][:2]),
             "0",
             "horizontal pseudo-static coefficient k_h",
         ),
@@ -142,19 +187,24 @@ SCHEMA: dict[str, list[tuple[str, str, str, str]]] = {
     "scenario.storm": [
         (
             "rain_mm_h",
-            "0 to 1000, or a raster path",
+            Span(0, 1000, also=", or a raster path"),
             "required",
             "rain intensity; a raster on any grid (e.g. radar) is resampled bilinearly",
         ),
-        ("duration_h", "0.01 to 1000", "required", "storm duration"),
-        ("later_h", "duration_h to 10000", "duration_h", "look again this long after the start"),
-        ("initial_water_table_depth_m", "0 to 100", "required", "water table before the storm"),
-        ("long_term_infiltration_mm_day", "0 to 1000", "0", "steady infiltration before it"),
+        ("duration_h", Span(0.01, 1000), "required", "storm duration"),
+        (
+            "later_h",
+            Span(0, 10000, low_text="duration_h"),
+            "duration_h",
+            "look again this long after the start",
+        ),
+        ("initial_water_table_depth_m", Span(0, 100), "required", "water table before the storm"),
+        ("long_term_infiltration_mm_day", Span(0, 1000), "0", "steady infiltration before it"),
     ],
     "scenario.rainfall": [
-        ("initial_water_table_depth_m", "0 to 100", "required", "water table before the rain"),
-        ("long_term_infiltration_mm_day", "0 to 1000", "0", "steady infiltration before it"),
-        ("uplift", "0.1 to 10", "1", "every tabulated intensity times this (climate scenario)"),
+        ("initial_water_table_depth_m", Span(0, 100), "required", "water table before the rain"),
+        ("long_term_infiltration_mm_day", Span(0, 1000), "0", "steady infiltration before it"),
+        ("uplift", Span(0.1, 10), "1", "every tabulated intensity times this (climate scenario)"),
     ],
 }
 
@@ -177,10 +227,21 @@ def allowed(table: str) -> set[str]:
     return {row[0] for row in SCHEMA[table]}
 
 
+def limits(table: str, key: str) -> tuple[float, float]:
+    """(low, high) of a numeric key: the numbers the reader checks."""
+    span = next(row[1] for row in SCHEMA[table] if row[0] == key)
+    if not isinstance(span, Span):
+        raise KeyError(f"[{table}] {key} has no numeric range")
+    return span.low, span.high
+
+
+def numeric_keys(table: str) -> dict[str, tuple[float, float]]:
+    """Every numeric key of a table with its (low, high)."""
+    return {row[0]: (row[1].low, row[1].high) for row in SCHEMA[table] if isinstance(row[1], Span)}
+
+
 def markdown() -> str:
     """The scenario-file reference as Markdown."""
-    from slopescreen.maps.region.config import SPREAD_SUFFIXES, UNCERTAIN_FIELDS
-
     lines = [
         "# The scenario file",
         "",

@@ -8,83 +8,27 @@ distributed run gives the same bytes as a serial one.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-from dataclasses import dataclass, field
 from functools import partial
-from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from slopescreen.errors import InputError
-from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.rasters import read_block, read_on_grid
 from slopescreen.maps.outputs.summary import add_areas
-from slopescreen.maps.region.config import RainfallFrequency, ReliabilitySpec, Scenario
+from slopescreen.maps.region.config import Scenario
 from slopescreen.maps.region.soils import SoilUnits
 from slopescreen.maps.region.terrain_cache import NODATA_F32
-from slopescreen.reliability import Spread, reliability_fosm, reliability_monte_carlo
+from slopescreen.maps.region.tile_job import CORE_FIELDS, TileJob, core_storm, units_with_spreads
+from slopescreen.reliability import reliability_fosm, reliability_monte_carlo
 from slopescreen.scenario import (
-    Storm,
     critical_recharge_mm_day,
     storm_fs_at,
     storm_response,
 )
 from slopescreen.stability_classes import PF_CLASS_NAMES, classify, classify_probability
 
-# soil parameters the core takes
-CORE_FIELDS = (
-    "cohesion_kpa",
-    "friction_deg",
-    "unit_weight_kn_m3",
-    "depth_m",
-    "saturated_unit_weight_kn_m3",
-    "root_cohesion_kpa",
-    "hydraulic_conductivity_m_s",
-    "transmissivity_m2_day",
-    "diffusivity_m2_s",
-)
 BETA_CAP = 10.0  # reliability index stored within +-10 (P_f 0 or 1 gives +-inf)
-
-
-@dataclass(frozen=True)
-class TileJob:
-    """What a tile computation needs; small and picklable (no arrays of the grid)."""
-
-    grid: Grid
-    scenario: Scenario
-    tables: dict[str, np.ndarray]  # soil parameters by unit code, overrides applied
-    spreads: dict[int, dict[str, Spread]]
-    correlations: dict[int, float]
-    slope_deg: Path
-    slope_tan: Path
-    sca: Path
-    codes: Path
-    cut_off: Path  # catchment_cut_off.tif: 1 where the upslope area is cut off
-    recharge_cache: Path | None  # verified critical recharge for these terrain, soils and load
-    fs_breaks: tuple[float, ...]
-    fs_cap: float
-    reliability: ReliabilitySpec
-    n_units: int
-    numba_threads: int = 0  # 0: numba's default (all cores)
-    rainfall: RainfallFrequency | None = None  # the design-rainfall table (rainfall scenarios)
-    intensity_cache: Path | None = None  # verified critical intensities (rainfall scenarios)
-    # tables of critical intensity by duration on large grids (intensity_tables.UnitTables)
-    intensity_tables: dict[float, Any] = field(default_factory=dict)
-
-
-def core_storm(sc: Scenario, rain_mm_h: np.ndarray | None = None) -> Storm | None:
-    """The scenario's storm for the core; ``rain_mm_h`` per cell where a raster gives it."""
-    if sc.storm is None:
-        return None
-    st = sc.storm
-    return Storm(
-        rain_mm_h=st.rain_mm_h if rain_mm_h is None else rain_mm_h,  # type: ignore[arg-type]
-        duration_h=st.duration_h,
-        later_h=st.later_h,
-        water_table_depth_m=st.initial_water_table_depth_m,
-        long_term_infiltration_m_s=st.long_term_infiltration_mm_day / 1000 / 86400,
-    )
 
 
 def check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
@@ -101,7 +45,7 @@ def check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
                 )
 
 
-def _fs_fast(seismic: float, tan_slope: np.ndarray, saturation: Any, **p: Any) -> np.ndarray:
+def fs_fast(seismic: float, tan_slope: np.ndarray, saturation: Any, **p: Any) -> np.ndarray:
     """FS of cells by the compiled kernel (parameters may be arrays of samples)."""
     from slopescreen.maps.region.kernels import fs_ufunc
 
@@ -151,25 +95,7 @@ def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) ->
         m = steady_state_saturation(rain, sca, slope, t)
     else:
         m = block["saturation"]
-    return _fs_fast(sc.seismic_coefficient, block["tan"], m, **p)
-
-
-def units_with_spreads(
-    job: TileJob, block: dict[str, np.ndarray]
-) -> Iterator[tuple[np.ndarray, dict[str, np.ndarray], dict[str, Any], dict]]:
-    """For each soil unit of the block that has spreads: its cells (mask), the block at
-    them, its soil values (numbers, spreads as ``Spread``) and the c'-phi' correlation."""
-    codes = block["codes"]
-    for code in np.unique(codes):
-        spreads = job.spreads.get(int(code))
-        if not spreads:
-            continue
-        sel = codes == code
-        values: dict[str, Any] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
-        values.update(spreads)
-        rho = job.correlations.get(int(code), 0.0)
-        corr = {("cohesion_kpa", "friction_deg"): rho} if rho else {}
-        yield sel, {k: v[sel] for k, v in block.items()}, values, corr
+    return fs_fast(sc.seismic_coefficient, block["tan"], m, **p)
 
 
 def probability(job: TileJob, block: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
@@ -358,15 +284,3 @@ def _recharge_tile(
     full = np.full(codes.shape, NODATA_F32, np.float32)
     full[cells] = np.nan_to_num(recharge, nan=NODATA_F32)
     return full
-
-
-def add_tile(total: dict[Any, Any], result: dict[Any, Any]) -> None:
-    """Add one tile's sums to ``total`` (arrays and numbers added, tuples element by
-    element); called in tile order, so the sums are the same whatever ran the tiles."""
-    for key, value in result.items():
-        if key not in total:
-            total[key] = value
-        elif isinstance(value, tuple):
-            total[key] = tuple(a + b for a, b in zip(total[key], value, strict=True))
-        else:
-            total[key] = total[key] + value

@@ -18,11 +18,10 @@ from slopescreen.maps.io.textfiles import read_text
 from slopescreen.maps.region.config import (
     HYDRAULIC_FIELDS,
     SOIL_FIELDS,
-    SPREAD_SUFFIXES,
-    UNCERTAIN_FIELDS,
     Region,
     did_you_mean,
 )
+from slopescreen.maps.region.scenario_schema import SPREAD_SUFFIXES, UNCERTAIN_FIELDS
 from slopescreen.reliability import Spread, spread
 
 EXTRA_COLUMNS = ("c_phi_correlation", "strength_lab_tests")
