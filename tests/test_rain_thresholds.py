@@ -521,9 +521,9 @@ def test_a_run_with_tables_gives_the_kernels_maps_within_tolerance(tmp_path, mon
     intensity within 0.2% of the run without tables, the codes the same."""
     import rasterio
 
+    from slopescreen.maps.outputs.output_names import intensity_name
     from slopescreen.maps.region import intensity_tables
     from slopescreen.maps.region.engine import run
-    from slopescreen.maps.region.rain_tiles import intensity_name
 
     toml, _ = _rain_region(tmp_path)
     run(toml, tmp_path / "kernel", progress=False, echo=lambda s: None)

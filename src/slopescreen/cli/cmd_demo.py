@@ -23,6 +23,7 @@ from typing import Any
 
 from slopescreen.cli.options import command_parser
 from slopescreen.errors import InputError
+from slopescreen.maps.outputs.output_names import DEMO_LAB_TESTS, DEMO_MOHR_FIGURE
 
 
 def add_to(sub: Any) -> None:
@@ -138,14 +139,15 @@ def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import caution_block
     from slopescreen.cli import cmd_envelope, cmd_slope
     from slopescreen.cli.options import dump_json
+    from slopescreen.maps.io.labtests import fit_file
     from slopescreen.maps.io.safe_writes import write_text
 
     region = find_region(args.region)
     out = args.out
-    tests_path = region / "lab_tests.csv"
-    tests, fit = cmd_envelope.fit_file(tests_path, out / "mohr_circles.png")
+    tests_path = region / DEMO_LAB_TESTS
+    tests, fit = fit_file(tests_path, out / DEMO_MOHR_FIGURE)
     print(cmd_envelope.format_text(tests_path, tests, fit))
-    print(f"  figure written: {out / 'mohr_circles.png'}\n")
+    print(f"  figure written: {out / DEMO_MOHR_FIGURE}\n")
 
     slope = read_slope_file(region / "hillside_slope.toml")
     name = slope.pop("name")
@@ -165,7 +167,7 @@ def run(args: argparse.Namespace) -> int:
     print(f"regional run: {scenarios}")
     from slopescreen.maps.outputs.report import Extras
 
-    extras = Extras(out / "mohr_circles.png", fit.as_dict(), record, tests_path)
+    extras = Extras(out / DEMO_MOHR_FIGURE, fit.as_dict(), record, tests_path)
     run_region(scenarios, out, progress=sys.stderr.isatty(), extras=extras)
     known_landslides(scenarios, out)
     print(f"\nopen {out / 'report.html'} in a browser for the maps and tables.\n")

@@ -16,13 +16,14 @@ from pathlib import Path
 from typing import Any
 
 from slopescreen.cli.options import add_json_option, command_parser, dump_json
+from slopescreen.maps.outputs.output_names import LAB_TESTS_PLACEHOLDER
 
 
 def add_to(sub: Any) -> None:
     parser = command_parser(
         sub, "envelope", "fit a Mohr-Coulomb envelope to lab tests", __doc__, run
     )
-    parser.add_argument("tests", type=Path, metavar="TESTS.csv", help="lab-test CSV file")
+    parser.add_argument("tests", type=Path, metavar=LAB_TESTS_PLACEHOLDER, help="lab-test CSV file")
     parser.add_argument(
         "--plot",
         type=Path,
@@ -30,57 +31,6 @@ def add_to(sub: Any) -> None:
         help="write a Mohr-circle figure (triaxial) or envelope plot here",
     )
     add_json_option(parser)
-
-
-FIGURE_SUFFIXES = (".png", ".pdf", ".svg", ".jpg", ".jpeg")
-
-
-def check_figure_path(plot: Path) -> None:
-    """InputError unless the figure's name ends in a format the figure can be saved in."""
-    from slopescreen.errors import InputError
-
-    if plot.suffix.lower() not in FIGURE_SUFFIXES:
-        raise InputError(f"--plot {plot}: name the figure with one of {', '.join(FIGURE_SUFFIXES)}")
-
-
-def fit_file(path: Path, plot: Path | None = None):
-    """Read, fit and (optionally) plot one lab-test file."""
-    from slopescreen.envelope import fit_direct_shear, fit_envelope
-    from slopescreen.maps.io.labtests import read_lab_tests
-
-    if plot is not None:
-        check_figure_path(plot)
-    tests = read_lab_tests(path)
-    cols = tests.columns
-    if tests.kind == "triaxial":
-        u = cols.get("pore_pressure_kpa")
-        fit = fit_envelope(cols["sigma3_kpa"], cols["sigma1_kpa"], u)
-    else:
-        fit = fit_direct_shear(cols["normal_kpa"], cols["shear_kpa"])
-    if plot is not None:
-        if tests.kind == "triaxial":
-            from slopescreen.maps.outputs.mohr_plot import plot_mohr_circles
-
-            u = cols.get("pore_pressure_kpa", 0.0)
-            plot_mohr_circles(
-                cols["sigma3_kpa"] - u,
-                cols["sigma1_kpa"] - u,
-                fit,
-                plot,
-                tests.labels,
-                title=f"Mohr circles at failure: {path.name}",
-            )
-        else:
-            from slopescreen.maps.outputs.mohr_plot import plot_direct_shear
-
-            plot_direct_shear(
-                cols["normal_kpa"],
-                cols["shear_kpa"],
-                fit,
-                plot,
-                title=f"Direct-shear envelope: {path.name}",
-            )
-    return tests, fit
 
 
 def format_text(path: Path, tests: Any, fit: Any) -> str:
@@ -119,6 +69,7 @@ def fit_record(fit: Any) -> dict[str, Any]:
 
 def run(args: argparse.Namespace) -> int:
     from slopescreen.cautions import CAUTIONS, caution_block
+    from slopescreen.maps.io.labtests import fit_file
 
     tests, fit = fit_file(args.tests, args.plot)
     if args.json:

@@ -25,6 +25,14 @@ from slopescreen.cli.options import (
     with_cautions,
     workers_option,
 )
+from slopescreen.maps.outputs.output_names import (
+    FS,
+    INVENTORY_SCORES,
+    PROBABILITY,
+    SOIL_UNIT,
+    STABILITY_CLASS,
+    TERRAIN_FOLDER,
+)
 
 
 def add_to(sub: Any) -> None:
@@ -55,10 +63,10 @@ def execute(args: argparse.Namespace) -> None:
     ):
         scenarios = list(done.manifest["scenarios_finished"])
         for name in scenarios:
-            for f in ("fs.tif", "stability_class.tif", "probability_of_failure.tif"):
-                if f != "probability_of_failure.tif" or (out / name / f).exists():
+            for f in (FS, STABILITY_CLASS, PROBABILITY):
+                if f != PROBABILITY or (out / name / f).exists():
                     done.verified(f"{name}/{f}")
-        done.verified("terrain/soil_unit.tif")
+        done.verified(f"{TERRAIN_FOLDER}/{SOIL_UNIT}")
 
         def progress(items: Any, total: int, label: str) -> Any:
             from tqdm import tqdm
@@ -77,6 +85,4 @@ def execute(args: argparse.Namespace) -> None:
             progress=progress,
         )
         target = record_results(done, "inventory", "", section, files)
-    print(
-        f"scores: {out / 'inventory_scores.csv'}; report: {out / 'report.html'}; manifest: {target}"
-    )
+    print(f"scores: {out / INVENTORY_SCORES}; report: {out / 'report.html'}; manifest: {target}")

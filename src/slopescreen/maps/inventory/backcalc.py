@@ -14,7 +14,15 @@ from slopescreen.maps.inventory.finished_run import FinishedRun
 from slopescreen.maps.inventory.reading import Inventory
 from slopescreen.maps.io.rasters import read_at_cells
 from slopescreen.maps.io.safe_writes import real_folder
-from slopescreen.maps.outputs.output_names import VALIDATION_FOLDER
+from slopescreen.maps.outputs.output_names import (
+    CELLS_SUFFIX,
+    SATURATION,
+    SCA,
+    SLOPE_DEG,
+    SOIL_UNIT,
+    TERRAIN_FOLDER,
+    VALIDATION_FOLDER,
+)
 from slopescreen.maps.outputs.summary import write_summary
 from slopescreen.maps.outputs.validation_plots import histogram_figure
 from slopescreen.maps.region.config import Scenario
@@ -45,12 +53,12 @@ def cell_inputs(done: FinishedRun, sc: Scenario, rows: np.ndarray, cols: np.ndar
     """Slope, SCA, saturation and soil parameters of the scenario at the cells; ``ok``
     marks cells with every value."""
     terrain = {
-        "slope_deg": done.verified("terrain/slope_deg.tif"),
-        "specific_catchment_area_m": done.verified("terrain/specific_catchment_area_m.tif"),
-        "saturation": done.verified(f"{sc.name}/saturation.tif"),
+        "slope_deg": done.verified(f"{TERRAIN_FOLDER}/{SLOPE_DEG}"),
+        "specific_catchment_area_m": done.verified(f"{TERRAIN_FOLDER}/{SCA}"),
+        "saturation": done.verified(f"{sc.name}/{SATURATION}"),
     }
     v = {k: read_at_cells(p, done.grid, rows, cols) for k, p in terrain.items()}
-    codes = read_at_cells(done.verified("terrain/soil_unit.tif"), done.grid, rows, cols)
+    codes = read_at_cells(done.verified(f"{TERRAIN_FOLDER}/{SOIL_UNIT}"), done.grid, rows, cols)
     ok = codes > 0
     for k in terrain:
         ok &= v[k] != NODATA_F32
@@ -113,7 +121,7 @@ def back_analyse(
     label = PARAMETERS[parameter]
     files = [
         write_summary(rounded, folder / f"{stem}.csv"),
-        write_summary(cells, folder / f"{stem}_cells.csv"),
+        write_summary(cells, folder / f"{stem}{CELLS_SUFFIX}"),
         histogram_figure(
             folder / f"{stem}.png",
             {keys[c - 1]: values[(codes == c) & np.isfinite(values)] for c in sorted(summary)},

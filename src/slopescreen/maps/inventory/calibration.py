@@ -30,7 +30,14 @@ from slopescreen.maps.inventory.reading import FEW_CELLS, Inventory
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.rasters import read_block, windows
 from slopescreen.maps.io.safe_writes import real_folder, write_text
-from slopescreen.maps.outputs.output_names import VALIDATION_FOLDER
+from slopescreen.maps.outputs.output_names import (
+    FS,
+    SATURATION,
+    SLOPE_DEG,
+    SOIL_UNIT,
+    TERRAIN_FOLDER,
+    VALIDATION_FOLDER,
+)
 from slopescreen.maps.region.config import Scenario
 from slopescreen.maps.region.runners import Runner, serial_runner
 from slopescreen.maps.region.scenario_tiles import fs_fast
@@ -148,7 +155,7 @@ def _landslides(done: FinishedRun, sc: Scenario, inv: Inventory) -> Landslides:
     from slopescreen.maps.io.rasters import read_at_cells
 
     v = cell_inputs(done, sc, inv.rows, inv.cols)
-    fs = read_at_cells(done.verified(f"{sc.name}/fs.tif"), done.grid, inv.rows, inv.cols)
+    fs = read_at_cells(done.verified(f"{sc.name}/{FS}"), done.grid, inv.rows, inv.cols)
     ok = v["ok"] & (fs != NODATA_F32)
     area = done.grid.ground.cell_area_at(inv.rows[ok], inv.cols[ok])
     return Landslides(
@@ -224,10 +231,10 @@ class Search:
         out_dir = self.done.out
         job = CalibrationJob(
             grid=grid,
-            fs=out_dir / self.sc.name / "fs.tif",
-            saturation=out_dir / self.sc.name / "saturation.tif",
-            slope_deg=out_dir / "terrain" / "slope_deg.tif",
-            codes=out_dir / "terrain" / "soil_unit.tif",
+            fs=out_dir / self.sc.name / FS,
+            saturation=out_dir / self.sc.name / SATURATION,
+            slope_deg=out_dir / TERRAIN_FOLDER / SLOPE_DEG,
+            codes=out_dir / TERRAIN_FOLDER / SOIL_UNIT,
             tables=tables,
             changed=changed,
             unit=unit,

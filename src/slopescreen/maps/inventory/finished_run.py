@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any
 from slopescreen.errors import InputError
 from slopescreen.maps.io.grid import Grid, read_grid
 from slopescreen.maps.io.safe_writes import file_sha256, write_text
+from slopescreen.maps.outputs.output_names import FS, MANIFEST, REPORT
 from slopescreen.maps.region.config import Config, InventorySpec, Scenario, load_config
 from slopescreen.maps.region.soils import SoilUnits, load_soils
 
@@ -41,7 +42,7 @@ class FinishedRun:
                 f"--scenario {name}: not a scenario of the run in {self.out}; scenarios: "
                 f"{', '.join(ran)}"
             )
-        self.verified(f"{name}/fs.tif")  # the scenario's result as the run wrote it
+        self.verified(f"{name}/{FS}")  # the scenario's result as the run wrote it
         return next(s for s in self.cfg.scenarios if s.name == name)
 
     def verified(self, relative: str) -> Path:
@@ -62,7 +63,7 @@ def open_run(config_path: Path, out: Path) -> FinishedRun:
     """The finished run in ``out`` of the scenario file ``config_path``; InputError if the
     run is missing, unfinished, or its inputs have changed since."""
     cfg = load_config(config_path)
-    target = out / "manifest.json"
+    target = out / MANIFEST
     try:
         manifest = json.loads(target.read_text(encoding="utf-8"))
     except FileNotFoundError:
@@ -114,11 +115,9 @@ def record_results(
         outputs[f.relative_to(run.out).as_posix()] = file_sha256(f)
     manifest["outputs"] = dict(sorted(outputs.items()))
     refresh_report(run.out, manifest)
-    if (run.out / "report.html").exists():
-        outputs["report.html"] = file_sha256(run.out / "report.html")
-    return write_text(
-        run.out / "manifest.json", json.dumps(manifest, indent=2, allow_nan=False) + "\n"
-    )
+    if (run.out / REPORT).exists():
+        outputs[REPORT] = file_sha256(run.out / REPORT)
+    return write_text(run.out / MANIFEST, json.dumps(manifest, indent=2, allow_nan=False) + "\n")
 
 
 def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
@@ -129,7 +128,7 @@ def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
         validation_section,
     )
 
-    report = out / "report.html"
+    report = out / REPORT
     if not report.exists():
         return
     text = report.read_text(encoding="utf-8")
@@ -154,8 +153,8 @@ def locked_run(
     from slopescreen.maps.io.clock import utc_now
     from slopescreen.maps.io.locks import folder_lock
 
-    if not (out / "manifest.json").is_file():
-        raise InputError(f"{out / 'manifest.json'}: no run here; run the scenario file first")
+    if not (out / MANIFEST).is_file():
+        raise InputError(f"{out / MANIFEST}: no run here; run the scenario file first")
     with folder_lock(out, f"PID {os.getpid()}, started {utc_now()}"):
         done = open_run(config_path, out)
         if not read:

@@ -12,6 +12,7 @@ from slopescreen.maps.inventory.reading import Inventory
 from slopescreen.maps.inventory.scoring import score_scenario
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.safe_writes import file_sha256
+from slopescreen.maps.outputs.output_names import INVENTORY_SCORES, SUCCESS_RATE, TERRAIN_FOLDER
 from slopescreen.maps.outputs.summary import write_summary
 from slopescreen.maps.outputs.validation_plots import success_rate_figure
 from slopescreen.maps.region.config import Config
@@ -27,7 +28,7 @@ RUN_COLUMNS = (
     "flagged_share",
     "captured_share",
 )
-SCENARIO_FILES = ("inventory_scores.csv", "success_rate.png")
+SCENARIO_FILES = (INVENTORY_SCORES, SUCCESS_RATE)
 
 
 def score_all(
@@ -52,7 +53,7 @@ def score_all(
             name,
             grid,
             folder,
-            out / "terrain",
+            out / TERRAIN_FOLDER,
             inv,
             unit_keys,
             names,
@@ -61,10 +62,10 @@ def score_all(
             cfg.fs_breaks,
             cfg.fs_cap,
         )
-        files.append(write_summary(score.density_rows, folder / "inventory_scores.csv"))
+        files.append(write_summary(score.density_rows, folder / INVENTORY_SCORES))
         files.append(
             success_rate_figure(
-                folder / "success_rate.png",
+                folder / SUCCESS_RATE,
                 score,
                 f"{cfg.region.name}: {name} against {inv.spec.path.name}",
                 inv.split_note,
@@ -82,7 +83,7 @@ def score_all(
     top = [{k: rec[k] for k in RUN_COLUMNS} for rec in records]
     files.append(
         write_summary(
-            [{k: _cell(v) for k, v in row.items()} for row in top], out / "inventory_scores.csv"
+            [{k: _cell(v) for k, v in row.items()} for row in top], out / INVENTORY_SCORES
         )
     )
     for w in warnings:

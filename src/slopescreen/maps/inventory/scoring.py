@@ -23,6 +23,7 @@ import numpy as np
 from slopescreen.maps.inventory.reading import FEW_CELLS, Inventory
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.rasters import read_block, windows
+from slopescreen.maps.outputs.output_names import FS, PROBABILITY, SOIL_UNIT, STABILITY_CLASS
 from slopescreen.maps.region.runners import Runner, serial_runner, threaded_runner
 from slopescreen.maps.region.terrain_cache import NODATA_F32
 from slopescreen.maps.region.tile_job import add_tile
@@ -211,13 +212,13 @@ def score_scenario(
 ) -> ScenarioScore:
     """Every score of one scenario folder against the inventory (``fs_breaks`` and
     ``fs_cap`` as the run used them)."""
-    pf_path = folder / "probability_of_failure.tif"
+    pf_path = folder / PROBABILITY
     base = ScoreJob(
         grid=grid,
-        fs=folder / "fs.tif",
+        fs=folder / FS,
         probability=pf_path if pf_path.exists() else None,
-        classes=folder / "stability_class.tif",
-        codes=terrain / "soil_unit.tif",
+        classes=folder / STABILITY_CLASS,
+        codes=terrain / SOIL_UNIT,
         thresholds={},
         split=inv.spec.split,
         block_cells=inv.block_cells,

@@ -20,7 +20,14 @@ from slopescreen.maps.inventory.backcalc import steady_only
 from slopescreen.maps.inventory.finished_run import FinishedRun
 from slopescreen.maps.io.rasters import windows
 from slopescreen.maps.io.safe_writes import real_folder
-from slopescreen.maps.outputs.output_names import VALIDATION_FOLDER
+from slopescreen.maps.outputs.output_names import (
+    SATURATION,
+    SCA,
+    SLOPE_DEG,
+    SOIL_UNIT,
+    TERRAIN_FOLDER,
+    VALIDATION_FOLDER,
+)
 from slopescreen.maps.outputs.summary import write_summary
 from slopescreen.maps.outputs.validation_plots import tornado_figure
 from slopescreen.maps.region.config import Scenario
@@ -105,10 +112,10 @@ def sensitivity(
                 how[(code, name)] = text
     job = SensitivityJob(
         grid=done.grid,
-        slope_deg=done.verified("terrain/slope_deg.tif"),
-        sca=done.verified("terrain/specific_catchment_area_m.tif"),
-        saturation=done.verified(f"{sc.name}/saturation.tif"),
-        codes=done.verified("terrain/soil_unit.tif"),
+        slope_deg=done.verified(f"{TERRAIN_FOLDER}/{SLOPE_DEG}"),
+        sca=done.verified(f"{TERRAIN_FOLDER}/{SCA}"),
+        saturation=done.verified(f"{sc.name}/{SATURATION}"),
+        codes=done.verified(f"{TERRAIN_FOLDER}/{SOIL_UNIT}"),
         tables=tables,
         ranges=ranges,
         recharge_mm_day=sc.recharge_mm_day,

@@ -132,3 +132,51 @@ def read_lab_tests(path: str | Path) -> LabTests:
                 f"{columns['sigma1_kpa'][i]:g} is below sigma3_kpa {s3[i]:g} (sigma1 >= sigma3)"
             )
     return LabTests(kind, labels, columns, lines)
+
+
+FIGURE_SUFFIXES = (".png", ".pdf", ".svg", ".jpg", ".jpeg")
+
+
+def check_figure_path(plot: Path) -> None:
+    """InputError unless the figure's name ends in a format the figure can be saved in."""
+    if plot.suffix.lower() not in FIGURE_SUFFIXES:
+        raise InputError(f"--plot {plot}: name the figure with one of {', '.join(FIGURE_SUFFIXES)}")
+
+
+def fit_file(path: Path, plot: Path | None = None):
+    """Read, fit and (optionally) plot one lab-test file."""
+    from slopescreen.envelope import fit_direct_shear, fit_envelope
+
+    if plot is not None:
+        check_figure_path(plot)
+    tests = read_lab_tests(path)
+    cols = tests.columns
+    if tests.kind == "triaxial":
+        u = cols.get("pore_pressure_kpa")
+        fit = fit_envelope(cols["sigma3_kpa"], cols["sigma1_kpa"], u)
+    else:
+        fit = fit_direct_shear(cols["normal_kpa"], cols["shear_kpa"])
+    if plot is not None:
+        if tests.kind == "triaxial":
+            from slopescreen.maps.outputs.mohr_plot import plot_mohr_circles
+
+            u = cols.get("pore_pressure_kpa", 0.0)
+            plot_mohr_circles(
+                cols["sigma3_kpa"] - u,
+                cols["sigma1_kpa"] - u,
+                fit,
+                plot,
+                tests.labels,
+                title=f"Mohr circles at failure: {path.name}",
+            )
+        else:
+            from slopescreen.maps.outputs.mohr_plot import plot_direct_shear
+
+            plot_direct_shear(
+                cols["normal_kpa"],
+                cols["shear_kpa"],
+                fit,
+                plot,
+                title=f"Direct-shear envelope: {path.name}",
+            )
+    return tests, fit

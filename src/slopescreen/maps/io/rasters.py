@@ -22,6 +22,7 @@ import numpy as np
 from slopescreen.errors import InputError
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.safe_writes import TEMP_PREFIX, real_folder
+from slopescreen.maps.outputs.output_names import ASSEMBLY_FILE
 
 BLOCK = 512
 
@@ -58,7 +59,7 @@ class RasterSink:
 
         self.target = Path(target)
         self.work = Path(tempfile.mkdtemp(prefix=TEMP_PREFIX, dir=real_folder(target.parent)))
-        self.tmp = self.work / "blocks.tif"
+        self.tmp = self.work / ASSEMBLY_FILE
         self.resampling = resampling
         self.dataset = rasterio.open(
             self.tmp,

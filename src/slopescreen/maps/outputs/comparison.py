@@ -21,7 +21,6 @@ from slopescreen.maps.outputs.quicklook import (
     relief_image,
 )
 
-FOLDER = "comparison"
 CHANGE_NAMES = ("less stable", "more stable", "same class")
 # hazard classes run from the most frequent: a lower class number is more frequent
 HAZARD_CHANGE_NAMES = ("more frequent", "less frequent", "same class")

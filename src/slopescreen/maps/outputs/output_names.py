@@ -4,101 +4,168 @@ README and the removal of stale files (standard library only, so ``--help`` stay
 
 from __future__ import annotations
 
-# the folder of the known-landslide checks, beside the scenario folders
+# folders a run writes beside the scenario folders, and its files across scenarios
+TERRAIN_FOLDER = "terrain"
+COMPARISON_FOLDER = "comparison"
 VALIDATION_FOLDER = "validation"
+REPORT = "report.html"
+MANIFEST = "manifest.json"
+INVENTORY_SCORES = "inventory_scores.csv"
+
+# terrain/ (cached by content); slope_tan.tif is the cache's own, not copied to the run
+SLOPE_DEG = "slope_deg.tif"
+SLOPE_TAN = "slope_tan.tif"
+SLOPE_ONE_SIDED = "slope_one_sided.tif"
+SCA = "specific_catchment_area_m.tif"
+CUT_OFF = "catchment_cut_off.tif"
+HILLSHADE = "hillshade.tif"
+SOIL_UNIT = "soil_unit.tif"
+SOIL_UNIT_MAP = "soil_unit.png"
+# what the terrain cache entry holds, and the part of it a run copies to OUT/terrain
+TERRAIN_CACHE = (SLOPE_DEG, SLOPE_TAN, SLOPE_ONE_SIDED, SCA, CUT_OFF, HILLSHADE)
+TERRAIN_COPIED = tuple(name for name in TERRAIN_CACHE if name != SLOPE_TAN)
+
+# <scenario>/
+FS = "fs.tif"
+SATURATION = "saturation.tif"
+RECHARGE = "critical_recharge_mm_day.tif"
+RECHARGE_MAP = "critical_recharge_mm_day.png"
+STABILITY_CLASS = "stability_class.tif"
+STABILITY_CLASS_MAP = "stability_class.png"
+SUMMARY = "summary.csv"
+LOW_MARGIN_ZONES = "low_margin_zones.gpkg"
+PROBABILITY = "probability_of_failure.tif"
+PROBABILITY_MAP = "probability_of_failure.png"
+RELIABILITY = "reliability_index.tif"
+STORM_FS_END = "storm_fs_end.tif"
+STORM_FS_LATER = "storm_fs_later.tif"
+STORM_FAILURE_DEPTH = "storm_failure_depth_m.tif"
+STORM_TIME_TO_FAILURE = "storm_time_to_failure_h.tif"
+STORM_TIME_TO_FAILURE_MAP = "storm_time_to_failure_h.png"
+RETURN_PERIOD = "triggering_return_period_yr.tif"
+RETURN_PERIOD_MAP = "triggering_return_period_yr.png"
+ANNUAL_PROBABILITY = "annual_failure_probability.tif"
+ANNUAL_PROBABILITY_SPREAD = "annual_failure_probability_with_spread.tif"
+HAZARD_CLASS = "hazard_class.tif"
+HAZARD_CLASS_MAP = "hazard_class.png"
+HAZARD_ZONES = "hazard_class_zones.gpkg"
+THRESHOLDS_MAP = "rainfall_thresholds.png"
+SUCCESS_RATE = "success_rate.png"
+
+# comparison/
+SIDE_BY_SIDE = "stability_classes.png"
+PAIR_HAZARD_SUFFIX = "_hazard.png"
+PAIR_RATIO_SUFFIX = "_return_period_ratio.tif"
+
+# validation/: back-analysed values per landslide cell end in this
+CELLS_SUFFIX = "_cells.csv"
+
+# the demo's own files: the region's lab tests and the Mohr figure of their fit
+DEMO_LAB_TESTS = "lab_tests.csv"
+DEMO_MOHR_FIGURE = "mohr_circles.png"
+# how the envelope command names its input in --help
+LAB_TESTS_PLACEHOLDER = "TESTS.csv"
+# the private file a raster is assembled in before it is copied to a COG
+ASSEMBLY_FILE = "blocks.tif"
+
+
+def intensity_name(duration_h: float) -> str:
+    """The raster of the critical intensity of one duration."""
+    return f"critical_intensity_{duration_h:g}h_mm_h.tif"
+
 
 # (file, written when, what it holds)
 TERRAIN_OUTPUTS: tuple[tuple[str, str, str], ...] = (
-    ("slope_deg.tif", "always", "slope angle on the ground (Horn 1981)"),
-    ("slope_one_sided.tif", "always", "1 where the slope comes from one-sided differences"),
-    ("specific_catchment_area_m.tif", "always", "D-infinity contributing area / contour width"),
-    ("catchment_cut_off.tif", "always", "1 where part of the upslope area is beyond the DEM"),
-    ("hillshade.tif", "always", "relief for the maps"),
-    ("soil_unit.tif", "always", "soil-unit codes, named in the metadata"),
-    ("soil_unit.png", "maps on", "map of the soil units"),
+    (SLOPE_DEG, "always", "slope angle on the ground (Horn 1981)"),
+    (SLOPE_ONE_SIDED, "always", "1 where the slope comes from one-sided differences"),
+    (SCA, "always", "D-infinity contributing area / contour width"),
+    (CUT_OFF, "always", "1 where part of the upslope area is beyond the DEM"),
+    (HILLSHADE, "always", "relief for the maps"),
+    (SOIL_UNIT, "always", "soil-unit codes, named in the metadata"),
+    (SOIL_UNIT_MAP, "maps on", "map of the soil units"),
 )
 SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
-    ("fs.tif", "always", "factor of safety (capped at fs_cap)"),
-    ("saturation.tif", "always", "saturation ratio m"),
-    ("critical_recharge_mm_day.tif", "always", "steady recharge bringing FS to 1; codes -1, -2"),
-    ("stability_class.tif", "always", "FS classes 1 (least stable) to n, colour table"),
-    ("summary.csv", "always", "ground hectares per class and soil unit"),
-    ("low_margin_zones.gpkg", "zones on", "polygons of the two least stable classes"),
-    ("stability_class.png", "maps on", "map of the FS classes"),
-    ("critical_recharge_mm_day.png", "maps on", "map of the critical recharge"),
-    ("probability_of_failure.tif", "spreads given", "P(FS < 1) from parameter spread"),
-    ("reliability_index.tif", "spreads given", "reliability index beta"),
-    ("probability_of_failure.png", "spreads given, maps on", "map of the probability classes"),
-    ("storm_fs_end.tif", "storm", "lowest FS over depth at the end of the storm"),
-    ("storm_fs_later.tif", "storm", "lowest FS over depth at later_h"),
-    ("storm_failure_depth_m.tif", "storm", "depth of the lowest FS"),
+    (FS, "always", "factor of safety (capped at fs_cap)"),
+    (SATURATION, "always", "saturation ratio m"),
+    (RECHARGE, "always", "steady recharge bringing FS to 1; codes -1, -2"),
+    (STABILITY_CLASS, "always", "FS classes 1 (least stable) to n, colour table"),
+    (SUMMARY, "always", "ground hectares per class and soil unit"),
+    (LOW_MARGIN_ZONES, "zones on", "polygons of the two least stable classes"),
+    (STABILITY_CLASS_MAP, "maps on", "map of the FS classes"),
+    (RECHARGE_MAP, "maps on", "map of the critical recharge"),
+    (PROBABILITY, "spreads given", "P(FS < 1) from parameter spread"),
+    (RELIABILITY, "spreads given", "reliability index beta"),
+    (PROBABILITY_MAP, "spreads given, maps on", "map of the probability classes"),
+    (STORM_FS_END, "storm", "lowest FS over depth at the end of the storm"),
+    (STORM_FS_LATER, "storm", "lowest FS over depth at later_h"),
+    (STORM_FAILURE_DEPTH, "storm", "depth of the lowest FS"),
     (
-        "storm_time_to_failure_h.tif",
+        STORM_TIME_TO_FAILURE,
         "storm",
         "hours until FS first falls below 1; -1 never, -2 before the storm",
     ),
-    ("storm_time_to_failure_h.png", "storm, maps on", "map of the time to failure"),
+    (STORM_TIME_TO_FAILURE_MAP, "storm, maps on", "map of the time to failure"),
     (
         "critical_intensity_<D>h_mm_h.tif",
         "rainfall",
         "rain intensity of a D-hour storm bringing FS to 1; codes -1, -2",
     ),
-    ("triggering_return_period_yr.tif", "rainfall", "return period of the rain starting failure"),
-    ("annual_failure_probability.tif", "rainfall", "1 - exp(-1/T): how often, per year"),
+    (RETURN_PERIOD, "rainfall", "return period of the rain starting failure"),
+    (ANNUAL_PROBABILITY, "rainfall", "1 - exp(-1/T): how often, per year"),
     (
-        "annual_failure_probability_with_spread.tif",
+        ANNUAL_PROBABILITY_SPREAD,
         "rainfall, soil spreads",
         "annual probability with rainfall frequency and soil spreads together",
     ),
-    ("hazard_class.tif", "rainfall", "classes by annual probability, colour table"),
-    ("hazard_class.png", "rainfall, maps on", "map of the hazard classes"),
+    (HAZARD_CLASS, "rainfall", "classes by annual probability, colour table"),
+    (HAZARD_CLASS_MAP, "rainfall, maps on", "map of the hazard classes"),
     (
-        "hazard_class_zones.gpkg",
+        HAZARD_ZONES,
         "rainfall, zones on",
         "polygons of the two most frequent hazard classes",
     ),
-    ("triggering_return_period_yr.png", "rainfall, maps on", "map of the return period"),
-    ("rainfall_thresholds.png", "rainfall, maps on", "critical intensity-duration per unit"),
-    ("inventory_scores.csv", "inventory given", "landslide density and frequency ratio"),
-    ("success_rate.png", "inventory given", "success and prediction rates with AUC"),
+    (RETURN_PERIOD_MAP, "rainfall, maps on", "map of the return period"),
+    (THRESHOLDS_MAP, "rainfall, maps on", "critical intensity-duration per unit"),
+    (INVENTORY_SCORES, "inventory given", "landslide density and frequency ratio"),
+    (SUCCESS_RATE, "inventory given", "success and prediction rates with AUC"),
 )
 RUN_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     (
-        "comparison/stability_classes.png",
+        f"{COMPARISON_FOLDER}/{SIDE_BY_SIDE}",
         "report on, maps on, 2+ scenarios",
         "class maps side by side",
     ),
     (
-        "comparison/FIRST_vs_SECOND.png",
+        f"{COMPARISON_FOLDER}/FIRST_vs_SECOND.png",
         "report on, maps on, [comparison] pairs",
         "class-change map",
     ),
     (
-        "comparison/FIRST_vs_SECOND_hazard.png",
+        f"{COMPARISON_FOLDER}/FIRST_vs_SECOND{PAIR_HAZARD_SUFFIX}",
         "report on, maps on, [comparison] pairs of rainfall scenarios",
         "hazard-class change map",
     ),
     (
-        "comparison/FIRST_vs_SECOND_return_period_ratio.tif",
+        f"{COMPARISON_FOLDER}/FIRST_vs_SECOND{PAIR_RATIO_SUFFIX}",
         "report on, [comparison] pairs of rainfall scenarios",
         "triggering return period of SECOND over FIRST's (and a .png map)",
     ),
-    ("inventory_scores.csv", "inventory given", "one row of scores per scenario"),
+    (INVENTORY_SCORES, "inventory given", "one row of scores per scenario"),
     (
-        "validation/",
+        f"{VALIDATION_FOLDER}/",
         "score, backcalc, calibrate, sensitivity",
         "back-analysis, calibration and sensitivity tables and figures",
     ),
-    ("report.html", "report on", "the self-contained report"),
-    ("manifest.json", "always", "the run's state, inputs, parameters and output hashes"),
+    (REPORT, "report on", "the self-contained report"),
+    (MANIFEST, "always", "the run's state, inputs, parameters and output hashes"),
 )
 # names of the release before 0.2: removed from a scenario folder where found
-LEGACY_SCENARIO_FILES = ("hazard_class.tif", "hazard_zones.gpkg", "map.png")
+LEGACY_SCENARIO_FILES = (HAZARD_CLASS, "hazard_zones.gpkg", "map.png")
 
 
 def listing(indent: str = "  ") -> str:
     """Every output as text lines, for --help and check."""
-    lines = ["terrain/ (cached by content):"]
+    lines = [f"{TERRAIN_FOLDER}/ (cached by content):"]
     lines += [f"{indent}{f:34} {w:24} {d}" for f, w, d in TERRAIN_OUTPUTS]
     lines.append("<scenario>/ (one folder per scenario):")
     lines += [f"{indent}{f:34} {w:24} {d}" for f, w, d in SCENARIO_OUTPUTS]

@@ -17,7 +17,6 @@ from pathlib import Path
 from slopescreen.cautions import CAUTIONS
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.safe_writes import write_text
-from slopescreen.maps.outputs.comparison import FOLDER as COMPARISON_FOLDER
 from slopescreen.maps.outputs.comparison import ClassChange
 from slopescreen.maps.outputs.html_parts import (
     EMPTY,
@@ -26,6 +25,7 @@ from slopescreen.maps.outputs.html_parts import (
     esc,
     num,
 )
+from slopescreen.maps.outputs.output_names import COMPARISON_FOLDER
 from slopescreen.maps.region.config import SOIL_FIELDS, Config
 from slopescreen.maps.region.scenario_run import ScenarioSummary
 from slopescreen.maps.region.soils import SoilUnits
@@ -248,7 +248,7 @@ def _soil_table(cfg: Config, soils: SoilUnits) -> str:
 
 
 def _lab_fits(cfg: Config, soils: SoilUnits, extras: Extras, work: Path) -> list[str]:
-    from slopescreen.cli.cmd_envelope import fit_file
+    from slopescreen.maps.io.labtests import fit_file
 
     parts = []
     fits: list[tuple[str, Path, object, Path]] = []

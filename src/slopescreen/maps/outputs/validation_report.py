@@ -8,6 +8,7 @@ from pathlib import Path
 from typing import Any
 
 from slopescreen.maps.outputs.html_parts import boxed_table, embedded_image, esc, num
+from slopescreen.maps.outputs.output_names import SUCCESS_RATE
 
 # where the section stands in report.html, so a later command can rewrite it in place
 SECTION_START = "<!-- slopescreen:validation -->"
@@ -74,7 +75,7 @@ def _scores(inv: dict[str, Any], out: Path) -> list[str]:
     for r in inv["scenarios"]:
         name = r["scenario"]
         parts.append(f"<h3>{esc(name)}: success and prediction rates</h3>")
-        parts.append(embedded_image(out / name / "success_rate.png", f"success rate of {name}"))
+        parts.append(embedded_image(out / name / SUCCESS_RATE, f"success rate of {name}"))
         density = [d for d in r["density"] if d["soil_unit"] == "all"]
         parts.append(
             "<p>Landslide density by class (each landslide counted once, in the class of its "

@@ -43,6 +43,14 @@ from typing import Any
 from slopescreen._checks import checked
 from slopescreen.errors import InputError
 from slopescreen.maps.io.textfiles import read_text
+from slopescreen.maps.outputs.output_names import (
+    COMPARISON_FOLDER,
+    INVENTORY_SCORES,
+    MANIFEST,
+    REPORT,
+    TERRAIN_FOLDER,
+    VALIDATION_FOLDER,
+)
 from slopescreen.maps.region.scenario_schema import (
     SCHEMA,
     allowed,
@@ -85,7 +93,7 @@ RELIABILITY_METHODS = ("taylor", "monte_carlo")
 _NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
 # names the run gives to its own files and folders beside the scenario folders
 RESERVED_NAMES = frozenset(
-    {"terrain", "comparison", "validation", "report.html", "manifest.json", "inventory_scores.csv"}
+    {TERRAIN_FOLDER, COMPARISON_FOLDER, VALIDATION_FOLDER, REPORT, MANIFEST, INVENTORY_SCORES}
 )
 
 

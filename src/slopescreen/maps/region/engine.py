@@ -39,7 +39,6 @@ from slopescreen.maps.io.clock import utc_now
 from slopescreen.maps.io.grid import Grid, dem_files_sha256, read_elevations, read_grid
 from slopescreen.maps.io.locks import folder_lock
 from slopescreen.maps.io.rasters import RasterSink, all_or_nothing, read_on_grid
-from slopescreen.maps.outputs.comparison import FOLDER as COMPARISON_FOLDER
 from slopescreen.maps.outputs.comparison import ClassChange
 from slopescreen.maps.outputs.report import Extras, RunFacts, write_report
 from slopescreen.maps.region.config import Config, Scenario, load_config
@@ -58,19 +57,29 @@ from slopescreen.maps.io.safe_writes import (
     remove_stale_work,
     write_text,
 )
+from slopescreen.maps.outputs.output_names import (
+    COMPARISON_FOLDER,
+    HAZARD_CLASS,
+    HILLSHADE,
+    INVENTORY_SCORES,
+    MANIFEST,
+    PAIR_HAZARD_SUFFIX,
+    PAIR_RATIO_SUFFIX,
+    REPORT,
+    RETURN_PERIOD,
+    SIDE_BY_SIDE,
+    SOIL_UNIT,
+    SOIL_UNIT_MAP,
+    STABILITY_CLASS,
+    TERRAIN_COPIED,
+    TERRAIN_FOLDER,
+)
 from slopescreen.maps.outputs.validation_report import validation_section
 from slopescreen.maps.region.terrain_cache import cache_key, terrain_products
 from slopescreen.stability_classes import class_names as stability_class_names
 
 Echo = Callable[[str], None]
 _SCHEDULER = re.compile(r"[a-z][a-z0-9+.-]*://[A-Za-z0-9_.\-\[\]:]+:[0-9]{1,5}")
-TERRAIN_FILES = (
-    "slope_deg.tif",
-    "slope_one_sided.tif",
-    "specific_catchment_area_m.tif",
-    "catchment_cut_off.tif",
-    "hillshade.tif",
-)
 
 
 @dataclass
@@ -242,7 +251,7 @@ def _check_elevations(
         )
 
 
-RUN_FILES = ("manifest.json", "report.html")  # rewritten by every run
+RUN_FILES = (MANIFEST, REPORT)  # rewritten by every run
 
 
 @contextlib.contextmanager
@@ -325,7 +334,7 @@ def run(
     if cache.exists() and not cache.is_dir():
         raise InputError(f"{cache}: the cache must be a folder, found a file")
     real_folder(out)
-    subfolders = ["terrain", COMPARISON_FOLDER, *(s.name for s in chosen)]
+    subfolders = [TERRAIN_FOLDER, COMPARISON_FOLDER, *(s.name for s in chosen)]
     _check_subfolders(out, subfolders if cache_dir is not None else [*subfolders, ".cache"])
     with folder_lock(out, f"PID {os.getpid()}, started {state.started_utc}"):
         remove_stale_work(out, skip=cache.resolve())
@@ -334,17 +343,17 @@ def run(
             tile_runner(workers, scheduler, echo) as (runner, numba_threads),
             contextlib.ExitStack() as stack,
         ):
-            inputs = prepare(cfg, codes_target=staging / "soil_unit.tif")
+            inputs = prepare(cfg, codes_target=staging / SOIL_UNIT)
             timings.add("read and check inputs", started)
             # nothing in the output folder has changed so far; from here on it says its state,
             # and a failure puts the previous run's outputs back (_previous_restored_on_failure)
             stack.enter_context(_previous_restored_on_failure(out, subfolders, staging))
             state.missing = [s.name for s in chosen]
             write_state(out, cfg, inputs, chosen, timings, state)
-            if cfg.report or (out / "report.html").exists():
-                write_text(out / "report.html", _unfinished_report(cfg, state))
-            os.replace(staging / "soil_unit.tif", real_folder(out / "terrain") / "soil_unit.tif")
-            state.outputs.append("terrain/soil_unit.tif")
+            if cfg.report or (out / REPORT).exists():
+                write_text(out / REPORT, _unfinished_report(cfg, state))
+            os.replace(staging / SOIL_UNIT, real_folder(out / TERRAIN_FOLDER) / SOIL_UNIT)
+            state.outputs.append(f"{TERRAIN_FOLDER}/{SOIL_UNIT}")
             steps = _Steps(timings, state, echo, progress, runner, numba_threads)
             _terrain_and_scenarios(cfg, inputs, chosen, out, cache, steps)
             _known_landslides(cfg, inputs, out, steps)
@@ -361,7 +370,7 @@ def run(
                     void_note(inputs.voids),
                 )
                 write_report(
-                    out / "report.html",
+                    out / REPORT,
                     cfg,
                     inputs.grid,
                     inputs.soils,
@@ -373,14 +382,14 @@ def run(
                     extras,
                     validation_section(state.validation, out),
                 )
-                state.outputs.append("report.html")
+                state.outputs.append(REPORT)
             else:
-                (out / "report.html").unlink(missing_ok=True)
+                (out / REPORT).unlink(missing_ok=True)
                 shutil.rmtree(out / COMPARISON_FOLDER, ignore_errors=True)
             timings.add("report", started)
             state.complete = True
             target = write_state(out, cfg, inputs, chosen, timings, state)
-    echo(f"report: {out / 'report.html'}; manifest: {target}")
+    echo(f"report: {out / REPORT}; manifest: {target}")
     return target
 
 
@@ -398,10 +407,10 @@ def _comparison(
     small = None
     if len(ran) > 1 and cfg.quicklook_map:
         small = draw_small_multiples(
-            folder / "stability_classes.png",
+            folder / SIDE_BY_SIDE,
             grid,
-            out / "terrain" / "hillshade.tif",
-            [(n, out / n / "stability_class.tif") for n in ran],
+            out / TERRAIN_FOLDER / HILLSHADE,
+            [(n, out / n / STABILITY_CLASS) for n in ran],
             names,
             f"{cfg.region.name}: factor-of-safety classes by scenario",
         )
@@ -413,8 +422,8 @@ def _comparison(
         frame = _change_frame(cfg, grid, out, first, second, "where the class changes")
         step_map, areas = class_change(
             grid,
-            out / first / "stability_class.tif",
-            out / second / "stability_class.tif",
+            out / first / STABILITY_CLASS,
+            out / second / STABILITY_CLASS,
             frame.step,
         )
         png = None
@@ -422,7 +431,7 @@ def _comparison(
             png = draw_change(folder / f"{first}_vs_{second}.png", frame, step_map, first, second)
             written.append(png)
         changes.append(ClassChange(first, second, areas, png))
-        hazard = [out / name / "hazard_class.tif" for name in (first, second)]
+        hazard = [out / name / HAZARD_CLASS for name in (first, second)]
         if all(path in written_rasters(state, out) for path in hazard):
             changes.append(_hazard_change(cfg, grid, out, first, second, folder, written))
     for stale in set(folder.iterdir()) - set(written):
@@ -438,7 +447,7 @@ def _known_landslides(cfg: Config, inputs: Inputs, out: Path, steps: _Steps) -> 
     from slopescreen.maps.outputs.output_names import VALIDATION_FOLDER
 
     shutil.rmtree(out / VALIDATION_FOLDER, ignore_errors=True)
-    (out / "inventory_scores.csv").unlink(missing_ok=True)
+    (out / INVENTORY_SCORES).unlink(missing_ok=True)
     if inputs.inventory is None:
         return
     from slopescreen.maps.inventory.score_files import score_all
@@ -472,10 +481,10 @@ def _change_frame(
 
     return MapFrame(  # the title short (it does not wrap), the scenarios below it
         grid,
-        out / "terrain" / "hillshade.tif",
+        out / TERRAIN_FOLDER / HILLSHADE,
         f"{cfg.region.name}: {what}",
         f"first {first}: {_loads(cfg, first)}\nsecond {second}: {_loads(cfg, second)}",
-        soil_codes=out / "terrain" / "soil_unit.tif",
+        soil_codes=out / TERRAIN_FOLDER / SOIL_UNIT,
     )
 
 
@@ -500,12 +509,12 @@ def _hazard_change(
 
     frame = _change_frame(cfg, grid, out, first, second, "where the hazard class changes")
     step_map, areas = class_change(
-        grid, out / first / "hazard_class.tif", out / second / "hazard_class.tif", frame.step
+        grid, out / first / HAZARD_CLASS, out / second / HAZARD_CLASS, frame.step
     )
     png = None
     if cfg.quicklook_map:
         png = draw_change(
-            folder / f"{first}_vs_{second}_hazard.png",
+            folder / f"{first}_vs_{second}{PAIR_HAZARD_SUFFIX}",
             frame,
             step_map,
             first,
@@ -513,8 +522,8 @@ def _hazard_change(
             HAZARD_CHANGE_NAMES,
         )
         written.append(png)
-    periods = [out / name / "triggering_return_period_yr.tif" for name in (first, second)]
-    target = folder / f"{first}_vs_{second}_return_period_ratio.tif"
+    periods = [out / name / RETURN_PERIOD for name in (first, second)]
+    target = folder / f"{first}_vs_{second}{PAIR_RATIO_SUFFIX}"
     tags = {
         "slopescreen_version": __version__,
         "units": f"triggering return period in {second} / in {first} (below 1: more frequent)",
@@ -568,7 +577,7 @@ def _terrain_and_scenarios(
     manifest is rewritten after each."""
     timings, state, echo, progress = steps.timings, steps.state, steps.echo, steps.progress
     grid, soils = inputs.grid, inputs.soils
-    terrain_dir = out / "terrain"
+    terrain_dir = out / TERRAIN_FOLDER
     echo(f"region {cfg.region.name}: {grid.width} x {grid.height} cells, {grid.spacing_note}")
     echo(f"DEM: {void_note(inputs.voids)}")
     for w in soils.warnings:
@@ -578,7 +587,7 @@ def _terrain_and_scenarios(
     folder, reused = terrain_products(
         grid, cfg.region.dem_elevation_unit, key, cache, __version__, echo, steps.runner
     )
-    for name in TERRAIN_FILES:
+    for name in TERRAIN_COPIED:
         if not copy_verified(folder / name, terrain_dir / name, recorded_sha256(folder, name)):
             raise InputError(f"{folder / name}: cache file changed while in use; run again")
         state.outputs.append(f"terrain/{name}")
@@ -596,9 +605,9 @@ def _terrain_and_scenarios(
     }
     if cfg.quicklook_map:
         _soil_unit_map(cfg, grid, soils, terrain_dir)
-        state.outputs.append("terrain/soil_unit.png")
+        state.outputs.append(f"{TERRAIN_FOLDER}/{SOIL_UNIT_MAP}")
     else:
-        (terrain_dir / "soil_unit.png").unlink(missing_ok=True)
+        (terrain_dir / SOIL_UNIT_MAP).unlink(missing_ok=True)
     timings.add("terrain (cached)" if reused else "terrain", started)
     echo(f"terrain: {'reused from cache (verified)' if reused else 'computed'} ({folder})")
 
@@ -643,15 +652,15 @@ def _soil_unit_map(cfg: Config, grid: Grid, soils: SoilUnits, terrain_dir: Path)
 
     frame = MapFrame(
         grid,
-        terrain_dir / "hillshade.tif",
+        terrain_dir / HILLSHADE,
         f"{cfg.region.name}: soil units",
         f"from {cfg.region.soil_units.name}, field {cfg.region.soil_unit_field}",
-        soil_codes=terrain_dir / "soil_unit.tif",
+        soil_codes=terrain_dir / SOIL_UNIT,
     )
     return draw_classes(
-        terrain_dir / "soil_unit.png",
+        terrain_dir / SOIL_UNIT_MAP,
         frame,
-        read_for_map(terrain_dir / "soil_unit.tif", frame),
+        read_for_map(terrain_dir / SOIL_UNIT, frame),
         list(soils.keys),
         "soil unit",
         "no soil unit, or no DEM data",
@@ -729,7 +738,7 @@ def write_state(
         "command": state.command,
         "scenarios_finished": state.finished,
         "scenarios_missing": state.missing,
-        "report": "written" if "report.html" in state.outputs else "not written",
+        "report": "written" if REPORT in state.outputs else "not written",
         "python": platform.python_version(),
         "packages": {
             "numpy": np.__version__,
@@ -770,4 +779,4 @@ def write_state(
         **state.validation,
     }
     text = json.dumps(manifest, indent=2, allow_nan=False) + "\n"
-    return write_text(out / "manifest.json", text)
+    return write_text(out / MANIFEST, text)

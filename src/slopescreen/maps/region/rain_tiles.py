@@ -10,15 +10,11 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from slopescreen.maps.io.rasters import read_block
+from slopescreen.maps.outputs.output_names import intensity_name
 from slopescreen.maps.region.config import RainfallFrequency
 
 if TYPE_CHECKING:
     from slopescreen.maps.region.tile_job import TileJob
-
-
-def intensity_name(duration_h: float) -> str:
-    """The raster of the critical intensity of one duration."""
-    return f"critical_intensity_{duration_h:g}h_mm_h.tif"
 
 
 def rainfall_tile(

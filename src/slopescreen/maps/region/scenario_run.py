@@ -17,11 +17,43 @@ from slopescreen import __version__
 from slopescreen.maps.io.cache import building, content_key, usable_entry
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.rasters import RasterSink, all_or_nothing, windows
-from slopescreen.maps.outputs.output_names import LEGACY_SCENARIO_FILES, SCENARIO_OUTPUTS
+from slopescreen.maps.outputs.output_names import (
+    ANNUAL_PROBABILITY,
+    ANNUAL_PROBABILITY_SPREAD,
+    CUT_OFF,
+    FS,
+    HAZARD_CLASS,
+    HAZARD_CLASS_MAP,
+    HAZARD_ZONES,
+    HILLSHADE,
+    LEGACY_SCENARIO_FILES,
+    LOW_MARGIN_ZONES,
+    PROBABILITY,
+    PROBABILITY_MAP,
+    RECHARGE,
+    RELIABILITY,
+    RETURN_PERIOD,
+    RETURN_PERIOD_MAP,
+    SATURATION,
+    SCA,
+    SCENARIO_OUTPUTS,
+    SLOPE_DEG,
+    SLOPE_TAN,
+    SOIL_UNIT,
+    STABILITY_CLASS,
+    STABILITY_CLASS_MAP,
+    STORM_FAILURE_DEPTH,
+    STORM_FS_END,
+    STORM_FS_LATER,
+    STORM_TIME_TO_FAILURE,
+    STORM_TIME_TO_FAILURE_MAP,
+    SUMMARY,
+    THRESHOLDS_MAP,
+    intensity_name,
+)
 from slopescreen.maps.outputs.summary import summary_rows, write_summary
 from slopescreen.maps.region.config import Config, Scenario
 from slopescreen.maps.region.intensity_tables import table_settings, tables_for, unit_cells
-from slopescreen.maps.region.rain_tiles import intensity_name
 from slopescreen.maps.region.runners import Runner, serial_runner
 from slopescreen.maps.region.scenario_tiles import BETA_CAP, compute_tile
 from slopescreen.maps.region.soils import SoilUnits
@@ -31,8 +63,6 @@ from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
 from slopescreen.stability_classes import PF_CLASS_NAMES
 from slopescreen.storm import FAILS_BEFORE_STORM, NOT_BY_LATER
 
-RECHARGE = "critical_recharge_mm_day.tif"
-HAZARD_ZONES = "hazard_class_zones.gpkg"
 # every file a scenario folder can hold; those a run does not write are removed from it
 SCENARIO_FILES = (*(f for f, _, _ in SCENARIO_OUTPUTS), *LEGACY_SCENARIO_FILES)
 
@@ -90,7 +120,7 @@ def _sinks(
 
     sinks = {
         "fs": f32(
-            "fs.tif",
+            FS,
             units="factor of safety (dimensionless)",
             fs_cap=f"{cfg.fs_cap:g}",
             fs_cap_note=f"FS above {cfg.fs_cap:g}, including flat ground with no driving "
@@ -105,9 +135,9 @@ def _sinks(
                 else {}
             ),
         ),
-        "saturation": f32("saturation.tif", units="saturation ratio m = h_w / z"),
+        "saturation": f32(SATURATION, units="saturation ratio m = h_w / z"),
         "classes": RasterSink(
-            out / "stability_class.tif",
+            out / STABILITY_CLASS,
             grid,
             "uint8",
             0,
@@ -121,21 +151,21 @@ def _sinks(
     sinks["recharge"] = f32(RECHARGE, **recharge_tags(sc))
     if sc.storm is not None:
         sinks["storm_fs_end"] = f32(
-            "storm_fs_end.tif",
+            STORM_FS_END,
             units="minimum FS over depth",
             when=f"at the end of the storm, {sc.storm.duration_h:g} h after it began",
         )
         sinks["storm_fs_later"] = f32(
-            "storm_fs_later.tif",
+            STORM_FS_LATER,
             units="minimum FS over depth",
             when=f"{sc.storm.later_h:g} h after the storm began",
         )
         sinks["storm_failure_depth"] = f32(
-            "storm_failure_depth_m.tif",
+            STORM_FAILURE_DEPTH,
             units="m, vertical depth of the minimum FS over depth and time (fs.tif)",
         )
         sinks["storm_time_to_failure"] = f32(
-            "storm_time_to_failure_h.tif",
+            STORM_TIME_TO_FAILURE,
             units="hours from the start of the storm until FS first drops below 1",
             code_no_failure=f"{NOT_BY_LATER:g} (FS stays >= 1 up to {sc.storm.later_h:g} h)",
             code_fails_before=f"{FAILS_BEFORE_STORM:g} (FS < 1 before the storm begins)",
@@ -146,11 +176,9 @@ def _sinks(
         sinks |= rainfall_sinks(cfg, sc, grid, out, base, with_probability)
     if with_probability:
         conventions = probability_conventions(cfg, sc)
-        sinks["probability"] = f32(
-            "probability_of_failure.tif", units="P(FS < 1), 0 to 1", **conventions
-        )
+        sinks["probability"] = f32(PROBABILITY, units="P(FS < 1), 0 to 1", **conventions)
         sinks["reliability"] = f32(
-            "reliability_index.tif",
+            RELIABILITY,
             units="reliability index beta",
             cap=f"stored within +-{BETA_CAP:g}",
             **conventions,
@@ -216,13 +244,13 @@ def rainfall_sinks(
         "min_slip_depth_m": f"{sc.rainfall.min_slip_depth_m:g}",
     }
     sinks["return_period"] = f32(
-        "triggering_return_period_yr.tif",
+        RETURN_PERIOD,
         units="years: the most frequent tabulated storm (any duration) that starts failure",
         **period_codes,
         **frequency,
     )
     sinks["annual_probability"] = f32(
-        "annual_failure_probability.tif",
+        ANNUAL_PROBABILITY,
         units=("p = 1 - exp(-1/T)" if table.series == "partial_duration" else "p = 1/T")
         + " per year",
         more_frequent="the shortest tabulated period's p (a lower bound)",
@@ -238,14 +266,14 @@ def rainfall_sinks(
             f"{cfg.reliability.fs_distribution}, summed over {rf.BANDS} bands of storm level"
         )
         sinks["annual_probability_spread"] = f32(
-            "annual_failure_probability_with_spread.tif",
+            ANNUAL_PROBABILITY_SPREAD,
             units="per year: rainfall frequency and soil spreads together",
             method=how,
             storms="a year's storms of every duration at one return-period level",
             **frequency,
         )
     sinks["hazard_classes"] = RasterSink(
-        out / "hazard_class.tif",
+        out / HAZARD_CLASS,
         grid,
         "uint8",
         0,
@@ -368,11 +396,11 @@ def run_scenario(
         tables=units.parameters,
         spreads={code: units.unit_spreads(code) for code in units.spreads},
         correlations=units.correlations,
-        slope_deg=terrain_dir / "slope_deg.tif",
-        slope_tan=terrain_cache / "slope_tan.tif",
-        sca=terrain_dir / "specific_catchment_area_m.tif",
-        codes=terrain_dir / "soil_unit.tif",
-        cut_off=terrain_dir / "catchment_cut_off.tif",
+        slope_deg=terrain_dir / SLOPE_DEG,
+        slope_tan=terrain_cache / SLOPE_TAN,
+        sca=terrain_dir / SCA,
+        codes=terrain_dir / SOIL_UNIT,
+        cut_off=terrain_dir / CUT_OFF,
         recharge_cache=recharge_file,
         fs_breaks=cfg.fs_breaks,
         fs_cap=cfg.fs_cap,
@@ -465,31 +493,31 @@ def run_scenario(
             "annual_failure_probability_with_spread",
         )
         spread_areas = [float(a) / 10_000.0 for a in spread_table[1:, 1:].sum(axis=0)]
-    write_summary(rows_out, out / "summary.csv")
+    write_summary(rows_out, out / SUMMARY)
     largest: list[dict[str, object]] = []
     if cfg.zones:
         zones = low_margin_zones(
-            out / "stability_class.tif",
+            out / STABILITY_CLASS,
             job.codes,
             grid,
             units.keys,
             names,
             cfg.min_zone_area_m2,
             sc.name,
-            terrain_dir / "slope_deg.tif",
+            terrain_dir / SLOPE_DEG,
         )
-        write_zones(zones, out / "low_margin_zones.gpkg")
+        write_zones(zones, out / LOW_MARGIN_ZONES)
         largest = largest_zones(zones)
         if hazard_areas is not None:  # the two most frequent hazard classes, the same way
             hazard_zones = low_margin_zones(
-                out / "hazard_class.tif",
+                out / HAZARD_CLASS,
                 job.codes,
                 grid,
                 units.keys,
                 hazard_names,
                 cfg.min_zone_area_m2,
                 sc.name,
-                terrain_dir / "slope_deg.tif",
+                terrain_dir / SLOPE_DEG,
             ).rename(columns={"stability_class": "hazard_class"})
             write_zones(hazard_zones, out / HAZARD_ZONES)
     unit_areas = table[1:, 1:] / 10_000.0
@@ -500,10 +528,10 @@ def run_scenario(
             maps |= draw_rainfall_maps(cfg, sc, grid, units.keys, terrain_dir, out, hazard_areas)
             maps["rainfall thresholds"] = draw_thresholds(cfg, sc, grid, units, terrain_dir, out)
     areas = [float(a) / 10_000.0 for a in table[1:, 1:].sum(axis=0)]
-    written = {s.target.name for s in sinks.values()} | {"summary.csv"}
+    written = {s.target.name for s in sinks.values()} | {SUMMARY}
     written |= {p.name for p in maps.values()}
     if cfg.zones:
-        written.add("low_margin_zones.gpkg")
+        written.add(LOW_MARGIN_ZONES)
         if hazard_areas is not None:
             written.add(HAZARD_ZONES)
     for stale in set(SCENARIO_FILES) - written:  # left by an earlier run of another config
@@ -574,30 +602,30 @@ def draw_scenario_maps(
     def frame(what: str, inset: bool = False) -> MapFrame:
         return MapFrame(
             grid,
-            terrain_dir / "hillshade.tif",
+            terrain_dir / HILLSHADE,
             f"{region}: {what}",
             f"scenario {sc.name}: {sc.loads}",
-            soil_codes=terrain_dir / "soil_unit.tif",
-            zones=out / "low_margin_zones.gpkg" if cfg.zones else None,
+            soil_codes=terrain_dir / SOIL_UNIT,
+            zones=out / LOW_MARGIN_ZONES if cfg.zones else None,
             inset=(unit_keys, unit_areas) if inset else None,
         )
 
     f = frame("factor-of-safety classes (susceptibility, no annual frequency)", inset=True)
     maps = {
         "stability classes": draw_classes(
-            out / "stability_class.png",
+            out / STABILITY_CLASS_MAP,
             f,
-            read_for_map(out / "stability_class.tif", f),
+            read_for_map(out / STABILITY_CLASS, f),
             names,
             "factor of safety",
         )
     }
-    if (out / "probability_of_failure.tif").exists():
+    if (out / PROBABILITY).exists():
         f = frame("probability of failure P(FS < 1) from parameter spread")
-        pf = read_for_map(out / "probability_of_failure.tif", f).astype(np.float64)
+        pf = read_for_map(out / PROBABILITY, f).astype(np.float64)
         pf[pf < 0.0] = np.nan
         maps["probability of failure"] = draw_classes(
-            out / "probability_of_failure.png",
+            out / PROBABILITY_MAP,
             f,
             classify_probability(pf),
             list(PF_CLASS_NAMES),
@@ -616,9 +644,9 @@ def draw_scenario_maps(
     if sc.storm is not None:
         f = frame("time from the start of the storm until FS falls below 1")
         maps["storm time to failure"] = draw_values(
-            out / "storm_time_to_failure_h.png",
+            out / STORM_TIME_TO_FAILURE_MAP,
             f,
-            out / "storm_time_to_failure_h.tif",
+            out / STORM_TIME_TO_FAILURE,
             "hours after the storm began",
             specials=(
                 Special(NOT_BY_LATER, HOLDS_HEX, f"holds to {sc.storm.later_h:g} h (code -1)"),
@@ -655,19 +683,19 @@ def draw_rainfall_maps(
     def frame(what: str, inset: bool = False) -> MapFrame:
         return MapFrame(
             grid,
-            terrain_dir / "hillshade.tif",
+            terrain_dir / HILLSHADE,
             f"{cfg.region.name}: {what}",
             f"scenario {sc.name}: {sc.loads}; design rain {table.idf_table.name}",
-            soil_codes=terrain_dir / "soil_unit.tif",
+            soil_codes=terrain_dir / SOIL_UNIT,
             inset=(unit_keys, hazard_areas) if inset else None,
         )
 
     f = frame("hazard: annual probability that rain starts failure", inset=True)
     maps = {
         "hazard classes": draw_classes(
-            out / "hazard_class.png",
+            out / HAZARD_CLASS_MAP,
             f,
-            read_for_map(out / "hazard_class.tif", f),
+            read_for_map(out / HAZARD_CLASS, f),
             table.hazard_names,
             "how often rain starts failure",
         )
@@ -675,9 +703,9 @@ def draw_rainfall_maps(
     f = frame("return period of the rain that starts failure")
     t0, t1 = table.return_periods_yr[0], table.return_periods_yr[-1]
     maps["triggering return period"] = draw_values(
-        out / "triggering_return_period_yr.png",
+        out / RETURN_PERIOD_MAP,
         f,
-        out / "triggering_return_period_yr.tif",
+        out / RETURN_PERIOD,
         "return period of the triggering storm (years, log scale)",
         log=True,
         specials=(
@@ -705,10 +733,10 @@ def draw_thresholds(
     p = units.parameters
     job = SensitivityJob(
         grid=grid,
-        slope_deg=terrain_dir / "slope_deg.tif",
-        sca=terrain_dir / "specific_catchment_area_m.tif",
-        saturation=out / "saturation.tif",
-        codes=terrain_dir / "soil_unit.tif",
+        slope_deg=terrain_dir / SLOPE_DEG,
+        sca=terrain_dir / SCA,
+        saturation=out / SATURATION,
+        codes=terrain_dir / SOIL_UNIT,
         tables={},
         ranges={},
         recharge_mm_day=None,
@@ -760,7 +788,7 @@ def draw_thresholds(
         design = np.array(table.intensity_mm_h)
     intensity = design * spec.uplift
     return threshold_figure(
-        out / "rainfall_thresholds.png",
+        out / THRESHOLDS_MAP,
         table.durations_h,
         thresholds,
         table.return_periods_yr,

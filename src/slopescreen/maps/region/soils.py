@@ -200,7 +200,7 @@ def _unit_spreads(
     rho = 0.0
     lab = record.get("strength_lab_tests")
     if isinstance(lab, str) and lab.strip():
-        from slopescreen.cli.cmd_envelope import fit_file
+        from slopescreen.maps.io.labtests import fit_file
 
         path = (Path(source).parent / lab.strip()).resolve()
         try:

@@ -16,6 +16,15 @@ from slopescreen.maps.io.grid import Grid, read_elevations
 from slopescreen.maps.io.locks import entry_lock
 from slopescreen.maps.io.rasters import RasterSink, all_or_nothing, read_block
 from slopescreen.maps.io.safe_writes import TEMP_PREFIX, real_folder
+from slopescreen.maps.outputs.output_names import (
+    CUT_OFF,
+    HILLSHADE,
+    SCA,
+    SLOPE_DEG,
+    SLOPE_ONE_SIDED,
+    SLOPE_TAN,
+    TERRAIN_CACHE,
+)
 from slopescreen.maps.region.runners import Runner, serial_runner, threaded_runner
 from slopescreen.maps.terrain import slope as terrain
 from slopescreen.maps.terrain import tiled_routing
@@ -23,14 +32,7 @@ from slopescreen.maps.terrain.ground import GROUND_VERSION, gradient_on_ground
 
 TERRAIN_VERSION = "6"  # bump when a terrain algorithm changes: old caches are not reused
 NODATA_F32 = -9999.0
-PRODUCTS = (
-    "slope_deg.tif",
-    "slope_tan.tif",
-    "slope_one_sided.tif",
-    "specific_catchment_area_m.tif",
-    "catchment_cut_off.tif",
-    "hillshade.tif",
-)
+PRODUCTS = TERRAIN_CACHE
 
 
 ROUTING_TILE = 4000  # cells a side of a routing tile: under 1 GB a process at its peak
@@ -125,14 +127,12 @@ def _compute(
     tags = tags | {"ground_geometry": grid.ground.note}
     horn = {"method": "Horn (1981); one-sided where the 3x3 window is incomplete"}
     sinks = {
-        "slope": _sink(
-            folder, grid, "slope_deg.tif", "float32", tags | horn | {"units": "degrees"}
-        ),
-        "tan": _sink(folder, grid, "slope_tan.tif", "float32", tags | horn | {"units": "tan"}),
+        "slope": _sink(folder, grid, SLOPE_DEG, "float32", tags | horn | {"units": "degrees"}),
+        "tan": _sink(folder, grid, SLOPE_TAN, "float32", tags | horn | {"units": "tan"}),
         "one_sided": _sink(
             folder,
             grid,
-            "slope_one_sided.tif",
+            SLOPE_ONE_SIDED,
             "uint8",
             tags
             | {
@@ -142,7 +142,7 @@ def _compute(
         ),
     }
     shade = RasterSink(
-        folder / "hillshade.tif",
+        folder / HILLSHADE,
         grid,
         "uint8",
         0,
@@ -171,14 +171,14 @@ def _compute(
     sink = _sink(
         folder,
         grid,
-        "specific_catchment_area_m.tif",
+        SCA,
         "float32",
         tags | route_tags | {"units": "m (area per unit contour width)"},
     )
     cut_sink = _sink(
         folder,
         grid,
-        "catchment_cut_off.tif",
+        CUT_OFF,
         "uint8",
         tags
         | route_tags
@@ -190,7 +190,7 @@ def _compute(
     with all_or_nothing(sink, cut_sink):
         for window, sca, cut_off in _routed(grid, elevation_unit, scratch, runner, echo):
             # cells without a slope have no catchment value either
-            missing = read_block(folder / "slope_tan.tif", *window) == NODATA_F32
+            missing = read_block(folder / SLOPE_TAN, *window) == NODATA_F32
             sink.write(*window, _f32(np.where(missing, np.nan, sca)))
             cut_sink.write(*window, np.where(missing, 255, cut_off))
 
