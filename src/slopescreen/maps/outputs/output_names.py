@@ -69,6 +69,10 @@ LAB_TESTS_PLACEHOLDER = "TESTS.csv"
 ASSEMBLY_FILE = "blocks.tif"
 
 
+# every critical-intensity raster of a scenario folder (for glob)
+INTENSITY_PATTERN = "critical_intensity_*h_mm_h.tif"
+
+
 def intensity_name(duration_h: float) -> str:
     """The raster of the critical intensity of one duration."""
     return f"critical_intensity_{duration_h:g}h_mm_h.tif"

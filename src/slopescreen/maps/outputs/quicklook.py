@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -221,39 +222,28 @@ def draw_values(
     return _draw(target, frame, rgb, handles, "codes and lines", colourbar=(cmap, norm, label))
 
 
-def _draw(
-    target: Path,
+def _map_panel(
+    fig: Any,
     frame: MapFrame,
-    rgb: np.ndarray,
+    image: np.ndarray,
     handles: list,
-    legend_title: str,
-    colourbar: tuple | None = None,
-) -> Path:
-    import matplotlib
-
-    matplotlib.use("Agg")
+    notes: list[str],
+    rect: tuple,
+    aspect: float,
+) -> Any:
+    """The map itself: relief-shaded classes at equal ground metres both ways, soil-unit
+    boundaries, zone outlines (noted instead when too many), axes in the CRS's units."""
     import matplotlib.pyplot as plt
     from matplotlib.lines import Line2D
     from matplotlib.ticker import FuncFormatter, MaxNLocator
-    from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
     grid = frame.grid
-    notes = list(frame.notes)  # the frame itself is left as given
-    image = relief_image(rgb, _decimated(frame.hillshade, frame.step))
     h, w = image.shape[:2]
     t = grid.transform
     extent = (t.c, t.c + t.a * grid.width, t.f + t.e * grid.height, t.f)  # type: ignore[attr-defined]
-    mx, my, variation = ground_per_map_unit(grid)
-    height_over_width = (grid.height * my * abs(t.e)) / (grid.width * mx * abs(t.a))  # type: ignore[attr-defined]
-    fig_w = 11.0
-    map_w = 0.58 * fig_w
-    fig_h = min(max(map_w * height_over_width + 2.6, 6.0), 16.0)
-    fig = plt.figure(figsize=(fig_w, fig_h), dpi=110)
-    bottom = 1.35 / fig_h
-    top = 1.0 - 1.0 / fig_h
-    ax = fig.add_axes((0.09, bottom, 0.58, top - bottom))
+    ax = fig.add_axes(rect)
     ax.imshow(image, extent=extent, interpolation="nearest")
-    ax.set_aspect(my / mx, anchor="NW")  # equal ground metres both ways at the map's centre
+    ax.set_aspect(aspect, anchor="NW")  # equal ground metres both ways at the map's centre
     if frame.soil_codes is not None:
         codes = _decimated(frame.soil_codes, frame.step)[:h, :w]
         for code in np.unique(codes[codes > 0]):
@@ -289,7 +279,12 @@ def _draw(
         axis.set_major_locator(MaxNLocator(5, prune="lower"))
     ax.tick_params(labelsize=8)
     plt.setp(ax.get_yticklabels(), rotation=90, va="center")
-    # names are the user's text: never parsed as mathtext ("$...$")
+    return ax
+
+
+def _titles(fig: Any, frame: MapFrame, fig_h: float) -> None:
+    """Title and subtitle above the map; names are the user's text: never parsed as
+    mathtext ("$...$")."""
     fig.text(
         0.09,
         1.0 - 0.25 / fig_h,
@@ -302,6 +297,22 @@ def _draw(
     fig.text(
         0.09, 1.0 - 0.55 / fig_h, frame.subtitle, fontsize=9, va="top", parse_math=False, wrap=True
     )
+
+
+def _side_panel(
+    fig: Any,
+    frame: MapFrame,
+    handles: list,
+    legend_title: str,
+    colourbar: tuple | None,
+    notes: list[str],
+    box: tuple[float, float, float],
+) -> None:
+    """Right of the map, top down: the legend, the colour bar, the inset of areas by unit
+    (when it fits), and the notes at the foot. ``box`` is (top, bottom, figure height)."""
+    import matplotlib
+
+    top, bottom, fig_h = box
     side_left = 0.70
     legend = fig.legend(
         handles=handles,
@@ -333,6 +344,13 @@ def _draw(
             _inset(iax, units, areas, frame.inset_title)
     for i, note in enumerate(notes):
         fig.text(side_left, bottom + 1.25 / fig_h - i * 0.2 / fig_h, note, fontsize=7)
+
+
+def _scale_and_north(ax: Any, grid: Grid, variation: float) -> None:
+    """A scale bar in ground metres (saying how much the scale, ``variation``, varies
+    across a large map) and a north arrow, right of the map's foot."""
+    from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
+
     bar_m, bar_map = scale_bar(grid)
     label = f"{bar_m / 1000:g} km" if bar_m >= 1000 else f"{bar_m:g} m"
     if variation > 0.01:
@@ -364,6 +382,10 @@ def _draw(
         annotation_clip=False,
         arrowprops={"arrowstyle": "-|>", "color": "black", "lw": 1.5},
     )
+
+
+def _footer(fig: Any, grid: Grid, fig_h: float) -> None:
+    """The CRS with how ground lengths were measured, and the cautions."""
     crs_text = grid.crs.to_string()  # type: ignore[attr-defined]
     fig.text(
         0.09,
@@ -383,6 +405,40 @@ def _draw(
         wrap=True,
         parse_math=False,
     )
+
+
+def _draw(
+    target: Path,
+    frame: MapFrame,
+    rgb: np.ndarray,
+    handles: list,
+    legend_title: str,
+    colourbar: tuple | None = None,
+) -> Path:
+    """One map in the house style: title, the map, the side panel, scale, north, footer."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    grid = frame.grid
+    notes = list(frame.notes)  # the frame itself is left as given
+    image = relief_image(rgb, _decimated(frame.hillshade, frame.step))
+    t = grid.transform
+    mx, my, variation = ground_per_map_unit(grid)
+    height_over_width = (grid.height * my * abs(t.e)) / (grid.width * mx * abs(t.a))  # type: ignore[attr-defined]
+    fig_w = 11.0
+    map_w = 0.58 * fig_w
+    fig_h = min(max(map_w * height_over_width + 2.6, 6.0), 16.0)
+    fig = plt.figure(figsize=(fig_w, fig_h), dpi=110)
+    bottom = 1.35 / fig_h
+    top = 1.0 - 1.0 / fig_h
+    rect = (0.09, bottom, 0.58, top - bottom)
+    ax = _map_panel(fig, frame, image, handles, notes, rect, my / mx)
+    _titles(fig, frame, fig_h)
+    _side_panel(fig, frame, handles, legend_title, colourbar, notes, (top, bottom, fig_h))
+    _scale_and_north(ax, grid, variation)
+    _footer(fig, grid, fig_h)
     with replacing(target) as tmp:
         fig.savefig(tmp, format="png")
     plt.close(fig)

@@ -26,6 +26,7 @@ from slopescreen.maps.outputs.output_names import (
     HAZARD_CLASS_MAP,
     HAZARD_ZONES,
     HILLSHADE,
+    INTENSITY_PATTERN,
     LEGACY_SCENARIO_FILES,
     LOW_MARGIN_ZONES,
     PROBABILITY,
@@ -359,31 +360,35 @@ def intensity_key(units: SoilUnits, sc: Scenario, terrain_key: str, cfg: Config)
     return content_key(*parts)
 
 
-def run_scenario(
+@dataclass
+class TileSums:
+    """A scenario's area tables summed over its tiles in tile order (the same sums whatever
+    ran the tiles), and the cells its wetness raster left without a value."""
+
+    table: np.ndarray
+    cut_table: np.ndarray
+    pf_table: np.ndarray | None
+    hazard_table: np.ndarray | None
+    spread_table: np.ndarray | None
+    missing: int
+
+
+def _tile_job(
     cfg: Config,
     sc: Scenario,
     grid: Grid,
-    soils: SoilUnits,
+    units: SoilUnits,
     terrain_dir: Path,
     terrain_cache: Path,
     terrain_key: str,
-    out: Path,
-    names: list[str],
-    progress: Callable[[Iterable, int, str], Iterable],
-    runner: Runner = serial_runner,
-    numba_threads: int = 0,
-    echo: Callable[[str], None] = print,
-) -> tuple[ScenarioSummary, list[dict[str, object]]]:
-    """Write every output of one scenario into ``out``; ``terrain_cache`` is the folder of
-    the terrain cache entry, and critical recharge is cached beside it (in its parent)."""
-    from slopescreen.maps.outputs.zones import low_margin_zones, write_zones
-
-    where = f"{cfg.path}: scenario {sc.name}"
-    units = soils.with_overrides(sc.soil_overrides, where)
+    numba_threads: int,
+    echo: Callable[[str], None],
+) -> tuple[TileJob, str, bool, str | None]:
+    """(the scenario's tile job, the critical-recharge cache entry's name, whether that
+    entry was reused, the critical-intensity entry's name to build or None). Verified cache
+    entries are handed to the job; large grids get per-unit intensity tables."""
     entry_name = f"critical_recharge-{recharge_key(units, sc, terrain_key)}"
     entry = usable_entry(terrain_cache.parent, entry_name, echo)
-    cached = entry is not None
-    recharge_file = entry / RECHARGE if entry is not None else None
     intensity_entry, intensity_cached = None, None
     if sc.rainfall is not None and cfg.rainfall_frequency is not None:
         intensity_entry = f"critical_intensity-{intensity_key(units, sc, terrain_key, cfg)}"
@@ -401,7 +406,7 @@ def run_scenario(
         sca=terrain_dir / SCA,
         codes=terrain_dir / SOIL_UNIT,
         cut_off=terrain_dir / CUT_OFF,
-        recharge_cache=recharge_file,
+        recharge_cache=entry / RECHARGE if entry is not None else None,
         fs_breaks=cfg.fs_breaks,
         fs_cap=cfg.fs_cap,
         reliability=cfg.reliability,
@@ -416,42 +421,82 @@ def run_scenario(
             codes = {c for t in job.intensity_tables.values() for c in t.units}
             used = sorted(units.keys[code - 1] for code in codes)
             echo(f"scenario {sc.name}: critical intensities from tables for {', '.join(used)}")
-    with_probability = bool(units.spreads)
-    sinks = _sinks(cfg, sc, grid, out, names, with_probability)
-    tables, pf_tables, cut_tables, hazard_tables, spread_tables = [], [], [], [], []
+    to_build = intensity_entry if intensity_cached is None else None
+    return job, entry_name, entry is not None, to_build
+
+
+def _write_tiles(
+    job: TileJob,
+    sinks: dict[str, RasterSink],
+    runner: Runner,
+    progress: Callable[[Iterable, int, str], Iterable],
+) -> TileSums:
+    """Compute every tile, write its rasters in tile order and sum its area tables."""
+    tables: dict[str, list[np.ndarray]] = {
+        "table": [],
+        "cut_table": [],
+        "pf_table": [],
+        "hazard_table": [],
+        "hazard_spread_table": [],
+    }
     missing = 0
     with all_or_nothing(*sinks.values()):
-        tiles = [(job, rows, cols) for rows, cols in windows(grid)]
+        tiles = [(job, rows, cols) for rows, cols in windows(job.grid)]
         results = runner(compute_tile, tiles)
-        for res in progress(results, len(tiles), sc.name):
+        for res in progress(results, len(tiles), job.scenario.name):
             for name, sink in sinks.items():
                 sink.write(res["rows"], res["cols"], res[name])
-            tables.append(res["table"])
-            cut_tables.append(res["cut_table"])
-            if with_probability:
-                pf_tables.append(res["pf_table"])
-            if "hazard_table" in res:
-                hazard_tables.append(res["hazard_table"])
-            if "hazard_spread_table" in res:
-                spread_tables.append(res["hazard_spread_table"])
+            for name, kept in tables.items():
+                if name in res:
+                    kept.append(res[name])
             missing += res["missing_wetness"]
-    if not cached:  # the output holds exactly the cached values; its tags are this scenario's
+
+    def total(name: str) -> np.ndarray | None:
+        return np.sum(tables[name], axis=0) if tables[name] else None
+
+    return TileSums(
+        total("table"),  # type: ignore[arg-type]
+        total("cut_table"),  # type: ignore[arg-type]
+        total("pf_table"),
+        total("hazard_table"),
+        total("hazard_spread_table"),
+        missing,
+    )
+
+
+def _cache_results(
+    cfg: Config,
+    sc: Scenario,
+    out: Path,
+    terrain_cache: Path,
+    terrain_key: str,
+    recharge_entry: tuple[str, bool],
+    intensity_entry: str | None,
+) -> None:
+    """Keep the scenario's critical recharge and critical intensities as cache entries
+    beside the terrain entry, where they were not reused from there."""
+    entry_name, reused = recharge_entry
+    if not reused:  # the output holds exactly the cached values; its tags are this scenario's
         info = {"seismic_coefficient": sc.seismic_coefficient, "terrain_key": terrain_key}
         with building(terrain_cache.parent, entry_name, info) as work:
             shutil.copyfile(out / RECHARGE, work / RECHARGE)
-    if intensity_entry is not None and intensity_cached is None:
-        info = {"terrain_key": terrain_key, "durations_h": list(cfg.rainfall_frequency.durations_h)}  # type: ignore[union-attr]
+    if intensity_entry is not None and cfg.rainfall_frequency is not None:
+        durations = cfg.rainfall_frequency.durations_h
+        info = {"terrain_key": terrain_key, "durations_h": list(durations)}
         with building(terrain_cache.parent, intensity_entry, info) as work:
-            for d in cfg.rainfall_frequency.durations_h:  # type: ignore[union-attr]
+            for d in durations:
                 shutil.copyfile(out / intensity_name(d), work / intensity_name(d))
-    table = np.sum(tables, axis=0)  # in tile order: the same sums whatever ran the tiles
+
+
+def _scenario_warnings(cfg: Config, sc: Scenario, units: SoilUnits, missing: int) -> list[str]:
+    """Cells without wetness, units without probability, storms by Taylor series only."""
     warnings: list[str] = []
     if missing:
         warnings.append(
             f"scenario {sc.name}: {missing} cells have no value in "
             f"{(sc.saturation_raster or sc.rain_raster).name} and are left unmapped"  # type: ignore[union-attr]
         )
-    if with_probability:
+    if units.spreads:
         without = [k for i, k in enumerate(units.keys, start=1) if i not in units.spreads]
         if without:
             warnings.append(
@@ -463,95 +508,148 @@ def run_scenario(
                 f"scenario {sc.name}: storm probability by the Taylor-series "
                 "method (Monte Carlo over depth and time is not offered)"
             )
-    cut_table = np.sum(cut_tables, axis=0)
+    return warnings
+
+
+def _hectares(table: np.ndarray) -> list[float]:
+    """Hectares per class over the mapped units of an area table (m2)."""
+    return [float(a) / 10_000.0 for a in table[1:, 1:].sum(axis=0)]
+
+
+def _zones(
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    job: TileJob,
+    unit_keys: list[str],
+    names: list[str],
+    hazard_names: list[str] | None,
+    out: Path,
+    terrain_dir: Path,
+) -> tuple[list[dict[str, object]], set[str]]:
+    """Polygons of the two least stable classes (and of the two most frequent hazard
+    classes of a rainfall scenario): (the largest zones, the files written)."""
+    from slopescreen.maps.outputs.zones import low_margin_zones, write_zones
+
+    zones = low_margin_zones(
+        out / STABILITY_CLASS,
+        job.codes,
+        grid,
+        unit_keys,
+        names,
+        cfg.min_zone_area_m2,
+        sc.name,
+        terrain_dir / SLOPE_DEG,
+    )
+    write_zones(zones, out / LOW_MARGIN_ZONES)
+    written = {LOW_MARGIN_ZONES}
+    if hazard_names is not None:  # the two most frequent hazard classes, the same way
+        hazard_zones = low_margin_zones(
+            out / HAZARD_CLASS,
+            job.codes,
+            grid,
+            unit_keys,
+            hazard_names,
+            cfg.min_zone_area_m2,
+            sc.name,
+            terrain_dir / SLOPE_DEG,
+        ).rename(columns={"stability_class": "hazard_class"})
+        write_zones(hazard_zones, out / HAZARD_ZONES)
+        written.add(HAZARD_ZONES)
+    return largest_zones(zones), written
+
+
+def _remove_stale(out: Path, written: set[str]) -> None:
+    """Remove the files an earlier run of another configuration left in the folder."""
+    for stale in set(SCENARIO_FILES) - written:
+        (out / stale).unlink(missing_ok=True)
+    for stale in out.glob(INTENSITY_PATTERN):
+        if stale.name not in written:
+            stale.unlink()
+
+
+def run_scenario(
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    soils: SoilUnits,
+    terrain_dir: Path,
+    terrain_cache: Path,
+    terrain_key: str,
+    out: Path,
+    names: list[str],
+    progress: Callable[[Iterable, int, str], Iterable],
+    runner: Runner = serial_runner,
+    numba_threads: int = 0,
+    echo: Callable[[str], None] = print,
+) -> tuple[ScenarioSummary, list[dict[str, object]]]:
+    """Write every output of one scenario into ``out``; ``terrain_cache`` is the folder of
+    the terrain cache entry, and critical recharge is cached beside it (in its parent)."""
+    units = soils.with_overrides(sc.soil_overrides, f"{cfg.path}: scenario {sc.name}")
+    job, recharge_entry, reused, intensity_entry = _tile_job(
+        cfg, sc, grid, units, terrain_dir, terrain_cache, terrain_key, numba_threads, echo
+    )
+    sinks = _sinks(cfg, sc, grid, out, names, bool(units.spreads))
+    sums = _write_tiles(job, sinks, runner, progress)
+    _cache_results(
+        cfg, sc, out, terrain_cache, terrain_key, (recharge_entry, reused), intensity_entry
+    )
     rows_out = summary_rows(
-        table, units.keys, names, sc.name, "factor_of_safety", cut_table=cut_table
+        sums.table, units.keys, names, sc.name, "factor_of_safety", cut_table=sums.cut_table
     )
     pf_areas = None
-    if with_probability:
-        pf_table = np.sum(pf_tables, axis=0)
+    if sums.pf_table is not None:
         rows_out += summary_rows(
-            pf_table, units.keys, list(PF_CLASS_NAMES), sc.name, "probability_of_failure"
+            sums.pf_table, units.keys, list(PF_CLASS_NAMES), sc.name, "probability_of_failure"
         )
-        pf_areas = [float(a) / 10_000.0 for a in pf_table[1:, 1:].sum(axis=0)]
+        pf_areas = _hectares(sums.pf_table)
     hazard_areas, hazard_names = None, []
-    if hazard_tables and cfg.rainfall_frequency is not None:
-        hazard_table = np.sum(hazard_tables, axis=0)
+    if sums.hazard_table is not None and cfg.rainfall_frequency is not None:
         hazard_names = cfg.rainfall_frequency.hazard_names
         rows_out += summary_rows(
-            hazard_table, units.keys, hazard_names, sc.name, "annual_failure_probability"
+            sums.hazard_table, units.keys, hazard_names, sc.name, "annual_failure_probability"
         )
-        hazard_areas = hazard_table[1:, 1:] / 10_000.0
+        hazard_areas = sums.hazard_table[1:, 1:] / 10_000.0
     spread_areas = None
-    if spread_tables:
-        spread_table = np.sum(spread_tables, axis=0)
+    if sums.spread_table is not None:
         rows_out += summary_rows(
-            spread_table,
+            sums.spread_table,
             units.keys,
             hazard_names,
             sc.name,
             "annual_failure_probability_with_spread",
         )
-        spread_areas = [float(a) / 10_000.0 for a in spread_table[1:, 1:].sum(axis=0)]
+        spread_areas = _hectares(sums.spread_table)
     write_summary(rows_out, out / SUMMARY)
+    written = {s.target.name for s in sinks.values()} | {SUMMARY}
     largest: list[dict[str, object]] = []
     if cfg.zones:
-        zones = low_margin_zones(
-            out / STABILITY_CLASS,
-            job.codes,
-            grid,
-            units.keys,
-            names,
-            cfg.min_zone_area_m2,
-            sc.name,
-            terrain_dir / SLOPE_DEG,
+        with_hazard = hazard_names if hazard_areas is not None else None
+        largest, zone_files = _zones(
+            cfg, sc, grid, job, units.keys, names, with_hazard, out, terrain_dir
         )
-        write_zones(zones, out / LOW_MARGIN_ZONES)
-        largest = largest_zones(zones)
-        if hazard_areas is not None:  # the two most frequent hazard classes, the same way
-            hazard_zones = low_margin_zones(
-                out / HAZARD_CLASS,
-                job.codes,
-                grid,
-                units.keys,
-                hazard_names,
-                cfg.min_zone_area_m2,
-                sc.name,
-                terrain_dir / SLOPE_DEG,
-            ).rename(columns={"stability_class": "hazard_class"})
-            write_zones(hazard_zones, out / HAZARD_ZONES)
-    unit_areas = table[1:, 1:] / 10_000.0
+        written |= zone_files
+    unit_areas = sums.table[1:, 1:] / 10_000.0
     maps: dict[str, Path] = {}
     if cfg.quicklook_map:
         maps = draw_scenario_maps(cfg, sc, grid, units.keys, names, terrain_dir, out, unit_areas)
         if hazard_areas is not None:
             maps |= draw_rainfall_maps(cfg, sc, grid, units.keys, terrain_dir, out, hazard_areas)
             maps["rainfall thresholds"] = draw_thresholds(cfg, sc, grid, units, terrain_dir, out)
-    areas = [float(a) / 10_000.0 for a in table[1:, 1:].sum(axis=0)]
-    written = {s.target.name for s in sinks.values()} | {SUMMARY}
     written |= {p.name for p in maps.values()}
-    if cfg.zones:
-        written.add(LOW_MARGIN_ZONES)
-        if hazard_areas is not None:
-            written.add(HAZARD_ZONES)
-    for stale in set(SCENARIO_FILES) - written:  # left by an earlier run of another config
-        (out / stale).unlink(missing_ok=True)
-    for stale in out.glob("critical_intensity_*h_mm_h.tif"):
-        if stale.name not in written:
-            stale.unlink()
-    outputs = sorted(written)
+    _remove_stale(out, written)
     return ScenarioSummary(
         sc.name,
         sc.wetness,
         sc.seismic_coefficient,
         sc.soil_overrides,
-        areas,
+        _hectares(sums.table),
         maps,
-        warnings,
+        _scenario_warnings(cfg, sc, units, sums.missing),
         pf_areas,
-        outputs,
+        sorted(written),
         sc.description,
-        float(cut_table[1:, 1:].sum()) / 10_000.0,
+        float(sums.cut_table[1:, 1:].sum()) / 10_000.0,
         sc.loads,
         unit_areas.tolist(),
         largest,

@@ -8,6 +8,7 @@ distributed run gives the same bytes as a serial one.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from functools import partial
 from typing import Any
 
@@ -120,6 +121,226 @@ def probability(job: TileJob, block: dict[str, np.ndarray]) -> tuple[np.ndarray,
     return pf, beta
 
 
+@dataclass(frozen=True)
+class TileInputs:
+    """One tile's inputs as plain arrays (read by :func:`read_tile`), so the arithmetic of
+    :func:`tile_values` and :func:`area_tables` runs without files."""
+
+    tan: np.ndarray  # tan(slope), NODATA_F32 where there is no terrain
+    sca: np.ndarray  # specific catchment area (m), NODATA_F32 where there is none
+    codes: np.ndarray  # soil-unit codes, 0 for none
+    cut_off: np.ndarray  # True where part of the upslope area is beyond the DEM
+    cell_area_m2: np.ndarray | float  # ground area of the tile's cells
+    slope_deg: np.ndarray | None = None  # read when storms or spreads need it
+    saturation: np.ndarray | None = None  # the saturation raster on the tile
+    rain: np.ndarray | None = None  # the rain or recharge raster on the tile, in its range
+
+
+def read_tile(job: TileJob, rows: slice, cols: slice) -> TileInputs:
+    """The tile's terrain, soil units and wetness rasters from disk."""
+    sc = job.scenario
+    rain = None
+    if sc.rain_raster is not None:  # checked to cover every DEM cell before the run
+        key, low, high = sc.rain_unit
+        rain = np.clip(
+            read_on_grid(sc.rain_raster, job.grid, key, (low, high), rows, cols), low, high
+        )
+    return TileInputs(
+        tan=read_block(job.slope_tan, rows, cols),
+        sca=read_block(job.sca, rows, cols),
+        codes=read_block(job.codes, rows, cols),
+        cut_off=read_block(job.cut_off, rows, cols) == 1,
+        cell_area_m2=job.grid.ground.cell_area_m2(rows, cols),
+        slope_deg=(
+            read_block(job.slope_deg, rows, cols) if sc.storm is not None or job.spreads else None
+        ),
+        saturation=(
+            None
+            if sc.saturation_raster is None
+            else read_on_grid(sc.saturation_raster, job.grid, "saturation", (0.0, 1.0), rows, cols)
+        ),
+        rain=rain,
+    )
+
+
+def mapped_cells(tile: TileInputs) -> tuple[np.ndarray, np.ndarray, int]:
+    """(cells with terrain and a soil unit, those of them that also have wetness, how many
+    of the first lack the wetness raster's value)."""
+    terrain_ok = (tile.codes > 0) & (tile.tan != NODATA_F32) & (tile.sca != NODATA_F32)
+    valid = terrain_ok.copy()
+    missing = 0
+    for wetness in (tile.saturation, tile.rain):  # one wetness key: at most one raster
+        if wetness is not None:
+            missing = int((valid & ~np.isfinite(wetness)).sum())
+            valid &= np.isfinite(wetness)
+    return terrain_ok, valid, missing
+
+
+def _storm_values(
+    job: TileJob, block: dict[str, np.ndarray], params: dict[str, np.ndarray]
+) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+    """(FS, saturation, storm rasters) of a storm scenario's cells; the critical plane and
+    time go into ``block`` for the probability."""
+    sc = job.scenario
+    storm = core_storm(sc, block.get("rain"))
+    assert storm is not None
+    summary, m = storm_response(
+        block["slope"],
+        storm,
+        seismic_coefficient=float(sc.seismic_coefficient),
+        **{k: v for k, v in params.items() if k != "transmissivity_m2_day"},
+    )
+    block["storm_depth_fraction"] = summary.window_critical_depth_m / params["depth_m"]
+    block["storm_time_h"] = summary.window_critical_time_h
+    values = {
+        "storm_fs_end": np.minimum(summary.end_min_fs, job.fs_cap),
+        "storm_fs_later": np.minimum(summary.later_min_fs, job.fs_cap),
+        "storm_failure_depth": summary.window_critical_depth_m,
+        "storm_time_to_failure": np.asarray(summary.time_to_failure_h),
+    }
+    return summary.window_min_fs, m, values
+
+
+def _steady_saturation(
+    job: TileJob, block: dict[str, np.ndarray], saturation: np.ndarray | None
+) -> np.ndarray:
+    """Saturation m of the cells of a scenario without a storm."""
+    from slopescreen.maps.region.kernels import steady_saturation_by_unit
+
+    sc, t, c = job.scenario, job.tables, block["codes"]
+    m = np.empty(c.size)
+    if sc.steady_recharge:
+        steady_saturation_by_unit(
+            block["rain"] if "rain" in block else np.array([sc.recharge_mm_day], float),
+            block["tan"],
+            block["sca"],
+            c,
+            t["depth_m"],
+            t["hydraulic_conductivity_m_s"],
+            t["transmissivity_m2_day"],
+            m,
+        )
+    elif sc.rainfall is not None:  # before the rain: the water table d below the ground
+        depth = t["depth_m"][c]
+        m = np.clip((depth - sc.rainfall.initial_water_table_depth_m) / depth, 0.0, 1.0)
+    elif saturation is not None:
+        m = saturation
+        bad = (m < 0.0) | (m > 1.0)
+        if bad.any():
+            raise InputError(
+                f"{sc.saturation_raster}: saturation values must be in [0, 1], "
+                f"found {float(m[bad][0]):g}"
+            )
+    else:
+        m[:] = sc.saturation
+    return m
+
+
+def _steady_fs(job: TileJob, block: dict[str, np.ndarray], m: np.ndarray) -> np.ndarray:
+    """FS of the cells by the compiled kernel, soil parameters looked up by unit."""
+    from slopescreen.maps.region.kernels import fs_by_unit
+
+    t = job.tables
+    fs = np.empty(block["codes"].size)
+    fs_by_unit(
+        block["tan"],
+        block["codes"],
+        m,
+        t["depth_m"],
+        t["cohesion_kpa"] + t["root_cohesion_kpa"],
+        np.tan(np.radians(t["friction_deg"])),
+        t["unit_weight_kn_m3"],
+        t["saturated_unit_weight_kn_m3"],
+        float(job.scenario.seismic_coefficient),
+        9.81,
+        fs,
+    )
+    return fs
+
+
+def tile_values(
+    job: TileJob, tile: TileInputs, valid: np.ndarray
+) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+    """(block, values): the inputs at the valid cells, and every per-cell output there
+    (storm rasters, classes, FS capped, saturation, probability and reliability index)."""
+    sc = job.scenario
+    c = tile.codes[valid]
+    block = {"tan": tile.tan[valid], "sca": tile.sca[valid], "codes": c}
+    if tile.rain is not None:
+        block["rain"] = tile.rain[valid]
+    if tile.slope_deg is not None:
+        block["slope"] = tile.slope_deg[valid].astype(np.float64)
+    values: dict[str, np.ndarray] = {}
+    if sc.storm is not None:
+        params = {name: job.tables[name][c] for name in CORE_FIELDS}
+        fs, m, values = _storm_values(job, block, params)
+    else:
+        saturation = None if tile.saturation is None else tile.saturation[valid]
+        m = _steady_saturation(job, block, saturation)
+        fs = _steady_fs(job, block, m)
+    block["saturation"] = np.broadcast_to(m, (c.size,))
+    values["classes"] = classify(fs, job.fs_breaks)
+    values["fs"] = np.minimum(fs, job.fs_cap)
+    values["saturation"] = block["saturation"]
+    if job.spreads:
+        values["probability"], values["reliability"] = probability(job, block)
+    return block, values
+
+
+def full_rasters(values: dict[str, np.ndarray], valid: np.ndarray) -> dict[str, np.ndarray]:
+    """Each per-cell output on the whole tile: classes as uint8 (0 off the valid cells), the
+    rest float32 with NODATA_F32."""
+    out = {}
+    for name, v in values.items():
+        whole = name in ("classes", "hazard_classes", "hazard_classes_spread")
+        full = (
+            np.zeros(valid.shape, np.uint8)
+            if whole
+            else np.full(valid.shape, NODATA_F32, np.float32)
+        )
+        full[valid] = v if whole else np.nan_to_num(v, nan=NODATA_F32)
+        out[name] = full
+    return out
+
+
+def area_tables(
+    job: TileJob,
+    tile: TileInputs,
+    valid: np.ndarray,
+    rasters: dict[str, np.ndarray],
+    probability: np.ndarray | None = None,
+) -> dict[str, np.ndarray]:
+    """Ground areas per soil unit and class of the tile: FS classes (all cells and those
+    with cut-off catchments), hazard classes (with and without spreads), probability
+    classes. Takes the whole-tile class rasters of :func:`full_rasters` and the probability
+    of failure at the valid cells (NaN for units without spreads)."""
+    codes, cell_area = tile.codes, tile.cell_area_m2
+    out = {}
+    table = np.zeros((job.n_units + 1, len(job.fs_breaks) + 2))
+    add_areas(table, codes * valid, rasters["classes"], cell_area)
+    out["table"] = table
+    cut_table = np.zeros_like(table)
+    add_areas(cut_table, codes * (valid & tile.cut_off), rasters["classes"], cell_area)
+    out["cut_table"] = cut_table
+    # one column per hazard class and one for no data (code 0)
+    n_hazard = 0 if job.rainfall is None else len(job.rainfall.hazard_names) + 1
+    for name, key in (
+        ("hazard_classes", "hazard_table"),
+        ("hazard_classes_spread", "hazard_spread_table"),
+    ):
+        if name in rasters:
+            hazard_table = np.zeros((job.n_units + 1, n_hazard))
+            add_areas(hazard_table, codes * valid, rasters[name], cell_area)
+            out[key] = hazard_table
+    if probability is not None:
+        pf_table = np.zeros((job.n_units + 1, len(PF_CLASS_NAMES) + 1))
+        pf_classes = np.zeros(codes.shape, np.uint8)
+        pf_classes[valid] = classify_probability(probability)
+        add_areas(pf_table, codes * valid, pf_classes, cell_area)
+        out["pf_table"] = pf_table
+    return out
+
+
 def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     """Every per-cell output of one scenario on one tile, with its area tables.
 
@@ -127,143 +348,27 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     soil unit (read from the verified cache when there is one), so a cached raster serves
     any scenario with the same terrain, soils and seismic load.
     """
-    from slopescreen.maps.region.kernels import fs_by_unit, steady_saturation_by_unit
-
     if job.numba_threads:
         import numba
 
         numba.set_num_threads(job.numba_threads)
-    sc = job.scenario
-    tan = read_block(job.slope_tan, rows, cols)
-    sca = read_block(job.sca, rows, cols)
-    codes = read_block(job.codes, rows, cols)
-    terrain_ok = (codes > 0) & (tan != NODATA_F32) & (sca != NODATA_F32)
-    valid = terrain_ok.copy()
-    out: dict[str, Any] = {"rows": rows, "cols": cols, "missing_wetness": 0}
-    m_grid = rain_grid = None
-    if sc.saturation_raster is not None:
-        m_grid = read_on_grid(sc.saturation_raster, job.grid, "saturation", (0.0, 1.0), rows, cols)
-        out["missing_wetness"] = int((valid & ~np.isfinite(m_grid)).sum())
-        valid &= np.isfinite(m_grid)
-    if sc.rain_raster is not None:  # checked to cover every DEM cell before the run
-        key, low, high = sc.rain_unit
-        rain_grid = np.clip(
-            read_on_grid(sc.rain_raster, job.grid, key, (low, high), rows, cols), low, high
-        )
-        out["missing_wetness"] = int((valid & ~np.isfinite(rain_grid)).sum())
-        valid &= np.isfinite(rain_grid)
-    c = codes[valid]
-    block = {"tan": tan[valid], "sca": sca[valid], "codes": c}
-    if rain_grid is not None:
-        block["rain"] = rain_grid[valid]
-    t = job.tables
-    n = c.size
-    values: dict[str, np.ndarray] = {}
-    if sc.storm is not None or job.spreads:
-        block["slope"] = read_block(job.slope_deg, rows, cols)[valid].astype(np.float64)
-    params = {name: t[name][c] for name in CORE_FIELDS} if sc.storm is not None else {}
-    if sc.storm is not None:
-        storm = core_storm(sc, block.get("rain"))
-        assert storm is not None
-        summary, m = storm_response(
-            block["slope"],
-            storm,
-            seismic_coefficient=float(sc.seismic_coefficient),
-            **{k: v for k, v in params.items() if k != "transmissivity_m2_day"},
-        )
-        fs = summary.window_min_fs
-        block["storm_depth_fraction"] = summary.window_critical_depth_m / params["depth_m"]
-        block["storm_time_h"] = summary.window_critical_time_h
-        values["storm_fs_end"] = np.minimum(summary.end_min_fs, job.fs_cap)
-        values["storm_fs_later"] = np.minimum(summary.later_min_fs, job.fs_cap)
-        values["storm_failure_depth"] = summary.window_critical_depth_m
-        values["storm_time_to_failure"] = np.asarray(summary.time_to_failure_h)
-    else:
-        m = np.empty(n)
-        if sc.steady_recharge:
-            steady_saturation_by_unit(
-                block["rain"] if "rain" in block else np.array([sc.recharge_mm_day], float),
-                block["tan"],
-                block["sca"],
-                c,
-                t["depth_m"],
-                t["hydraulic_conductivity_m_s"],
-                t["transmissivity_m2_day"],
-                m,
-            )
-        elif sc.rainfall is not None:  # before the rain: the water table d below the ground
-            depth = t["depth_m"][c]
-            m = np.clip((depth - sc.rainfall.initial_water_table_depth_m) / depth, 0.0, 1.0)
-        elif m_grid is not None:
-            m = m_grid[valid]
-            bad = (m < 0.0) | (m > 1.0)
-            if bad.any():
-                raise InputError(
-                    f"{sc.saturation_raster}: saturation values must be in [0, 1], "
-                    f"found {float(m[bad][0]):g}"
-                )
-        else:
-            m[:] = sc.saturation
-        fs = np.empty(n)
-        fs_by_unit(
-            block["tan"],
-            c,
-            m,
-            t["depth_m"],
-            t["cohesion_kpa"] + t["root_cohesion_kpa"],
-            np.tan(np.radians(t["friction_deg"])),
-            t["unit_weight_kn_m3"],
-            t["saturated_unit_weight_kn_m3"],
-            float(sc.seismic_coefficient),
-            9.81,
-            fs,
-        )
-    block["saturation"] = np.broadcast_to(m, (n,))
-    values["classes"] = classify(fs, job.fs_breaks)
-    values["fs"] = np.minimum(fs, job.fs_cap)
-    values["saturation"] = block["saturation"]
-    if job.spreads:
-        values["probability"], values["reliability"] = probability(job, block)
-    if sc.rainfall is not None and job.rainfall is not None:
+    tile = read_tile(job, rows, cols)
+    terrain_ok, valid, missing = mapped_cells(tile)
+    block, values = tile_values(job, tile, valid)
+    if job.scenario.rainfall is not None and job.rainfall is not None:
         from slopescreen.maps.region.rain_tiles import rainfall_tile
 
         values |= rainfall_tile(job, block, rows, cols, valid, values.get("probability"))
-    shape = codes.shape
-    for name, v in values.items():
-        whole = name in ("classes", "hazard_classes", "hazard_classes_spread")
-        full = np.zeros(shape, np.uint8) if whole else np.full(shape, NODATA_F32, np.float32)
-        full[valid] = v if whole else np.nan_to_num(v, nan=NODATA_F32)
-        out[name] = full
+    out: dict[str, Any] = {"rows": rows, "cols": cols, "missing_wetness": missing}
+    out |= full_rasters(values, valid)
     out["recharge"] = (
         read_block(job.recharge_cache, rows, cols)
         if job.recharge_cache is not None
-        else _recharge_tile(job, rows, cols, terrain_ok, codes, sca)
+        else _recharge_tile(job, rows, cols, terrain_ok, tile.codes, tile.sca)
     )
-    cell_area = job.grid.ground.cell_area_m2(rows, cols)
-    table = np.zeros((job.n_units + 1, len(job.fs_breaks) + 2))
-    add_areas(table, codes * valid, out["classes"], cell_area)
-    out["table"] = table
-    cut_table = np.zeros_like(table)
-    cut = read_block(job.cut_off, rows, cols) == 1
-    add_areas(cut_table, codes * (valid & cut), out["classes"], cell_area)
-    out["cut_table"] = cut_table
-    # one column per hazard class and one for no data (code 0)
-    n_hazard = 0 if job.rainfall is None else len(job.rainfall.hazard_names) + 1
-    if "hazard_classes" in out:
-        hazard_table = np.zeros((job.n_units + 1, n_hazard))
-        add_areas(hazard_table, codes * valid, out["hazard_classes"], cell_area)
-        out["hazard_table"] = hazard_table
-    if "hazard_classes_spread" in out:
-        spread_table = np.zeros((job.n_units + 1, n_hazard))
-        add_areas(spread_table, codes * valid, out.pop("hazard_classes_spread"), cell_area)
-        out["hazard_spread_table"] = spread_table
-    if job.spreads:
-        pf_table = np.zeros((job.n_units + 1, len(PF_CLASS_NAMES) + 1))
-        pf_classes = np.zeros(shape, np.uint8)
-        pf_classes[valid] = classify_probability(values["probability"])
-        add_areas(pf_table, codes * valid, pf_classes, cell_area)
-        out["pf_table"] = pf_table
-    return out
+    tables = area_tables(job, tile, valid, out, values.get("probability"))
+    out.pop("hazard_classes_spread", None)
+    return out | tables
 
 
 def _recharge_tile(
