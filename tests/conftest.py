@@ -30,7 +30,7 @@ SLOW_MODULES = {
     "test_storm_search",
     "test_terrain_gauntlet",
     "test_tiled_routing",
-    "test_tiled_terrain",
+    "test_terrain_cache",
 }
 
 # single tests of 4 s or more (measured with --durations): runs of small regions

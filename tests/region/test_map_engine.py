@@ -20,7 +20,7 @@ from slopescreen.cli.main import main
 from slopescreen.hydrology import steady_state_saturation
 from slopescreen.maps.region.engine import run
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 REGION = ROOT / "demo_region"
 SCENARIOS = REGION / "quillbrook_scenarios.toml"
 PER_SCENARIO = ("fs.tif", "saturation.tif", "critical_recharge_mm_day.tif", "stability_class.tif")

@@ -11,7 +11,7 @@ import rasterio
 from slopescreen.maps.region import terrain_cache
 from slopescreen.maps.region.engine import run
 
-SCENARIOS = Path(__file__).resolve().parents[1] / "demo_region" / "quillbrook_scenarios.toml"
+SCENARIOS = Path(__file__).resolve().parents[2] / "demo_region" / "quillbrook_scenarios.toml"
 TERRAIN = ("specific_catchment_area_m.tif", "catchment_cut_off.tif", "slope_deg.tif")
 
 

@@ -195,12 +195,11 @@ def test_report_content(demo_out):
 
 
 def test_report_methods_only_for_what_ran(tmp_path):
-    from test_map_engine import SCENARIOS
-
     from slopescreen.maps.region.engine import run
 
     out = tmp_path / "out"
-    run(SCENARIOS, out, only=["dry_season", "wet_season"], progress=False, echo=lambda _: None)
+    scenarios = Path(__file__).resolve().parents[2] / "demo_region" / "quillbrook_scenarios.toml"
+    run(scenarios, out, only=["dry_season", "wet_season"], progress=False, echo=lambda _: None)
     text = (out / "report.html").read_text()
     assert "Iverson" not in text  # no storm ran
     assert "Design storms" not in text
@@ -253,7 +252,7 @@ def test_report_renders_in_a_real_browser(demo_out, tmp_path):
     distinct = np.unique((image.reshape(-1, 3) * 255).astype(np.uint8), axis=0)
     assert distinct.shape[0] > 200  # text, tables and maps, not an empty page
     assert image.std() > 0.05
-    docs = Path(__file__).resolve().parents[1] / "docs"
+    docs = Path(__file__).resolve().parents[2] / "docs"
     if docs.is_dir():  # the pictures README shows
         shutil.copyfile(shot, docs / "report_screenshot.png")
         shutil.copyfile(
@@ -345,7 +344,7 @@ def test_scenario_file_reference_is_current():
     assert allowed("scenario.storm") == set(STORM_KEYS)
     assert set(WETNESS_KEYS) <= allowed("scenario")
 
-    docs = Path(__file__).resolve().parents[1] / "docs" / "scenario-file.md"
+    docs = Path(__file__).resolve().parents[2] / "docs" / "scenario-file.md"
     assert docs.read_text() == markdown(), "run: python -m slopescreen.maps.region.scenario_schema"
     for key in ("soil_layer", "soil_unit_field", "did you mean friction_deg?", "[comparison]"):
         assert key in docs.read_text()

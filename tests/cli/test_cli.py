@@ -10,7 +10,7 @@ import pytest
 from slopescreen import critical_saturation, factor_of_safety, fit_envelope
 from slopescreen.cli.main import main
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 SLOPE = [
     "slope",
     "--slope-deg",

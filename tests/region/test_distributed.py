@@ -12,7 +12,7 @@ import rasterio
 from slopescreen.maps.io import rasters
 from slopescreen.maps.region.engine import run
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 SCENARIOS = ROOT / "demo_region" / "quillbrook_scenarios.toml"
 ONLY = ["wet_season", "wet_season_logged"]
 
