@@ -62,7 +62,10 @@ def _demo(src: Path, folder: Path) -> dict[str, float]:
     env = dict(os.environ, PYTHONPATH=str(src))
     scenarios = folder / "quillbrook_scenarios.toml"
     text = scenarios.read_text()
-    keys = (src / "slopescreen" / "maps" / "scenario_schema.py").read_text()
+    schema = src / "slopescreen" / "maps" / "region" / "scenario_schema.py"
+    if not schema.exists():  # a checkout from before the map engine was split by role
+        schema = src / "slopescreen" / "maps" / "scenario_schema.py"
+    keys = schema.read_text()
     if '"series"' not in keys:  # an older checkout without the key
         text = "\n".join(line for line in text.splitlines() if not line.startswith("series"))
     toml = folder / f"bench_{abs(hash(str(src)))}.toml"
