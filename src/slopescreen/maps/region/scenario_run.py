@@ -516,6 +516,53 @@ def _hectares(table: np.ndarray) -> list[float]:
     return [float(a) / 10_000.0 for a in table[1:, 1:].sum(axis=0)]
 
 
+@dataclass
+class ClassAreas:
+    """Hectares by class beside the FS classes: probability classes (all units), hazard
+    classes (per unit and class) with their names, hazard classes with soil spreads."""
+
+    probability: list[float] | None = None
+    hazard: np.ndarray | None = None
+    hazard_names: list[str] = field(default_factory=list)
+    spread: list[float] | None = None
+
+
+def _summary(
+    cfg: Config, sc: Scenario, unit_keys: list[str], names: list[str], sums: TileSums
+) -> tuple[list[dict[str, object]], ClassAreas]:
+    """The rows of summary.csv (FS classes, then probability, hazard and hazard-with-spread
+    classes where the scenario has them) and the areas the report shows."""
+    rows = summary_rows(
+        sums.table, unit_keys, names, sc.name, "factor_of_safety", cut_table=sums.cut_table
+    )
+    areas = ClassAreas()
+    if sums.pf_table is not None:
+        rows += summary_rows(
+            sums.pf_table, unit_keys, list(PF_CLASS_NAMES), sc.name, "probability_of_failure"
+        )
+        areas.probability = _hectares(sums.pf_table)
+    if sums.hazard_table is not None and cfg.rainfall_frequency is not None:
+        areas.hazard_names = cfg.rainfall_frequency.hazard_names
+        rows += summary_rows(
+            sums.hazard_table,
+            unit_keys,
+            areas.hazard_names,
+            sc.name,
+            "annual_failure_probability",
+        )
+        areas.hazard = sums.hazard_table[1:, 1:] / 10_000.0
+    if sums.spread_table is not None:
+        rows += summary_rows(
+            sums.spread_table,
+            unit_keys,
+            areas.hazard_names,
+            sc.name,
+            "annual_failure_probability_with_spread",
+        )
+        areas.spread = _hectares(sums.spread_table)
+    return rows, areas
+
+
 def _zones(
     cfg: Config,
     sc: Scenario,
@@ -594,33 +641,9 @@ def run_scenario(
     _cache_results(
         cfg, sc, out, terrain_cache, terrain_key, (recharge_entry, reused), intensity_entry
     )
-    rows_out = summary_rows(
-        sums.table, units.keys, names, sc.name, "factor_of_safety", cut_table=sums.cut_table
-    )
-    pf_areas = None
-    if sums.pf_table is not None:
-        rows_out += summary_rows(
-            sums.pf_table, units.keys, list(PF_CLASS_NAMES), sc.name, "probability_of_failure"
-        )
-        pf_areas = _hectares(sums.pf_table)
-    hazard_areas, hazard_names = None, []
-    if sums.hazard_table is not None and cfg.rainfall_frequency is not None:
-        hazard_names = cfg.rainfall_frequency.hazard_names
-        rows_out += summary_rows(
-            sums.hazard_table, units.keys, hazard_names, sc.name, "annual_failure_probability"
-        )
-        hazard_areas = sums.hazard_table[1:, 1:] / 10_000.0
-    spread_areas = None
-    if sums.spread_table is not None:
-        rows_out += summary_rows(
-            sums.spread_table,
-            units.keys,
-            hazard_names,
-            sc.name,
-            "annual_failure_probability_with_spread",
-        )
-        spread_areas = _hectares(sums.spread_table)
+    rows_out, areas = _summary(cfg, sc, units.keys, names, sums)
     write_summary(rows_out, out / SUMMARY)
+    hazard_areas, hazard_names = areas.hazard, areas.hazard_names
     written = {s.target.name for s in sinks.values()} | {SUMMARY}
     largest: list[dict[str, object]] = []
     if cfg.zones:
@@ -646,7 +669,7 @@ def run_scenario(
         _hectares(sums.table),
         maps,
         _scenario_warnings(cfg, sc, units, sums.missing),
-        pf_areas,
+        areas.probability,
         sorted(written),
         sc.description,
         float(sums.cut_table[1:, 1:].sum()) / 10_000.0,
@@ -655,7 +678,7 @@ def run_scenario(
         largest,
         hazard_areas.sum(axis=0).tolist() if hazard_areas is not None else None,
         hazard_names,
-        spread_areas,
+        areas.spread,
     ), rows_out
 
 
