@@ -64,7 +64,7 @@ def response_function(t_star: ArrayLike) -> np.ndarray:
     return np.where(t > 0.0, r, 0.0)
 
 
-def _storm_inputs(
+def storm_inputs(
     slope_deg: ArrayLike,
     water_table_depth_m: ArrayLike,
     rain_mm_h: ArrayLike,
@@ -73,6 +73,8 @@ def _storm_inputs(
     diffusivity_m2_s: ArrayLike,
     long_term_infiltration_m_s: ArrayLike,
 ) -> tuple[np.ndarray, ...]:
+    """The checked inputs of the solution in SI units: (beta, d, I_Z / K_z, T in s,
+    D_hat = 4 D_0 cos^2(alpha))."""
     alpha = np.radians(checked("slope_deg", slope_deg, 0.0, 90.0, high_open=True))
     d = checked("water_table_depth_m", water_table_depth_m, 0.0)
     rain = checked("rain_mm_h", rain_mm_h, 0.0, 1000.0) / 1000.0 / SECONDS_PER_HOUR
@@ -120,7 +122,7 @@ def pressure_head_m(
     """
     z = checked("depth_m", depth_m, 0.0, low_open=True)
     t = checked("time_h", time_h, 0.0) * SECONDS_PER_HOUR
-    beta, d, ratio, duration, d_hat = _storm_inputs(
+    beta, d, ratio, duration, d_hat = storm_inputs(
         slope_deg,
         water_table_depth_m,
         rain_mm_h,
@@ -400,7 +402,7 @@ class StormColumns:
             kw.get("seismic_coefficient", 0.0),
             kw.get("water_unit_weight_kn_m3", WATER_UNIT_WEIGHT_KN_M3),
         )
-        beta, d, ratio, duration, d_hat = _storm_inputs(
+        beta, d, ratio, duration, d_hat = storm_inputs(
             kw["slope_deg"],
             kw["water_table_depth_m"],
             kw["rain_mm_h"],
@@ -428,7 +430,7 @@ class StormColumns:
 
     def subset(self, cells: np.ndarray) -> StormColumns:
         """The same columns restricted to ``cells`` (a boolean mask over the cells)."""
-        sub = StormColumns.__new__(StormColumns)
+        sub = type(self).__new__(type(self))
         for name, value in vars(self).items():
             sub.__dict__[name] = value[cells] if isinstance(value, np.ndarray) else value
         return sub
