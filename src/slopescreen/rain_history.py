@@ -27,16 +27,18 @@ step responses).
 
 from __future__ import annotations
 
+import functools
+import math
 from typing import NamedTuple
 
 import numpy as np
 from numpy.typing import ArrayLike
 
 from slopescreen._checks import as_result, checked
+from slopescreen.stability import factor_of_safety
 from slopescreen.storm import (
     DEPTH_REFINE_STEPS,
     FAILS_BEFORE_STORM,
-    FAILURE_PLANES,
     MIN_SLIP_DEPTH_M,
     NOT_BY_LATER,
     SECONDS_PER_HOUR,
@@ -44,6 +46,7 @@ from slopescreen.storm import (
     StormColumns,
     StormSummary,
     depth_minimum,
+    equivalent_saturation,
     golden_minimum,
     response_function,
     slip_planes,
@@ -57,6 +60,12 @@ from slopescreen.storm import (
 PEAK_CANDIDATES = (0.05, 0.25, 0.5, 1.0, 1.5, 2.0, 3.0, 5.0)
 TIME_BRACKETS = 2  # highest local maxima of the candidates refined (golden section)
 TIME_REFINE_STEPS = 30  # golden-section steps on a bracket between two candidates
+HISTORY_CHUNK_CELLS = 2048  # cells searched at once
+# log10 of the response time s = Z^2 / D_hat (s) at which a history's peak is tabulated:
+# 0.01 decade apart, from a millimetre plane in a fast soil to a deep one in a slow soil
+LOG_SCALE = np.linspace(-6.0, 14.0, 2001)
+TABLE_HISTORIES = 64  # distinct histories (rain x K cap) tabulated; beyond: direct search
+HISTORY_FAILURE_PLANES = 24  # planes searched for a history's first failure, then refined
 
 
 class RainSteps(NamedTuple):
@@ -101,8 +110,12 @@ def rain_steps(ends_h: ArrayLike, rain_mm_h: ArrayLike) -> RainSteps:
 
 
 def _jumps(steps: RainSteps, k: np.ndarray) -> list[np.ndarray]:
-    """(I_Z,n - I_Z,n-1) / K_z at t_0 .. t_N: N + 1 jumps of the infiltration ratio."""
-    ratio = np.minimum(steps.rain_mm_h / 1000.0 / SECONDS_PER_HOUR, k) / k
+    """(I_Z,n - I_Z,n-1) / K_z at t_0 .. t_N: N + 1 jumps of the infiltration ratio (rain
+    of one value a step applies to every cell of ``k``)."""
+    rain = steps.rain_mm_h
+    if rain.ndim == 1:
+        rain = rain.reshape(rain.shape[0], *([1] * np.ndim(k)))
+    ratio = np.minimum(rain / 1000.0 / SECONDS_PER_HOUR, k) / k
     padded = np.concatenate((np.zeros((1, *ratio.shape[1:])), ratio))
     padded = np.concatenate((padded, np.zeros((1, *ratio.shape[1:]))))
     return list(np.diff(padded, axis=0))
@@ -156,11 +169,109 @@ def history_pressure_head_m(
     return as_result(np.minimum((z - d) * beta + z * total, beta * z))
 
 
+def history_factor_of_safety(
+    depth_m: ArrayLike,
+    time_h: ArrayLike,
+    *,
+    ends_h: ArrayLike,
+    rain_mm_h: ArrayLike,
+    slope_deg: ArrayLike,
+    water_table_depth_m: ArrayLike,
+    hydraulic_conductivity_m_s: ArrayLike,
+    diffusivity_m2_s: ArrayLike,
+    long_term_infiltration_m_s: ArrayLike = 0.0,
+    **soil: ArrayLike,
+) -> ArrayLike:
+    """FS on the plane at depth Z (m) at time t (h) under rain in steps: the storm's
+    :func:`slopescreen.storm.storm_factor_of_safety` with the head of
+    :func:`history_pressure_head_m`. ``soil``: cohesion_kpa, friction_deg,
+    unit_weight_kn_m3 and the optional arguments of
+    :func:`slopescreen.stability.factor_of_safety`."""
+    psi = history_pressure_head_m(
+        depth_m,
+        time_h,
+        ends_h=ends_h,
+        rain_mm_h=rain_mm_h,
+        slope_deg=slope_deg,
+        water_table_depth_m=water_table_depth_m,
+        hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
+        diffusivity_m2_s=diffusivity_m2_s,
+        long_term_infiltration_m_s=long_term_infiltration_m_s,
+    )
+    m = equivalent_saturation(psi, depth_m, slope_deg)
+    return factor_of_safety(slope_deg, depth_m, saturation=m, **soil)  # type: ignore[arg-type]
+
+
+def _response_sum(
+    jumps: tuple[np.ndarray, ...], starts_s: tuple[float, ...], t_s: ArrayLike, scale_s: ArrayLike
+) -> np.ndarray:
+    """G(t) = sum_n J_n R((t - t_(n-1)) / s): the head's rise per metre of depth."""
+    return sum(
+        jump * response_function((np.asarray(t_s) - start) / scale_s)
+        for jump, start in zip(jumps, starts_s, strict=True)
+    )
+
+
+def _peak_response(
+    jumps: tuple[np.ndarray, ...], starts_s: tuple[float, ...], scale_s: np.ndarray, window_s: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """(max of G over [0, window], when in s) for response times ``scale_s``: candidate
+    times (every change of the rain, the window's ends, and after each change the multiples
+    ``PEAK_CANDIDATES`` of s), the ``TIME_BRACKETS`` highest local maxima refined by golden
+    section between their neighbours; never below the candidates' own maximum."""
+    shape = np.shape(scale_s)
+    times = [np.broadcast_to(np.float64(s), shape) for s in (*starts_s, window_s)]
+    times += [s + c * scale_s for s in starts_s for c in PEAK_CANDIDATES]
+    times_s = np.sort(np.clip(np.stack(times), 0.0, window_s), axis=0)
+    values = _response_sum(jumps, starts_s, times_s, scale_s)
+    local = np.ones(values.shape, bool)
+    local[1:] &= values[1:] >= values[:-1]
+    local[:-1] &= values[:-1] >= values[1:]
+    ranked = np.argsort(np.where(local, -values, np.inf), axis=0, kind="stable")
+    best = np.take_along_axis(values, ranked[:1], axis=0)[0]
+    when = np.take_along_axis(times_s, ranked[:1], axis=0)[0]
+    last = times_s.shape[0] - 1
+    for k in ranked[:TIME_BRACKETS]:
+        a = np.take_along_axis(times_s, np.maximum(k - 1, 0)[None], axis=0)[0]
+        b = np.take_along_axis(times_s, np.minimum(k + 1, last)[None], axis=0)[0]
+        low, t = golden_minimum(
+            lambda s: -_response_sum(jumps, starts_s, s, scale_s), a, b, TIME_REFINE_STEPS
+        )
+        higher = -low > best
+        best, when = np.where(higher, -low, best), np.where(higher, t, when)
+    return best, when
+
+
+@functools.lru_cache(maxsize=256)
+def _peak_table(
+    jumps: tuple[float, ...], starts_s: tuple[float, ...], window_s: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """(max of G, when in s) at every ``LOG_SCALE`` response time for one history: built
+    once and kept (the same history serves every tile of a map and every soil unit with
+    the same K cap)."""
+    scales = 10.0**LOG_SCALE
+    return _peak_response(
+        tuple(np.full(scales.shape, j) for j in jumps), starts_s, scales, window_s
+    )
+
+
+class _PeakTables(NamedTuple):
+    """max of G over the window and when, tabulated against log10 of the response time s
+    for each distinct rain history of the columns (its infiltration capped at their K)."""
+
+    peak: np.ndarray  # (histories, LOG_SCALE.size)
+    when_s: np.ndarray
+
+
 class HistoryColumns(StormColumns):
     """:class:`slopescreen.storm.StormColumns` under rain in steps: the head by
-    superposition, and its highest value over the window at each depth by a scan of
-    candidate times refined by golden section (the constant storm's peak is closed-form;
-    a history's is not)."""
+    superposition, and its highest value over the window at each depth. The head is
+    psi = min((Z - d) beta + Z G(t; s), beta Z) with G depending on the plane only through
+    its response time s = Z^2 / D_hat (and on the column through the infiltration's cap at
+    K_z), so max over t of G is tabulated once per distinct history against log10 s
+    (``LOG_SCALE``) and read by linear interpolation; columns with more distinct histories
+    than ``TABLE_HISTORIES`` (rain that varies cell by cell), and response times beyond the
+    table, are searched directly (:func:`_peak_response`)."""
 
     def __init__(
         self, steps: RainSteps, later_h: float, shape: tuple[int, ...], **kw: ArrayLike
@@ -177,6 +288,19 @@ class HistoryColumns(StormColumns):
         jumps = _jumps(RainSteps(steps.ends_h, rain), k)
         self.jumps = tuple(np.broadcast_to(j, shape) for j in jumps)
         self.starts_h = (0.0, *map(float, steps.ends_h))  # a tuple: not per cell
+        self.starts_s = tuple(s * SECONDS_PER_HOUR for s in self.starts_h)
+        stacked = np.stack([np.ravel(j) for j in self.jumps])
+        distinct, which = np.unique(stacked, axis=1, return_inverse=True)
+        self.tables: _PeakTables | None = None
+        if distinct.shape[1] <= TABLE_HISTORIES:
+            self.history = which.reshape(shape)
+            found = [
+                _peak_table(tuple(map(float, distinct[:, g])), self.starts_s, self.window)
+                for g in range(distinct.shape[1])
+            ]
+            self.tables = _PeakTables(
+                np.stack([f[0] for f in found]), np.stack([f[1] for f in found])
+            )
 
     def subset(self, cells: np.ndarray) -> HistoryColumns:
         sub = super().subset(cells)
@@ -185,43 +309,43 @@ class HistoryColumns(StormColumns):
 
     def head(self, z: np.ndarray, t_h: float | np.ndarray) -> np.ndarray:
         t = np.asarray(t_h, float) * SECONDS_PER_HOUR
-        scale = z * z / self.d_hat
-        total = sum(
-            jump * response_function((t - start * SECONDS_PER_HOUR) / scale)
-            for jump, start in zip(self.jumps, self.starts_h, strict=True)
-        )
+        total = _response_sum(self.jumps, self.starts_s, t, z * z / self.d_hat)
         return np.minimum((z - self.d) * self.beta + z * total, self.beta * z)
 
     def candidate_times_h(self, z: np.ndarray) -> np.ndarray:
-        """Sorted times in [0, later] (axis 0) where the head's peak is sought: the start,
-        every change of the rain, the later time, and after each change the multiples
-        ``PEAK_CANDIDATES`` of the plane's response time."""
+        """Sorted times in [0, later] (axis 0) where a plane's first failure is sought: the
+        start, every change of the rain, the later time, and after each change the
+        multiples ``PEAK_CANDIDATES`` of the plane's response time."""
         scale_h = z * z / self.d_hat / SECONDS_PER_HOUR
         window_h = self.window / SECONDS_PER_HOUR
         times = [np.broadcast_to(np.float64(s), z.shape) for s in (*self.starts_h, window_h)]
         times += [s + c * scale_h for s in self.starts_h for c in PEAK_CANDIDATES]
         return np.sort(np.clip(np.stack(times), 0.0, window_h), axis=0)
 
+    def _peak_g(self, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(max over the window of G at depth z, when in s)."""
+        scale = z * z / self.d_hat
+        if self.tables is None:
+            return _peak_response(self.jumps, self.starts_s, scale, self.window)
+        x = (np.log10(scale) - LOG_SCALE[0]) / (LOG_SCALE[1] - LOG_SCALE[0])
+        inside = (x >= 0.0) & (x <= LOG_SCALE.size - 1)
+        i = np.clip(np.floor(x), 0, LOG_SCALE.size - 2).astype(np.intp)
+        w = np.clip(x - i, 0.0, 1.0)
+        h = np.broadcast_to(self.history, z.shape)
+        peak = (1.0 - w) * self.tables.peak[h, i] + w * self.tables.peak[h, i + 1]
+        when = np.where(w < 0.5, self.tables.when_s[h, i], self.tables.when_s[h, i + 1])
+        if not inside.all():
+            jumps = tuple(np.broadcast_to(j, z.shape)[~inside] for j in self.jumps)
+            direct = _peak_response(jumps, self.starts_s, scale[~inside], self.window)
+            peak, when = peak.copy(), when.copy()
+            peak[~inside], when[~inside] = direct
+        return peak, when
+
     def peak_head(self, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """(highest head at depth z over [0, later], when): the candidates' highest local
-        maxima (``TIME_BRACKETS``) refined by golden section between their neighbours;
-        never below the candidates' own maximum."""
-        times = self.candidate_times_h(z)
-        heads = self.head(z, times)
-        local = np.ones(heads.shape, bool)
-        local[1:] &= heads[1:] >= heads[:-1]
-        local[:-1] &= heads[:-1] >= heads[1:]
-        ranked = np.argsort(np.where(local, -heads, np.inf), axis=0, kind="stable")
-        best = np.take_along_axis(heads, ranked[:1], axis=0)[0]
-        when = np.take_along_axis(times, ranked[:1], axis=0)[0]
-        last = times.shape[0] - 1
-        for k in ranked[:TIME_BRACKETS]:
-            a = np.take_along_axis(times, np.maximum(k - 1, 0)[None], axis=0)[0]
-            b = np.take_along_axis(times, np.minimum(k + 1, last)[None], axis=0)[0]
-            low, t = golden_minimum(lambda s: -self.head(z, s), a, b, TIME_REFINE_STEPS)
-            higher = -low > best
-            best, when = np.where(higher, -low, best), np.where(higher, t, when)
-        return best, when
+        """(highest head at depth z over [0, later], when in h)."""
+        peak, when = self._peak_g(z)
+        head = np.minimum((z - self.d) * self.beta + z * peak, self.beta * z)
+        return head, when / SECONDS_PER_HOUR
 
     def peak_time_h(self, z: np.ndarray) -> np.ndarray:
         return self.peak_head(z)[1]
@@ -247,7 +371,7 @@ def history_summary(
     One step is the constant storm itself (:func:`storm_summary`). Otherwise depth: as the
     storm's (:func:`slopescreen.storm.depth_minimum` from ``min_slip_depth_m``); time: at
     each depth the lowest FS is at the highest head (:meth:`HistoryColumns.peak_head`).
-    Time to failure: on ``FAILURE_PLANES`` planes and the critical one, the first
+    Time to failure: on ``HISTORY_FAILURE_PLANES`` planes and the critical one, the first
     candidate time with FS < 1, bisected back to the candidate before it (the earlier end
     kept). Tested against a dense reference of planes and times.
 
@@ -281,6 +405,31 @@ def history_summary(
         steps.rain_mm_h.shape[1:],
         *(np.shape(v) for v in kwargs.values() if v is not None),
     )
+    size = math.prod(shape)
+    if size > HISTORY_CHUNK_CELLS:  # bounded memory: (times x planes x cells) arrays
+        flat = {
+            k: (None if v is None else np.broadcast_to(np.asarray(v, float), shape).ravel())
+            for k, v in kwargs.items()
+        }
+        rain = steps.rain_mm_h
+        rain = rain.reshape(rain.shape[0], -1) if rain.ndim > 1 else rain
+        rain = np.broadcast_to(rain, (rain.shape[0], size)) if rain.ndim > 1 else rain
+        soil_flat = np.broadcast_to(soil, shape).ravel()
+        parts = []
+        for start in range(0, size, HISTORY_CHUNK_CELLS):
+            part = slice(start, min(start + HISTORY_CHUNK_CELLS, size))
+            chunk = {k: (None if v is None else v[part]) for k, v in flat.items()}
+            parts.append(
+                history_summary(
+                    soil_depth_m=soil_flat[part],
+                    later_h=later,
+                    ends_h=steps.ends_h,
+                    rain_mm_h=rain[:, part] if rain.ndim > 1 else rain,
+                    min_slip_depth_m=shallowest,
+                    **chunk,
+                )
+            )
+        return StormSummary(*(np.concatenate(f).reshape(shape) for f in zip(*parts, strict=True)))
     cols = HistoryColumns(steps, later, shape, **kwargs)
     base = np.broadcast_to(soil, shape).astype(float)
     top = np.minimum(shallowest, base)
@@ -323,7 +472,7 @@ def _first_failure(
     z_min: np.ndarray,
     t_min: np.ndarray,
 ) -> np.ndarray:
-    """The earliest time FS < 1 over ``FAILURE_PLANES`` planes and the critical plane
+    """The earliest time FS < 1 over ``HISTORY_FAILURE_PLANES`` planes and the critical plane
     ``z_min`` (where FS < 1 at ``t_min``): on each, the first candidate time where FS < 1,
     bisected back towards the candidate before it (the earlier end kept); then
     golden-section search over depth around the earliest plane, as the storm's."""
@@ -342,10 +491,10 @@ def _first_failure(
             hi, lo = np.where(under, mid, hi), np.where(under, lo, mid)
         return np.where(below.any(axis=0), lo, np.inf)
 
-    zs = slip_planes(top, base, FAILURE_PLANES)
+    zs = slip_planes(top, base, HISTORY_FAILURE_PLANES)
     times = crossing(zs)
     k = np.argmin(times, axis=0)
     a = np.take_along_axis(zs, np.maximum(k - 1, 0)[None], axis=0)[0]
-    b = np.take_along_axis(zs, np.minimum(k + 1, FAILURE_PLANES - 1)[None], axis=0)[0]
+    b = np.take_along_axis(zs, np.minimum(k + 1, HISTORY_FAILURE_PLANES - 1)[None], axis=0)[0]
     refined, _ = golden_minimum(crossing, a, b, DEPTH_REFINE_STEPS // 2)
     return np.minimum(np.minimum(times.min(axis=0), refined), crossing(z_min))

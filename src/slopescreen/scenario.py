@@ -24,6 +24,11 @@ from slopescreen.hydrology import (
     transmissivity_m2_day,
 )
 from slopescreen.inverse import critical_saturation
+from slopescreen.rain_history import (
+    history_factor_of_safety,
+    history_pressure_head_m,
+    history_summary,
+)
 from slopescreen.stability import factor_of_safety
 from slopescreen.stability_classes import DEFAULT_FS_BREAKS, classify
 from slopescreen.storm import (
@@ -41,7 +46,9 @@ HOLDS_WHEN_SATURATED = -2.0  # critical-recharge code: FS >= 1 even with m = 1
 
 @dataclass(frozen=True)
 class Storm:
-    """A design storm: uniform rain for a duration, judged at its end and at a later time."""
+    """A storm: uniform rain for a duration, or rain in steps (``ends_h`` and
+    ``steps_mm_h``, :mod:`slopescreen.rain_history`; then ``duration_h`` is the last end),
+    judged at its end and at a later time."""
 
     rain_mm_h: float
     duration_h: float
@@ -49,6 +56,8 @@ class Storm:
     water_table_depth_m: float  # initial, vertical
     long_term_infiltration_m_s: float = 0.0
     min_slip_depth_m: float = MIN_SLIP_DEPTH_M  # shallowest slip plane considered
+    ends_h: tuple[float, ...] = ()  # rain in steps: each step's end (h)
+    steps_mm_h: tuple[float, ...] = ()  # and its rain (mm/h)
 
 
 class CellResults(NamedTuple):
@@ -93,6 +102,17 @@ def storm_response(
     equivalent saturation on the basal plane at the end of the storm.
     ``soil``: cohesion, friction, unit weights, root cohesion; ``seismic_coefficient`` acts
     throughout the storm."""
+    if storm.ends_h:
+        return _history_response(
+            slope_deg,
+            storm,
+            depth_m=depth_m,
+            hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
+            diffusivity_m2_s=diffusivity_m2_s,
+            end_only=end_only,
+            seismic_coefficient=seismic_coefficient,
+            **soil,
+        )
     hydro = dict(
         slope_deg=slope_deg,
         water_table_depth_m=storm.water_table_depth_m,
@@ -115,6 +135,40 @@ def storm_response(
     return res, np.broadcast_to(m, np.shape(res.end_min_fs))
 
 
+def _history_response(
+    slope_deg: ArrayLike,
+    storm: Storm,
+    *,
+    depth_m: ArrayLike,
+    hydraulic_conductivity_m_s: ArrayLike,
+    diffusivity_m2_s: ArrayLike,
+    end_only: bool,
+    seismic_coefficient: float,
+    **soil: ArrayLike | None,
+) -> tuple[StormSummary, np.ndarray]:
+    """:func:`storm_response` for rain in steps."""
+    hydro = dict(
+        slope_deg=slope_deg,
+        water_table_depth_m=storm.water_table_depth_m,
+        hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
+        diffusivity_m2_s=diffusivity_m2_s,
+        long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
+    )
+    steps = dict(ends_h=storm.ends_h, rain_mm_h=storm.steps_mm_h)
+    res = history_summary(
+        soil_depth_m=depth_m,
+        later_h=storm.duration_h if end_only else storm.later_h,
+        min_slip_depth_m=storm.min_slip_depth_m,
+        seismic_coefficient=seismic_coefficient,
+        **steps,
+        **hydro,
+        **soil,
+    )
+    psi = history_pressure_head_m(depth_m, storm.duration_h, **steps, **hydro)
+    m = equivalent_saturation(psi, depth_m, slope_deg)
+    return res, np.broadcast_to(m, np.shape(res.end_min_fs))
+
+
 def storm_fs_at(
     slope_deg: ArrayLike,
     storm: Storm,
@@ -132,6 +186,23 @@ def storm_fs_at(
     probability of a storm scenario is evaluated (Duncan 2000 evaluates the critical surface
     of the mean values). ``soil``: cohesion, friction, unit weights, root cohesion."""
     soil = {k: v for k, v in soil.items() if k != "transmissivity_m2_day"}
+    if storm.ends_h:
+        return np.asarray(
+            history_factor_of_safety(
+                np.asarray(depth_fraction, float) * np.asarray(depth_m, float),
+                np.asarray(time_h, float),
+                ends_h=storm.ends_h,
+                rain_mm_h=storm.steps_mm_h,
+                slope_deg=slope_deg,
+                water_table_depth_m=storm.water_table_depth_m,
+                hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
+                diffusivity_m2_s=diffusivity_m2_s,
+                long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
+                seismic_coefficient=seismic_coefficient,
+                **soil,  # type: ignore[arg-type]
+            ),
+            dtype=float,
+        )
     return np.asarray(
         storm_factor_of_safety(
             np.asarray(depth_fraction, float) * np.asarray(depth_m, float),

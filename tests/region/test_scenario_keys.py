@@ -323,6 +323,12 @@ def test_the_shallowest_slip_plane_changes_storms_and_rainfall(region, tmp_path)
         base = _run(region, tmp_path, "slip_base", base_text)
         deeper = base_text + "\n[slip_planes]\nmin_slip_depth_m = 0.5\n"
         assert _run(region, tmp_path, "slip_deeper", deeper) != base
+        # the factor of safety itself, not only the words that state the key
+        values = [
+            rasterio.open(tmp_path / name / "s" / "fs.tif").read(1)
+            for name in ("slip_base", "slip_deeper")
+        ]
+        assert (values[1] > values[0] + 1e-3).any()  # deeper planes only: FS rises
     _write_idf(region)
     head = _text("uniform", soil=soil).split("[[scenario]]")[0]
     tail = "[scenario.soil.A]\n" + soil + "\n"

@@ -40,7 +40,10 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
+import numpy as np
+
 from slopescreen._checks import checked
+from slopescreen.design_storm import PATTERNS, alternating_block
 from slopescreen.errors import InputError
 from slopescreen.maps.io.textfiles import read_text
 from slopescreen.maps.outputs.output_names import (
@@ -110,12 +113,31 @@ class Region:
 
 @dataclass(frozen=True)
 class StormSpec:
-    rain_mm_h: float  # NaN where the scenario's rain_raster gives it
-    duration_h: float
+    rain_mm_h: float  # NaN where the scenario's rain_raster gives it; a history's mean
+    duration_h: float  # a history's: the end of its last step
     later_h: float  # when to look again, hours after the storm began (>= duration)
     initial_water_table_depth_m: float
     long_term_infiltration_mm_day: float = 0.0
     min_slip_depth_m: float = MIN_SLIP_DEPTH_M  # from [slip_planes]
+    hyetograph: Path | None = None  # a gauge's record (CSV)
+    # an alternating-block design storm: (return period yr, duration h, block h or NaN for
+    # the table's shortest duration, pattern), its steps filled from [rainfall_frequency]
+    design: tuple[float, float, float, str] | None = None
+    ends_h: tuple[float, ...] = ()  # rain in steps: the end of each step (h)
+    steps_mm_h: tuple[float, ...] = ()  # and its rain (mm/h)
+
+    @property
+    def source(self) -> str:
+        """Where the rain comes from, in words."""
+        if self.hyetograph is not None:
+            return f"hyetograph {self.hyetograph.name} ({len(self.ends_h)} steps)"
+        if self.design is not None:
+            period, duration, block, pattern = self.design
+            return (
+                f"{pattern}-loaded {period:g}-year design storm of {duration:g} h in blocks of "
+                f"{block:g} h (alternating block)"
+            )
+        return ""
 
 
 @dataclass(frozen=True)
@@ -210,6 +232,17 @@ class Scenario:
             )
         if self.storm is not None:
             st = self.storm
+            if st.ends_h:
+                depth = sum(
+                    r * (e - s)
+                    for r, s, e in zip(st.steps_mm_h, (0.0, *st.ends_h), st.ends_h, strict=False)
+                )
+                return (
+                    f"{st.source}: {depth:.4g} mm in {st.duration_h:g} h (peak "
+                    f"{max(st.steps_mm_h):.4g} mm/h), water table initially "
+                    f"{st.initial_water_table_depth_m:g} m deep; FS the lowest over depth and "
+                    f"time to {st.later_h:g} h"
+                )
             rain = (
                 f"rain from {self.rain_raster.name} (mm/h)"
                 if self.rain_raster is not None
@@ -574,6 +607,8 @@ def load_config(path: str | Path) -> Config:
         )
     )
     scenarios = [_with_min_slip_depth(s, min_slip) for s in scenarios]
+    rainfall_frequency = _rainfall_frequency(r, data, scenarios)
+    scenarios = _with_design_storms(r, scenarios, rainfall_frequency)
     zones = r.flag("outputs", out, "zones", True)
     if not zones and "min_zone_area_m2" in haz:
         raise r.fail(
@@ -594,9 +629,97 @@ def load_config(path: str | Path) -> Config:
         deprecations=tuple(notes),
         comparison=_comparison(r, r.table("", data, "comparison"), [s.name for s in scenarios]),
         inventory=_inventory(r, data["inventory"]) if "inventory" in data else None,
-        rainfall_frequency=_rainfall_frequency(r, data, scenarios),
+        rainfall_frequency=rainfall_frequency,
         min_slip_depth_m=min_slip,
     )
+
+
+HISTORY_SOURCES = ("rain_mm_h", "hyetograph", "design_return_period_yr")
+DESIGN_KEYS = ("design_return_period_yr", "design_duration_h", "block_h", "pattern")
+
+
+def _rain_history(
+    r: _Reader, sub: str, raw: dict[str, Any]
+) -> tuple[dict[str, Any], dict[str, Any]]:
+    """The storm's keys left for the constant storm, and a history's StormSpec fields
+    (a hyetograph read here; a design storm's steps filled once the table is read)."""
+    sources = [k for k in HISTORY_SOURCES if k in raw]
+    if len(sources) != 1:
+        raise r.fail(
+            sub,
+            sources[1] if len(sources) > 1 else "",
+            "storm needs one rain: rain_mm_h with duration_h, a hyetograph, or "
+            "design_return_period_yr with design_duration_h",
+        )
+    source = sources[0]
+    stray = [k for k in DESIGN_KEYS if k in raw and source != "design_return_period_yr"]
+    stray += ["duration_h"] if source != "rain_mm_h" and "duration_h" in raw else []
+    if stray:
+        raise r.fail(sub, stray[0], f"cannot matter with {source}: remove it")
+    if source == "rain_mm_h":
+        return raw, {}
+    rest = {k: v for k, v in raw.items() if k not in (*DESIGN_KEYS, "hyetograph")}
+    if source == "hyetograph":
+        from slopescreen.maps.io.hyetographs import read_hyetograph
+
+        path = r.file(sub, raw, "hyetograph")
+        ends, rain = read_hyetograph(path)
+        depth = float(np.sum(np.diff(np.concatenate(([0.0], ends))) * rain))
+        return rest, {
+            "hyetograph": path,
+            "ends_h": tuple(map(float, ends)),
+            "steps_mm_h": tuple(map(float, rain)),
+            "duration_h": float(ends[-1]),
+            "rain_mm_h": depth / float(ends[-1]),
+        }
+    if "design_duration_h" not in raw:
+        raise r.fail(sub, "", "a design storm needs design_duration_h")
+    number = {k: float(r.number(sub, raw, k, *STORM_KEYS[k])) for k in DESIGN_KEYS[:3] if k in raw}  # type: ignore[arg-type]
+    pattern = r.choice(sub, raw, "pattern", PATTERNS, "centre")
+    design = (
+        number["design_return_period_yr"],
+        number["design_duration_h"],
+        number.get("block_h", math.nan),
+        pattern,
+    )
+    return rest, {"design": design, "duration_h": design[1]}
+
+
+def _with_design_storms(
+    r: _Reader, scenarios: list[Scenario], rf: RainfallFrequency | None
+) -> list[Scenario]:
+    """Design storms' steps from the design-rainfall table (alternating block)."""
+    out = []
+    for sc in scenarios:
+        st = sc.storm
+        if st is None or st.design is None:
+            out.append(sc)
+            continue
+        sub = f"scenario {sc.name!r}.storm"
+        if rf is None or not rf.intensity_mm_h:
+            raise r.fail(
+                sub,
+                "design_return_period_yr",
+                "needs [rainfall_frequency] with an idf_table of numbers (not rasters)",
+            )
+        period, duration, block, pattern = st.design
+        block = rf.durations_h[0] if math.isnan(block) else block
+        try:
+            ends, rain = alternating_block(
+                rf.durations_h, rf.return_periods_yr, rf.intensity_mm_h, period, duration,
+                block, pattern,
+            )  # fmt: skip
+        except ValueError as exc:
+            raise r.fail(sub, "design_return_period_yr", str(exc)) from None
+        storm = replace(
+            st,
+            design=(period, duration, block, pattern),
+            ends_h=tuple(map(float, ends)),
+            steps_mm_h=tuple(map(float, rain)),
+            rain_mm_h=float(np.sum(rain) * block / duration),
+        )
+        out.append(replace(sc, storm=storm))
+    return out
 
 
 def _with_min_slip_depth(sc: Scenario, depth_m: float) -> Scenario:
@@ -613,7 +736,13 @@ def _rainfall_frequency(
 ) -> RainfallFrequency | None:
     """[rainfall_frequency]: required by, and only with, [scenario.rainfall] scenarios."""
     users = [s.name for s in scenarios if s.rainfall is not None]
+    designs = [s.name for s in scenarios if s.storm is not None and s.storm.design is not None]
     if "rainfall_frequency" not in data:
+        if designs:
+            raise r.fail(
+                "", "scenario", f"scenario {designs[0]!r} asks for a design storm: add a "
+                "[rainfall_frequency] table naming the design-rainfall table (idf_table)"
+            )  # fmt: skip
         if users:
             raise r.fail(
                 "", "scenario", f"scenario {users[0]!r} uses [scenario.rainfall]: add a "
@@ -621,10 +750,18 @@ def _rainfall_frequency(
             )  # fmt: skip
         return None
     table = r.table("", data, "rainfall_frequency")
-    if not users:
+    if not users and not designs:
         raise r.fail(
-            "rainfall_frequency", "", "no scenario uses it ([scenario.rainfall]); remove it"
+            "rainfall_frequency",
+            "",
+            "no scenario uses it ([scenario.rainfall] or a design storm); remove it",
         )
+    if not users:
+        for key in ("aep_breaks", "after_h", "series"):
+            if key in table:
+                raise r.fail(
+                    "rainfall_frequency", key, "applies to [scenario.rainfall] scenarios only"
+                )
     r.known("rainfall_frequency", table, allowed("rainfall_frequency"))
     from slopescreen.maps.region.idf_table import read_idf
 
@@ -818,14 +955,16 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
         if not isinstance(raw, dict):
             raise r.fail(table, "storm", "must be a table")
         r.known(sub, raw, allowed("scenario.storm"))
+        raw, history = _rain_history(r, sub, raw)
         for key in ("rain_mm_h", "duration_h", "initial_water_table_depth_m"):
-            if key not in raw:
+            if key not in raw and not (history and key != "initial_water_table_depth_m"):
                 raise r.fail(sub, "", f"storm needs {key}")
-        if isinstance(raw["rain_mm_h"], str):  # a raster of intensities
+        if isinstance(raw.get("rain_mm_h"), str):  # a raster of intensities
             rain_raster = r.file(sub, raw, "rain_mm_h")
             raw = {k: v for k, v in raw.items() if k != "rain_mm_h"}
-        values = {k: r.number(sub, raw, k, *STORM_KEYS[k]) for k in raw}
+        values: dict[str, Any] = {k: r.number(sub, raw, k, *STORM_KEYS[k]) for k in raw}
         values.setdefault("rain_mm_h", math.nan)
+        values |= history
         values.setdefault("later_h", values["duration_h"])
         if values["later_h"] < values["duration_h"]:
             raise r.fail(

@@ -188,10 +188,38 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
         (
             "rain_mm_h",
             Span(0, 1000, also=", or a raster path"),
-            "required",
-            "rain intensity; a raster on any grid (e.g. radar) is resampled bilinearly",
+            "one rain",
+            "constant rain intensity (with duration_h); a raster on any grid (e.g. radar) "
+            "is resampled bilinearly",
         ),
-        ("duration_h", Span(0.01, 1000), "required", "storm duration"),
+        ("duration_h", Span(0.01, 1000), "with rain_mm_h", "storm duration"),
+        (
+            "hyetograph",
+            "path",
+            "one rain",
+            "a gauge's record (CSV): end_h or end_time, rain_mm or rain_mm_h, optionally "
+            "start_h or start_time; rain in steps, summed by superposition",
+        ),
+        (
+            "design_return_period_yr",
+            Span(0.1, 1e6),
+            "one rain",
+            "a design storm from [rainfall_frequency]'s table (alternating block): one of "
+            "its return periods",
+        ),
+        ("design_duration_h", Span(0.01, 1000), "with a design storm", "its total duration"),
+        (
+            "block_h",
+            Span(0.01, 1000),
+            "the table's shortest duration",
+            "a design storm's blocks (within the table's durations)",
+        ),
+        (
+            "pattern",
+            '"front", "centre" or "end"',
+            '"centre"',
+            "where a design storm's largest block falls",
+        ),
         (
             "later_h",
             Span(0, 10000, low_text="duration_h"),

@@ -68,6 +68,9 @@ def core_storm(sc: Scenario, rain_mm_h: np.ndarray | None = None) -> Storm | Non
         later_h=st.later_h,
         water_table_depth_m=st.initial_water_table_depth_m,
         long_term_infiltration_m_s=st.long_term_infiltration_mm_day / 1000 / 86400,
+        min_slip_depth_m=st.min_slip_depth_m,
+        ends_h=st.ends_h,
+        steps_mm_h=st.steps_mm_h,
     )
 
 
