@@ -412,6 +412,27 @@ def design_rainfall() -> None:
     (HERE / "quillbrook_design_rainfall.csv").write_text("\n".join(lines) + "\n")
 
 
+# an invented gauge record of one night: a wet evening, a burst after midnight, a tail
+GAUGE_START = "2026-11-30T18:00:00+00:00"
+GAUGE_RAIN_MM = (1.2, 2.5, 3.1, 2.0, 4.4, 6.8, 12.5, 21.0, 34.0, 18.5, 9.0, 4.2, 2.1, 0.8)
+
+
+def gauge_record() -> None:
+    """quillbrook_gauge_record.csv: hourly rain depths (mm) of an invented night's storm,
+    as a gauge logger writes them (ISO times with a zone; the first row the start)."""
+    from datetime import datetime, timedelta
+
+    start = datetime.fromisoformat(GAUGE_START)
+    lines = [
+        "# Invented hourly gauge record for the fictitious Quillbrook catchment (demo data only)",
+        "end_time,rain_mm",
+        f"{start.isoformat()},",
+    ]
+    for hour, rain in enumerate(GAUGE_RAIN_MM, start=1):
+        lines.append(f"{(start + timedelta(hours=hour)).isoformat()},{rain:g}")
+    (HERE / "quillbrook_gauge_record.csv").write_text("\n".join(lines) + "\n")
+
+
 def main() -> None:
     import geopandas as gpd
     import rasterio
@@ -464,6 +485,7 @@ def main() -> None:
         writer.writerow(COLUMNS)
         writer.writerows(UNITS)
     design_rainfall()
+    gauge_record()
     slides = landslide_inventory(transform)
     target = HERE / "mapped_landslides.gpkg"
     if target.exists():

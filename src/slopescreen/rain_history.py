@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import functools
 import math
+from collections.abc import Callable
 from typing import NamedTuple
 
 import numpy as np
@@ -37,12 +38,10 @@ from numpy.typing import ArrayLike
 from slopescreen._checks import as_result, checked
 from slopescreen.stability import factor_of_safety
 from slopescreen.storm import (
-    DEPTH_REFINE_STEPS,
     FAILS_BEFORE_STORM,
     MIN_SLIP_DEPTH_M,
     NOT_BY_LATER,
     SECONDS_PER_HOUR,
-    TIME_BISECTION_STEPS,
     StormColumns,
     StormSummary,
     depth_minimum,
@@ -58,6 +57,10 @@ from slopescreen.storm import (
 # plane's response time s = Z^2 / D_hat: the response rate r(t*) peaks at t* = 2, and a
 # step's own peak comes within 2 s of its end (storm.peak_time)
 PEAK_CANDIDATES = (0.05, 0.25, 0.5, 1.0, 1.5, 2.0, 3.0, 5.0)
+# fewer for a plane's first failure: the peak time of the plane is added to them
+FAILURE_CANDIDATES = (0.5, 2.0)
+FAILURE_BISECTION_STEPS = 14  # a bracket between candidates / 2^14
+FAILURE_DEPTH_STEPS = 5  # golden-section steps over depth around the earliest plane
 TIME_BRACKETS = 2  # highest local maxima of the candidates refined (golden section)
 TIME_REFINE_STEPS = 30  # golden-section steps on a bracket between two candidates
 HISTORY_CHUNK_CELLS = 2048  # cells searched at once
@@ -205,10 +208,15 @@ def history_factor_of_safety(
 def _response_sum(
     jumps: tuple[np.ndarray, ...], starts_s: tuple[float, ...], t_s: ArrayLike, scale_s: ArrayLike
 ) -> np.ndarray:
-    """G(t) = sum_n J_n R((t - t_(n-1)) / s): the head's rise per metre of depth."""
+    """G(t) = sum_n J_n R((t - t_(n-1)) / s): the head's rise per metre of depth (at one
+    time t, the changes after it add nothing and are skipped)."""
+    t = np.asarray(t_s)
+    pairs = zip(jumps, starts_s, strict=True)
+    if t.ndim == 0:
+        pairs = [(j, s) for j, s in pairs if s < float(t)]  # type: ignore[assignment]
     return sum(
-        jump * response_function((np.asarray(t_s) - start) / scale_s)
-        for jump, start in zip(jumps, starts_s, strict=True)
+        (jump * response_function((t - start) / scale_s) for jump, start in pairs),
+        np.zeros(np.broadcast_shapes(np.shape(scale_s), t.shape)),
     )
 
 
@@ -255,6 +263,13 @@ def _peak_table(
     )
 
 
+@functools.lru_cache(maxsize=256)
+def _time_table(jumps: tuple[float, ...], starts_s: tuple[float, ...], t_s: float) -> np.ndarray:
+    """G(t; s) at one time for every ``LOG_SCALE`` response time, for one history."""
+    scales = 10.0**LOG_SCALE
+    return _response_sum(tuple(np.full(scales.shape, j) for j in jumps), starts_s, t_s, scales)
+
+
 class _PeakTables(NamedTuple):
     """max of G over the window and when, tabulated against log10 of the response time s
     for each distinct rain history of the columns (its infiltration capped at their K)."""
@@ -294,10 +309,10 @@ class HistoryColumns(StormColumns):
         self.tables: _PeakTables | None = None
         if distinct.shape[1] <= TABLE_HISTORIES:
             self.history = which.reshape(shape)
-            found = [
-                _peak_table(tuple(map(float, distinct[:, g])), self.starts_s, self.window)
-                for g in range(distinct.shape[1])
-            ]
+            self.histories = tuple(
+                tuple(map(float, distinct[:, g])) for g in range(distinct.shape[1])
+            )  # a tuple: not per cell
+            found = [_peak_table(h, self.starts_s, self.window) for h in self.histories]
             self.tables = _PeakTables(
                 np.stack([f[0] for f in found]), np.stack([f[1] for f in found])
             )
@@ -309,17 +324,43 @@ class HistoryColumns(StormColumns):
 
     def head(self, z: np.ndarray, t_h: float | np.ndarray) -> np.ndarray:
         t = np.asarray(t_h, float) * SECONDS_PER_HOUR
-        total = _response_sum(self.jumps, self.starts_s, t, z * z / self.d_hat)
+        scale = z * z / self.d_hat
+        if t.ndim == 0 and self.tables is not None:  # one time for all: G(t; s) tabulated
+            rows = np.stack([_time_table(h, self.starts_s, float(t)) for h in self.histories])
+            total = self._read_table(rows, scale, lambda s: _response_sum(
+                tuple(np.broadcast_to(j, z.shape)[s] for j in self.jumps),
+                self.starts_s, t, scale[s]))  # fmt: skip
+        else:
+            total = _response_sum(self.jumps, self.starts_s, t, scale)
         return np.minimum((z - self.d) * self.beta + z * total, self.beta * z)
+
+    def _read_table(
+        self,
+        rows: np.ndarray,
+        scale: np.ndarray,
+        direct: Callable[[np.ndarray], np.ndarray],
+    ) -> np.ndarray:
+        """Rows (histories x ``LOG_SCALE``) read at each plane's response time by linear
+        interpolation in log10 s; ``direct`` (given a mask) beyond the table."""
+        x = (np.log10(scale) - LOG_SCALE[0]) / (LOG_SCALE[1] - LOG_SCALE[0])
+        inside = (x >= 0.0) & (x <= LOG_SCALE.size - 1)
+        i = np.clip(np.floor(x), 0, LOG_SCALE.size - 2).astype(np.intp)
+        w = np.clip(x - i, 0.0, 1.0)
+        h = np.broadcast_to(self.history, scale.shape)
+        value = (1.0 - w) * rows[h, i] + w * rows[h, i + 1]
+        if not inside.all():
+            value = value.copy()
+            value[~inside] = direct(~inside)
+        return value
 
     def candidate_times_h(self, z: np.ndarray) -> np.ndarray:
         """Sorted times in [0, later] (axis 0) where a plane's first failure is sought: the
         start, every change of the rain, the later time, and after each change the
-        multiples ``PEAK_CANDIDATES`` of the plane's response time."""
+        multiples ``FAILURE_CANDIDATES`` of the plane's response time."""
         scale_h = z * z / self.d_hat / SECONDS_PER_HOUR
         window_h = self.window / SECONDS_PER_HOUR
         times = [np.broadcast_to(np.float64(s), z.shape) for s in (*self.starts_h, window_h)]
-        times += [s + c * scale_h for s in self.starts_h for c in PEAK_CANDIDATES]
+        times += [s + c * scale_h for s in self.starts_h for c in FAILURE_CANDIDATES]
         return np.sort(np.clip(np.stack(times), 0.0, window_h), axis=0)
 
     def _peak_g(self, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -327,18 +368,13 @@ class HistoryColumns(StormColumns):
         scale = z * z / self.d_hat
         if self.tables is None:
             return _peak_response(self.jumps, self.starts_s, scale, self.window)
-        x = (np.log10(scale) - LOG_SCALE[0]) / (LOG_SCALE[1] - LOG_SCALE[0])
-        inside = (x >= 0.0) & (x <= LOG_SCALE.size - 1)
-        i = np.clip(np.floor(x), 0, LOG_SCALE.size - 2).astype(np.intp)
-        w = np.clip(x - i, 0.0, 1.0)
-        h = np.broadcast_to(self.history, z.shape)
-        peak = (1.0 - w) * self.tables.peak[h, i] + w * self.tables.peak[h, i + 1]
-        when = np.where(w < 0.5, self.tables.when_s[h, i], self.tables.when_s[h, i + 1])
-        if not inside.all():
-            jumps = tuple(np.broadcast_to(j, z.shape)[~inside] for j in self.jumps)
-            direct = _peak_response(jumps, self.starts_s, scale[~inside], self.window)
-            peak, when = peak.copy(), when.copy()
-            peak[~inside], when[~inside] = direct
+
+        def direct(part: np.ndarray, which: int) -> np.ndarray:
+            jumps = tuple(np.broadcast_to(j, z.shape)[part] for j in self.jumps)
+            return _peak_response(jumps, self.starts_s, scale[part], self.window)[which]
+
+        peak = self._read_table(self.tables.peak, scale, lambda s: direct(s, 0))
+        when = self._read_table(self.tables.when_s, scale, lambda s: direct(s, 1))
         return peak, when
 
     def peak_head(self, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -485,7 +521,7 @@ def _first_failure(
         first = np.argmax(below, axis=0)
         hi = np.take_along_axis(times, first[None], axis=0)[0]
         lo = np.take_along_axis(times, np.maximum(first - 1, 0)[None], axis=0)[0]
-        for _ in range(TIME_BISECTION_STEPS):
+        for _ in range(FAILURE_BISECTION_STEPS):
             mid = 0.5 * (lo + hi)
             under = cols.fs(z, mid) < 1.0
             hi, lo = np.where(under, mid, hi), np.where(under, lo, mid)
@@ -496,5 +532,5 @@ def _first_failure(
     k = np.argmin(times, axis=0)
     a = np.take_along_axis(zs, np.maximum(k - 1, 0)[None], axis=0)[0]
     b = np.take_along_axis(zs, np.minimum(k + 1, HISTORY_FAILURE_PLANES - 1)[None], axis=0)[0]
-    refined, _ = golden_minimum(crossing, a, b, DEPTH_REFINE_STEPS // 2)
+    refined, _ = golden_minimum(crossing, a, b, FAILURE_DEPTH_STEPS)
     return np.minimum(np.minimum(times.min(axis=0), refined), crossing(z_min))

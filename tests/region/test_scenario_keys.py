@@ -176,9 +176,68 @@ SOIL_CHANGES = {
 }
 
 
+HISTORY_CHANGES = {  # rain in steps: a gauge's record or a design storm from the table
+    "hyetograph": 'hyetograph = "gauge2.csv"',
+    "design_return_period_yr": "design_return_period_yr = 100.0",
+    "design_duration_h": "design_duration_h = 12.0",
+    "block_h": "block_h = 2.0",
+    "pattern": 'pattern = "end"',
+}
+
+
 def test_the_key_lists_are_complete():
     assert set(SOIL_CHANGES) == set(SOIL_FIELDS)
-    assert set(STORM_CHANGES) == set(STORM_KEYS)
+    assert set(STORM_CHANGES) | set(HISTORY_CHANGES) >= set(STORM_KEYS)
+    assert set(STORM_CHANGES) | set(HISTORY_CHANGES) == allowed_storm_keys()
+
+
+def allowed_storm_keys():
+    from slopescreen.maps.region.scenario_schema import allowed
+
+    return allowed("scenario.storm")
+
+
+def _fs(out):
+    return rasterio.open(out / "s" / "fs.tif").read(1)
+
+
+def test_a_one_step_hyetograph_is_the_constant_storm(region, tmp_path):
+    # the same rain as one step of a gauge's record: the same factor of safety, value for
+    # value (the history of one step is the constant storm)
+    (region / "gauge1.csv").write_text("end_h,rain_mm_h\n6,20\n")
+    constant = _text("storm")
+    gauge = constant.replace("rain_mm_h = 20.0\nduration_h = 6.0", 'hyetograph = "gauge1.csv"')
+    _run(region, tmp_path, "constant", constant)
+    _run(region, tmp_path, "gauge1", gauge)
+    for name in ("fs.tif", "storm_time_to_failure_h.tif", "storm_failure_depth_m.tif"):
+        a, b = (
+            rasterio.open(tmp_path / run / "s" / name).read(1) for run in ("constant", "gauge1")
+        )
+        np.testing.assert_array_equal(a, b)
+
+
+def test_every_rain_history_key_changes_the_factor_of_safety(region, tmp_path):
+    _write_idf(region)
+    (region / "gauge.csv").write_text("end_h,rain_mm\n2,10\n4,60\n6,10\n")
+    (region / "gauge2.csv").write_text("end_h,rain_mm\n2,10\n4,10\n6,60\n")  # end-loaded
+    storm = "rain_mm_h = 20.0\nduration_h = 6.0\nlater_h = 12.0"
+    gauge_text = _text("storm").replace(storm, 'hyetograph = "gauge.csv"\nlater_h = 12.0')
+    design = (
+        "design_return_period_yr = 10.0\ndesign_duration_h = 6.0\nblock_h = 1.0\n"
+        'pattern = "centre"\nlater_h = 24.0'
+    )
+    table = '\n[rainfall_frequency]\nidf_table = "idf.csv"\n'
+    design_text = _text("storm").replace(storm, design) + table
+    _run(region, tmp_path, "gauge", gauge_text)
+    _run(region, tmp_path, "design", design_text)
+    unchanged = []
+    for key, line in HISTORY_CHANGES.items():
+        base_name, text = ("gauge", gauge_text) if key == "hyetograph" else ("design", design_text)
+        old = next(x for x in text.splitlines() if x.startswith(key))
+        _run(region, tmp_path, f"h_{key}", text.replace(old, line))
+        if np.array_equal(_fs(tmp_path / f"h_{key}"), _fs(tmp_path / base_name)):
+            unchanged.append(key)
+    assert unchanged == []
 
 
 @pytest.mark.parametrize("kind", sorted(KINDS))

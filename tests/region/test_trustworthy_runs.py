@@ -628,7 +628,63 @@ RAIN_PATH_INPUTS = {
         "saturated_unit_weight_kn_m3 20 would be below unit_weight_kn_m3 (22); give both",
     ),
 }
+STORM_HEAD = '\n[[scenario]]\nname = "h"\n[scenario.storm]\ninitial_water_table_depth_m = 1.0\n'
+DESIGN = STORM_HEAD + "design_return_period_yr = 10\ndesign_duration_h = 6\n"
+
+
+def _gauge(record, storm='hyetograph = "gauge.csv"\n'):
+    def change(folder):
+        (folder / "gauge.csv").write_text(record)
+        path = folder / "scenarios.toml"
+        path.write_text(path.read_text() + STORM_HEAD + storm)
+
+    return change
+
+
+HISTORY_INPUTS = {
+    "storm with two rains": (
+        _gauge("end_h,rain_mm\n1,2\n", 'hyetograph = "gauge.csv"\nrain_mm_h = 5.0\n'),
+        "storm needs one rain: rain_mm_h with duration_h, a hyetograph, or",
+    ),
+    "duration with a hyetograph": (
+        _gauge("end_h,rain_mm\n1,2\n", 'hyetograph = "gauge.csv"\nduration_h = 5.0\n'),
+        "duration_h: cannot matter with hyetograph: remove it",
+    ),
+    "hyetograph gap": (
+        _gauge("start_h,end_h,rain_mm\n0,1,2\n2,3,1\n"),
+        "gauge.csv: line 3: a gap of 1 h after the previous interval",
+    ),
+    "hyetograph mixed zones": (
+        _gauge("end_time,rain_mm\n2026-12-01T00:00Z,\n2026-12-01T01:00,3\n"),
+        "gauge.csv: line 3: '2026-12-01T01:00' mixes times with and without a time zone",
+    ),
+    "design storm without a table": (
+        _rainfall(scenario=DESIGN, table=None),
+        "scenario 'h' asks for a design storm: add a [rainfall_frequency] table",
+    ),
+    "design storm period not tabulated": (
+        _rainfall(scenario=DESIGN.replace("= 10\n", "= 50\n", 1)),
+        "return_period_yr must be one of the table's (2, 10), got 50",
+    ),
+    "design storm pattern unknown": (
+        _rainfall(scenario=DESIGN + 'pattern = "middle"\n'),
+        "pattern: must be one of front, centre, end, got 'middle'",
+    ),
+    "design storm blocks beyond the table": (
+        _rainfall(scenario=DESIGN.replace("design_duration_h = 6", "design_duration_h = 12")),
+        "must lie within the table's durations (1 to 6 h): no extrapolation",
+    ),
+    "block_h without a design storm": (
+        _gauge("end_h,rain_mm\n1,2\n", 'hyetograph = "gauge.csv"\nblock_h = 1.0\n'),
+        "block_h: cannot matter with hyetograph: remove it",
+    ),
+    "hazard breaks with design storms only": (
+        _rainfall(scenario=DESIGN, table='idf_table = "idf.csv"\naep_breaks = [0.1]\n'),
+        "[rainfall_frequency] aep_breaks: applies to [scenario.rainfall] scenarios only",
+    ),
+}
 BAD_INPUTS.update(INVENTORY_INPUTS)
+BAD_INPUTS.update(HISTORY_INPUTS)
 BAD_INPUTS.update(RAIN_PATH_INPUTS)
 BAD_INPUTS.update(RAINFALL_INPUTS)
 BAD_INPUTS.update(RAIN_RASTER_INPUTS)

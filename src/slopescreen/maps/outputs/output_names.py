@@ -42,6 +42,8 @@ STORM_FS_LATER = "storm_fs_later.tif"
 STORM_FAILURE_DEPTH = "storm_failure_depth_m.tif"
 STORM_TIME_TO_FAILURE = "storm_time_to_failure_h.tif"
 STORM_TIME_TO_FAILURE_MAP = "storm_time_to_failure_h.png"
+FAILING_AREA = "failing_area.csv"
+FAILING_AREA_MAP = "failing_area.png"
 RETURN_PERIOD = "triggering_return_period_yr.tif"
 RETURN_PERIOD_MAP = "triggering_return_period_yr.png"
 ANNUAL_PROBABILITY = "annual_failure_probability.tif"
@@ -109,6 +111,8 @@ SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
         "hours until FS first falls below 1; -1 never, -2 before the storm",
     ),
     (STORM_TIME_TO_FAILURE_MAP, "storm, maps on", "map of the time to failure"),
+    (FAILING_AREA, "storm", "ground area failed (FS first below 1) by each time, and the rain"),
+    (FAILING_AREA_MAP, "storm, maps on", "failing area against time under the hyetograph"),
     (
         "critical_intensity_<D>h_mm_h.tif",
         "rainfall",

@@ -185,3 +185,45 @@ def threshold_figure(
               title=f"grey dashed: {design_label}", title_fontsize=7)  # fmt: skip
     fig.set_size_inches(10.5, 5.6)
     return _save(fig, target, 0.08)
+
+
+def failing_area_figure(
+    target: Path,
+    times_h: np.ndarray,
+    failed_ha: np.ndarray,
+    rain: tuple[np.ndarray, np.ndarray] | None,
+    title: str,
+) -> Path:
+    """The ground area failed (FS first below 1) against time, under the hyetograph (rain
+    in steps: each step's end and intensity; None for rain from a raster)."""
+    plt = _pyplot()
+    fig, (top, bottom) = plt.subplots(
+        2, 1, figsize=(9.0, 5.6), sharex=True, gridspec_kw={"height_ratios": [1, 2]}
+    )
+    if rain is not None:
+        ends, steps = rain
+        starts = np.concatenate(([0.0], ends[:-1]))
+        top.bar(starts, steps, width=ends - starts, align="edge", color="#1f4e79", alpha=0.8)
+        top.set_ylabel("rain (mm/h)")
+    else:
+        top.text(0.5, 0.5, "rain from a raster: varies by cell", ha="center", va="center",
+                 transform=top.transAxes, fontsize=8, color="0.3")  # fmt: skip
+        top.set_yticks([])
+    top.invert_yaxis()  # the hyetograph hangs from the top, as usual
+    top.grid(alpha=0.3)
+    before, last = float(failed_ha[0]), float(failed_ha[-1])
+    bottom.step(times_h, failed_ha, where="post", color=VIOLET, lw=2.0,
+                label=f"failed by then: {last:,.2f} ha at the end")  # fmt: skip
+    bottom.axhline(before, color="0.35", ls="--", lw=1.0,
+                   label=f"already failing before the rain: {before:,.2f} ha")  # fmt: skip
+    bottom.set_xlabel("time since the rain began (h)")
+    bottom.set_ylabel("ground area failed (ha)")
+    bottom.set_xlim(0.0, float(times_h[-1]))
+    rise = max(last - before, 1e-6)
+    bottom.set_ylim(max(before - 0.15 * rise, 0.0), last + 0.15 * rise)  # the rise, not 0
+    bottom.legend(fontsize=7, loc="lower right")
+    bottom.grid(alpha=0.3)
+    import textwrap
+
+    top.set_title(textwrap.fill(title, 100), fontsize=9)
+    return _save(fig, target, bottom=0.06)

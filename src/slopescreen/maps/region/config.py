@@ -329,8 +329,8 @@ class Config:
     def notes(self) -> list[str]:
         """Choices the run made for the user that change results: printed by run and check."""
         rain = self.rainfall_frequency
-        if rain is None:
-            return []
+        if rain is None or not any(s.rainfall is not None for s in self.scenarios):
+            return []  # a table read for design storms alone: no annual probability
         out = []
         if not rain.series_stated:
             out.append(

@@ -21,6 +21,8 @@ from slopescreen.maps.outputs.output_names import (
     ANNUAL_PROBABILITY,
     ANNUAL_PROBABILITY_SPREAD,
     CUT_OFF,
+    FAILING_AREA,
+    FAILING_AREA_MAP,
     FS,
     HAZARD_CLASS,
     HAZARD_CLASS_MAP,
@@ -371,6 +373,7 @@ class TileSums:
     hazard_table: np.ndarray | None
     spread_table: np.ndarray | None
     missing: int
+    failing: np.ndarray | None = None  # storms: area first below FS 1 per time step (m2)
 
 
 def _tile_job(
@@ -438,6 +441,7 @@ def _write_tiles(
         "pf_table": [],
         "hazard_table": [],
         "hazard_spread_table": [],
+        "failing_table": [],
     }
     missing = 0
     with all_or_nothing(*sinks.values()):
@@ -461,6 +465,7 @@ def _write_tiles(
         total("hazard_table"),
         total("hazard_spread_table"),
         missing,
+        total("failing_table"),
     )
 
 
@@ -606,6 +611,42 @@ def _zones(
     return largest_zones(zones), written
 
 
+def _failing_series(
+    cfg: Config, sc: Scenario, failing: np.ndarray, out: Path, maps: dict[str, Path]
+) -> set[str]:
+    """failing_area.csv (and its figure): the ground area whose FS has fallen below 1 by
+    each time of the storm's window, with the rain falling then (a raster's rain: blank)."""
+    from slopescreen.maps.outputs.validation_plots import failing_area_figure
+    from slopescreen.maps.region.scenario_tiles import FAILURE_BINS
+
+    storm = sc.storm
+    assert storm is not None
+    times = np.linspace(0.0, storm.later_h, FAILURE_BINS + 1)
+    failed_ha = np.cumsum(failing) / 10_000.0  # the first: failing before the storm
+    ends = storm.ends_h or (storm.duration_h,)
+    steps = storm.steps_mm_h or (storm.rain_mm_h,)
+    rows: list[dict[str, object]] = []
+    for t, area in zip(times, failed_ha, strict=True):
+        k = int(np.searchsorted(ends, t, side="right"))
+        rain = steps[k] if k < len(steps) and sc.rain_raster is None else ""
+        rain = 0.0 if k >= len(steps) and sc.rain_raster is None else rain
+        rows.append({"time_h": round(float(t), 6), "failed_ha": round(float(area), 6),
+                     "rain_mm_h": rain})  # fmt: skip
+    write_summary(rows, out / FAILING_AREA)
+    written = {FAILING_AREA}
+    if cfg.quicklook_map:
+        rain_steps = None if sc.rain_raster is not None else (np.asarray(ends), np.asarray(steps))
+        maps["failing area over time"] = failing_area_figure(
+            out / FAILING_AREA_MAP,
+            times,
+            failed_ha,
+            rain_steps,
+            f"{cfg.region.name}: scenario {sc.name}: ground area failed (FS first below 1)",
+        )
+        written.add(FAILING_AREA_MAP)
+    return written
+
+
 def _remove_stale(out: Path, written: set[str]) -> None:
     """Remove the files an earlier run of another configuration left in the folder."""
     for stale in set(SCENARIO_FILES) - written:
@@ -660,6 +701,8 @@ def run_scenario(
             maps |= draw_rainfall_maps(cfg, sc, grid, units.keys, terrain_dir, out, hazard_areas)
             maps["rainfall thresholds"] = draw_thresholds(cfg, sc, grid, units, terrain_dir, out)
     written |= {p.name for p in maps.values()}
+    if sums.failing is not None and sc.storm is not None:
+        written |= _failing_series(cfg, sc, sums.failing, out, maps)
     _remove_stale(out, written)
     return ScenarioSummary(
         sc.name,

@@ -28,6 +28,7 @@ from slopescreen.scenario import (
     storm_response,
 )
 from slopescreen.stability_classes import PF_CLASS_NAMES, classify, classify_probability
+from slopescreen.storm import FAILS_BEFORE_STORM
 
 BETA_CAP = 10.0  # reliability index stored within +-10 (P_f 0 or 1 gives +-inf)
 
@@ -338,7 +339,30 @@ def area_tables(
         pf_classes[valid] = classify_probability(probability)
         add_areas(pf_table, codes * valid, pf_classes, cell_area)
         out["pf_table"] = pf_table
+    if job.scenario.storm is not None:
+        out["failing_table"] = failing_areas(
+            rasters["storm_time_to_failure"][valid],
+            np.broadcast_to(cell_area, codes.shape)[valid],
+            job.scenario.storm.later_h,
+        )
     return out
+
+
+FAILURE_BINS = 240  # time steps of the failing-area series over [0, later]
+
+
+def failing_areas(time_to_failure_h: np.ndarray, area_m2: np.ndarray, later_h: float) -> np.ndarray:
+    """Ground area (m2) whose FS first falls below 1 in each of ``FAILURE_BINS`` equal
+    steps of [0, later], after the area failing before the storm (code -2): a cumulative
+    sum gives the area failed by each time."""
+    before = float(area_m2[time_to_failure_h == FAILS_BEFORE_STORM].sum())
+    timed = time_to_failure_h >= 0.0
+    counts, _ = np.histogram(
+        time_to_failure_h[timed],
+        np.linspace(0.0, later_h, FAILURE_BINS + 1),
+        weights=area_m2[timed],
+    )
+    return np.concatenate(([before], counts))
 
 
 def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
