@@ -48,6 +48,7 @@ SLOW_TESTS = {
     "test_every_inventory_key_changes_the_outputs",
     "test_every_rainfall_key_changes_the_outputs",
     "test_against_bisection_on_the_storm_factor_of_safety",
+    "test_history_minimum_against_a_dense_reference",
 }
 
 

@@ -15,7 +15,9 @@ from slopescreen.maps.region.config import load_config
 from slopescreen.maps.region.scenario_schema import SCHEMA, Span
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_region"
-PATH_KEYS = {"dem", "soil_units", "soil_table", "idf_table", "path"}
+PATH_KEYS = {"dem", "soil_units", "soil_table", "idf_table", "path", "hyetograph"}
+# a design storm's keys: within their span, and also within the design-rainfall table
+DESIGN_KEYS = {"design_return_period_yr", "design_duration_h", "block_h"}
 
 
 def _toml_value(value: object) -> str:
@@ -46,8 +48,9 @@ def _demo() -> dict:
     data = tomllib.loads((DEMO / "quillbrook_scenarios.toml").read_text(encoding="utf-8"))
     for table in data.values():
         for item in table if isinstance(table, list) else [table]:
-            for key in PATH_KEYS & set(item):
-                item[key] = str(DEMO / item[key])
+            for where in (item, item.get("storm") or {}):
+                for key in PATH_KEYS & set(where):
+                    where[key] = str(DEMO / where[key])
     return data
 
 
@@ -57,6 +60,11 @@ def _with(table: str, key: str, value: float) -> dict:
     by_name = {s["name"]: s for s in data["scenario"]}
     if table == "scenario":
         where = by_name["wet_season" if key == "recharge_mm_day" else "dry_season"]
+    elif table == "scenario.storm" and key in DESIGN_KEYS:
+        where = by_name["design_storm"]["storm"]
+        for constant in ("rain_mm_h", "duration_h"):
+            where.pop(constant)
+        where |= {"design_return_period_yr": 100.0, "design_duration_h": 12.0}
     elif table == "scenario.storm":
         where = by_name["design_storm"]["storm"]
         where["later_h"] = 10000.0  # a long duration stays within it
@@ -82,8 +90,8 @@ NUMERIC = [
 
 
 def test_every_numeric_key_is_probed():
-    # the keys the reader checks as numbers: each has its range in the schema (20 of them)
-    assert len(NUMERIC) == 20
+    # the keys the reader checks as numbers: each has its range in the schema (23 of them)
+    assert len(NUMERIC) == 23
     assert {("scenario.storm", "rain_mm_h"), ("inventory", "test_share")} <= {
         (t, k) for t, k, _ in NUMERIC
     }
@@ -105,6 +113,8 @@ def test_the_reader_checks_the_schema_range(tmp_path, table, key, span):
         path.write_text(_toml(_with(table, key, math.floor(below) if whole else below)))
         with pytest.raises(InputError, match=key):
             load_config(path)
+    if key in DESIGN_KEYS:
+        return  # the table, not the span, decides which values are taken (tested elsewhere)
     high = int(span.high) if whole else float(span.high)
     path.write_text(_toml(_with(table, key, high)))
     load_config(path)  # the bound itself is taken
