@@ -187,8 +187,10 @@ HISTORY_CHANGES = {  # rain in steps: a gauge's record or a design storm from th
 
 def test_the_key_lists_are_complete():
     assert set(SOIL_CHANGES) == set(SOIL_FIELDS)
-    assert set(STORM_CHANGES) | set(HISTORY_CHANGES) >= set(STORM_KEYS)
-    assert set(STORM_CHANGES) | set(HISTORY_CHANGES) == allowed_storm_keys()
+    # the initial recharge: test_a_steady_recharge_sets_the_water_table_before_the_storm
+    storm_rows = set(STORM_CHANGES) | set(HISTORY_CHANGES) | {"initial_recharge_mm_day"}
+    assert storm_rows >= set(STORM_KEYS)
+    assert storm_rows == allowed_storm_keys()
 
 
 def allowed_storm_keys():
@@ -214,6 +216,22 @@ def test_a_one_step_hyetograph_is_the_constant_storm(region, tmp_path):
             rasterio.open(tmp_path / run / "s" / name).read(1) for run in ("constant", "gauge1")
         )
         np.testing.assert_array_equal(a, b)
+
+
+def test_a_steady_recharge_sets_the_water_table_before_the_storm(region, tmp_path):
+    # no recharge: the water table at the soil base (1.5 m in both units), the same FS as
+    # that depth given as one number; 20 mm/day raises it where the catchment is wet
+    base = _text("storm").replace("initial_water_table_depth_m = 1.0", "{}")
+    for name, line in (
+        ("at_base", "initial_water_table_depth_m = 1.5"),
+        ("recharge_0", "initial_recharge_mm_day = 0.0"),
+        ("recharge_20", "initial_recharge_mm_day = 20.0"),
+    ):
+        _run(region, tmp_path, name, base.replace("{}", line))
+    np.testing.assert_array_equal(_fs(tmp_path / "at_base"), _fs(tmp_path / "recharge_0"))
+    wetter, dry = _fs(tmp_path / "recharge_20"), _fs(tmp_path / "recharge_0")
+    mapped = dry > -9999.0
+    assert np.all(wetter[mapped] <= dry[mapped]) and np.any(wetter[mapped] < dry[mapped])
 
 
 def test_every_rain_history_key_changes_the_factor_of_safety(region, tmp_path):

@@ -678,6 +678,10 @@ HISTORY_INPUTS = {
         _gauge("end_h,rain_mm\n1,2\n", 'hyetograph = "gauge.csv"\nblock_h = 1.0\n'),
         "block_h: cannot matter with hyetograph: remove it",
     ),
+    "storm with two initial states": (
+        _gauge("end_h,rain_mm\n1,2\n", 'hyetograph = "gauge.csv"\ninitial_recharge_mm_day = 5\n'),
+        "storm needs one initial state: initial_water_table_depth_m or initial_recharge_mm_day",
+    ),
     "hazard breaks with design storms only": (
         _rainfall(scenario=DESIGN, table='idf_table = "idf.csv"\naep_breaks = [0.1]\n'),
         "[rainfall_frequency] aep_breaks: applies to [scenario.rainfall] scenarios only",

@@ -125,6 +125,19 @@ class StormSpec:
     design: tuple[float, float, float, str] | None = None
     ends_h: tuple[float, ...] = ()  # rain in steps: the end of each step (h)
     steps_mm_h: tuple[float, ...] = ()  # and its rain (mm/h)
+    # the water table before the storm from a steady recharge (mm/day), cell by cell, in
+    # place of one depth (initial_water_table_depth_m is then NaN)
+    initial_recharge_mm_day: float | None = None
+
+    @property
+    def initial_state(self) -> str:
+        """The water table before the storm, in words."""
+        if self.initial_recharge_mm_day is not None:
+            return (
+                f"water table initially that of a steady recharge of "
+                f"{self.initial_recharge_mm_day:g} mm/day"
+            )
+        return f"water table initially {self.initial_water_table_depth_m:g} m deep"
 
     @property
     def source(self) -> str:
@@ -239,9 +252,8 @@ class Scenario:
                 )
                 return (
                     f"{st.source}: {depth:.4g} mm in {st.duration_h:g} h (peak "
-                    f"{max(st.steps_mm_h):.4g} mm/h), water table initially "
-                    f"{st.initial_water_table_depth_m:g} m deep; FS the lowest over depth and "
-                    f"time to {st.later_h:g} h"
+                    f"{max(st.steps_mm_h):.4g} mm/h), {st.initial_state}; FS the lowest over "
+                    f"depth and time to {st.later_h:g} h"
                 )
             rain = (
                 f"rain from {self.rain_raster.name} (mm/h)"
@@ -249,9 +261,8 @@ class Scenario:
                 else f"{st.rain_mm_h:g} mm/h"
             )
             return (
-                f"design storm {rain} for {st.duration_h:g} h, water table "
-                f"initially {st.initial_water_table_depth_m:g} m deep; FS the lowest over "
-                f"depth and time to {st.later_h:g} h"
+                f"design storm {rain} for {st.duration_h:g} h, {st.initial_state}; FS the "
+                f"lowest over depth and time to {st.later_h:g} h"
             )
         if self.recharge_mm_day is not None:
             return f"steady recharge {self.recharge_mm_day:g} mm/day"
@@ -956,9 +967,22 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
             raise r.fail(table, "storm", "must be a table")
         r.known(sub, raw, allowed("scenario.storm"))
         raw, history = _rain_history(r, sub, raw)
-        for key in ("rain_mm_h", "duration_h", "initial_water_table_depth_m"):
-            if key not in raw and not (history and key != "initial_water_table_depth_m"):
+        for key in ("rain_mm_h", "duration_h"):
+            if key not in raw and not history:
                 raise r.fail(sub, "", f"storm needs {key}")
+        initial = [
+            k for k in ("initial_water_table_depth_m", "initial_recharge_mm_day") if k in raw
+        ]
+        if len(initial) != 1:
+            raise r.fail(
+                sub,
+                initial[-1] if initial else "",
+                "storm needs one initial state: initial_water_table_depth_m or "
+                "initial_recharge_mm_day",
+            )
+        if initial == ["initial_recharge_mm_day"]:
+            raw = raw | {"initial_water_table_depth_m": 0.0}  # replaced by NaN below
+            history = history | {"initial_water_table_depth_m": math.nan}
         if isinstance(raw.get("rain_mm_h"), str):  # a raster of intensities
             rain_raster = r.file(sub, raw, "rain_mm_h")
             raw = {k: v for k, v in raw.items() if k != "rain_mm_h"}

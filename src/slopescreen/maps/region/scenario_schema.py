@@ -226,7 +226,19 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
             "duration_h",
             "look again this long after the start",
         ),
-        ("initial_water_table_depth_m", Span(0, 100), "required", "water table before the storm"),
+        (
+            "initial_water_table_depth_m",
+            Span(0, 100),
+            "one initial state",
+            "water table before the storm, the same depth everywhere",
+        ),
+        (
+            "initial_recharge_mm_day",
+            Span(0, 10000),
+            "one initial state",
+            "instead: the water table of a steady recharge (mm/day) before the storm, cell by "
+            "cell as in a steady scenario: depth x (1 - m)",
+        ),
         ("long_term_infiltration_mm_day", Span(0, 1000), "0", "steady infiltration before it"),
     ],
     "scenario.rainfall": [

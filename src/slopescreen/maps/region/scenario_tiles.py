@@ -71,7 +71,7 @@ def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) ->
     """FS of a unit's cells for the reliability methods (samples broadcast over cells)."""
     if sc.storm is not None:  # at the critical plane and time of the mean parameters
         p.pop("specific_catchment_area_m")
-        storm = core_storm(sc, block.get("rain"))
+        storm = core_storm(sc, block.get("rain"), block.get("water_table"))
         assert storm is not None
         return storm_fs_at(
             p.pop("slope_deg"),
@@ -183,7 +183,9 @@ def _storm_values(
     """(FS, saturation, storm rasters) of a storm scenario's cells; the critical plane and
     time go into ``block`` for the probability."""
     sc = job.scenario
-    storm = core_storm(sc, block.get("rain"))
+    if sc.storm is not None and sc.storm.initial_recharge_mm_day is not None:
+        block["water_table"] = _initial_water_table(job, block)
+    storm = core_storm(sc, block.get("rain"), block.get("water_table"))
     assert storm is not None
     summary, m = storm_response(
         block["slope"],
@@ -200,6 +202,29 @@ def _storm_values(
         "storm_time_to_failure": np.asarray(summary.time_to_failure_h),
     }
     return summary.window_min_fs, m, values
+
+
+def _initial_water_table(job: TileJob, block: dict[str, np.ndarray]) -> np.ndarray:
+    """The water table before the storm, cell by cell: the saturated thickness m z of a
+    steady recharge (the steady scenarios' model, :mod:`slopescreen.hydrology`) below the
+    surface of the soil of depth z: d = z (1 - m)."""
+    from slopescreen.maps.region.kernels import steady_saturation_by_unit
+
+    t, c = job.tables, block["codes"]
+    storm = job.scenario.storm
+    assert storm is not None and storm.initial_recharge_mm_day is not None
+    m = np.empty(c.size)
+    steady_saturation_by_unit(
+        np.array([storm.initial_recharge_mm_day], float),
+        block["tan"],
+        block["sca"],
+        c,
+        t["depth_m"],
+        t["hydraulic_conductivity_m_s"],
+        t["transmissivity_m2_day"],
+        m,
+    )
+    return t["depth_m"][c] * (1.0 - m)
 
 
 def _steady_saturation(

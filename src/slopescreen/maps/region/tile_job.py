@@ -57,8 +57,11 @@ class TileJob:
     intensity_tables: dict[float, Any] = field(default_factory=dict)
 
 
-def core_storm(sc: Scenario, rain_mm_h: np.ndarray | None = None) -> Storm | None:
-    """The scenario's storm for the core; ``rain_mm_h`` per cell where a raster gives it."""
+def core_storm(
+    sc: Scenario, rain_mm_h: np.ndarray | None = None, water_table_m: np.ndarray | None = None
+) -> Storm | None:
+    """The scenario's storm for the core; ``rain_mm_h`` per cell where a raster gives it,
+    ``water_table_m`` per cell where a steady recharge sets the initial state."""
     if sc.storm is None:
         return None
     st = sc.storm
@@ -66,7 +69,9 @@ def core_storm(sc: Scenario, rain_mm_h: np.ndarray | None = None) -> Storm | Non
         rain_mm_h=st.rain_mm_h if rain_mm_h is None else rain_mm_h,  # type: ignore[arg-type]
         duration_h=st.duration_h,
         later_h=st.later_h,
-        water_table_depth_m=st.initial_water_table_depth_m,
+        water_table_depth_m=(
+            st.initial_water_table_depth_m if water_table_m is None else water_table_m  # type: ignore[arg-type]
+        ),
         long_term_infiltration_m_s=st.long_term_infiltration_mm_day / 1000 / 86400,
         min_slip_depth_m=st.min_slip_depth_m,
         ends_h=st.ends_h,
