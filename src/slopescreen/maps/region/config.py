@@ -973,10 +973,14 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
         initial = [
             k for k in ("initial_water_table_depth_m", "initial_recharge_mm_day") if k in raw
         ]
-        if len(initial) != 1:
+        if not initial:
+            raise r.fail(
+                sub, "", "storm needs initial_water_table_depth_m (or initial_recharge_mm_day)"
+            )
+        if len(initial) > 1:
             raise r.fail(
                 sub,
-                initial[-1] if initial else "",
+                initial[-1],
                 "storm needs one initial state: initial_water_table_depth_m or "
                 "initial_recharge_mm_day",
             )

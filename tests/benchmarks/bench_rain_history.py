@@ -1,0 +1,78 @@
+"""Rain in steps against the constant storm and a steady scenario's per-cell work, side by
+side in one run on the same cells (numpy core, one process):
+
+    python tests/benchmarks/bench_rain_history.py [--cells 20000] [--repeat 2]
+
+Prints cells/s and the ratios the rain-path issue asks about: a storm against the steady
+per-cell FS (target: at most 20x; the map engine adds tile I/O to both), and hyetographs of
+4, 12 and 24 steps against the constant storm of the same duration (target for 24 steps:
+at most 3x). Not a test: no assertion.
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+
+import numpy as np
+
+
+def _best(fn, repeat: int) -> float:
+    times = []
+    for _ in range(repeat):
+        start = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - start)
+    return min(times)
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--cells", type=int, default=20_000)
+    parser.add_argument("--repeat", type=int, default=2)
+    args = parser.parse_args()
+
+    from slopescreen.rain_history import history_summary
+    from slopescreen.scenario import scenario_fs
+    from slopescreen.storm import storm_summary
+
+    rng = np.random.default_rng(7)
+    n = args.cells
+    soil = dict(
+        cohesion_kpa=rng.uniform(0.0, 6.0, n),
+        friction_deg=rng.uniform(28.0, 38.0, n),
+        unit_weight_kn_m3=18.0,
+    )
+    slope = rng.uniform(10.0, 45.0, n)
+    depth = rng.uniform(0.8, 2.0, n)
+    hydro = dict(hydraulic_conductivity_m_s=1e-5, diffusivity_m2_s=5e-5)
+    steady = _best(
+        lambda: scenario_fs(slope, rng.uniform(10, 500, n), depth_m=depth, saturation=0.5, **soil),
+        args.repeat,
+    )
+    column = dict(slope_deg=slope, water_table_depth_m=1.0, **soil, **hydro)
+    constant = _best(
+        lambda: storm_summary(
+            soil_depth_m=depth, later_h=24.0, duration_h=12.0, rain_mm_h=20.0, **column
+        ),
+        args.repeat,
+    )
+    print(f"cells: {n:,}")
+    print(f"steady FS (numpy core):       {n / steady:12,.0f} cells/s")
+    print(f"constant 12 h storm:          {n / constant:12,.0f} cells/s  "
+          f"({constant / steady:,.0f}x the steady FS)")  # fmt: skip
+    for steps in (4, 12, 24):
+        ends = np.linspace(12.0 / steps, 12.0, steps)
+        rain = rng.uniform(0.0, 40.0, steps)
+        took = _best(
+            lambda ends=ends, rain=rain: history_summary(
+                soil_depth_m=depth, later_h=24.0, ends_h=ends, rain_mm_h=rain, **column
+            ),
+            args.repeat,
+        )
+        print(f"hyetograph of {steps:2d} steps:      {n / took:12,.0f} cells/s  "
+              f"({took / constant:.2f}x the constant storm)")  # fmt: skip
+
+
+if __name__ == "__main__":
+    main()
