@@ -38,13 +38,11 @@ from numpy.typing import ArrayLike
 from slopescreen._checks import as_result, checked
 from slopescreen.stability import factor_of_safety
 from slopescreen.storm import (
-    FAILS_BEFORE_STORM,
     MIN_SLIP_DEPTH_M,
-    NOT_BY_LATER,
     SECONDS_PER_HOUR,
     StormColumns,
     StormSummary,
-    depth_minimum,
+    columns_summary,
     equivalent_saturation,
     golden_minimum,
     response_function,
@@ -468,37 +466,14 @@ def history_summary(
         return StormSummary(*(np.concatenate(f).reshape(shape) for f in zip(*parts, strict=True)))
     cols = HistoryColumns(steps, later, shape, **kwargs)
     base = np.broadcast_to(soil, shape).astype(float)
-    top = np.minimum(shallowest, base)
 
-    def at(t_h: float) -> tuple[np.ndarray, np.ndarray]:
-        return depth_minimum(lambda z: cols.fs(z, t_h), top, base)
+    def first_failure(
+        todo: np.ndarray, top: np.ndarray, base: np.ndarray, z_min: np.ndarray, t_min: np.ndarray
+    ) -> np.ndarray:
+        return _first_failure(cols.subset(todo), top[todo], base[todo], z_min[todo], t_min[todo])
 
-    initial, z_initial = at(0.0)
-    end_fs, z_end = at(end)
-    later_fs, z_later = at(later) if later > end else (end_fs, z_end)
-    window, z_min = depth_minimum(cols.peak_fs, top, base)
-    t_min = cols.peak_time_h(z_min)
-    for value, z, t in ((later_fs, z_later, later), (end_fs, z_end, end), (initial, z_initial, 0)):
-        lower = value < window  # a fixed-time search found lower: keep the window consistent
-        window = np.where(lower, value, window)
-        z_min, t_min = np.where(lower, z, z_min), np.where(lower, t, t_min)
-    failure = np.where(window < 1.0, np.inf, NOT_BY_LATER)
-    failure = np.where(initial < 1.0, FAILS_BEFORE_STORM, failure)
-    todo = np.isinf(failure)
-    if todo.any():
-        failure[todo] = _first_failure(
-            cols.subset(todo), top[todo], base[todo], z_min[todo], t_min[todo]
-        )
-    return StormSummary(
-        as_result(initial),
-        as_result(end_fs),
-        as_result(z_end),
-        as_result(later_fs),
-        as_result(failure),
-        as_result(window),
-        as_result(z_min),
-        as_result(t_min),
-    )
+    summary = columns_summary(cols, base, shallowest, end, later, first_failure)
+    return StormSummary(*(as_result(field) for field in summary))
 
 
 def _first_failure(

@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
+from functools import partial
 from typing import NamedTuple
 
 import numpy as np
@@ -552,6 +553,26 @@ def _summary_block(
     """:func:`storm_summary` for one block of cells."""
     cols = StormColumns(end, later, shape, **kwargs)
     base = np.broadcast_to(soil, shape).astype(float)
+    return columns_summary(cols, base, shallowest, end, later, partial(_first_failure, cols))
+
+
+FirstFailure = Callable[
+    [np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray], np.ndarray
+]  # (todo, top, base, z_min, t_min) -> first time FS < 1 on the cells todo
+
+
+def columns_summary(
+    cols: StormColumns,
+    base: np.ndarray,
+    shallowest: float,
+    end: float,
+    later: float,
+    first_failure: FirstFailure,
+) -> StormSummary:
+    """The summary of columns under a storm or a rainfall history: minima over depth at
+    the start, at ``end`` and at ``later``, over depth and time (the plane's lowest FS,
+    :meth:`StormColumns.peak_fs`, kept no higher than the fixed-time minima), and the time
+    to failure with its codes, by ``first_failure`` on the cells that need it."""
     top = np.minimum(shallowest, base)
 
     def at(t_h: float) -> tuple[np.ndarray, np.ndarray]:
@@ -570,7 +591,7 @@ def _summary_block(
     failure = np.where(initial < 1.0, FAILS_BEFORE_STORM, failure)
     todo = np.isinf(failure)
     if todo.any():
-        failure[todo] = _first_failure(cols, todo, top, base, z_min, t_min)
+        failure[todo] = first_failure(todo, top, base, z_min, t_min)
     return StormSummary(initial, end_fs, z_end, later_fs, failure, window, z_min, t_min)
 
 
