@@ -69,6 +69,13 @@ later_h = 36.0
 initial_water_table_depth_m = 0.8
 
 [[scenario]]
+name = "gauge"
+[scenario.storm]
+hyetograph = "gauge.csv"
+later_h = 24.0
+initial_recharge_mm_day = 15.0
+
+[[scenario]]
 name = "rain"
 [scenario.rainfall]
 initial_water_table_depth_m = 0.8
@@ -234,6 +241,7 @@ def gauntlet(tmp_path_factory):
         for j, t in enumerate(periods)
     ]  # fmt: skip
     (tmp / "idf.csv").write_text("\n".join(rows) + "\n")
+    (tmp / "gauge.csv").write_text("end_h,rain_mm\n3,6\n5,40\n8,9\n")  # rain in steps
     return tmp, dems
 
 
@@ -285,7 +293,7 @@ def test_every_scenario_kind_runs_on_real_terrain(gauntlet, name):
     assert name not in ("one_row", "one_column")
     with rasterio.open(tmp / dem) as src:
         has_data = src.read_masks(1) > 0
-    for scenario in ("dry", "wet_raster", "steady", "storm", "rain", "rain_more"):
+    for scenario in ("dry", "wet_raster", "steady", "storm", "gauge", "rain", "rain_more"):
         with rasterio.open(out / scenario / "fs.tif") as src:
             fs = src.read(1, masked=True)
             cap = float(src.tags()["fs_cap"])
@@ -295,9 +303,10 @@ def test_every_scenario_kind_runs_on_real_terrain(gauntlet, name):
         with rasterio.open(out / scenario / "probability_of_failure.tif") as src:
             pf = src.read(1, masked=True).compressed()
         assert ((pf >= 0) & (pf <= 1)).all()
-    with rasterio.open(out / "storm" / "storm_time_to_failure_h.tif") as src:
-        ttf = src.read(1, masked=True).compressed()
-    assert ((ttf >= 0) | (ttf == -1) | (ttf == -2)).all()
+    for storm in ("storm", "gauge"):
+        with rasterio.open(out / storm / "storm_time_to_failure_h.tif") as src:
+            ttf = src.read(1, masked=True).compressed()
+        assert ((ttf >= 0) | (ttf == -1) | (ttf == -2)).all()
     with rasterio.open(out / "rain" / "annual_failure_probability.tif") as src:
         p = src.read(1, masked=True).compressed()
     assert ((p >= 0) & (p <= 1)).all()

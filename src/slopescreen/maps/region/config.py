@@ -984,15 +984,13 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
                 "storm needs one initial state: initial_water_table_depth_m or "
                 "initial_recharge_mm_day",
             )
-        if initial == ["initial_recharge_mm_day"]:
-            raw = raw | {"initial_water_table_depth_m": 0.0}  # replaced by NaN below
-            history = history | {"initial_water_table_depth_m": math.nan}
         if isinstance(raw.get("rain_mm_h"), str):  # a raster of intensities
             rain_raster = r.file(sub, raw, "rain_mm_h")
             raw = {k: v for k, v in raw.items() if k != "rain_mm_h"}
         values: dict[str, Any] = {k: r.number(sub, raw, k, *STORM_KEYS[k]) for k in raw}
         values.setdefault("rain_mm_h", math.nan)
         values |= history
+        values.setdefault("initial_water_table_depth_m", math.nan)  # from the recharge
         values.setdefault("later_h", values["duration_h"])
         if values["later_h"] < values["duration_h"]:
             raise r.fail(
