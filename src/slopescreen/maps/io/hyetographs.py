@@ -13,7 +13,6 @@ Columns:
 
 from __future__ import annotations
 
-import csv
 import math
 from datetime import datetime
 from pathlib import Path
@@ -21,7 +20,7 @@ from pathlib import Path
 import numpy as np
 
 from slopescreen.errors import InputError
-from slopescreen.maps.io.textfiles import read_text
+from slopescreen.maps.io.textfiles import read_csv_rows
 
 END_COLUMNS = ("end_h", "end_time")
 START_COLUMNS = ("start_h", "start_time")
@@ -57,15 +56,8 @@ def _hours(path: Path, number: int, text: str, timed: bool, zone: list[bool]) ->
 
 def read_hyetograph(path: Path) -> tuple[np.ndarray, np.ndarray]:
     """(ends_h from the start of the record, rain_mm_h of each interval), checked."""
-    lines = [
-        (n, line)
-        for n, line in enumerate(read_text(path, "hyetograph").splitlines(), start=1)
-        if line.strip() and not line.lstrip().startswith("#")
-    ]
-    try:
-        rows = list(csv.reader(line for _, line in lines))
-    except csv.Error as exc:
-        raise InputError(f"{path}: hyetograph is not readable CSV ({exc})") from None
+    numbered = read_csv_rows(path, "hyetograph")
+    rows = [row for _, row in numbered]
     if len(rows) < 2:
         raise InputError(f"{path}: hyetograph needs a header and at least one interval")
     head = [h.strip() for h in rows[0]]
@@ -87,7 +79,7 @@ def read_hyetograph(path: Path) -> tuple[np.ndarray, np.ndarray]:
     zone: list[bool] = []
     times, amounts, numbers = [], [], []
     previous_end = None
-    for (number, _), row in zip(lines[1:], rows[1:], strict=True):
+    for number, row in numbered[1:]:
         values = dict(zip(head, row, strict=False))
         if len(row) != len(head):
             raise InputError(f"{path}: line {number}: needs {len(head)} values, got {row}")

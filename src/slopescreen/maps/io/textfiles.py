@@ -7,6 +7,7 @@ guess is made (a wrong guess would silently change a name or a number).
 from __future__ import annotations
 
 import codecs
+import csv
 from pathlib import Path
 
 from slopescreen.errors import InputError
@@ -47,3 +48,18 @@ def read_text(path: str | Path, what: str) -> str:
             "text); save it as UTF-8"
         )
     return text
+
+
+def read_csv_rows(path: str | Path, what: str) -> list[tuple[int, list[str]]]:
+    """(line number, cells) of every row of a CSV text file, blank lines and lines
+    starting with # skipped (the header is the first row)."""
+    lines = [
+        (n, line)
+        for n, line in enumerate(read_text(path, what).splitlines(), start=1)
+        if line.strip() and not line.lstrip().startswith("#")
+    ]
+    try:
+        rows = list(csv.reader(line for _, line in lines))
+    except csv.Error as exc:
+        raise InputError(f"{path}: {what} is not readable CSV ({exc})") from None
+    return [(n, row) for (n, _), row in zip(lines, rows, strict=True)]

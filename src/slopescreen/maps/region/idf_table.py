@@ -12,7 +12,6 @@ return period, lines starting with # skipped. The amount is
 
 from __future__ import annotations
 
-import csv
 import math
 from collections.abc import Callable
 from pathlib import Path
@@ -21,7 +20,7 @@ import numpy as np
 
 from slopescreen.errors import InputError
 from slopescreen.maps.io.grid import Grid
-from slopescreen.maps.io.textfiles import read_text
+from slopescreen.maps.io.textfiles import read_csv_rows
 from slopescreen.rainfall_frequency import check_axes, check_table, plausible_intensity_mm_h
 
 NUMBERS = ("intensity_mm_h", "depth_mm")
@@ -34,15 +33,8 @@ def read_idf(
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, tuple[tuple[Path, ...], ...], bool]:
     """(durations h, return periods yr, intensities mm/h on their grid or None, rasters on
     the same grid or (), whether the rasters hold depths in mm), sorted."""
-    lines = [
-        (n, line)
-        for n, line in enumerate(read_text(path, "rainfall table").splitlines(), start=1)
-        if line.strip() and not line.lstrip().startswith("#")
-    ]
-    try:
-        rows = list(csv.reader(line for _, line in lines))
-    except csv.Error as exc:
-        raise InputError(f"{path}: rainfall table is not readable CSV ({exc})") from None
+    numbered = read_csv_rows(path, "rainfall table")
+    rows = [row for _, row in numbered]
     if not rows:
         raise InputError(f"{path}: rainfall table is empty")
     head = [h.strip() for h in rows[0]]
@@ -55,7 +47,7 @@ def read_idf(
         )
     column = amount[0]
     cells: dict[tuple[float, float], float | Path] = {}
-    for (number, _), row in zip(lines[1:], rows[1:], strict=True):
+    for number, row in numbered[1:]:
         values = dict(zip(head, row, strict=False))
         try:
             d, t = (float(values[c]) for c in ("duration_h", "return_period_yr"))
