@@ -349,9 +349,9 @@ def run(
             # and a failure puts the previous run's outputs back (_previous_restored_on_failure)
             stack.enter_context(_previous_restored_on_failure(out, subfolders, staging))
             state.missing = [s.name for s in chosen]
-            write_state(out, cfg, inputs, chosen, timings, state)
-            if cfg.report or (out / REPORT).exists():
+            if cfg.report:  # first, so that a manifest saying "not complete" has its page
                 write_text(out / REPORT, _unfinished_report(cfg, state))
+            write_state(out, cfg, inputs, chosen, timings, state)
             os.replace(staging / SOIL_UNIT, real_folder(out / TERRAIN_FOLDER) / SOIL_UNIT)
             state.outputs.append(f"{TERRAIN_FOLDER}/{SOIL_UNIT}")
             steps = _Steps(timings, state, echo, progress, runner, numba_threads)
