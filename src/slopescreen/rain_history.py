@@ -49,6 +49,7 @@ from slopescreen.storm import (
     slip_planes,
     storm_inputs,
     storm_summary,
+    summary_in_chunks,
 )
 
 # candidate times of the head's peak after each change of the rain, in units of the
@@ -75,10 +76,6 @@ class RainSteps(NamedTuple):
 
     ends_h: np.ndarray
     rain_mm_h: np.ndarray
-
-    @property
-    def starts_h(self) -> np.ndarray:
-        return np.concatenate(([0.0], self.ends_h[:-1]))
 
     @property
     def duration_h(self) -> float:
@@ -161,13 +158,15 @@ def history_pressure_head_m(
         long_term_infiltration_m_s,
     )
     k = np.asarray(hydraulic_conductivity_m_s, dtype=float)
-    starts = np.concatenate(([0.0], steps.ends_h)) * SECONDS_PER_HOUR
-    scale = z * z / d_hat
-    total = sum(
-        jump * response_function((t - start) / scale)
-        for jump, start in zip(_jumps(steps, k), starts, strict=True)
-    )
-    return as_result(np.minimum((z - d) * beta + z * total, beta * z))
+    starts = tuple(s * SECONDS_PER_HOUR for s in (0.0, *map(float, steps.ends_h)))
+    total = _response_sum(tuple(_jumps(steps, k)), starts, t, z * z / d_hat)
+    return as_result(_capped_head(z, d, beta, total))
+
+
+def _capped_head(z: ArrayLike, d: ArrayLike, beta: ArrayLike, rise: ArrayLike) -> np.ndarray:
+    """psi = (Z - d) beta + Z G, capped at beta Z (the water table at the surface)."""
+    z = np.asarray(z)
+    return np.minimum((z - d) * beta + z * rise, beta * z)
 
 
 def history_factor_of_safety(
@@ -291,15 +290,7 @@ class HistoryColumns(StormColumns):
     ) -> None:
         super().__init__(0.0, later_h, shape, rain_mm_h=0.0, **kw)
         k = np.broadcast_to(np.asarray(kw["hydraulic_conductivity_m_s"], float), shape)
-        n = steps.ends_h.size
-        rain = np.broadcast_to(
-            steps.rain_mm_h.reshape(n, *(1,) * (len(shape) + 1 - steps.rain_mm_h.ndim), -1)
-            if steps.rain_mm_h.ndim > 1
-            else steps.rain_mm_h.reshape(n, *(1,) * len(shape)),
-            (n, *shape),
-        )
-        jumps = _jumps(RainSteps(steps.ends_h, rain), k)
-        self.jumps = tuple(np.broadcast_to(j, shape) for j in jumps)
+        self.jumps = tuple(np.broadcast_to(j, shape) for j in _jumps(steps, k))
         self.starts_h = (0.0, *map(float, steps.ends_h))  # a tuple: not per cell
         self.starts_s = tuple(s * SECONDS_PER_HOUR for s in self.starts_h)
         stacked = np.stack([np.ravel(j) for j in self.jumps])
@@ -325,31 +316,36 @@ class HistoryColumns(StormColumns):
         scale = z * z / self.d_hat
         if t.ndim == 0 and self.tables is not None:  # one time for all: G(t; s) tabulated
             rows = np.stack([_time_table(h, self.starts_s, float(t)) for h in self.histories])
-            total = self._read_table(rows, scale, lambda s: _response_sum(
-                tuple(np.broadcast_to(j, z.shape)[s] for j in self.jumps),
-                self.starts_s, t, scale[s]))  # fmt: skip
+            (total,) = self._read_tables(
+                (rows,), scale, lambda s: (_response_sum(self._jumps_at(s, z.shape),
+                                                          self.starts_s, t, scale[s]),)
+            )  # fmt: skip
         else:
             total = _response_sum(self.jumps, self.starts_s, t, scale)
-        return np.minimum((z - self.d) * self.beta + z * total, self.beta * z)
+        return _capped_head(z, self.d, self.beta, total)
 
-    def _read_table(
+    def _jumps_at(self, part: np.ndarray, shape: tuple[int, ...]) -> tuple[np.ndarray, ...]:
+        """The jumps of the planes ``part`` (a mask over ``shape``)."""
+        return tuple(np.broadcast_to(j, shape)[part] for j in self.jumps)
+
+    def _read_tables(
         self,
-        rows: np.ndarray,
+        tables: tuple[np.ndarray, ...],
         scale: np.ndarray,
-        direct: Callable[[np.ndarray], np.ndarray],
-    ) -> np.ndarray:
-        """Rows (histories x ``LOG_SCALE``) read at each plane's response time by linear
-        interpolation in log10 s; ``direct`` (given a mask) beyond the table."""
+        direct: Callable[[np.ndarray], tuple[np.ndarray, ...]],
+    ) -> tuple[np.ndarray, ...]:
+        """Tables (histories x ``LOG_SCALE``) read at each plane's response time by linear
+        interpolation in log10 s; ``direct`` (given a mask) beyond them, once for all."""
         x = (np.log10(scale) - LOG_SCALE[0]) / (LOG_SCALE[1] - LOG_SCALE[0])
         inside = (x >= 0.0) & (x <= LOG_SCALE.size - 1)
         i = np.clip(np.floor(x), 0, LOG_SCALE.size - 2).astype(np.intp)
         w = np.clip(x - i, 0.0, 1.0)
         h = np.broadcast_to(self.history, scale.shape)
-        value = (1.0 - w) * rows[h, i] + w * rows[h, i + 1]
+        values = tuple((1.0 - w) * rows[h, i] + w * rows[h, i + 1] for rows in tables)
         if not inside.all():
-            value = value.copy()
-            value[~inside] = direct(~inside)
-        return value
+            for value, outside in zip(values, direct(~inside), strict=True):
+                value[~inside] = outside
+        return values
 
     def candidate_times_h(self, z: np.ndarray) -> np.ndarray:
         """Sorted times in [0, later] (axis 0) where a plane's first failure is sought: the
@@ -366,20 +362,18 @@ class HistoryColumns(StormColumns):
         scale = z * z / self.d_hat
         if self.tables is None:
             return _peak_response(self.jumps, self.starts_s, scale, self.window)
-
-        def direct(part: np.ndarray, which: int) -> np.ndarray:
-            jumps = tuple(np.broadcast_to(j, z.shape)[part] for j in self.jumps)
-            return _peak_response(jumps, self.starts_s, scale[part], self.window)[which]
-
-        peak = self._read_table(self.tables.peak, scale, lambda s: direct(s, 0))
-        when = self._read_table(self.tables.when_s, scale, lambda s: direct(s, 1))
+        peak, when = self._read_tables(
+            (self.tables.peak, self.tables.when_s),
+            scale,
+            lambda s: _peak_response(self._jumps_at(s, z.shape), self.starts_s, scale[s],
+                                     self.window),
+        )  # fmt: skip
         return peak, when
 
     def peak_head(self, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """(highest head at depth z over [0, later], when in h)."""
         peak, when = self._peak_g(z)
-        head = np.minimum((z - self.d) * self.beta + z * peak, self.beta * z)
-        return head, when / SECONDS_PER_HOUR
+        return _capped_head(z, self.d, self.beta, peak), when / SECONDS_PER_HOUR
 
     def peak_time_h(self, z: np.ndarray) -> np.ndarray:
         return self.peak_head(z)[1]
@@ -441,29 +435,25 @@ def history_summary(
     )
     size = math.prod(shape)
     if size > HISTORY_CHUNK_CELLS:  # bounded memory: (times x planes x cells) arrays
-        flat = {
-            k: (None if v is None else np.broadcast_to(np.asarray(v, float), shape).ravel())
-            for k, v in kwargs.items()
-        }
         rain = steps.rain_mm_h
-        rain = rain.reshape(rain.shape[0], -1) if rain.ndim > 1 else rain
-        rain = np.broadcast_to(rain, (rain.shape[0], size)) if rain.ndim > 1 else rain
-        soil_flat = np.broadcast_to(soil, shape).ravel()
-        parts = []
-        for start in range(0, size, HISTORY_CHUNK_CELLS):
-            part = slice(start, min(start + HISTORY_CHUNK_CELLS, size))
-            chunk = {k: (None if v is None else v[part]) for k, v in flat.items()}
-            parts.append(
-                history_summary(
-                    soil_depth_m=soil_flat[part],
-                    later_h=later,
-                    ends_h=steps.ends_h,
-                    rain_mm_h=rain[:, part] if rain.ndim > 1 else rain,
-                    min_slip_depth_m=shallowest,
-                    **chunk,
-                )
+        n = rain.shape[0]
+        by_cell = rain.ndim > 1
+        if by_cell:
+            rain = np.broadcast_to(rain, (n, *shape)).reshape(n, size)
+
+        def block(chunk: dict[str, np.ndarray | None], part: slice) -> StormSummary:
+            return history_summary(
+                soil_depth_m=chunk.pop("soil_depth_m"),  # type: ignore[arg-type]
+                later_h=later,
+                ends_h=steps.ends_h,
+                rain_mm_h=rain[:, part] if by_cell else rain,
+                min_slip_depth_m=shallowest,
+                **chunk,  # type: ignore[arg-type]
             )
-        return StormSummary(*(np.concatenate(f).reshape(shape) for f in zip(*parts, strict=True)))
+
+        return summary_in_chunks(
+            shape, HISTORY_CHUNK_CELLS, {"soil_depth_m": soil, **kwargs}, block
+        )
     cols = HistoryColumns(steps, later, shape, **kwargs)
     base = np.broadcast_to(soil, shape).astype(float)
 

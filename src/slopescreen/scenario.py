@@ -102,71 +102,39 @@ def storm_response(
     equivalent saturation on the basal plane at the end of the storm.
     ``soil``: cohesion, friction, unit weights, root cohesion; ``seismic_coefficient`` acts
     throughout the storm."""
-    if storm.ends_h:
-        return _history_response(
-            slope_deg,
-            storm,
-            depth_m=depth_m,
-            hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
-            diffusivity_m2_s=diffusivity_m2_s,
-            end_only=end_only,
-            seismic_coefficient=seismic_coefficient,
-            **soil,
-        )
-    hydro = dict(
-        slope_deg=slope_deg,
-        water_table_depth_m=storm.water_table_depth_m,
-        rain_mm_h=storm.rain_mm_h,
-        hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
-        diffusivity_m2_s=diffusivity_m2_s,
-        long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
-    )
-    res = storm_summary(
+    hydro = _storm_hydrology(slope_deg, storm, hydraulic_conductivity_m_s, diffusivity_m2_s)
+    search = dict(
         soil_depth_m=depth_m,
         later_h=storm.duration_h if end_only else storm.later_h,
-        duration_h=storm.duration_h,
         min_slip_depth_m=storm.min_slip_depth_m,
         seismic_coefficient=seismic_coefficient,
-        **hydro,
-        **soil,
     )
-    psi = pressure_head_m(depth_m, storm.duration_h, duration_h=storm.duration_h, **hydro)
+    if storm.ends_h:  # rain in steps
+        rain = dict(ends_h=storm.ends_h, rain_mm_h=storm.steps_mm_h)
+        res = history_summary(**search, **rain, **hydro, **soil)
+        psi = history_pressure_head_m(depth_m, storm.duration_h, **rain, **hydro)
+    else:
+        rain = dict(rain_mm_h=storm.rain_mm_h, duration_h=storm.duration_h)
+        res = storm_summary(**search, **rain, **hydro, **soil)
+        psi = pressure_head_m(depth_m, storm.duration_h, **rain, **hydro)
     m = equivalent_saturation(psi, depth_m, slope_deg)
     return res, np.broadcast_to(m, np.shape(res.end_min_fs))
 
 
-def _history_response(
+def _storm_hydrology(
     slope_deg: ArrayLike,
     storm: Storm,
-    *,
-    depth_m: ArrayLike,
     hydraulic_conductivity_m_s: ArrayLike,
     diffusivity_m2_s: ArrayLike,
-    end_only: bool,
-    seismic_coefficient: float,
-    **soil: ArrayLike | None,
-) -> tuple[StormSummary, np.ndarray]:
-    """:func:`storm_response` for rain in steps."""
-    hydro = dict(
+) -> dict[str, ArrayLike]:
+    """The column's hydrology for the storm functions, the rain apart."""
+    return dict(
         slope_deg=slope_deg,
         water_table_depth_m=storm.water_table_depth_m,
         hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
         diffusivity_m2_s=diffusivity_m2_s,
         long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
     )
-    steps = dict(ends_h=storm.ends_h, rain_mm_h=storm.steps_mm_h)
-    res = history_summary(
-        soil_depth_m=depth_m,
-        later_h=storm.duration_h if end_only else storm.later_h,
-        min_slip_depth_m=storm.min_slip_depth_m,
-        seismic_coefficient=seismic_coefficient,
-        **steps,
-        **hydro,
-        **soil,
-    )
-    psi = history_pressure_head_m(depth_m, storm.duration_h, **steps, **hydro)
-    m = equivalent_saturation(psi, depth_m, slope_deg)
-    return res, np.broadcast_to(m, np.shape(res.end_min_fs))
 
 
 def storm_fs_at(
@@ -186,39 +154,27 @@ def storm_fs_at(
     probability of a storm scenario is evaluated (Duncan 2000 evaluates the critical surface
     of the mean values). ``soil``: cohesion, friction, unit weights, root cohesion."""
     soil = {k: v for k, v in soil.items() if k != "transmissivity_m2_day"}
-    if storm.ends_h:
-        return np.asarray(
-            history_factor_of_safety(
-                np.asarray(depth_fraction, float) * np.asarray(depth_m, float),
-                np.asarray(time_h, float),
-                ends_h=storm.ends_h,
-                rain_mm_h=storm.steps_mm_h,
-                slope_deg=slope_deg,
-                water_table_depth_m=storm.water_table_depth_m,
-                hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
-                diffusivity_m2_s=diffusivity_m2_s,
-                long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
-                seismic_coefficient=seismic_coefficient,
-                **soil,  # type: ignore[arg-type]
-            ),
-            dtype=float,
+    z = np.asarray(depth_fraction, float) * np.asarray(depth_m, float)
+    t = np.asarray(time_h, float)
+    column = _storm_hydrology(slope_deg, storm, hydraulic_conductivity_m_s, diffusivity_m2_s)
+    column |= dict(seismic_coefficient=seismic_coefficient, **soil)
+    if storm.ends_h:  # rain in steps
+        fs = history_factor_of_safety(
+            z,
+            t,
+            ends_h=storm.ends_h,
+            rain_mm_h=storm.steps_mm_h,
+            **column,  # type: ignore[arg-type]
         )
-    return np.asarray(
-        storm_factor_of_safety(
-            np.asarray(depth_fraction, float) * np.asarray(depth_m, float),
-            np.asarray(time_h, float),
-            slope_deg=slope_deg,
-            water_table_depth_m=storm.water_table_depth_m,
+    else:
+        fs = storm_factor_of_safety(
+            z,
+            t,
             rain_mm_h=storm.rain_mm_h,
             duration_h=storm.duration_h,
-            hydraulic_conductivity_m_s=hydraulic_conductivity_m_s,
-            diffusivity_m2_s=diffusivity_m2_s,
-            long_term_infiltration_m_s=storm.long_term_infiltration_m_s,
-            seismic_coefficient=seismic_coefficient,
-            **soil,  # type: ignore[arg-type]
-        ),
-        dtype=float,
-    )
+            **column,  # type: ignore[arg-type]
+        )
+    return np.asarray(fs, dtype=float)
 
 
 def scenario_fs(

@@ -525,20 +525,35 @@ def storm_summary(
     shape = np.broadcast_shapes(
         soil.shape, *(np.shape(v) for v in kwargs.values() if v is not None)
     )
-    size = math.prod(shape)
-    if size <= CHUNK_CELLS:
+    if math.prod(shape) <= CHUNK_CELLS:
         return _summary_block(soil, later, end, shallowest, shape, kwargs)
+
+    def block(chunk: dict[str, np.ndarray | None], part: slice) -> StormSummary:
+        soil_part = chunk.pop("soil_depth_m")
+        n = part.stop - part.start
+        return _summary_block(soil_part, later, end, shallowest, (n,), chunk)  # type: ignore[arg-type]
+
+    return summary_in_chunks(shape, CHUNK_CELLS, {"soil_depth_m": soil, **kwargs}, block)
+
+
+def summary_in_chunks(
+    shape: tuple[int, ...],
+    chunk_cells: int,
+    arrays: dict[str, ArrayLike | None],
+    block: Callable[[dict[str, np.ndarray | None], slice], StormSummary],
+) -> StormSummary:
+    """A summary of many cells worked through ``chunk_cells`` at a time (bounded memory):
+    each of ``arrays`` broadcast to ``shape`` and flattened, ``block`` called on each
+    part of it (with the part's slice of the flattened cells), the parts joined in order."""
+    size = math.prod(shape)
     flat = {
         k: (None if v is None else np.broadcast_to(np.asarray(v, float), shape).ravel())
-        for k, v in kwargs.items()
+        for k, v in arrays.items()
     }
-    soil_flat = np.broadcast_to(soil, shape).ravel()
     parts = []
-    for start in range(0, size, CHUNK_CELLS):
-        part = slice(start, min(start + CHUNK_CELLS, size))
-        chunk = {k: (None if v is None else v[part]) for k, v in flat.items()}
-        n = part.stop - part.start
-        parts.append(_summary_block(soil_flat[part], later, end, shallowest, (n,), chunk))
+    for start in range(0, size, chunk_cells):
+        part = slice(start, min(start + chunk_cells, size))
+        parts.append(block({k: (None if v is None else v[part]) for k, v in flat.items()}, part))
     return StormSummary(*(np.concatenate(f).reshape(shape) for f in zip(*parts, strict=True)))
 
 

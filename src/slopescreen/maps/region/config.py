@@ -40,8 +40,6 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
 from slopescreen._checks import checked
 from slopescreen.design_storm import PATTERNS, alternating_block
 from slopescreen.errors import InputError
@@ -60,6 +58,7 @@ from slopescreen.maps.region.scenario_schema import (
     limits,
     numeric_keys,
 )
+from slopescreen.rain_history import rain_steps
 from slopescreen.rainfall_frequency import SERIES_KINDS, hazard_class_names, table_reach_yr
 from slopescreen.ranges import RANGES
 from slopescreen.stability_classes import DEFAULT_FS_BREAKS, check_breaks
@@ -246,10 +245,7 @@ class Scenario:
         if self.storm is not None:
             st = self.storm
             if st.ends_h:
-                depth = sum(
-                    r * (e - s)
-                    for r, s, e in zip(st.steps_mm_h, (0.0, *st.ends_h), st.ends_h, strict=False)
-                )
+                depth = float(rain_steps(st.ends_h, st.steps_mm_h).depth_mm)
                 return (
                     f"{st.source}: {depth:.4g} mm in {st.duration_h:g} h (peak "
                     f"{max(st.steps_mm_h):.4g} mm/h), {st.initial_state}; FS the lowest over "
@@ -675,7 +671,7 @@ def _rain_history(
 
         path = r.file(sub, raw, "hyetograph")
         ends, rain = read_hyetograph(path)
-        depth = float(np.sum(np.diff(np.concatenate(([0.0], ends))) * rain))
+        depth = float(rain_steps(ends, rain).depth_mm)
         return rest, {
             "hyetograph": path,
             "ends_h": tuple(map(float, ends)),
@@ -727,7 +723,7 @@ def _with_design_storms(
             design=(period, duration, block, pattern),
             ends_h=tuple(map(float, ends)),
             steps_mm_h=tuple(map(float, rain)),
-            rain_mm_h=float(np.sum(rain) * block / duration),
+            rain_mm_h=float(rain_steps(ends, rain).depth_mm) / duration,
         )
         out.append(replace(sc, storm=storm))
     return out

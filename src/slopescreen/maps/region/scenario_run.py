@@ -617,19 +617,20 @@ def _failing_series(
     """failing_area.csv (and its figure): the ground area whose FS has fallen below 1 by
     each time of the storm's window, with the rain falling then (a raster's rain: blank)."""
     from slopescreen.maps.outputs.validation_plots import failing_area_figure
-    from slopescreen.maps.region.scenario_tiles import FAILURE_BINS
+    from slopescreen.maps.region.scenario_tiles import failure_times_h
 
     storm = sc.storm
     assert storm is not None
-    times = np.linspace(0.0, storm.later_h, FAILURE_BINS + 1)
+    times = failure_times_h(storm.later_h)
     failed_ha = np.cumsum(failing) / 10_000.0  # the first: failing before the storm
     ends = storm.ends_h or (storm.duration_h,)
     steps = storm.steps_mm_h or (storm.rain_mm_h,)
     rows: list[dict[str, object]] = []
     for t, area in zip(times, failed_ha, strict=True):
         k = int(np.searchsorted(ends, t, side="right"))
-        rain = steps[k] if k < len(steps) and sc.rain_raster is None else ""
-        rain = 0.0 if k >= len(steps) and sc.rain_raster is None else rain
+        rain: object = ""  # a raster's rain varies by cell
+        if sc.rain_raster is None:
+            rain = steps[k] if k < len(steps) else 0.0
         rows.append({"time_h": round(float(t), 6), "failed_ha": round(float(area), 6),
                      "rain_mm_h": rain})  # fmt: skip
     write_summary(rows, out / FAILING_AREA)

@@ -376,6 +376,11 @@ def area_tables(
 FAILURE_BINS = 240  # time steps of the failing-area series over [0, later]
 
 
+def failure_times_h(later_h: float) -> np.ndarray:
+    """The edges of the failing-area series' time steps: 0 to ``later_h`` in equal steps."""
+    return np.linspace(0.0, later_h, FAILURE_BINS + 1)
+
+
 def failing_areas(time_to_failure_h: np.ndarray, area_m2: np.ndarray, later_h: float) -> np.ndarray:
     """Ground area (m2) whose FS first falls below 1 in each of ``FAILURE_BINS`` equal
     steps of [0, later], after the area failing before the storm (code -2): a cumulative
@@ -384,7 +389,7 @@ def failing_areas(time_to_failure_h: np.ndarray, area_m2: np.ndarray, later_h: f
     timed = time_to_failure_h >= 0.0
     counts, _ = np.histogram(
         time_to_failure_h[timed],
-        np.linspace(0.0, later_h, FAILURE_BINS + 1),
+        failure_times_h(later_h),
         weights=area_m2[timed],
     )
     return np.concatenate(([before], counts))
@@ -413,7 +418,7 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     out["recharge"] = (
         read_block(job.recharge_cache, rows, cols)
         if job.recharge_cache is not None
-        else _recharge_tile(job, rows, cols, terrain_ok, tile.codes, tile.sca)
+        else _recharge_tile(job, rows, cols, terrain_ok, tile)
     )
     tables = area_tables(job, tile, valid, out, values.get("probability"))
     out.pop("hazard_classes_spread", None)
@@ -425,16 +430,19 @@ def _recharge_tile(
     rows: slice,
     cols: slice,
     cells: np.ndarray,
-    codes: np.ndarray,
-    sca: np.ndarray,
+    tile: TileInputs,
 ) -> np.ndarray:
-    """Critical recharge (mm/day) on the tile's cells with terrain and a soil unit."""
-    c = codes[cells]
+    """Critical recharge (mm/day) on the tile's cells with terrain and a soil unit (the
+    slope read once: the tile's own where storms or spreads read it already)."""
+    c = tile.codes[cells]
     params = {name: job.tables[name][c] for name in CORE_FIELDS}
-    slope = read_block(job.slope_deg, rows, cols)[cells].astype(np.float64)
+    slope_deg = tile.slope_deg
+    if slope_deg is None:
+        slope_deg = read_block(job.slope_deg, rows, cols)
+    slope = slope_deg[cells].astype(np.float64)
     recharge = critical_recharge_mm_day(
-        slope, sca[cells], seismic_coefficient=job.scenario.seismic_coefficient, **params
+        slope, tile.sca[cells], seismic_coefficient=job.scenario.seismic_coefficient, **params
     )
-    full = np.full(codes.shape, NODATA_F32, np.float32)
+    full = np.full(tile.codes.shape, NODATA_F32, np.float32)
     full[cells] = np.nan_to_num(recharge, nan=NODATA_F32)
     return full
