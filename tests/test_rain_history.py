@@ -143,12 +143,12 @@ def test_equal_steps_summary_agrees_with_the_exact_constant_storm():
     assert abs(float(split.time_to_failure_h) - float(exact.time_to_failure_h)) < 0.05
 
 
-@pytest.mark.parametrize(("seed", "shared"), [(0, False), (1, False), (2, True), (3, True)])
-def test_history_minimum_against_a_dense_reference(seed, shared):
+@pytest.mark.parametrize(("draw", "shared"), [(0, False), (1, False), (2, True), (3, True)])
+def test_history_minimum_against_a_dense_reference(draw, shared):
     # 200 random columns and hyetographs of 2-6 steps; reference: 300 planes x 600 times.
     # Rain per cell: the direct search; one gauge and three conductivities (six histories
     # with the caps): the tabulated peaks
-    rng = np.random.default_rng(seed)
+    rng = np.random.default_rng(draw)
     cells = 200
     column = dict(
         slope_deg=rng.uniform(20.0, 50.0, cells),
