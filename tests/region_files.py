@@ -89,3 +89,17 @@ def write_raster(path, z, crs="EPSG:32633", transform=None, nodata=-9999.0):
     ) as dst:
         dst.write(z.astype(np.float32), 1)
     return path
+
+
+def write_gauges(folder, name, records, crs="EPSG:4326"):
+    """Two gauges, west and east of the test DEM (given in ``crs``), with these records."""
+    from pyproj import Transformer
+    from shapely.geometry import Point
+
+    to = Transformer.from_crs("EPSG:32633", crs, always_xy=True)
+    points = [Point(*to.transform(x, 5000200.0)) for x in (500050.0, 500450.0)]
+    import geopandas as gpd
+
+    frame = gpd.GeoDataFrame({"name": ["west", "east"], "record": list(records)},
+                             geometry=points, crs=crs)  # fmt: skip
+    frame.to_file(folder / name, driver="GPKG")

@@ -174,9 +174,9 @@ def test_tabulated_peak_equals_bisection():
 def test_compiled_kernel_equals_the_numpy_core():
     from slopescreen.maps.region.kernels import critical_intensity_by_unit
     from slopescreen.rain_thresholds import (
-        _LOG_STORM,
-        _PEAK_OFFSET,
+        LOG_STORM,
         MIN_SLIP_DEPTH_M,
+        PEAK_OFFSET,
         kernel_search,
     )
 
@@ -202,7 +202,7 @@ def test_compiled_kernel_equals_the_numpy_core():
             sca if capped else np.empty(0), codes, unit["depth"], unit["c"],
             np.tan(np.radians(unit["phi"])), unit["gamma"], unit["gamma_sat"], unit["k"],
             unit["d0"], unit["t"], 0.7, 0.0, 0.0, 9.81, kernel_search(),
-            MIN_SLIP_DEPTH_M, _LOG_STORM, _PEAK_OFFSET, -1.0, -2.0, out,
+            MIN_SLIP_DEPTH_M, LOG_STORM, PEAK_OFFSET, -1.0, -2.0, out,
         )  # fmt: skip
         core = critical_intensity_mm_h(
             12.0,

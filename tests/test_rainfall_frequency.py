@@ -193,9 +193,9 @@ def _kernel_intensity(cells, after_h=24.0):
     cell its own parameter row (the map engine's call)."""
     from slopescreen.maps.region.kernels import critical_intensity_by_unit
     from slopescreen.rain_thresholds import (
-        _LOG_STORM,
-        _PEAK_OFFSET,
+        LOG_STORM,
         MIN_SLIP_DEPTH_M,
+        PEAK_OFFSET,
         kernel_search,
     )
 
@@ -208,7 +208,7 @@ def _kernel_intensity(cells, after_h=24.0):
             dur.copy(), dur + after_h * 3600.0, p["tan"], np.empty(0), np.arange(n),
             p["depth"], p["c"], p["tan_phi"], p["gamma"], p["gamma_sat"], p["k"], p["d0"],
             np.full(n, np.nan), 1.0, 0.0, 0.0, 9.81, kernel_search(), MIN_SLIP_DEPTH_M,
-            _LOG_STORM, _PEAK_OFFSET, -1.0, -2.0, out,
+            LOG_STORM, PEAK_OFFSET, -1.0, -2.0, out,
         )  # fmt: skip
         return out
 

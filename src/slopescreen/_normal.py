@@ -9,6 +9,7 @@
 from __future__ import annotations
 
 import math
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -34,13 +35,18 @@ def erfc(x: ArrayLike) -> np.ndarray:
     0.1572992
     """
     x = np.asarray(x, dtype=float)
-    z = np.abs(x)
-    t = 1.0 / (1.0 + 0.5 * z)
-    poly = np.zeros_like(t)
-    for c in reversed(_ERFC[1:]):
-        poly = (poly + c) * t
-    ans = t * np.exp(-z * z + _ERFC[0] + poly)
+    ans = erfc_of_positive(np.abs(x))
     return np.where(x >= 0.0, ans, 2.0 - ans)
+
+
+def erfc_of_positive(z: Any) -> Any:
+    """erfc(z) for z >= 0 (the fit of :func:`erfc`), in plain arithmetic, so that one source
+    serves numpy arrays and compiled scalar kernels (numba)."""
+    c = _ERFC
+    t = 1.0 / (1.0 + 0.5 * z)
+    poly = t * (c[1] + t * (c[2] + t * (c[3] + t * (c[4] + t * (c[5] + t * (
+        c[6] + t * (c[7] + t * (c[8] + t * c[9]))))))))  # fmt: skip
+    return t * np.exp(-z * z + c[0] + poly)
 
 
 def normal_cdf(x: ArrayLike) -> np.ndarray:

@@ -107,7 +107,7 @@ def rain_steps(ends_h: ArrayLike, rain_mm_h: ArrayLike) -> RainSteps:
     return RainSteps(ends, rain)
 
 
-def _jumps(steps: RainSteps, k: np.ndarray) -> list[np.ndarray]:
+def infiltration_jumps(steps: RainSteps, k: np.ndarray) -> list[np.ndarray]:
     """(I_Z,n - I_Z,n-1) / K_z at t_0 .. t_N: N + 1 jumps of the infiltration ratio (rain
     of one value a step applies to every cell of ``k``)."""
     rain = steps.rain_mm_h
@@ -159,7 +159,7 @@ def history_pressure_head_m(
     )
     k = np.asarray(hydraulic_conductivity_m_s, dtype=float)
     starts = tuple(s * SECONDS_PER_HOUR for s in (0.0, *map(float, steps.ends_h)))
-    total = _response_sum(tuple(_jumps(steps, k)), starts, t, z * z / d_hat)
+    total = _response_sum(tuple(infiltration_jumps(steps, k)), starts, t, z * z / d_hat)
     return as_result(_capped_head(z, d, beta, total))
 
 
@@ -248,7 +248,7 @@ def _peak_response(
 
 
 @functools.lru_cache(maxsize=256)
-def _peak_table(
+def peak_table(
     jumps: tuple[float, ...], starts_s: tuple[float, ...], window_s: float
 ) -> tuple[np.ndarray, np.ndarray]:
     """(max of G, when in s) at every ``LOG_SCALE`` response time for one history: built
@@ -261,7 +261,7 @@ def _peak_table(
 
 
 @functools.lru_cache(maxsize=256)
-def _time_table(jumps: tuple[float, ...], starts_s: tuple[float, ...], t_s: float) -> np.ndarray:
+def time_table(jumps: tuple[float, ...], starts_s: tuple[float, ...], t_s: float) -> np.ndarray:
     """G(t; s) at one time for every ``LOG_SCALE`` response time, for one history."""
     scales = 10.0**LOG_SCALE
     return _response_sum(tuple(np.full(scales.shape, j) for j in jumps), starts_s, t_s, scales)
@@ -290,7 +290,7 @@ class HistoryColumns(StormColumns):
     ) -> None:
         super().__init__(0.0, later_h, shape, rain_mm_h=0.0, **kw)
         k = np.broadcast_to(np.asarray(kw["hydraulic_conductivity_m_s"], float), shape)
-        self.jumps = tuple(np.broadcast_to(j, shape) for j in _jumps(steps, k))
+        self.jumps = tuple(np.broadcast_to(j, shape) for j in infiltration_jumps(steps, k))
         self.starts_h = (0.0, *map(float, steps.ends_h))  # a tuple: not per cell
         self.starts_s = tuple(s * SECONDS_PER_HOUR for s in self.starts_h)
         stacked = np.stack([np.ravel(j) for j in self.jumps])
@@ -301,7 +301,7 @@ class HistoryColumns(StormColumns):
             self.histories = tuple(
                 tuple(map(float, distinct[:, g])) for g in range(distinct.shape[1])
             )  # a tuple: not per cell
-            found = [_peak_table(h, self.starts_s, self.window) for h in self.histories]
+            found = [peak_table(h, self.starts_s, self.window) for h in self.histories]
             self.tables = _PeakTables(
                 np.stack([f[0] for f in found]), np.stack([f[1] for f in found])
             )
@@ -315,7 +315,7 @@ class HistoryColumns(StormColumns):
         t = np.asarray(t_h, float) * SECONDS_PER_HOUR
         scale = z * z / self.d_hat
         if t.ndim == 0 and self.tables is not None:  # one time for all: G(t; s) tabulated
-            rows = np.stack([_time_table(h, self.starts_s, float(t)) for h in self.histories])
+            rows = np.stack([time_table(h, self.starts_s, float(t)) for h in self.histories])
             (total,) = self._read_tables(
                 (rows,), scale, lambda s: (_response_sum(self._jumps_at(s, z.shape),
                                                           self.starts_s, t, scale[s]),)

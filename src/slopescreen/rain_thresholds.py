@@ -66,8 +66,8 @@ from slopescreen.storm import (
 )
 
 # the peak of the response lives with the storm physics; its documented import paths here
-_LOG_STORM = storm._LOG_STORM
-_PEAK_OFFSET = storm._PEAK_OFFSET
+LOG_STORM = storm.LOG_STORM
+PEAK_OFFSET = storm.PEAK_OFFSET
 _peak_time_by_bisection = storm._peak_time_by_bisection
 response_function = storm.response_function
 response_rate = storm.response_rate

@@ -12,6 +12,7 @@ storm's later time.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import NamedTuple
 
@@ -95,13 +96,16 @@ def storm_response(
     diffusivity_m2_s: ArrayLike,
     end_only: bool = False,
     seismic_coefficient: float = 0.0,
+    summarise: Callable[..., StormSummary] | None = None,
     **soil: ArrayLike | None,
 ) -> tuple[StormSummary, np.ndarray]:
     """The storm search of :func:`slopescreen.storm.storm_summary` for cells, up to the
     storm's ``later_h`` (or, with ``end_only``, just the end of the storm), and the
     equivalent saturation on the basal plane at the end of the storm.
     ``soil``: cohesion, friction, unit weights, root cohesion; ``seismic_coefficient`` acts
-    throughout the storm."""
+    throughout the storm. ``summarise``: another search with the arguments of
+    :func:`slopescreen.rain_history.history_summary` and the same result (the map engine's
+    compiled one); by default the numpy core's."""
     hydro = _storm_hydrology(slope_deg, storm, hydraulic_conductivity_m_s, diffusivity_m2_s)
     search = dict(
         soil_depth_m=depth_m,
@@ -111,12 +115,21 @@ def storm_response(
     )
     if storm.ends_h:  # rain in steps
         rain = dict(ends_h=storm.ends_h, rain_mm_h=storm.steps_mm_h)
-        res = history_summary(**search, **rain, **hydro, **soil)
         psi = history_pressure_head_m(depth_m, storm.duration_h, **rain, **hydro)
     else:
         rain = dict(rain_mm_h=storm.rain_mm_h, duration_h=storm.duration_h)
-        res = storm_summary(**search, **rain, **hydro, **soil)
         psi = pressure_head_m(depth_m, storm.duration_h, **rain, **hydro)
+    if summarise is not None:
+        steps = (
+            rain
+            if storm.ends_h
+            else dict(ends_h=[storm.duration_h], rain_mm_h=np.asarray(storm.rain_mm_h)[None])
+        )
+        res = summarise(**search, **steps, **hydro, **soil)
+    elif storm.ends_h:
+        res = history_summary(**search, **rain, **hydro, **soil)
+    else:
+        res = storm_summary(**search, **rain, **hydro, **soil)
     m = equivalent_saturation(psi, depth_m, slope_deg)
     return res, np.broadcast_to(m, np.shape(res.end_min_fs))
 

@@ -237,8 +237,8 @@ def _peak_time_by_bisection(storm_star: np.ndarray) -> np.ndarray:
 # t_peak - T* is a smooth function of log T* (2 for short storms, falling slowly for long
 # ones): tabulated once by bisection and interpolated; an error e in the peak's time moves
 # G_max by about G'' e^2 / 2 (G' = 0 there): relative 1e-11 at most on this grid (tested)
-_LOG_STORM = np.linspace(-10.0, 10.0, 4001)
-_PEAK_OFFSET = _peak_time_by_bisection(10.0**_LOG_STORM) - 10.0**_LOG_STORM
+LOG_STORM = np.linspace(-10.0, 10.0, 4001)
+PEAK_OFFSET = _peak_time_by_bisection(10.0**LOG_STORM) - 10.0**LOG_STORM
 
 
 def peak_time(storm_star: ArrayLike, window_star: ArrayLike) -> np.ndarray:
@@ -246,8 +246,8 @@ def peak_time(storm_star: ArrayLike, window_star: ArrayLike) -> np.ndarray:
     end when the peak comes later (G rises to its peak and falls after)."""
     big_t = np.asarray(storm_star, dtype=float)
     log_t = np.log10(np.maximum(big_t, 1e-300))
-    inside = (log_t >= _LOG_STORM[0]) & (log_t <= _LOG_STORM[-1])
-    t_peak = big_t + np.interp(log_t, _LOG_STORM, _PEAK_OFFSET)
+    inside = (log_t >= LOG_STORM[0]) & (log_t <= LOG_STORM[-1])
+    t_peak = big_t + np.interp(log_t, LOG_STORM, PEAK_OFFSET)
     if not inside.all():  # outside the table: bisection
         t_peak = np.where(inside, t_peak, _peak_time_by_bisection(big_t))
     return np.minimum(t_peak, np.asarray(window_star, dtype=float))
@@ -271,10 +271,12 @@ def peak_response(storm_star: ArrayLike, window_star: ArrayLike) -> np.ndarray:
 GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0
 MIN_SLIP_DEPTH_M = 0.05  # shallowest slip plane considered (m): thinner skins are ignored
 DEPTH_PLANES = 12  # planes scanned from the shallowest slip depth to the soil base
-DEPTH_BRACKETS = 3  # local minima of the scan refined (surface skin, wetting front, base)
+# local minima of the scan refined: FS over depth has at most two under a storm (the
+# wetting front and the water table, Iverson 2000), one of them possibly at an end
+DEPTH_BRACKETS = 2
 DEPTH_REFINE_STEPS = 16  # golden-section steps: a bracket of two plane spacings x 0.618^16
-TIME_BISECTION_STEPS = 20  # first failure on each plane: to the window / 2^20
-FAILURE_PLANES = 45  # planes searched for the first failure (cells that fail only)
+TIME_BISECTION_STEPS = 16  # first failure on each plane: to the window / 2^16
+FAILURE_PLANES = 24  # planes searched for the first failure (cells that fail only)
 NOT_BY_LATER = -1.0  # time-to-failure code: FS stays >= 1 up to the later time
 FAILS_BEFORE_STORM = -2.0  # time-to-failure code: FS < 1 before any rain
 CHUNK_CELLS = 16_384  # cells searched at once (bounded memory, cache-friendly)
@@ -354,8 +356,9 @@ def depth_minimum(
     The scan of :func:`slip_planes` starts at the stated shallowest depth itself, so a
     minimum at that bound (a saturated skin on a cohesionless soil) is read exactly, not
     approached from a coarse plane below it; the bracket of two plane spacings around each
-    of the ``brackets`` lowest local minima of the scan (ends included) is refined by
-    golden-section search. The result is never above the scan's own minimum.
+    of the ``brackets`` lowest local minima of the scan (ends included; fewer where the scan
+    has fewer, and none where its values are +inf) is refined by golden-section search.
+    The result is never above the scan's own minimum.
     """
     lo = np.asarray(shallowest_m, float)
     hi = np.asarray(soil_depth_m, float)
@@ -364,14 +367,18 @@ def depth_minimum(
     local = np.ones(values.shape, bool)  # local minima of the scan, ends included
     local[1:] &= values[1:] <= values[:-1]
     local[:-1] &= values[:-1] <= values[1:]
-    ranked = np.argsort(np.where(local, values, np.inf), axis=0, kind="stable")
+    keys = np.where(local, values, np.inf)
+    ranked = np.argsort(keys, axis=0, kind="stable")
     best = np.take_along_axis(values, ranked[:1], axis=0)[0]
     where = np.take_along_axis(zs, ranked[:1], axis=0)[0]
     for k in ranked[: min(brackets, planes)]:
+        found = np.isfinite(np.take_along_axis(keys, k[None], axis=0)[0])  # a local minimum
+        if not found.any():
+            break
         a = np.take_along_axis(zs, np.maximum(k - 1, 0)[None], axis=0)[0]
         b = np.take_along_axis(zs, np.minimum(k + 1, planes - 1)[None], axis=0)[0]
         value, z = golden_minimum(fn, a, b, steps)
-        better = value < best
+        better = found & (value < best)
         best, where = np.where(better, value, best), np.where(better, z, where)
     return best, where
 

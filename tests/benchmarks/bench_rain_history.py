@@ -1,12 +1,13 @@
 """Rain in steps against the constant storm and a steady scenario's per-cell work, side by
-side in one run on the same cells (numpy core, one process):
+side in one run on the same cells: the numpy core (one process) and the map engine's
+compiled storm search (numba's threads):
 
     python tests/benchmarks/bench_rain_history.py [--cells 20000] [--repeat 2]
 
-Prints cells/s and the ratios the rain-path issue asks about: a storm against the steady
-per-cell FS (target: at most 20x; the map engine adds tile I/O to both), and hyetographs of
-4, 12 and 24 steps against the constant storm of the same duration (target for 24 steps:
-at most 3x). Not a test: no assertion.
+Prints cells/s and the ratios the rain-path issue asks about, per cell (the map engine
+adds tile I/O to both; bench_storm_map.py measures whole scenarios): a storm against the
+steady FS, and hyetographs of 4, 12 and 24 steps against the constant storm of the same
+duration (target for 24 steps: at most 3x). Not a test: no assertion.
 """
 
 from __future__ import annotations
@@ -32,9 +33,9 @@ def main() -> None:
     parser.add_argument("--repeat", type=int, default=2)
     args = parser.parse_args()
 
+    from slopescreen.maps.region.storm_kernels import compiled_summary
     from slopescreen.rain_history import history_summary
     from slopescreen.scenario import scenario_fs
-    from slopescreen.storm import storm_summary
 
     rng = np.random.default_rng(7)
     n = args.cells
@@ -51,27 +52,32 @@ def main() -> None:
         args.repeat,
     )
     column = dict(slope_deg=slope, water_table_depth_m=1.0, **soil, **hydro)
-    constant = _best(
-        lambda: storm_summary(
-            soil_depth_m=depth, later_h=24.0, duration_h=12.0, rain_mm_h=20.0, **column
-        ),
-        args.repeat,
-    )
     print(f"cells: {n:,}")
     print(f"steady FS (numpy core):       {n / steady:12,.0f} cells/s")
-    print(f"constant 12 h storm:          {n / constant:12,.0f} cells/s  "
-          f"({constant / steady:,.0f}x the steady FS)")  # fmt: skip
+    hyetographs = {}
     for steps in (4, 12, 24):
         ends = np.linspace(12.0 / steps, 12.0, steps)
-        rain = rng.uniform(0.0, 40.0, steps)
-        took = _best(
-            lambda ends=ends, rain=rain: history_summary(
-                soil_depth_m=depth, later_h=24.0, ends_h=ends, rain_mm_h=rain, **column
+        hyetographs[steps] = (ends, rng.uniform(0.0, 40.0, steps))
+    for label, search in (("numpy core", history_summary), ("compiled", compiled_summary)):
+        search(soil_depth_m=depth[:50], later_h=24.0, ends_h=[12.0], rain_mm_h=[20.0],
+               **{k: v[:50] if np.ndim(v) else v for k, v in column.items()})  # fmt: skip
+        one = _best(
+            lambda search=search: search(
+                soil_depth_m=depth, later_h=24.0, ends_h=[12.0], rain_mm_h=[20.0], **column
             ),
             args.repeat,
         )
-        print(f"hyetograph of {steps:2d} steps:      {n / took:12,.0f} cells/s  "
-              f"({took / constant:.2f}x the constant storm)")  # fmt: skip
+        print(f"{label}: constant 12 h storm {n / one:12,.0f} cells/s  "
+              f"({one / steady:,.0f}x the steady FS)")  # fmt: skip
+        for steps, (ends, rain) in hyetographs.items():
+            took = _best(
+                lambda ends=ends, rain=rain, search=search: search(
+                    soil_depth_m=depth, later_h=24.0, ends_h=ends, rain_mm_h=rain, **column
+                ),
+                args.repeat,
+            )
+            print(f"{label}: hyetograph of {steps:2d} steps {n / took:12,.0f} cells/s  "
+                  f"({took / one:.2f}x the constant storm)")  # fmt: skip
 
 
 if __name__ == "__main__":

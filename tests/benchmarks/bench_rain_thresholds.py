@@ -40,9 +40,9 @@ def main() -> None:
         steady_saturation_by_unit,
     )
     from slopescreen.rain_thresholds import (
-        _LOG_STORM,
-        _PEAK_OFFSET,
+        LOG_STORM,
         MIN_SLIP_DEPTH_M,
+        PEAK_OFFSET,
         kernel_search,
     )
 
@@ -78,7 +78,7 @@ def main() -> None:
                 np.array([d * 3600.0]), np.array([(d + 24.0) * 3600.0]), tan, sca, codes,
                 depth, c, tan_phi, gamma,
                 gamma_sat, k, d0, t, 1.0, 0.0, 0.0, 9.81, kernel_search(),
-                MIN_SLIP_DEPTH_M, _LOG_STORM, _PEAK_OFFSET, -1.0, -2.0, out,
+                MIN_SLIP_DEPTH_M, LOG_STORM, PEAK_OFFSET, -1.0, -2.0, out,
             )  # fmt: skip
         best["8 durations"] = min(best["8 durations"], time.perf_counter() - started)
     job = SimpleNamespace(

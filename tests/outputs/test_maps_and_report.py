@@ -341,7 +341,8 @@ def test_scenario_file_reference_is_current():
 
     # the documented keys are exactly those the reader takes ranges and meanings for
     assert set(SOIL_MEANINGS) == set(SOIL_FIELDS)
-    assert allowed("scenario.storm") == set(STORM_KEYS) | {"hyetograph", "pattern"}
+    non_numeric = {"hyetograph", "pattern", "gauges", "gauge_weighting"}
+    assert allowed("scenario.storm") == set(STORM_KEYS) | non_numeric
     assert set(WETNESS_KEYS) <= allowed("scenario")
 
     docs = Path(__file__).resolve().parents[2] / "docs" / "scenario-file.md"

@@ -6,7 +6,7 @@ import geopandas as gpd
 import numpy as np
 import pytest
 import rasterio
-from region_files import PARAMS, _dem, _polygons
+from region_files import PARAMS, _dem, _polygons, write_gauges
 from shapely.geometry import box
 
 from slopescreen.maps.region.config import SOIL_FIELDS, STORM_KEYS
@@ -185,10 +185,18 @@ HISTORY_CHANGES = {  # rain in steps: a gauge's record or a design storm from th
 }
 
 
+GAUGE_CHANGES = {  # several gauges (base: inverse distance, power 2)
+    "gauges": 'gauges = "gauges_swapped.gpkg"',
+    "gauge_weighting": 'gauge_weighting = "nearest"',  # and no power
+    "gauge_power": "gauge_power = 6.0",
+}
+
+
 def test_the_key_lists_are_complete():
     assert set(SOIL_CHANGES) == set(SOIL_FIELDS)
     # the initial recharge: test_a_steady_recharge_sets_the_water_table_before_the_storm
     storm_rows = set(STORM_CHANGES) | set(HISTORY_CHANGES) | {"initial_recharge_mm_day"}
+    storm_rows |= set(GAUGE_CHANGES)
     assert storm_rows >= set(STORM_KEYS)
     assert storm_rows == allowed_storm_keys()
 
@@ -254,6 +262,27 @@ def test_every_rain_history_key_changes_the_factor_of_safety(region, tmp_path):
         old = next(x for x in text.splitlines() if x.startswith(key))
         _run(region, tmp_path, f"h_{key}", text.replace(old, line))
         if np.array_equal(_fs(tmp_path / f"h_{key}"), _fs(tmp_path / base_name)):
+            unchanged.append(key)
+    assert unchanged == []
+
+
+def test_every_gauge_key_changes_the_factor_of_safety(region, tmp_path):
+    (region / "wet.csv").write_text("end_h,rain_mm\n2,10\n4,60\n6,10\n")
+    (region / "dry.csv").write_text("end_h,rain_mm\n2,0\n4,5\n6,0\n")
+    write_gauges(region, "gauges.gpkg", ("wet.csv", "dry.csv"))
+    write_gauges(region, "gauges_swapped.gpkg", ("dry.csv", "wet.csv"))
+    storm = "rain_mm_h = 20.0\nduration_h = 6.0\nlater_h = 12.0"
+    lines = 'gauges = "gauges.gpkg"\ngauge_weighting = "inverse_distance"\ngauge_power = 2.0'
+    base = _text("storm").replace(storm, f"{lines}\nlater_h = 12.0")
+    _run(region, tmp_path, "gauges", base)
+    unchanged = []
+    for key, line in GAUGE_CHANGES.items():
+        old = next(x for x in base.splitlines() if x.startswith(f"{key} "))
+        text = base.replace(old, line)
+        if key == "gauge_weighting":
+            text = text.replace("gauge_power = 2.0\n", "")
+        _run(region, tmp_path, f"g_{key}", text)
+        if np.array_equal(_fs(tmp_path / f"g_{key}"), _fs(tmp_path / "gauges")):
             unchanged.append(key)
     assert unchanged == []
 

@@ -9,6 +9,7 @@ import tomllib
 from pathlib import Path
 
 import pytest
+from region_files import write_gauges
 
 from slopescreen.errors import InputError
 from slopescreen.maps.region.config import load_config
@@ -65,6 +66,11 @@ def _with(table: str, key: str, value: float) -> dict:
         for constant in ("rain_mm_h", "duration_h"):
             where.pop(constant)
         where |= {"design_return_period_yr": 100.0, "design_duration_h": 12.0}
+    elif table == "scenario.storm" and key == "gauge_power":  # with gauges by distance
+        where = by_name["design_storm"]["storm"]
+        for constant in ("rain_mm_h", "duration_h"):
+            where.pop(constant)
+        where |= {"gauges": "gauges.gpkg", "gauge_weighting": "inverse_distance"}
     elif table == "scenario.storm":
         where = by_name["design_storm"]["storm"]
         where["later_h"] = 10000.0  # a long duration stays within it
@@ -92,8 +98,8 @@ NUMERIC = [
 
 
 def test_every_numeric_key_is_probed():
-    # the keys the reader checks as numbers: each has its range in the schema (24 of them)
-    assert len(NUMERIC) == 24
+    # the keys the reader checks as numbers: each has its range in the schema (25 of them)
+    assert len(NUMERIC) == 25
     assert {("scenario.storm", "rain_mm_h"), ("inventory", "test_share")} <= {
         (t, k) for t, k, _ in NUMERIC
     }
@@ -102,6 +108,9 @@ def test_every_numeric_key_is_probed():
 @pytest.mark.parametrize(("table", "key", "span"), NUMERIC, ids=[f"{t}.{k}" for t, k, _ in NUMERIC])
 def test_the_reader_checks_the_schema_range(tmp_path, table, key, span):
     path = tmp_path / "scenarios.toml"
+    if key == "gauge_power":
+        record = DEMO / "quillbrook_gauge_record.csv"
+        write_gauges(tmp_path, "gauges.gpkg", (str(record), str(record)))
     whole = key in ("samples", "random_state")  # read as integers
     beyond = span.high + max(1, abs(span.high)) * 0.5
     path.write_text(_toml(_with(table, key, int(beyond) if whole else beyond)))

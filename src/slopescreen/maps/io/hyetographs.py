@@ -16,6 +16,7 @@ from __future__ import annotations
 import math
 from datetime import datetime
 from pathlib import Path
+from typing import NamedTuple
 
 import numpy as np
 
@@ -54,8 +55,25 @@ def _hours(path: Path, number: int, text: str, timed: bool, zone: list[bool]) ->
     )
 
 
+class Record(NamedTuple):
+    """A gauge's record: its start (h: 0 for hours, else hours since 1970, UTC for zoned
+    date-times), its clock ("hours", "local date-times" or "zoned date-times"), the ends of
+    its intervals (h from its start) and their rain (mm/h)."""
+
+    start_h: float
+    clock: str
+    ends_h: np.ndarray
+    rain_mm_h: np.ndarray
+
+
 def read_hyetograph(path: Path) -> tuple[np.ndarray, np.ndarray]:
     """(ends_h from the start of the record, rain_mm_h of each interval), checked."""
+    record = read_record(path)
+    return record.ends_h, record.rain_mm_h
+
+
+def read_record(path: Path) -> Record:
+    """A gauge's record, checked (see the module's columns)."""
     numbered = read_csv_rows(path, "hyetograph")
     rows = [row for _, row in numbered]
     if len(rows) < 2:
@@ -140,4 +158,5 @@ def read_hyetograph(path: Path) -> tuple[np.ndarray, np.ndarray]:
             f"{path}: line {numbers[i]}: {intensity[i]:g} mm/h is beyond the allowed "
             f"0 to {MAX_RAIN_MM_H:g} mm/h"
         )
-    return edges[1:], intensity
+    clock = "hours" if not timed else ("zoned date-times" if zone[0] else "local date-times")
+    return Record(float(times[0]), clock, edges[1:], intensity)

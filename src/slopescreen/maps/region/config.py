@@ -52,6 +52,7 @@ from slopescreen.maps.outputs.output_names import (
     TERRAIN_FOLDER,
     VALIDATION_FOLDER,
 )
+from slopescreen.maps.region.gauge_rain import WEIGHTINGS
 from slopescreen.maps.region.scenario_schema import (
     SCHEMA,
     allowed,
@@ -127,6 +128,16 @@ class StormSpec:
     # the water table before the storm from a steady recharge (mm/day), cell by cell, in
     # place of one depth (initial_water_table_depth_m is then NaN)
     initial_recharge_mm_day: float | None = None
+    # several gauges: their layer, names, positions (in gauge_crs, WKT), rain on the
+    # common steps ends_h (gauges x steps; steps_mm_h is then their mean), and how cells
+    # take their share ("nearest" or "inverse_distance" with gauge_power)
+    gauges: Path | None = None
+    gauge_names: tuple[str, ...] = ()
+    gauge_xy: tuple[tuple[float, float], ...] = ()
+    gauge_crs: str = ""
+    gauge_rain: tuple[tuple[float, ...], ...] = ()
+    gauge_weighting: str = "nearest"
+    gauge_power: float = 2.0
 
     @property
     def initial_state(self) -> str:
@@ -143,6 +154,16 @@ class StormSpec:
         """Where the rain comes from, in words."""
         if self.hyetograph is not None:
             return f"hyetograph {self.hyetograph.name} ({len(self.ends_h)} steps)"
+        if self.gauges is not None:
+            how = (
+                "each cell the nearest gauge's (Thiessen)"
+                if self.gauge_weighting == "nearest"
+                else f"inverse-distance weighted, power {self.gauge_power:g}"
+            )
+            return (
+                f"{len(self.gauge_names)} gauges of {self.gauges.name} "
+                f"({', '.join(self.gauge_names)}; {len(self.ends_h)} steps), {how}"
+            )
         if self.design is not None:
             period, duration, block, pattern = self.design
             return (
@@ -246,8 +267,9 @@ class Scenario:
             st = self.storm
             if st.ends_h:
                 depth = float(rain_steps(st.ends_h, st.steps_mm_h).depth_mm)
+                mean = "the gauges' mean " if st.gauges is not None else ""
                 return (
-                    f"{st.source}: {depth:.4g} mm in {st.duration_h:g} h (peak "
+                    f"{st.source}: {mean}{depth:.4g} mm in {st.duration_h:g} h (peak "
                     f"{max(st.steps_mm_h):.4g} mm/h), {st.initial_state}; FS the lowest over "
                     f"depth and time to {st.later_h:g} h"
                 )
@@ -641,8 +663,9 @@ def load_config(path: str | Path) -> Config:
     )
 
 
-HISTORY_SOURCES = ("rain_mm_h", "hyetograph", "design_return_period_yr")
+HISTORY_SOURCES = ("rain_mm_h", "hyetograph", "design_return_period_yr", "gauges")
 DESIGN_KEYS = ("design_return_period_yr", "design_duration_h", "block_h", "pattern")
+GAUGE_KEYS = ("gauges", "gauge_weighting", "gauge_power")
 
 
 def _rain_history(
@@ -655,17 +678,20 @@ def _rain_history(
         raise r.fail(
             sub,
             sources[1] if len(sources) > 1 else "",
-            "storm needs one rain: rain_mm_h with duration_h, a hyetograph, or "
+            "storm needs one rain: rain_mm_h with duration_h, a hyetograph, gauges, or "
             "design_return_period_yr with design_duration_h",
         )
     source = sources[0]
     stray = [k for k in DESIGN_KEYS if k in raw and source != "design_return_period_yr"]
+    stray += [k for k in GAUGE_KEYS[1:] if k in raw and source != "gauges"]
     stray += ["duration_h"] if source != "rain_mm_h" and "duration_h" in raw else []
     if stray:
         raise r.fail(sub, stray[0], f"cannot matter with {source}: remove it")
     if source == "rain_mm_h":
         return raw, {}
-    rest = {k: v for k, v in raw.items() if k not in (*DESIGN_KEYS, "hyetograph")}
+    rest = {k: v for k, v in raw.items() if k not in (*DESIGN_KEYS, *GAUGE_KEYS, "hyetograph")}
+    if source == "gauges":
+        return rest, _gauge_fields(r, sub, raw)
     if source == "hyetograph":
         from slopescreen.maps.io.hyetographs import read_hyetograph
 
@@ -690,6 +716,38 @@ def _rain_history(
         pattern,
     )
     return rest, {"design": design, "duration_h": design[1]}
+
+
+def _gauge_fields(r: _Reader, sub: str, raw: dict[str, Any]) -> dict[str, Any]:
+    """A StormSpec's fields for several gauges: the layer and records read and checked,
+    the weighting and its power."""
+    from slopescreen.maps.io.gauges import read_gauges
+
+    weighting = r.choice(sub, raw, "gauge_weighting", WEIGHTINGS, "nearest")
+    if "gauge_power" in raw and weighting != "inverse_distance":
+        raise r.fail(sub, "gauge_power", "cannot matter with the nearest gauge: remove it")
+    power = (
+        float(r.number(sub, raw, "gauge_power", *STORM_KEYS["gauge_power"]))
+        if "gauge_power" in raw
+        else 2.0
+    )  # type: ignore[arg-type]
+    path = r.file(sub, raw, "gauges")
+    found = read_gauges(path)
+    mean = found.rain_mm_h.mean(axis=0)
+    depth = float(rain_steps(found.ends_h, mean).depth_mm)
+    return {
+        "gauges": path,
+        "gauge_names": found.names,
+        "gauge_xy": found.xy,
+        "gauge_crs": found.crs_wkt,
+        "gauge_rain": tuple(tuple(map(float, row)) for row in found.rain_mm_h),
+        "gauge_weighting": weighting,
+        "gauge_power": power,
+        "ends_h": tuple(map(float, found.ends_h)),
+        "steps_mm_h": tuple(map(float, mean)),
+        "duration_h": float(found.ends_h[-1]),
+        "rain_mm_h": depth / float(found.ends_h[-1]),
+    }
 
 
 def _with_design_storms(

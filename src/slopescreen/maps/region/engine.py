@@ -628,6 +628,7 @@ def _terrain_and_scenarios(
             steps.runner,
             steps.numba_threads,
             echo,
+            cell_progress=progress and steps.runner is serial_runner,
         )
         state.summaries.append(summary)
         state.outputs += [f"{sc.name}/{f}" for f in summary.outputs]

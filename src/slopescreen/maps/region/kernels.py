@@ -291,7 +291,7 @@ def _value_at(initial, z, cell, log_grid, offsets):
 @numba.njit
 def _depth_minimum(initial, top, base, planes, brackets, steps, cell, log_grid, offsets):
     """slopescreen.storm.depth_minimum for one cell: the same planes, ranking of local
-    minima and golden-section steps."""
+    minima (only those refined) and golden-section steps."""
     golden = (math.sqrt(5.0) - 1.0) / 2.0
     zs = np.empty(planes)
     vals = np.empty(planes)
@@ -306,6 +306,8 @@ def _depth_minimum(initial, top, base, planes, brackets, steps, cell, log_grid, 
     best = vals[order[0]]
     for r in range(min(brackets, planes)):
         q = order[r]
+        if keys[q] == math.inf:  # no more local minima (or none with a value)
+            break
         a = zs[max(q - 1, 0)]
         b = zs[min(q + 1, planes - 1)]
         x1, x2 = b - golden * (b - a), a + golden * (b - a)

@@ -55,16 +55,17 @@ from slopescreen.maps.outputs.output_names import (
     intensity_name,
 )
 from slopescreen.maps.outputs.summary import summary_rows, write_summary
-from slopescreen.maps.region.config import Config, Scenario
+from slopescreen.maps.region.config import Config, Scenario, StormSpec
 from slopescreen.maps.region.intensity_tables import table_settings, tables_for, unit_cells
 from slopescreen.maps.region.runners import Runner, serial_runner
 from slopescreen.maps.region.scenario_tiles import BETA_CAP, compute_tile
 from slopescreen.maps.region.soils import SoilUnits
 from slopescreen.maps.region.terrain_cache import NODATA_F32
 from slopescreen.maps.region.tile_job import CORE_FIELDS, TileJob
+from slopescreen.rain_history import HISTORY_FAILURE_PLANES
 from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
 from slopescreen.stability_classes import PF_CLASS_NAMES
-from slopescreen.storm import FAILS_BEFORE_STORM, NOT_BY_LATER
+from slopescreen.storm import FAILS_BEFORE_STORM, FAILURE_PLANES, NOT_BY_LATER
 
 # every file a scenario folder can hold; those a run does not write are removed from it
 SCENARIO_FILES = (*(f for f, _, _ in SCENARIO_OUTPUTS), *LEGACY_SCENARIO_FILES)
@@ -172,8 +173,8 @@ def _sinks(
             units="hours from the start of the storm until FS first drops below 1",
             code_no_failure=f"{NOT_BY_LATER:g} (FS stays >= 1 up to {sc.storm.later_h:g} h)",
             code_fails_before=f"{FAILS_BEFORE_STORM:g} (FS < 1 before the storm begins)",
-            method="first crossing of FS = 1 on 45 planes and the critical one, bisected in "
-            "time; the earlier end of the bracket",
+            method=f"first crossing of FS = 1 on {failure_planes(sc.storm)} planes and the "
+            "critical one, bisected in time; the earlier end of the bracket",
         )
     if sc.rainfall is not None and cfg.rainfall_frequency is not None:
         sinks |= rainfall_sinks(cfg, sc, grid, out, base, with_probability)
@@ -187,6 +188,11 @@ def _sinks(
             **conventions,
         )
     return sinks
+
+
+def failure_planes(storm: StormSpec) -> int:
+    """Planes searched for a storm's first failure (rain in steps or one step)."""
+    return HISTORY_FAILURE_PLANES if len(storm.ends_h) > 1 else FAILURE_PLANES
 
 
 def rainfall_sinks(
@@ -386,6 +392,7 @@ def _tile_job(
     terrain_key: str,
     numba_threads: int,
     echo: Callable[[str], None],
+    cell_progress: bool = False,
 ) -> tuple[TileJob, str, bool, str | None]:
     """(the scenario's tile job, the critical-recharge cache entry's name, whether that
     entry was reused, the critical-intensity entry's name to build or None). Verified cache
@@ -417,6 +424,7 @@ def _tile_job(
         numba_threads=numba_threads,
         rainfall=cfg.rainfall_frequency if sc.rainfall is not None else None,
         intensity_cache=intensity_cached,
+        cell_progress=cell_progress,
     )
     if sc.rainfall is not None and intensity_cached is None:
         job = replace(job, intensity_tables=tables_for(job, unit_cells(job.codes, grid)))
@@ -671,13 +679,17 @@ def run_scenario(
     runner: Runner = serial_runner,
     numba_threads: int = 0,
     echo: Callable[[str], None] = print,
+    cell_progress: bool = False,
 ) -> tuple[ScenarioSummary, list[dict[str, object]]]:
     """Write every output of one scenario into ``out``; ``terrain_cache`` is the folder of
-    the terrain cache entry, and critical recharge is cached beside it (in its parent)."""
+    the terrain cache entry, and critical recharge is cached beside it (in its parent).
+    ``cell_progress``: a progress bar over the cells of each storm tile (tiles computed in
+    this process, on a terminal)."""
     units = soils.with_overrides(sc.soil_overrides, f"{cfg.path}: scenario {sc.name}")
     job, recharge_entry, reused, intensity_entry = _tile_job(
-        cfg, sc, grid, units, terrain_dir, terrain_cache, terrain_key, numba_threads, echo
-    )
+        cfg, sc, grid, units, terrain_dir, terrain_cache, terrain_key, numba_threads, echo,
+        cell_progress,
+    )  # fmt: skip
     sinks = _sinks(cfg, sc, grid, out, names, bool(units.spreads))
     sums = _write_tiles(job, sinks, runner, progress)
     _cache_results(

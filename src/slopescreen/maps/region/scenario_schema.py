@@ -201,6 +201,26 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
             "start_h or start_time; rain in steps, summed by superposition",
         ),
         (
+            "gauges",
+            "path",
+            "one rain",
+            "several gauges: a point layer (any CRS) with fields name and record (each "
+            "gauge's hyetograph CSV, relative to the layer), all records on one clock",
+        ),
+        (
+            "gauge_weighting",
+            '"nearest" or "inverse_distance"',
+            '"nearest"',
+            "with gauges: each cell takes its nearest gauge's rain (Thiessen), or the "
+            "gauges' rain weighted by ground distance^-gauge_power",
+        ),
+        (
+            "gauge_power",
+            Span(0.5, 6),
+            "2",
+            "with inverse_distance: the exponent of the distance",
+        ),
+        (
             "design_return_period_yr",
             Span(0.1, 1e6),
             "one rain",

@@ -71,7 +71,7 @@ def _fs_for_probability(sc: Scenario, block: dict[str, np.ndarray], **p: Any) ->
     """FS of a unit's cells for the reliability methods (samples broadcast over cells)."""
     if sc.storm is not None:  # at the critical plane and time of the mean parameters
         p.pop("specific_catchment_area_m")
-        storm = core_storm(sc, block.get("rain"), block.get("water_table"))
+        storm = core_storm(sc, block)
         assert storm is not None
         return storm_fs_at(
             p.pop("slope_deg"),
@@ -135,6 +135,7 @@ class TileInputs:
     slope_deg: np.ndarray | None = None  # read when storms or spreads need it
     saturation: np.ndarray | None = None  # the saturation raster on the tile
     rain: np.ndarray | None = None  # the rain or recharge raster on the tile, in its range
+    gauge_weights: np.ndarray | None = None  # (gauges, rows, cols): each cell's share
 
 
 def read_tile(job: TileJob, rows: slice, cols: slice) -> TileInputs:
@@ -161,7 +162,27 @@ def read_tile(job: TileJob, rows: slice, cols: slice) -> TileInputs:
             else read_on_grid(sc.saturation_raster, job.grid, "saturation", (0.0, 1.0), rows, cols)
         ),
         rain=rain,
+        gauge_weights=_gauge_weights(job, rows, cols),
     )
+
+
+def _gauge_weights(job: TileJob, rows: slice, cols: slice) -> np.ndarray | None:
+    """Each cell's share of each gauge on the tile (gauges, rows, cols), from ground
+    distances to the gauges (:mod:`slopescreen.maps.region.gauge_rain`); None without
+    gauges."""
+    storm = job.scenario.storm
+    if storm is None or storm.gauges is None:
+        return None
+    from pyproj import CRS, Transformer
+
+    from slopescreen.maps.region.gauge_rain import gauge_weights
+    from slopescreen.maps.terrain.ground import ground_distances_m
+
+    grid_crs = CRS.from_user_input(job.grid.crs.to_wkt())  # type: ignore[attr-defined]
+    to_grid = Transformer.from_crs(CRS.from_wkt(storm.gauge_crs), grid_crs, always_xy=True)
+    x, y = to_grid.transform(*np.array(storm.gauge_xy, float).T)
+    distance = ground_distances_m(job.grid.transform, job.grid.crs, rows, cols, x, y)
+    return gauge_weights(distance, storm.gauge_weighting, storm.gauge_power)
 
 
 def mapped_cells(tile: TileInputs) -> tuple[np.ndarray, np.ndarray, int]:
@@ -185,14 +206,19 @@ def _storm_values(
     sc = job.scenario
     if sc.storm is not None and sc.storm.initial_recharge_mm_day is not None:
         block["water_table"] = _initial_water_table(job, block)
-    storm = core_storm(sc, block.get("rain"), block.get("water_table"))
+    from slopescreen.maps.region.storm_kernels import compiled_summary
+
+    storm = core_storm(sc, block)
     assert storm is not None
-    summary, m = storm_response(
-        block["slope"],
-        storm,
-        seismic_coefficient=float(sc.seismic_coefficient),
-        **{k: v for k, v in params.items() if k != "transmissivity_m2_day"},
-    )
+    cells = int(block["codes"].size)
+    with _cell_bar(job, cells) as bar:
+        summary, m = storm_response(
+            block["slope"],
+            storm,
+            seismic_coefficient=float(sc.seismic_coefficient),
+            summarise=partial(compiled_summary, progress=bar.update),
+            **{k: v for k, v in params.items() if k != "transmissivity_m2_day"},
+        )
     block["storm_depth_fraction"] = summary.window_critical_depth_m / params["depth_m"]
     block["storm_time_h"] = summary.window_critical_time_h
     values = {
@@ -202,6 +228,21 @@ def _storm_values(
         "storm_time_to_failure": np.asarray(summary.time_to_failure_h),
     }
     return summary.window_min_fs, m, values
+
+
+def _cell_bar(job: TileJob, cells: int) -> Any:
+    """A progress bar over a tile's cells (shown where the job asks for one: a run in this
+    process on a terminal), for the searches that take long per cell (storms)."""
+    from tqdm import tqdm
+
+    return tqdm(
+        total=cells,
+        desc=f"{job.scenario.name}: storm, cells of this tile",
+        unit="cell",
+        unit_scale=True,
+        disable=not job.cell_progress,
+        leave=False,
+    )
 
 
 def _initial_water_table(job: TileJob, block: dict[str, np.ndarray]) -> np.ndarray:
@@ -294,6 +335,9 @@ def tile_values(
     block = {"tan": tile.tan[valid], "sca": tile.sca[valid], "codes": c}
     if tile.rain is not None:
         block["rain"] = tile.rain[valid]
+    if tile.gauge_weights is not None and sc.storm is not None:
+        rain = np.asarray(sc.storm.gauge_rain, float).T  # (steps, gauges)
+        block["rain_steps"] = rain @ tile.gauge_weights[:, valid]
     if tile.slope_deg is not None:
         block["slope"] = tile.slope_deg[valid].astype(np.float64)
     values: dict[str, np.ndarray] = {}

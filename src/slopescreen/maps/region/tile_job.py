@@ -55,27 +55,26 @@ class TileJob:
     intensity_cache: Path | None = None  # verified critical intensities (rainfall scenarios)
     # tables of critical intensity by duration on large grids (intensity_tables.UnitTables)
     intensity_tables: dict[float, Any] = field(default_factory=dict)
+    cell_progress: bool = False  # a progress bar over the cells of each storm tile
 
 
-def core_storm(
-    sc: Scenario, rain_mm_h: np.ndarray | None = None, water_table_m: np.ndarray | None = None
-) -> Storm | None:
-    """The scenario's storm for the core; ``rain_mm_h`` per cell where a raster gives it,
-    ``water_table_m`` per cell where a steady recharge sets the initial state."""
+def core_storm(sc: Scenario, block: dict[str, np.ndarray] | None = None) -> Storm | None:
+    """The scenario's storm for the core, with what a tile's ``block`` gives per cell: the
+    rain (``rain``, a raster), the rain in steps (``rain_steps`` (steps, cells), from
+    gauges) and the water table before the storm (``water_table``, from a steady
+    recharge)."""
     if sc.storm is None:
         return None
-    st = sc.storm
+    st, block = sc.storm, block or {}
     return Storm(
-        rain_mm_h=st.rain_mm_h if rain_mm_h is None else rain_mm_h,  # type: ignore[arg-type]
+        rain_mm_h=block.get("rain", st.rain_mm_h),  # type: ignore[arg-type]
         duration_h=st.duration_h,
         later_h=st.later_h,
-        water_table_depth_m=(
-            st.initial_water_table_depth_m if water_table_m is None else water_table_m  # type: ignore[arg-type]
-        ),
+        water_table_depth_m=block.get("water_table", st.initial_water_table_depth_m),  # type: ignore[arg-type]
         long_term_infiltration_m_s=st.long_term_infiltration_mm_day / 1000 / 86400,
         min_slip_depth_m=st.min_slip_depth_m,
         ends_h=st.ends_h,
-        steps_mm_h=st.steps_mm_h,
+        steps_mm_h=block.get("rain_steps", st.steps_mm_h),  # type: ignore[arg-type]
     )
 
 
@@ -94,7 +93,7 @@ def units_with_spreads(
         values.update(spreads)
         rho = job.correlations.get(int(code), 0.0)
         corr = {("cohesion_kpa", "friction_deg"): rho} if rho else {}
-        yield sel, {k: v[sel] for k, v in block.items()}, values, corr
+        yield sel, {k: v[..., sel] for k, v in block.items()}, values, corr  # cells: last axis
 
 
 def add_tile(total: dict[Any, Any], result: dict[Any, Any]) -> None:

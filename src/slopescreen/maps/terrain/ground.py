@@ -331,3 +331,36 @@ def _midpoint_error(ground: Ground, measure: _Measure) -> float:
                 got = np.array([float(np.ravel(approx[0])[0]), float(np.ravel(approx[1])[0])])
                 worst = max(worst, float(np.hypot(*(got - exact)) / np.hypot(*exact)))
     return worst
+
+
+def ground_distances_m(
+    transform: object,
+    crs: object,
+    rows: slice,
+    cols: slice,
+    points_x: np.ndarray,
+    points_y: np.ndarray,
+) -> np.ndarray:
+    """Ground distances (m) from each point (map coordinates in the grid's CRS) to the
+    centre of each cell of the window: (points, rows, cols). Geodesic on the CRS's
+    ellipsoid (pyproj.Geod, Karney 2013) wherever the CRS has one, whatever its
+    projection; grid units times their length in metres on a local CRS."""
+    measure = _Measure(transform, crs)
+    t = transform
+    r = np.arange(rows.start, rows.stop)
+    c = np.arange(cols.start, cols.stop)
+    x = t.c + (c[None, :] + 0.5) * t.a + 0.0 * r[:, None]  # type: ignore[attr-defined]
+    y = t.f + (r[:, None] + 0.5) * t.e + 0.0 * c[None, :]  # type: ignore[attr-defined]
+    out = np.empty((len(points_x), r.size, c.size))
+    if measure.kind == "local":
+        for k, (px, py) in enumerate(zip(points_x, points_y, strict=True)):
+            out[k] = np.hypot(x - px, y - py) * measure.factor
+        return out
+    lon, lat = measure._lonlat(x, y)
+    p_lon, p_lat = measure._lonlat(np.asarray(points_x, float), np.asarray(points_y, float))
+    for k in range(len(points_x)):
+        _, _, dist = measure.geod.inv(
+            np.full(lon.shape, p_lon[k]), np.full(lat.shape, p_lat[k]), lon, lat
+        )
+        out[k] = dist
+    return out
