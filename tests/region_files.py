@@ -103,3 +103,33 @@ def write_gauges(folder, name, records, crs="EPSG:4326"):
     frame = gpd.GeoDataFrame({"name": ["west", "east"], "record": list(records)},
                              geometry=points, crs=crs)  # fmt: skip
     frame.to_file(folder / name, driver="GPKG")
+
+
+def write_rain_netcdf(path, values_mm_h, unit="mm h-1", bounds=True, name="rain", crs=32633,
+                      more=None):  # fmt: skip
+    """A CF file: rain (time, y, x) on 50 m cells over the test DEM and beyond, y rising,
+    three hourly steps; ``more``: other precipitation variables by name."""
+    import xarray as xr
+    from pyproj import CRS
+
+    x = 499875.0 + 50.0 * np.arange(16)
+    y = 4999875.0 + 50.0 * np.arange(14)
+    times = np.array(["2026-11-30T01:00", "2026-11-30T02:00", "2026-11-30T03:00"], "datetime64[ns]")
+    factor = {"kg m-2 s-1": 1.0 / 3600.0}.get(unit, 1.0)
+
+    def field(values, standard_name):
+        data = np.stack([np.broadcast_to(v, (y.size, x.size)) for v in values]) * factor
+        attrs = {"standard_name": standard_name, "units": unit, "grid_mapping": "crs"}
+        return xr.DataArray(data, dims=("time", "y", "x"), attrs=attrs)
+
+    fields = {name: field(values_mm_h, "rainfall_flux" if name == "rain" else "air_temperature")}
+    fields |= {k: field(v, "rainfall_flux") for k, v in (more or {}).items()}
+    fields["crs"] = xr.DataArray(0, attrs={"crs_wkt": CRS.from_epsg(crs).to_wkt()})
+    ds = xr.Dataset(fields, coords={"time": times, "y": y, "x": x})
+    if bounds:
+        edges = np.stack([times - np.timedelta64(1, "h"), times], axis=1)
+        ds["time_bnds"] = xr.DataArray(edges, dims=("time", "nv"))
+        ds["time"].attrs["bounds"] = "time_bnds"
+        for var in ("time", "time_bnds"):  # one unit for both, as CF asks
+            ds[var].encoding["units"] = "hours since 2026-11-30 00:00:00"
+    ds.to_netcdf(path)

@@ -6,7 +6,7 @@ import geopandas as gpd
 import numpy as np
 import pytest
 import rasterio
-from region_files import PARAMS, _dem, _polygons, write_gauges
+from region_files import PARAMS, _dem, _polygons, write_gauges, write_rain_netcdf
 from shapely.geometry import box
 
 from slopescreen.maps.region.config import SOIL_FIELDS, STORM_KEYS
@@ -192,11 +192,18 @@ GAUGE_CHANGES = {  # several gauges (base: inverse distance, power 2)
 }
 
 
+SERIES_CHANGES = {  # rain on a grid (base: a NetCDF variable named; a folder in mm/h)
+    "rain_series": 'rain_series = "series2.nc"',
+    "rain_variable": 'rain_variable = "rain_b"',
+    "rain_series_unit": 'rain_series_unit = "mm"',
+}
+
+
 def test_the_key_lists_are_complete():
     assert set(SOIL_CHANGES) == set(SOIL_FIELDS)
     # the initial recharge: test_a_steady_recharge_sets_the_water_table_before_the_storm
     storm_rows = set(STORM_CHANGES) | set(HISTORY_CHANGES) | {"initial_recharge_mm_day"}
-    storm_rows |= set(GAUGE_CHANGES)
+    storm_rows |= set(GAUGE_CHANGES) | set(SERIES_CHANGES)
     assert storm_rows >= set(STORM_KEYS)
     assert storm_rows == allowed_storm_keys()
 
@@ -283,6 +290,35 @@ def test_every_gauge_key_changes_the_factor_of_safety(region, tmp_path):
             text = text.replace("gauge_power = 2.0\n", "")
         _run(region, tmp_path, f"g_{key}", text)
         if np.array_equal(_fs(tmp_path / f"g_{key}"), _fs(tmp_path / "gauges")):
+            unchanged.append(key)
+    assert unchanged == []
+
+
+def test_every_rain_series_key_changes_the_factor_of_safety(region, tmp_path):
+    write_rain_netcdf(region / "series.nc", (5.0, 30.0, 10.0), more={"rain_b": (30, 5, 0)})
+    write_rain_netcdf(region / "series2.nc", (5.0, 10.0, 30.0))
+    folder = region / "radar"  # two-hour steps: "mm" halves the intensity of "mm_h"
+    folder.mkdir(exist_ok=True)
+    profile = dict(driver="GTiff", width=16, height=14, count=1, dtype="float32",
+                   crs="EPSG:32633", transform=rasterio.transform.from_origin(
+                       499850.0, 5000550.0, 50.0, 50.0))  # fmt: skip
+    for hour, rain in ((2, 20.0), (4, 40.0), (6, 10.0)):
+        with rasterio.open(folder / f"r_2026-11-30T{hour:02d}00.tif", "w", **profile) as dst:
+            dst.write(np.full((1, 14, 16), rain, np.float32))
+    storm = "rain_mm_h = 20.0\nduration_h = 6.0\nlater_h = 12.0"
+    bases = {
+        "nc": 'rain_series = "series.nc"\nrain_variable = "rain"',
+        "folder": 'rain_series = "radar"\nrain_series_unit = "mm_h"',
+    }
+    texts = {k: _text("storm").replace(storm, f"{v}\nlater_h = 12.0") for k, v in bases.items()}
+    for name, text in texts.items():
+        _run(region, tmp_path, f"series_{name}", text)
+    unchanged = []
+    for key, line in SERIES_CHANGES.items():
+        base = "folder" if key == "rain_series_unit" else "nc"
+        old = next(x for x in texts[base].splitlines() if x.startswith(f"{key} "))
+        _run(region, tmp_path, f"r_{key}", texts[base].replace(old, line))
+        if np.array_equal(_fs(tmp_path / f"r_{key}"), _fs(tmp_path / f"series_{base}")):
             unchanged.append(key)
     assert unchanged == []
 

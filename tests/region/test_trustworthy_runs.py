@@ -644,7 +644,7 @@ def _gauge(record, storm='hyetograph = "gauge.csv"\n'):
 HISTORY_INPUTS = {
     "storm with two rains": (
         _gauge("end_h,rain_mm\n1,2\n", 'hyetograph = "gauge.csv"\nrain_mm_h = 5.0\n'),
-        "storm needs one rain: rain_mm_h with duration_h, a hyetograph, gauges, or",
+        "storm needs one rain: rain_mm_h with duration_h, a hyetograph, gauges, a",
     ),
     "duration with a hyetograph": (
         _gauge("end_h,rain_mm\n1,2\n", 'hyetograph = "gauge.csv"\nduration_h = 5.0\n'),

@@ -138,6 +138,9 @@ class StormSpec:
     gauge_rain: tuple[tuple[float, ...], ...] = ()
     gauge_weighting: str = "nearest"
     gauge_power: float = 2.0
+    # rain on a grid in steps (a CF NetCDF file or a folder of rasters; steps_mm_h is
+    # then the mean of each step over its grid): maps.io.rain_series.RainSeries
+    rain_series: Any = None
 
     @property
     def initial_state(self) -> str:
@@ -154,6 +157,11 @@ class StormSpec:
         """Where the rain comes from, in words."""
         if self.hyetograph is not None:
             return f"hyetograph {self.hyetograph.name} ({len(self.ends_h)} steps)"
+        if self.rain_series is not None:
+            return (
+                f"rain series {self.rain_series.path.name} ({len(self.ends_h)} steps from "
+                f"{self.rain_series.start}, resampled bilinearly)"
+            )
         if self.gauges is not None:
             how = (
                 "each cell the nearest gauge's (Thiessen)"
@@ -268,6 +276,7 @@ class Scenario:
             if st.ends_h:
                 depth = float(rain_steps(st.ends_h, st.steps_mm_h).depth_mm)
                 mean = "the gauges' mean " if st.gauges is not None else ""
+                mean = "the grid's mean " if st.rain_series is not None else mean
                 return (
                     f"{st.source}: {mean}{depth:.4g} mm in {st.duration_h:g} h (peak "
                     f"{max(st.steps_mm_h):.4g} mm/h), {st.initial_state}; FS the lowest over "
@@ -663,9 +672,10 @@ def load_config(path: str | Path) -> Config:
     )
 
 
-HISTORY_SOURCES = ("rain_mm_h", "hyetograph", "design_return_period_yr", "gauges")
+HISTORY_SOURCES = ("rain_mm_h", "hyetograph", "design_return_period_yr", "gauges", "rain_series")
 DESIGN_KEYS = ("design_return_period_yr", "design_duration_h", "block_h", "pattern")
 GAUGE_KEYS = ("gauges", "gauge_weighting", "gauge_power")
+SERIES_KEYS = ("rain_series", "rain_variable", "rain_series_unit")
 
 
 def _rain_history(
@@ -678,20 +688,24 @@ def _rain_history(
         raise r.fail(
             sub,
             sources[1] if len(sources) > 1 else "",
-            "storm needs one rain: rain_mm_h with duration_h, a hyetograph, gauges, or "
-            "design_return_period_yr with design_duration_h",
+            "storm needs one rain: rain_mm_h with duration_h, a hyetograph, gauges, a "
+            "rain_series, or design_return_period_yr with design_duration_h",
         )
     source = sources[0]
     stray = [k for k in DESIGN_KEYS if k in raw and source != "design_return_period_yr"]
     stray += [k for k in GAUGE_KEYS[1:] if k in raw and source != "gauges"]
+    stray += [k for k in SERIES_KEYS[1:] if k in raw and source != "rain_series"]
     stray += ["duration_h"] if source != "rain_mm_h" and "duration_h" in raw else []
     if stray:
         raise r.fail(sub, stray[0], f"cannot matter with {source}: remove it")
     if source == "rain_mm_h":
         return raw, {}
-    rest = {k: v for k, v in raw.items() if k not in (*DESIGN_KEYS, *GAUGE_KEYS, "hyetograph")}
+    used = (*DESIGN_KEYS, *GAUGE_KEYS, *SERIES_KEYS, "hyetograph")
+    rest = {k: v for k, v in raw.items() if k not in used}
     if source == "gauges":
         return rest, _gauge_fields(r, sub, raw)
+    if source == "rain_series":
+        return rest, _series_fields(r, sub, raw)
     if source == "hyetograph":
         from slopescreen.maps.io.hyetographs import read_hyetograph
 
@@ -745,6 +759,28 @@ def _gauge_fields(r: _Reader, sub: str, raw: dict[str, Any]) -> dict[str, Any]:
         "gauge_power": power,
         "ends_h": tuple(map(float, found.ends_h)),
         "steps_mm_h": tuple(map(float, mean)),
+        "duration_h": float(found.ends_h[-1]),
+        "rain_mm_h": depth / float(found.ends_h[-1]),
+    }
+
+
+def _series_fields(r: _Reader, sub: str, raw: dict[str, Any]) -> dict[str, Any]:
+    """A StormSpec's fields for rain on a grid in steps (maps.io.rain_series)."""
+    from slopescreen.maps.io.rain_series import read_series
+
+    variable = r.text(sub, raw, "rain_variable") if "rain_variable" in raw else None
+    unit = r.text(sub, raw, "rain_series_unit") if "rain_series_unit" in raw else None
+    found = read_series(r.file(sub, raw, "rain_series"), variable, unit)
+    series = found._replace(
+        ends_h=tuple(map(float, found.ends_h)),
+        to_mm_h=tuple(map(float, found.to_mm_h)),
+        mean_mm_h=tuple(map(float, found.mean_mm_h)),
+    )
+    depth = float(rain_steps(found.ends_h, found.mean_mm_h).depth_mm)
+    return {
+        "rain_series": series,
+        "ends_h": series.ends_h,
+        "steps_mm_h": series.mean_mm_h,
         "duration_h": float(found.ends_h[-1]),
         "rain_mm_h": depth / float(found.ends_h[-1]),
     }

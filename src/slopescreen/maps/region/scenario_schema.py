@@ -221,6 +221,20 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
             "with inverse_distance: the exponent of the distance",
         ),
         (
+            "rain_series",
+            "path",
+            "one rain",
+            "rain on a grid in steps: a CF NetCDF file (precipitation by standard_name, its "
+            "units converted) or a folder of GeoTIFFs named by time; resampled bilinearly",
+        ),
+        ("rain_variable", "text", "by standard_name", "with a NetCDF rain_series: the variable"),
+        (
+            "rain_series_unit",
+            '"mm_h" or "mm"',
+            "required for a folder",
+            "with a folder of rasters: intensity, or depth in each interval",
+        ),
+        (
             "design_return_period_yr",
             Span(0.1, 1e6),
             "one rain",

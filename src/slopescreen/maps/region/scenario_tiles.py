@@ -136,6 +136,7 @@ class TileInputs:
     saturation: np.ndarray | None = None  # the saturation raster on the tile
     rain: np.ndarray | None = None  # the rain or recharge raster on the tile, in its range
     gauge_weights: np.ndarray | None = None  # (gauges, rows, cols): each cell's share
+    rain_steps: np.ndarray | None = None  # (steps, rows, cols) mm/h: a rain series
 
 
 def read_tile(job: TileJob, rows: slice, cols: slice) -> TileInputs:
@@ -163,7 +164,18 @@ def read_tile(job: TileJob, rows: slice, cols: slice) -> TileInputs:
         ),
         rain=rain,
         gauge_weights=_gauge_weights(job, rows, cols),
+        rain_steps=_series_steps(job, rows, cols),
     )
+
+
+def _series_steps(job: TileJob, rows: slice, cols: slice) -> np.ndarray | None:
+    """A rain series on the tile, (steps, rows, cols) in mm/h; None without one."""
+    storm = job.scenario.storm
+    if storm is None or storm.rain_series is None:
+        return None
+    from slopescreen.maps.io.rain_series import series_on_tile
+
+    return series_on_tile(storm.rain_series, job.grid, rows, cols)
 
 
 def _gauge_weights(job: TileJob, rows: slice, cols: slice) -> np.ndarray | None:
@@ -191,7 +203,12 @@ def mapped_cells(tile: TileInputs) -> tuple[np.ndarray, np.ndarray, int]:
     terrain_ok = (tile.codes > 0) & (tile.tan != NODATA_F32) & (tile.sca != NODATA_F32)
     valid = terrain_ok.copy()
     missing = 0
-    for wetness in (tile.saturation, tile.rain):  # one wetness key: at most one raster
+    steps = (  # NaN where some step of a rain series has no value
+        None
+        if tile.rain_steps is None
+        else np.where(np.isfinite(tile.rain_steps).all(axis=0), 0.0, np.nan)
+    )
+    for wetness in (tile.saturation, tile.rain, steps):  # one wetness key: at most one
         if wetness is not None:
             missing = int((valid & ~np.isfinite(wetness)).sum())
             valid &= np.isfinite(wetness)
@@ -335,6 +352,8 @@ def tile_values(
     block = {"tan": tile.tan[valid], "sca": tile.sca[valid], "codes": c}
     if tile.rain is not None:
         block["rain"] = tile.rain[valid]
+    if tile.rain_steps is not None:
+        block["rain_steps"] = tile.rain_steps[:, valid]
     if tile.gauge_weights is not None and sc.storm is not None:
         rain = np.asarray(sc.storm.gauge_rain, float).T  # (steps, gauges)
         block["rain_steps"] = rain @ tile.gauge_weights[:, valid]
