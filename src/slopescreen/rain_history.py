@@ -249,12 +249,17 @@ def _peak_response(
 
 @functools.lru_cache(maxsize=256)
 def peak_table(
-    jumps: tuple[float, ...], starts_s: tuple[float, ...], window_s: float
+    jumps: tuple[float, ...],
+    starts_s: tuple[float, ...],
+    window_s: float,
+    first: int = 0,
+    last: int = LOG_SCALE.size - 1,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """(max of G, when in s) at every ``LOG_SCALE`` response time for one history: built
-    once and kept (the same history serves every tile of a map and every soil unit with
-    the same K cap)."""
-    scales = 10.0**LOG_SCALE
+    """(max of G, when in s) at the ``LOG_SCALE`` response times ``first`` to ``last``
+    (default: all) for one history, each the same as in the whole table: built once and
+    kept (the same history serves every tile of a map and every soil unit with the same K
+    cap)."""
+    scales = 10.0 ** LOG_SCALE[first : last + 1]
     return _peak_response(
         tuple(np.full(scales.shape, j) for j in jumps), starts_s, scales, window_s
     )

@@ -88,6 +88,20 @@ def test_a_ramp_is_resampled_exactly(region, tmp_path):
     np.testing.assert_allclose(steps[1], expected, rtol=1e-9)
 
 
+def test_nearest_resampling_gives_each_cell_its_grid_cells_rain(region, tmp_path):
+    # "nearest": a DEM cell takes the value of the rain grid cell holding its centre
+    path = tmp_path / "blocks.nc"
+    values = np.arange(14 * 16, dtype=float).reshape(14, 16)  # every grid cell its own
+    write_rain_netcdf(path, [values, values, values])
+    grid = read_grid(region / "dem.tif")
+    steps = series_on_tile(read_series(path), grid, slice(0, 40), slice(0, 50), "nearest")
+    cx = 500000.0 + 10.0 * (np.arange(50) + 0.5)
+    cy = 5000400.0 - 10.0 * (np.arange(40) + 0.5)
+    col = np.floor((cx - 499850.0) / 50.0).astype(int)  # the grid's cells: 50 m from 499850
+    row = np.floor((cy - 4999850.0) / 50.0).astype(int)  # y rising with the row index
+    np.testing.assert_array_equal(steps[0], values[row[:, None], col[None, :]])
+
+
 @pytest.mark.parametrize(
     ("make", "message"),
     [

@@ -342,7 +342,7 @@ def test_scenario_file_reference_is_current():
     # the documented keys are exactly those the reader takes ranges and meanings for
     assert set(SOIL_MEANINGS) == set(SOIL_FIELDS)
     non_numeric = {"hyetograph", "pattern", "gauges", "gauge_weighting", "rain_series"}
-    non_numeric |= {"rain_variable", "rain_series_unit"}
+    non_numeric |= {"rain_variable", "rain_series_unit", "rain_series_resampling"}
     assert allowed("scenario.storm") == set(STORM_KEYS) | non_numeric
     assert set(WETNESS_KEYS) <= allowed("scenario")
 

@@ -196,6 +196,7 @@ SERIES_CHANGES = {  # rain on a grid (base: a NetCDF variable named; a folder in
     "rain_series": 'rain_series = "series2.nc"',
     "rain_variable": 'rain_variable = "rain_b"',
     "rain_series_unit": 'rain_series_unit = "mm"',
+    "rain_series_resampling": 'rain_series_resampling = "nearest"',
 }
 
 
@@ -295,7 +296,8 @@ def test_every_gauge_key_changes_the_factor_of_safety(region, tmp_path):
 
 
 def test_every_rain_series_key_changes_the_factor_of_safety(region, tmp_path):
-    write_rain_netcdf(region / "series.nc", (5.0, 30.0, 10.0), more={"rain_b": (30, 5, 0)})
+    ramp = 5.0 + np.linspace(0.0, 20.0, 16)[None, :] * np.ones((14, 1))  # west to east
+    write_rain_netcdf(region / "series.nc", (ramp, 30.0, 10.0), more={"rain_b": (30, 5, 0)})
     write_rain_netcdf(region / "series2.nc", (5.0, 10.0, 30.0))
     folder = region / "radar"  # two-hour steps: "mm" halves the intensity of "mm_h"
     folder.mkdir(exist_ok=True)
@@ -307,7 +309,8 @@ def test_every_rain_series_key_changes_the_factor_of_safety(region, tmp_path):
             dst.write(np.full((1, 14, 16), rain, np.float32))
     storm = "rain_mm_h = 20.0\nduration_h = 6.0\nlater_h = 12.0"
     bases = {
-        "nc": 'rain_series = "series.nc"\nrain_variable = "rain"',
+        "nc": 'rain_series = "series.nc"\nrain_variable = "rain"\n'
+        'rain_series_resampling = "bilinear"',
         "folder": 'rain_series = "radar"\nrain_series_unit = "mm_h"',
     }
     texts = {k: _text("storm").replace(storm, f"{v}\nlater_h = 12.0") for k, v in bases.items()}

@@ -249,16 +249,22 @@ def _transform(path: Path, x: np.ndarray, y: np.ndarray) -> tuple[tuple[float, .
     return (step_x, 0.0, float(x[0]) - step_x / 2.0, 0.0, -step_y, top), bool(dy[0] > 0)
 
 
-def series_on_tile(series: RainSeries, grid: Any, rows: slice, cols: slice) -> np.ndarray:
+def series_on_tile(
+    series: RainSeries, grid: Any, rows: slice, cols: slice, resampling: str = "bilinear"
+) -> np.ndarray:
     """The series on a window of the DEM grid, (steps, rows, cols) in mm/h, NaN where a step
-    has no value: each step resampled bilinearly (GDAL's warper)."""
+    has no value: each step resampled by GDAL's warper, bilinearly (a smooth field, every
+    cell its own history) or by the nearest grid cell (each DEM cell its grid cell's
+    history: few distinct histories, tabulated, so many times faster)."""
     from slopescreen.maps.io.rasters import read_on_grid
 
     shape = (len(series.ends_h), rows.stop - rows.start, cols.stop - cols.start)
     out = np.empty(shape)
     if series.files:
         for k, (file, scale) in enumerate(zip(series.files, series.to_mm_h, strict=True)):
-            raw = read_on_grid(file, grid, "rain_series", (0.0, np.inf), rows, cols)
+            raw = read_on_grid(
+                file, grid, "rain_series", (0.0, np.inf), rows, cols, resampling=resampling
+            )
             out[k] = raw * scale
         return out
     import rasterio.warp
@@ -277,6 +283,6 @@ def series_on_tile(series: RainSeries, grid: Any, rows: slice, cols: slice) -> n
                 np.ascontiguousarray(step * scale), out[k],
                 src_transform=Affine(*series.transform), src_crs=CRS.from_wkt(series.crs_wkt),
                 src_nodata=np.nan, dst_transform=window, dst_crs=grid.crs, dst_nodata=np.nan,
-                resampling=rasterio.warp.Resampling.bilinear,
+                resampling=rasterio.warp.Resampling[resampling],
             )  # fmt: skip
     return out

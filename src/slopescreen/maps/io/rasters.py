@@ -147,9 +147,11 @@ def read_on_grid(
     rows: slice | None = None,
     cols: slice | None = None,
     needed: Callable[[slice, slice], np.ndarray] | None = None,
+    resampling: str = "bilinear",
 ) -> np.ndarray:
     """A window of a raster on any grid (``what``: "saturation", "rain_mm_h" ...) resampled
-    onto the DEM grid (bilinear, NaN where it has no data). With no window, checks the whole
+    onto the DEM grid (bilinear, or ``resampling``: "nearest"; NaN where it has no data).
+    With no window, checks the whole
     raster tile by tile: readable, georeferenced, values within ``allowed`` only, and
     covering some cell of the DEM, or, with ``needed`` (tile -> mask of cells that must
     have a value), every such cell."""
@@ -176,7 +178,7 @@ def read_on_grid(
             transform=grid.transform,
             width=grid.width,
             height=grid.height,
-            resampling=Resampling.bilinear,
+            resampling=Resampling[resampling],
             nodata=np.nan,
             dtype="float32",
         ) as vrt:

@@ -141,6 +141,7 @@ class StormSpec:
     # rain on a grid in steps (a CF NetCDF file or a folder of rasters; steps_mm_h is
     # then the mean of each step over its grid): maps.io.rain_series.RainSeries
     rain_series: Any = None
+    series_resampling: str = "bilinear"  # or "nearest"
 
     @property
     def initial_state(self) -> str:
@@ -160,7 +161,7 @@ class StormSpec:
         if self.rain_series is not None:
             return (
                 f"rain series {self.rain_series.path.name} ({len(self.ends_h)} steps from "
-                f"{self.rain_series.start}, resampled bilinearly)"
+                f"{self.rain_series.start}, resampled by {self.series_resampling})"
             )
         if self.gauges is not None:
             how = (
@@ -675,7 +676,8 @@ def load_config(path: str | Path) -> Config:
 HISTORY_SOURCES = ("rain_mm_h", "hyetograph", "design_return_period_yr", "gauges", "rain_series")
 DESIGN_KEYS = ("design_return_period_yr", "design_duration_h", "block_h", "pattern")
 GAUGE_KEYS = ("gauges", "gauge_weighting", "gauge_power")
-SERIES_KEYS = ("rain_series", "rain_variable", "rain_series_unit")
+SERIES_KEYS = ("rain_series", "rain_variable", "rain_series_unit", "rain_series_resampling")
+SERIES_RESAMPLING = ("bilinear", "nearest")
 
 
 def _rain_history(
@@ -770,6 +772,7 @@ def _series_fields(r: _Reader, sub: str, raw: dict[str, Any]) -> dict[str, Any]:
 
     variable = r.text(sub, raw, "rain_variable") if "rain_variable" in raw else None
     unit = r.text(sub, raw, "rain_series_unit") if "rain_series_unit" in raw else None
+    resampling = r.choice(sub, raw, "rain_series_resampling", SERIES_RESAMPLING, "bilinear")
     found = read_series(r.file(sub, raw, "rain_series"), variable, unit)
     series = found._replace(
         ends_h=tuple(map(float, found.ends_h)),
@@ -779,6 +782,7 @@ def _series_fields(r: _Reader, sub: str, raw: dict[str, Any]) -> dict[str, Any]:
     depth = float(rain_steps(found.ends_h, found.mean_mm_h).depth_mm)
     return {
         "rain_series": series,
+        "series_resampling": resampling,
         "ends_h": series.ends_h,
         "steps_mm_h": series.mean_mm_h,
         "duration_h": float(found.ends_h[-1]),

@@ -235,6 +235,13 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
             "with a folder of rasters: intensity, or depth in each interval",
         ),
         (
+            "rain_series_resampling",
+            '"bilinear" or "nearest"',
+            '"bilinear"',
+            "with a rain_series: bilinear (a smooth field; every cell searched on its own) "
+            "or each DEM cell its grid cell's rain (few histories: many times faster)",
+        ),
+        (
             "design_return_period_yr",
             Span(0.1, 1e6),
             "one rain",

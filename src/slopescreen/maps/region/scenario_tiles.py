@@ -175,7 +175,7 @@ def _series_steps(job: TileJob, rows: slice, cols: slice) -> np.ndarray | None:
         return None
     from slopescreen.maps.io.rain_series import series_on_tile
 
-    return series_on_tile(storm.rain_series, job.grid, rows, cols)
+    return series_on_tile(storm.rain_series, job.grid, rows, cols, storm.series_resampling)
 
 
 def _gauge_weights(job: TileJob, rows: slice, cols: slice) -> np.ndarray | None:

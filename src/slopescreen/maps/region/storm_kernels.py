@@ -59,6 +59,7 @@ PARAMETERS = 11
  KNOB_TIME_STEPS, KNOB_PEAK_CANDIDATES, KNOB_FAILURE_CANDIDATES) = range(19)  # fmt: skip
 NOT_BY_LATER, FAILS_BEFORE_STORM = st.NOT_BY_LATER, st.FAILS_BEFORE_STORM
 PART_CELLS = 16_384  # cells a thread takes at once (and between progress reports)
+CELLS_PER_TABLE = 500  # cells per history above which histories beyond 64 are tabulated
 GOLDEN = st.GOLDEN
 
 _terms = numba.njit(inline="always")(slip_plane_terms)
@@ -501,11 +502,12 @@ def compiled_summary(
     jumps, rows = histories(steps, conductivity.ravel())
     starts_s = np.concatenate(([0.0], steps.ends_h)) * st.SECONDS_PER_HOUR
     times_s = np.array([end, later, later]) * st.SECONDS_PER_HOUR
-    mode = way_to_peak(steps.ends_h.size, jumps.shape[0])
-    tables = np.zeros((4, 1, 2))
+    mode = way_to_peak(steps.ends_h.size, jumps.shape[0], size)
+    tables, first = np.zeros((4, 1, 2)), 0
     if mode == TABLE:
-        tables = _tables(jumps, tuple(map(float, starts_s)), times_s)
-    knobs = knobs_for(mode, times_s, rh.LOG_SCALE)
+        first, last = _scale_range(top, base, params[:, D_HAT])
+        tables = _tables(jumps, tuple(map(float, starts_s)), times_s, first, last)
+    knobs = knobs_for(mode, times_s, first)
     curve = np.stack((st.LOG_STORM, st.PEAK_OFFSET))
     out = np.empty((8, size))
     arrays = (params, top, base, rows, jumps, knobs, starts_s, tables, curve, out)
@@ -521,13 +523,14 @@ def compiled_summary(
     return StormSummary(*(as_result(row.reshape(shape)) for row in out))
 
 
-def knobs_for(mode: int, times_s: np.ndarray, log_scale: np.ndarray) -> tuple:
+def knobs_for(mode: int, times_s: np.ndarray, first: int = 0) -> tuple:
     """The numbers the kernel reads (a tuple of numbers, no array), indexed by ``KNOB_*``:
     the way to the peak, the end of the rain, the later time and the window (s), the
-    tables' grid, and the core's search constants."""
+    tables' grid (log10 s of their first node, LOG_SCALE[first], and the core's
+    spacing), and the core's search constants."""
     return (
         mode, float(times_s[0]), float(times_s[1]), float(times_s[2]),
-        float(log_scale[0]), float(log_scale[1] - log_scale[0]),
+        float(rh.LOG_SCALE[first]), float(rh.LOG_SCALE[1] - rh.LOG_SCALE[0]),
         st.DEPTH_PLANES, st.DEPTH_BRACKETS, st.DEPTH_REFINE_STEPS,
         st.FAILURE_PLANES, st.TIME_BISECTION_STEPS, st.DEPTH_REFINE_STEPS // 2,
         rh.HISTORY_FAILURE_PLANES, rh.FAILURE_BISECTION_STEPS, rh.FAILURE_DEPTH_STEPS,
@@ -536,12 +539,15 @@ def knobs_for(mode: int, times_s: np.ndarray, log_scale: np.ndarray) -> tuple:
     )  # fmt: skip
 
 
-def way_to_peak(steps: int, histories: int) -> int:
-    """CLOSED for one step of rain, TABLE for up to ``rain_history.TABLE_HISTORIES``
-    distinct histories (as the core tabulates), DIRECT beyond."""
+def way_to_peak(steps: int, histories: int, cells: int = 0) -> int:
+    """CLOSED for one step of rain; TABLE for up to ``rain_history.TABLE_HISTORIES``
+    distinct histories (as the core tabulates), or more where each serves at least
+    ``CELLS_PER_TABLE`` cells on average (a table costs about as much as a direct search
+    of a few hundred cells); DIRECT beyond."""
     if steps == 1:
         return CLOSED
-    return TABLE if histories <= rh.TABLE_HISTORIES else DIRECT
+    limit = max(rh.TABLE_HISTORIES, cells // CELLS_PER_TABLE)
+    return TABLE if histories <= limit else DIRECT
 
 
 def histories(steps: rh.RainSteps, conductivity: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -553,18 +559,45 @@ def histories(steps: rh.RainSteps, conductivity: np.ndarray) -> tuple[np.ndarray
     else:
         rain = np.broadcast_to(steps.rain_mm_h, (steps.ends_h.size, conductivity.size))
         per_cell = rh.infiltration_jumps(rh.RainSteps(steps.ends_h, rain), conductivity)
-        distinct, rows = np.unique(np.stack(per_cell, axis=1), axis=0, return_inverse=True)
-        return np.ascontiguousarray(distinct), rows.ravel().astype(np.int64)
+        return _distinct_rows(np.stack(per_cell, axis=1))
     return np.ascontiguousarray(np.stack(per_k, axis=1)), rows.astype(np.int64)
 
 
-def _tables(jumps: np.ndarray, starts_s: tuple[float, ...], times_s: np.ndarray) -> np.ndarray:
-    """The core's tables of each history against LOG_SCALE: the peak of G over the window,
-    its time, and G at the end of the rain and at the later time."""
-    tables = np.empty((4, jumps.shape[0], rh.LOG_SCALE.size))
+def _distinct_rows(table: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(distinct rows, each row's index among them), found by a key per row (the row's dot
+    product with fixed numbers) and checked row by row; a sort of whole rows where two
+    distinct rows share a key."""
+    key = table @ np.linspace(1.0, 2.0, table.shape[1]) ** 0.5
+    _, first, rows = np.unique(key, return_index=True, return_inverse=True)
+    distinct = table[first]
+    if not np.array_equal(distinct[rows], table):
+        distinct, rows = np.unique(table, axis=0, return_inverse=True)
+    return np.ascontiguousarray(distinct), rows.ravel().astype(np.int64)
+
+
+def _scale_range(top: np.ndarray, base: np.ndarray, d_hat: np.ndarray) -> tuple[int, int]:
+    """The LOG_SCALE indices around every response time s = Z^2 / D_hat the cells' planes
+    can have (one node beyond each end): the tables need no more."""
+    low = np.log10(float(np.min(top)) ** 2 / float(np.max(d_hat)))
+    high = np.log10(float(np.max(base)) ** 2 / float(np.min(d_hat)))
+    step = rh.LOG_SCALE[1] - rh.LOG_SCALE[0]
+    first = int(np.clip(np.floor((low - rh.LOG_SCALE[0]) / step) - 1, 0, rh.LOG_SCALE.size - 2))
+    last = int(
+        np.clip(np.ceil((high - rh.LOG_SCALE[0]) / step) + 1, first + 1, rh.LOG_SCALE.size - 1)
+    )
+    return first, last
+
+
+def _tables(
+    jumps: np.ndarray, starts_s: tuple[float, ...], times_s: np.ndarray, first: int, last: int
+) -> np.ndarray:
+    """The core's tables of each history at LOG_SCALE[first:last + 1]: the peak of G over
+    the window, its time, and G at the end of the rain and at the later time."""
+    tables = np.empty((4, jumps.shape[0], last + 1 - first))
     for h, row in enumerate(jumps):
         history = tuple(map(float, row))
-        tables[0, h], tables[1, h] = rh.peak_table(history, starts_s, float(times_s[2]))
-        tables[2, h] = rh.time_table(history, starts_s, float(times_s[0]))
-        tables[3, h] = rh.time_table(history, starts_s, float(times_s[1]))
+        found = rh.peak_table(history, starts_s, float(times_s[2]), first, last)
+        tables[0, h], tables[1, h] = found
+        tables[2, h] = rh.time_table(history, starts_s, float(times_s[0]))[first : last + 1]
+        tables[3, h] = rh.time_table(history, starts_s, float(times_s[1]))[first : last + 1]
     return tables
