@@ -133,3 +133,30 @@ def write_rain_netcdf(path, values_mm_h, unit="mm h-1", bounds=True, name="rain"
         for var in ("time", "time_bnds"):  # one unit for both, as CF asks
             ds[var].encoding["units"] = "hours since 2026-11-30 00:00:00"
     ds.to_netcdf(path)
+
+
+def storm_region(folder):
+    """The test DEM and two soil units with the hydrology storms need."""
+    _dem(folder / "dem.tif")
+    _polygons(folder / "soils.geojson")
+    frame = gpd.read_file(folder / "soils.geojson")
+    frame["diffusivity_m2_s"] = 1e-4
+    frame.to_file(folder / "soils.geojson", driver="GeoJSON")
+    return folder
+
+
+def storm_fs(region, out, rain, later_h=12.0):
+    """FS of a storm scenario on ``storm_region`` with the rain lines ``rain``, run into
+    ``out`` (its scenario file beside the region's files)."""
+    from slopescreen.maps.region.engine import run
+
+    toml = region / f"{out.name}.toml"
+    toml.write_text(
+        '[region]\nname = "storm"\ndem = "dem.tif"\nsoil_units = "soils.geojson"\n'
+        "[outputs]\nquicklook_map = false\nreport = false\n"
+        f'[[scenario]]\nname = "s"\n[scenario.storm]\n{rain}\nlater_h = {later_h}\n'
+        "initial_water_table_depth_m = 1.0\n"
+    )
+    run(toml, out, progress=False, echo=lambda s: None)
+    with rasterio.open(out / "s" / "fs.tif") as src:
+        return src.read(1)

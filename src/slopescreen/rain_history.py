@@ -425,12 +425,7 @@ def history_summary(
             min_slip_depth_m=min_slip_depth_m,
             **kwargs,
         )
-    soil = checked("soil_depth_m", soil_depth_m, 0.0, low_open=True)
-    later = float(checked("later_h", later_h, 0.0))
-    end = steps.duration_h
-    shallowest = float(checked("min_slip_depth_m", min_slip_depth_m, 0.0, low_open=True))
-    if later < end:
-        raise ValueError(f"later_h ({later:g}) must not be before the end of the rain ({end:g})")
+    soil, later, end, shallowest = search_inputs(soil_depth_m, later_h, steps, min_slip_depth_m)
     if "rain_mm_h" in kwargs or "duration_h" in kwargs:
         raise TypeError("history_summary takes the rain as ends_h and rain_mm_h steps")
     shape = np.broadcast_shapes(
@@ -469,6 +464,20 @@ def history_summary(
 
     summary = columns_summary(cols, base, shallowest, end, later, first_failure)
     return StormSummary(*(as_result(field) for field in summary))
+
+
+def search_inputs(
+    soil_depth_m: ArrayLike, later_h: float, steps: RainSteps, min_slip_depth_m: float
+) -> tuple[np.ndarray, float, float, float]:
+    """(soil depth, later time, end of the rain, shallowest slip plane) of a search, checked:
+    the later time not before the end of the rain."""
+    soil = checked("soil_depth_m", soil_depth_m, 0.0, low_open=True)
+    later = float(checked("later_h", later_h, 0.0))
+    end = steps.duration_h
+    shallowest = float(checked("min_slip_depth_m", min_slip_depth_m, 0.0, low_open=True))
+    if later < end:
+        raise ValueError(f"later_h ({later:g}) must not be before the end of the rain ({end:g})")
+    return soil, later, end, shallowest
 
 
 def _first_failure(

@@ -3,29 +3,22 @@ converted by their stated unit, resampled onto the DEM grid, and replayed by a s
 
 from __future__ import annotations
 
-import geopandas as gpd
 import numpy as np
 import pytest
 import rasterio
 from rasterio.transform import from_origin
-from region_files import _dem, _polygons, write_rain_netcdf
+from region_files import storm_fs, storm_region, write_rain_netcdf
 
 from slopescreen.errors import InputError
 from slopescreen.maps.io.grid import read_grid
 from slopescreen.maps.io.rain_series import read_series, series_on_tile
-from slopescreen.maps.region.engine import run
 
 RECORD_MM_H = (5.0, 30.0, 10.0)  # three hourly steps
 
 
 @pytest.fixture(scope="module")
 def region(tmp_path_factory):
-    folder = tmp_path_factory.mktemp("series")
-    _dem(folder / "dem.tif")
-    _polygons(folder / "soils.geojson")
-    frame = gpd.read_file(folder / "soils.geojson")
-    frame["diffusivity_m2_s"] = 1e-4
-    frame.to_file(folder / "soils.geojson", driver="GeoJSON")
+    folder = storm_region(tmp_path_factory.mktemp("series"))
     (folder / "record.csv").write_text(
         "end_h,rain_mm_h\n" + "".join(f"{k + 1},{v}\n" for k, v in enumerate(RECORD_MM_H))
     )
@@ -33,16 +26,7 @@ def region(tmp_path_factory):
 
 
 def _fs(region, tmp_path, name, rain):
-    toml = region / f"{name}.toml"
-    toml.write_text(
-        '[region]\nname = "series"\ndem = "dem.tif"\nsoil_units = "soils.geojson"\n'
-        "[outputs]\nquicklook_map = false\nreport = false\n"
-        f'[[scenario]]\nname = "s"\n[scenario.storm]\n{rain}\nlater_h = 8.0\n'
-        "initial_water_table_depth_m = 1.0\n"
-    )
-    run(toml, tmp_path / name, progress=False, echo=lambda s: None)
-    with rasterio.open(tmp_path / name / "s" / "fs.tif") as src:
-        return src.read(1)
+    return storm_fs(region, tmp_path / name, rain, later_h=8.0)
 
 
 def test_a_uniform_netcdf_series_is_the_gauge_record(region, tmp_path):

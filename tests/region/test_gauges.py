@@ -6,12 +6,10 @@ from __future__ import annotations
 import geopandas as gpd
 import numpy as np
 import pytest
-import rasterio
 from rasterio.transform import from_origin
-from region_files import _dem, _polygons, write_gauges
+from region_files import storm_fs, storm_region, write_gauges
 
 from slopescreen.errors import InputError
-from slopescreen.maps.region.engine import run
 from slopescreen.maps.region.gauge_rain import common_steps, gauge_weights
 from slopescreen.maps.terrain.ground import ground_distances_m
 from slopescreen.rain_history import rain_steps
@@ -65,33 +63,15 @@ def test_ground_distances_on_a_projection_include_its_scale():
 
 @pytest.fixture(scope="module")
 def region(tmp_path_factory):
-    folder = tmp_path_factory.mktemp("gauges")
-    _dem(folder / "dem.tif")
-    _polygons(folder / "soils.geojson")
-    frame = gpd.read_file(folder / "soils.geojson")
-    frame["diffusivity_m2_s"] = 1e-4
-    frame.to_file(folder / "soils.geojson", driver="GeoJSON")
+    folder = storm_region(tmp_path_factory.mktemp("gauges"))
     (folder / "a.csv").write_text("end_h,rain_mm\n2,10\n4,60\n6,10\n")
     (folder / "b.csv").write_text("end_h,rain_mm\n2,0\n4,5\n6,20\n")
     write_gauges(folder, "gauges.gpkg", ("a.csv", "b.csv"))
     return folder
 
 
-def _scenario(rain: str) -> str:
-    return (
-        '[region]\nname = "gauges"\ndem = "dem.tif"\nsoil_units = "soils.geojson"\n'
-        "[outputs]\nquicklook_map = false\nreport = false\n"
-        f'[[scenario]]\nname = "s"\n[scenario.storm]\n{rain}\nlater_h = 12.0\n'
-        "initial_water_table_depth_m = 1.0\n"
-    )
-
-
 def _fs(region, tmp_path, name, rain):
-    toml = region / f"{name}.toml"
-    toml.write_text(_scenario(rain))
-    run(toml, tmp_path / name, progress=False, echo=lambda s: None)
-    with rasterio.open(tmp_path / name / "s" / "fs.tif") as src:
-        return src.read(1)
+    return storm_fs(region, tmp_path / name, rain)
 
 
 def test_each_cell_takes_its_nearest_gauges_record(region, tmp_path):
@@ -139,10 +119,8 @@ def test_bad_gauges_are_refused_in_one_line(region, tmp_path, change, message):
         write_gauges(region, "bad.gpkg", ("a.csv", "timed.csv"))
     else:
         rain = 'gauges = "gauges.gpkg"\ngauge_power = 3.0'
-    toml = region / f"bad_{change}.toml"
-    toml.write_text(_scenario(rain))
     with pytest.raises(InputError) as caught:
-        run(toml, tmp_path / "bad", progress=False, echo=lambda s: None)
+        storm_fs(region, tmp_path / f"bad_{change}", rain)
     text = str(caught.value)
     assert message in text and "\n" not in text
     assert "bad" in text or "gauge_power" in text  # the file or the key is named

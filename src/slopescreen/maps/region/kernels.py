@@ -15,12 +15,14 @@ import math
 import numba
 import numpy as np
 
+from slopescreen._normal import erfc_of_positive
 from slopescreen.hydrology import wetness_ratio
 from slopescreen.stability import resisting_stress, slip_plane_terms
 
 _terms = numba.njit(inline="always")(slip_plane_terms)
 _resisting = numba.njit(inline="always")(resisting_stress)
 _ratio = numba.njit(inline="always")(wetness_ratio)
+_erfc = numba.njit(inline="always")(erfc_of_positive)
 
 
 @numba.njit(inline="always")
@@ -214,21 +216,24 @@ def _critical_m(tan_b, z, c_total, tan_phi, gamma, gamma_sat, seismic, gamma_w):
 
 
 @numba.njit(inline="always")
-def _response(t):
-    """Iverson's R(t*) (as slopescreen.storm.response_function)."""
+def response(t):
+    """Iverson's R(t*) (slopescreen.storm.response_function, with the core's erfc)."""
     if t <= 0.0:
         return 0.0
-    return math.sqrt(t / math.pi) * math.exp(-1.0 / t) - math.erfc(1.0 / math.sqrt(t))
+    return math.sqrt(t / math.pi) * math.exp(-1.0 / t) - _erfc(1.0 / math.sqrt(t))
 
 
 @numba.njit(inline="always")
-def _rate(t):
+def response_rate(t):
+    """dR/dt* (slopescreen.storm.response_rate)."""
     return math.exp(-1.0 / t) / (2.0 * math.sqrt(math.pi * t)) if t > 0.0 else 0.0
 
 
 @numba.njit(inline="always")
-def _peak(storm, window, log_grid, offsets):
-    """max of G over [0, window] (as slopescreen.rain_thresholds.peak_response)."""
+def closed_peak(storm, window, log_grid, offsets):
+    """(max of G = R(t*) - R(t* - T*) over [0, window], its t*): slopescreen.storm.peak_time
+    (the tabulated offset of the peak after the storm's end, bisection beyond the table)
+    and slopescreen.storm.peak_response."""
     lt = math.log10(max(storm, 1e-300))
     if log_grid[0] <= lt <= log_grid[-1]:
         t_peak = storm + np.interp(lt, log_grid, offsets)
@@ -236,16 +241,16 @@ def _peak(storm, window, log_grid, offsets):
         lo, hi = max(storm, 2.0), storm + 2.0
         for _ in range(64):
             mid = 0.5 * (lo + hi)
-            if _rate(mid) > _rate(mid - storm):
+            if response_rate(mid) > response_rate(mid - storm):
                 lo = mid
             else:
                 hi = mid
         t_peak = 0.5 * (lo + hi)
     t_peak = min(t_peak, window)
-    g = _response(t_peak)
+    g = response(t_peak)
     if t_peak > storm:
-        g -= _response(t_peak - storm)
-    return g
+        g -= response(t_peak - storm)
+    return g, t_peak
 
 
 @numba.njit(inline="always")
@@ -260,7 +265,7 @@ def _intensity_at(z, cell, log_grid, offsets):
     psi_c = m_c * z * cos2
     if psi_c > beta * z:
         return math.inf
-    g = _peak(duration * d_hat / (z * z), window * d_hat / (z * z), log_grid, offsets)
+    g = closed_peak(duration * d_hat / (z * z), window * d_hat / (z * z), log_grid, offsets)[0]
     if not (g > 0.0):
         return math.inf
     i_c = k * (psi_c - (z - d) * beta) / (z * g)

@@ -38,8 +38,8 @@ from numpy.typing import ArrayLike
 
 from slopescreen import rain_history as rh
 from slopescreen import storm as st
-from slopescreen._checks import as_result, checked
-from slopescreen._normal import erfc_of_positive
+from slopescreen._checks import as_result
+from slopescreen.maps.region.kernels import closed_peak, response
 from slopescreen.stability import resisting_stress, slip_plane_terms
 from slopescreen.storm import StormSummary
 
@@ -64,21 +64,6 @@ GOLDEN = st.GOLDEN
 
 _terms = numba.njit(inline="always")(slip_plane_terms)
 _resisting = numba.njit(inline="always")(resisting_stress)
-_erfc = numba.njit(inline="always")(erfc_of_positive)
-
-
-@numba.njit(inline="always")
-def _response(t):
-    """Iverson's R(t*) (slopescreen.storm.response_function)."""
-    if t <= 0.0:
-        return 0.0
-    return math.sqrt(t / math.pi) * math.exp(-1.0 / t) - _erfc(1.0 / math.sqrt(t))
-
-
-@numba.njit(inline="always")
-def _rate(t):
-    """dR/dt* (slopescreen.storm.response_rate)."""
-    return math.exp(-1.0 / t) / (2.0 * math.sqrt(math.pi * t)) if t > 0.0 else 0.0
 
 
 @numba.njit(inline="always")
@@ -106,7 +91,7 @@ def _g_at(t, s, jumps, starts):
     total = 0.0
     for n in range(starts.size):
         if starts[n] < t:
-            total += jumps[n] * _response((t - starts[n]) / s)
+            total += jumps[n] * response((t - starts[n]) / s)
     return total
 
 
@@ -196,24 +181,7 @@ def _peak(z, cell, jumps, h, knobs, starts, tables, curve):
     mode, window = knobs[KNOB_MODE], knobs[KNOB_WINDOW]
     s = z * z / cell[D_HAT]
     if mode == CLOSED:
-        log_storm, offsets = curve[0], curve[1]
-        big, win = starts[1] / s, window / s
-        lt = math.log10(max(big, 1e-300))
-        if log_storm[0] <= lt <= log_storm[-1]:
-            t_peak = big + np.interp(lt, log_storm, offsets)
-        else:  # storm._peak_time_by_bisection
-            lo, hi = max(big, 2.0), big + 2.0
-            for _ in range(64):
-                mid = 0.5 * (lo + hi)
-                if _rate(mid) > _rate(mid - big):
-                    lo = mid
-                else:
-                    hi = mid
-            t_peak = 0.5 * (lo + hi)
-        t_peak = min(t_peak, win)
-        g = _response(t_peak)
-        if t_peak > big:
-            g -= _response(t_peak - big)
+        g, t_peak = closed_peak(starts[1] / s, window / s, curve[0], curve[1])
         return jumps[0] * g, t_peak * s
     if mode == TABLE:
         g, inside = _table_at(tables, 0, h, s, knobs)
@@ -231,8 +199,14 @@ def _storm_crossing(z, hi, cell, jumps, h, knobs, starts, tables, curve):
         hi = _peak(z, cell, jumps, h, knobs, starts, tables, curve)[1]
     if not _fs_at(z, hi, cell, jumps, starts) < 1.0:
         return math.inf
-    lo = 0.0
-    for _ in range(knobs[KNOB_STORM_BISECTION]):
+    return _bisected(z, 0.0, hi, knobs[KNOB_STORM_BISECTION], cell, jumps, starts)
+
+
+@numba.njit(inline="always")
+def _bisected(z, lo, hi, steps, cell, jumps, starts):
+    """The crossing of FS = 1 between ``lo`` (FS >= 1) and ``hi`` (FS < 1) on the plane at
+    depth z, bisected ``steps`` times: the earlier end of the last bracket."""
+    for _ in range(steps):
         mid = 0.5 * (lo + hi)
         if _fs_at(z, mid, cell, jumps, starts) < 1.0:
             hi = mid
@@ -275,14 +249,8 @@ def _history_crossing(z, t_min, limit, cell, jumps, h, knobs, starts, tables, cu
             break
     if first < 0:
         return math.inf
-    hi, lo = times[first], times[max(first - 1, 0)]
-    for _ in range(knobs[KNOB_HISTORY_BISECTION]):
-        mid = 0.5 * (lo + hi)
-        if _fs_at(z, mid, cell, jumps, starts) < 1.0:
-            hi = mid
-        else:
-            lo = mid
-    return lo
+    lo, hi = times[max(first - 1, 0)], times[first]
+    return _bisected(z, lo, hi, knobs[KNOB_HISTORY_BISECTION], cell, jumps, starts)
 
 
 @numba.njit(inline="always")
@@ -477,12 +445,7 @@ def compiled_summary(
     The cells are worked ``PART_CELLS`` at a time on numba's number of threads;
     ``progress`` is called with the number of cells each time a part is done."""
     steps = rh.rain_steps(ends_h, rain_mm_h)
-    soil = checked("soil_depth_m", soil_depth_m, 0.0, low_open=True)
-    later = float(checked("later_h", later_h, 0.0))
-    end = steps.duration_h
-    shallowest = float(checked("min_slip_depth_m", min_slip_depth_m, 0.0, low_open=True))
-    if later < end:
-        raise ValueError(f"later_h ({later:g}) must not be before the end of the rain ({end:g})")
+    soil, later, end, shallowest = rh.search_inputs(soil_depth_m, later_h, steps, min_slip_depth_m)
     shape = np.broadcast_shapes(
         soil.shape,
         steps.rain_mm_h.shape[1:],
