@@ -18,7 +18,7 @@ import numpy as np
 import pytest
 import rasterio
 from rasterio.transform import from_origin
-from shapely.geometry import box
+from shapely.geometry import Point, box
 
 from slopescreen.errors import InputError
 from slopescreen.maps.region.engine import run
@@ -74,6 +74,21 @@ name = "gauge"
 hyetograph = "gauge.csv"
 later_h = 24.0
 initial_recharge_mm_day = 15.0
+
+[[scenario]]
+name = "gauges"
+[scenario.storm]
+gauges = "gauges.gpkg"
+later_h = 24.0
+initial_water_table_depth_m = 0.8
+
+[[scenario]]
+name = "radar"
+[scenario.storm]
+rain_series = "radar.nc"
+rain_series_resampling = "nearest"
+later_h = 24.0
+initial_water_table_depth_m = 0.8
 
 [[scenario]]
 name = "rain"
@@ -242,7 +257,34 @@ def gauntlet(tmp_path_factory):
     ]  # fmt: skip
     (tmp / "idf.csv").write_text("\n".join(rows) + "\n")
     (tmp / "gauge.csv").write_text("end_h,rain_mm\n3,6\n5,40\n8,9\n")  # rain in steps
+    (tmp / "gauge2.csv").write_text("end_h,rain_mm\n2,20\n6,10\n")
+    gpd.GeoDataFrame(  # two gauges in longitude and latitude, far from some of the DEMs
+        {"name": ["north", "south"], "record": ["gauge.csv", "gauge2.csv"]},
+        geometry=[Point(15.0, 45.2), Point(15.1, 45.0)], crs="EPSG:4326",
+    ).to_file(tmp / "gauges.gpkg", driver="GPKG")  # fmt: skip
+    _global_rain(tmp / "radar.nc")
     return tmp, dems
+
+
+def _global_rain(path):
+    """A CF rain series on a 1-degree grid over the whole globe (covers every DEM here):
+    three hourly steps, more rain to the east."""
+    import xarray as xr
+
+    lon, lat = np.arange(-179.5, 180.0), np.arange(-89.5, 90.0)
+    east = np.clip((lon[None, :] + 180.0) / 18.0, 0.0, 30.0) * np.ones((lat.size, 1))
+    rain = np.stack([east, 2.0 * east, 0.5 * east]) / 3600.0  # kg m-2 s-1
+    ds = xr.Dataset(
+        {"pr": (("time", "lat", "lon"), rain,
+                {"standard_name": "precipitation_flux", "units": "kg m-2 s-1"})},
+        coords={
+            "time": np.array(["2026-11-30T01", "2026-11-30T02", "2026-11-30T03"],
+                             "datetime64[ns]"),
+            "lat": ("lat", lat, {"standard_name": "latitude"}),
+            "lon": ("lon", lon, {"standard_name": "longitude"}),
+        },
+    )  # fmt: skip
+    ds.to_netcdf(path)
 
 
 def _scenario_file(tmp, name, dem, unit, method="taylor", maps=False):
@@ -293,7 +335,8 @@ def test_every_scenario_kind_runs_on_real_terrain(gauntlet, name):
     assert name not in ("one_row", "one_column")
     with rasterio.open(tmp / dem) as src:
         has_data = src.read_masks(1) > 0
-    for scenario in ("dry", "wet_raster", "steady", "storm", "gauge", "rain", "rain_more"):
+    kinds = ("dry", "wet_raster", "steady", "storm", "gauge", "gauges", "radar", "rain")
+    for scenario in (*kinds, "rain_more"):
         with rasterio.open(out / scenario / "fs.tif") as src:
             fs = src.read(1, masked=True)
             cap = float(src.tags()["fs_cap"])
@@ -303,7 +346,7 @@ def test_every_scenario_kind_runs_on_real_terrain(gauntlet, name):
         with rasterio.open(out / scenario / "probability_of_failure.tif") as src:
             pf = src.read(1, masked=True).compressed()
         assert ((pf >= 0) & (pf <= 1)).all()
-    for storm in ("storm", "gauge"):
+    for storm in ("storm", "gauge", "gauges", "radar"):
         with rasterio.open(out / storm / "storm_time_to_failure_h.tif") as src:
             ttf = src.read(1, masked=True).compressed()
         assert ((ttf >= 0) | (ttf == -1) | (ttf == -2)).all()
