@@ -131,8 +131,11 @@ def test_tiling_does_not_change_the_rasters(tmp_path, monkeypatch):
     assert sorted(zones_one["area_m2"]) == pytest.approx(sorted(zones_many["area_m2"]))
 
 
-def test_unreachable_scheduler_is_one_line(tmp_path, capsys):
+def test_unreachable_scheduler_is_one_line(tmp_path, capsys, monkeypatch):
     from slopescreen.cli.main import main
+    from slopescreen.maps.region import distributed
+
+    monkeypatch.setattr(distributed, "SCHEDULER_TIMEOUT_S", 1)  # nothing answers: no wait
 
     code = main(
         [

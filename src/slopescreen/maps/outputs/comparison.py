@@ -12,6 +12,7 @@ from slopescreen.cautions import CAUTIONS
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.rasters import read_block, windows
 from slopescreen.maps.io.safe_writes import replacing
+from slopescreen.maps.outputs.figure_text import fit_text
 from slopescreen.maps.outputs.palette import hex_rgb
 from slopescreen.maps.outputs.quicklook import (
     MapFrame,
@@ -188,7 +189,7 @@ def draw_small_multiples(
         bbox_to_anchor=(0.5, 0.09),
     )
     fig.suptitle(title, fontsize=11, x=0.01, ha="left")
-    fig.text(0.01, 0.01, "CAUTION: " + " ".join(CAUTIONS), fontsize=7, color="0.2", wrap=True)
+    fit_text(fig, 0.01, 0.01, "CAUTION: " + " ".join(CAUTIONS), fontsize=7, color="0.2")
     fig.subplots_adjust(left=0.01, right=0.99, top=0.88, bottom=0.2, wspace=0.04)
     with replacing(target) as tmp:
         fig.savefig(tmp, format="png")

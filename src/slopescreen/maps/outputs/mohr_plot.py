@@ -8,6 +8,7 @@ import numpy as np
 
 from slopescreen.envelope import EnvelopeFit
 from slopescreen.maps.io.safe_writes import replacing
+from slopescreen.maps.outputs.figure_text import fit_text
 from slopescreen.strength import failure_plane_stresses, mohr_circle
 
 
@@ -94,7 +95,7 @@ def _finish(fig, ax, fit: EnvelopeFit, sigma_max: float, title: str, target: str
     ax.legend(fontsize=7, loc="upper left")
     from slopescreen.cautions import CAUTIONS
 
-    fig.text(0.01, 0.01, "CAUTION: " + " ".join(CAUTIONS), fontsize=6, color="0.3", wrap=True)
+    fit_text(fig, 0.01, 0.01, "CAUTION: " + " ".join(CAUTIONS), fontsize=6, color="0.3")
     fig.tight_layout(rect=(0, 0.07, 1, 1))
     with replacing(target) as tmp:
         fig.savefig(tmp, format="png")

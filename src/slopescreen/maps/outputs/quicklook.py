@@ -16,6 +16,7 @@ import numpy as np
 from slopescreen.cautions import CAUTIONS
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.safe_writes import replacing
+from slopescreen.maps.outputs.figure_text import fit_text
 from slopescreen.maps.outputs.palette import (
     FAILS_DRY_HEX,
     HOLDS_HEX,
@@ -294,9 +295,7 @@ def _titles(fig: Any, frame: MapFrame, fig_h: float) -> None:
         va="top",
         parse_math=False,
     )
-    fig.text(
-        0.09, 1.0 - 0.55 / fig_h, frame.subtitle, fontsize=9, va="top", parse_math=False, wrap=True
-    )
+    fit_text(fig, 0.09, 1.0 - 0.55 / fig_h, frame.subtitle, fontsize=9, va="top", parse_math=False)
 
 
 def _side_panel(
@@ -387,24 +386,10 @@ def _scale_and_north(ax: Any, grid: Grid, variation: float) -> None:
 def _footer(fig: Any, grid: Grid, fig_h: float) -> None:
     """The CRS with how ground lengths were measured, and the cautions."""
     crs_text = grid.crs.to_string()  # type: ignore[attr-defined]
-    fig.text(
-        0.09,
-        0.55 / fig_h,
-        f"CRS: {crs_text}. {grid.ground.note}",
-        fontsize=7,
-        color="0.2",
-        parse_math=False,
-        wrap=True,
-    )
-    fig.text(
-        0.09,
-        0.1 / fig_h,
-        "CAUTION: " + " ".join(CAUTIONS),
-        fontsize=7,
-        color="0.2",
-        wrap=True,
-        parse_math=False,
-    )
+    note = f"CRS: {crs_text}. {grid.ground.note}"
+    fit_text(fig, 0.09, 0.55 / fig_h, note, fontsize=7, color="0.2", parse_math=False)
+    caution = "CAUTION: " + " ".join(CAUTIONS)
+    fit_text(fig, 0.09, 0.1 / fig_h, caution, fontsize=7, color="0.2", parse_math=False)
 
 
 def _draw(

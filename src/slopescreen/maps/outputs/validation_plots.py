@@ -10,6 +10,7 @@ import numpy as np
 
 from slopescreen.cautions import CAUTIONS
 from slopescreen.maps.io.safe_writes import replacing
+from slopescreen.maps.outputs.figure_text import fit_text
 from slopescreen.maps.outputs.palette import CLASS_HEX
 
 VIOLET, RUST = CLASS_HEX[0], CLASS_HEX[1]  # the house palette's two strongest colours
@@ -32,7 +33,7 @@ def _pyplot() -> Any:
 
 
 def _save(fig: Any, target: Path, bottom: float = 0.1) -> Path:
-    fig.text(0.01, 0.01, "CAUTION: " + " ".join(CAUTIONS), fontsize=6, color="0.3", wrap=True)
+    fit_text(fig, 0.01, 0.01, "CAUTION: " + " ".join(CAUTIONS), fontsize=6, color="0.3")
     fig.tight_layout(rect=(0, bottom, 1, 1))
     with replacing(target) as tmp:
         fig.savefig(tmp, format="png", dpi=110)

@@ -7,6 +7,8 @@ from contextlib import contextmanager
 
 from slopescreen.errors import InputError
 
+SCHEDULER_TIMEOUT_S = 10  # how long to wait for an existing scheduler to answer
+
 
 @contextmanager
 def dask_runner(
@@ -22,7 +24,7 @@ def dask_runner(
     cluster = None
     try:
         if scheduler:
-            client = Client(scheduler, timeout="10s")
+            client = Client(scheduler, timeout=f"{SCHEDULER_TIMEOUT_S}s")
         else:
             cluster = LocalCluster(
                 n_workers=workers,

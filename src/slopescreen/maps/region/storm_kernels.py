@@ -85,7 +85,7 @@ def _head(z, g, cell):
     return min((z - cell[WT_DEPTH]) * cell[BETA] + z * g, cell[BETA] * z)
 
 
-@numba.njit(inline="always")
+@numba.njit
 def _g_at(t, s, jumps, starts):
     """G(t) = sum_n J_n R((t - t_(n-1)) / s) (rain_history._response_sum)."""
     total = 0.0
@@ -95,7 +95,7 @@ def _g_at(t, s, jumps, starts):
     return total
 
 
-@numba.njit(inline="always")
+@numba.njit
 def _fs_at(z, t, cell, jumps, starts):
     """FS at depth z and time t (s), the head summed directly."""
     g = _g_at(t, z * z / cell[D_HAT], jumps, starts)
@@ -175,7 +175,7 @@ def _peak_direct(s, jumps, starts, window, knobs):
     return best, when
 
 
-@numba.njit(inline="always")
+@numba.njit
 def _peak(z, cell, jumps, h, knobs, starts, tables, curve):
     """(max over the window of G at depth z, when in s) by the cell's way."""
     mode, window = knobs[KNOB_MODE], knobs[KNOB_WINDOW]
