@@ -38,7 +38,6 @@ from slopescreen.storm import (
     equivalent_saturation,
     pressure_head_m,
     storm_factor_of_safety,
-    storm_summary,
 )
 
 FAILS_WHEN_DRY = -1.0  # critical-recharge code: FS < 1 with no water at all
@@ -119,17 +118,12 @@ def storm_response(
     else:
         rain = dict(rain_mm_h=storm.rain_mm_h, duration_h=storm.duration_h)
         psi = pressure_head_m(depth_m, storm.duration_h, **rain, **hydro)
-    if summarise is not None:
-        steps = (
-            rain
-            if storm.ends_h
-            else dict(ends_h=[storm.duration_h], rain_mm_h=np.asarray(storm.rain_mm_h)[None])
-        )
-        res = summarise(**search, **steps, **hydro, **soil)
-    elif storm.ends_h:
-        res = history_summary(**search, **rain, **hydro, **soil)
-    else:
-        res = storm_summary(**search, **rain, **hydro, **soil)
+    steps = (  # a constant storm is one step (history_summary: storm_summary itself)
+        rain
+        if storm.ends_h
+        else dict(ends_h=[storm.duration_h], rain_mm_h=np.asarray(storm.rain_mm_h)[None])
+    )
+    res = (summarise or history_summary)(**search, **steps, **hydro, **soil)
     m = equivalent_saturation(psi, depth_m, slope_deg)
     return res, np.broadcast_to(m, np.shape(res.end_min_fs))
 

@@ -52,7 +52,7 @@ from slopescreen.maps.outputs.output_names import (
     TERRAIN_FOLDER,
     VALIDATION_FOLDER,
 )
-from slopescreen.maps.region.gauge_rain import WEIGHTINGS
+from slopescreen.maps.region.gauge_rain import DEFAULT_POWER, WEIGHTINGS
 from slopescreen.maps.region.scenario_schema import (
     SCHEMA,
     allowed,
@@ -137,7 +137,7 @@ class StormSpec:
     gauge_crs: str = ""
     gauge_rain: tuple[tuple[float, ...], ...] = ()
     gauge_weighting: str = "nearest"
-    gauge_power: float = 2.0
+    gauge_power: float = DEFAULT_POWER
     # rain on a grid in steps (a CF NetCDF file or a folder of rasters; steps_mm_h is
     # then the mean of each step over its grid): maps.io.rain_series.RainSeries
     rain_series: Any = None
@@ -742,11 +742,8 @@ def _gauge_fields(r: _Reader, sub: str, raw: dict[str, Any]) -> dict[str, Any]:
     weighting = r.choice(sub, raw, "gauge_weighting", WEIGHTINGS, "nearest")
     if "gauge_power" in raw and weighting != "inverse_distance":
         raise r.fail(sub, "gauge_power", "cannot matter with the nearest gauge: remove it")
-    power = (
-        float(r.number(sub, raw, "gauge_power", *STORM_KEYS["gauge_power"]))
-        if "gauge_power" in raw
-        else 2.0
-    )  # type: ignore[arg-type]
+    low, high = STORM_KEYS["gauge_power"]
+    power = float(r.number(sub, raw, "gauge_power", low, high, DEFAULT_POWER))  # type: ignore[arg-type]
     path = r.file(sub, raw, "gauges")
     found = read_gauges(path)
     mean = found.rain_mm_h.mean(axis=0)

@@ -20,6 +20,7 @@ from __future__ import annotations
 import numpy as np
 
 WEIGHTINGS = ("nearest", "inverse_distance")
+DEFAULT_POWER = 2.0  # inverse distance squared, the common choice (Shepard 1968)
 EDGE_DIGITS = 9  # step ends closer than 10^-9 h (3.6 microseconds) are one
 
 
@@ -51,7 +52,9 @@ def common_steps(
     return edges[1:], rain
 
 
-def gauge_weights(distance_m: np.ndarray, weighting: str, power: float = 2.0) -> np.ndarray:
+def gauge_weights(
+    distance_m: np.ndarray, weighting: str, power: float = DEFAULT_POWER
+) -> np.ndarray:
     """Each cell's share of each gauge, (gauges, cells...), summing to 1 over gauges:
     ``"nearest"`` 1 for the nearest gauge (the first of equals), ``"inverse_distance"``
     d^-power normalised (a cell at a gauge: that gauge alone).

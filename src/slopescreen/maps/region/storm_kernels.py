@@ -53,10 +53,10 @@ PEAK_MARGIN = 1e-3
 COS, SIN, GAMMA, GAMMA_SAT, GAMMA_W, COHESION, TAN_PHI, K_H, BETA, WT_DEPTH, D_HAT = range(11)
 PARAMETERS = 11
 # the numbers of knobs_for, by position
-(KNOB_MODE, KNOB_END, KNOB_LATER, KNOB_WINDOW, KNOB_TABLE_FIRST, KNOB_TABLE_STEP, KNOB_PLANES,
+(KNOB_MODE, KNOB_END, KNOB_LATER, KNOB_TABLE_FIRST, KNOB_TABLE_STEP, KNOB_PLANES,
  KNOB_BRACKETS, KNOB_STEPS, KNOB_STORM_PLANES, KNOB_STORM_BISECTION, KNOB_STORM_STEPS,
  KNOB_HISTORY_PLANES, KNOB_HISTORY_BISECTION, KNOB_HISTORY_STEPS, KNOB_TIME_BRACKETS,
- KNOB_TIME_STEPS, KNOB_PEAK_CANDIDATES, KNOB_FAILURE_CANDIDATES) = range(19)  # fmt: skip
+ KNOB_TIME_STEPS, KNOB_PEAK_CANDIDATES, KNOB_FAILURE_CANDIDATES) = range(18)  # fmt: skip
 NOT_BY_LATER, FAILS_BEFORE_STORM = st.NOT_BY_LATER, st.FAILS_BEFORE_STORM
 PART_CELLS = 16_384  # cells a thread takes at once (and between progress reports)
 CELLS_PER_TABLE = 500  # cells per history above which histories beyond 64 are tabulated
@@ -178,7 +178,7 @@ def _peak_direct(s, jumps, starts, window, knobs):
 @numba.njit
 def _peak(z, cell, jumps, h, knobs, starts, tables, curve):
     """(max over the window of G at depth z, when in s) by the cell's way."""
-    mode, window = knobs[KNOB_MODE], knobs[KNOB_WINDOW]
+    mode, window = knobs[KNOB_MODE], knobs[KNOB_LATER]
     s = z * z / cell[D_HAT]
     if mode == CLOSED:
         g, t_peak = closed_peak(starts[1] / s, window / s, curve[0], curve[1])
@@ -226,7 +226,7 @@ def _history_crossing(z, t_min, limit, cell, jumps, h, knobs, starts, tables, cu
     candidate below 1 (+inf), and the scan stops once the candidate before the next one is
     at or beyond ``limit`` (the earliest crossing found on other planes): the crossing
     reported would be no earlier than that candidate (+inf)."""
-    window, candidates = knobs[KNOB_WINDOW], knobs[KNOB_FAILURE_CANDIDATES]
+    window, candidates = knobs[KNOB_LATER], knobs[KNOB_FAILURE_CANDIDATES]
     g_peak, t_peak = _peak(z, cell, jumps, h, knobs, starts, tables, curve)
     if _fs_at_head(z, _head(z, g_peak, cell), cell) >= 1.0 + PEAK_MARGIN:
         return math.inf
@@ -464,7 +464,7 @@ def compiled_summary(
     conductivity = np.broadcast_to(np.asarray(kwargs["hydraulic_conductivity_m_s"], float), shape)
     jumps, rows = histories(steps, conductivity.ravel())
     starts_s = np.concatenate(([0.0], steps.ends_h)) * st.SECONDS_PER_HOUR
-    times_s = np.array([end, later, later]) * st.SECONDS_PER_HOUR
+    times_s = np.array([end, later]) * st.SECONDS_PER_HOUR
     mode = way_to_peak(steps.ends_h.size, jumps.shape[0], size)
     tables, first = np.zeros((4, 1, 2)), 0
     if mode == TABLE:
@@ -488,11 +488,12 @@ def compiled_summary(
 
 def knobs_for(mode: int, times_s: np.ndarray, first: int = 0) -> tuple:
     """The numbers the kernel reads (a tuple of numbers, no array), indexed by ``KNOB_*``:
-    the way to the peak, the end of the rain, the later time and the window (s), the
+    the way to the peak, the end of the rain and the later time (s: the window of the
+    search ends there, as the core's), the
     tables' grid (log10 s of their first node, LOG_SCALE[first], and the core's
     spacing), and the core's search constants."""
     return (
-        mode, float(times_s[0]), float(times_s[1]), float(times_s[2]),
+        mode, float(times_s[0]), float(times_s[1]),
         float(rh.LOG_SCALE[first]), float(rh.LOG_SCALE[1] - rh.LOG_SCALE[0]),
         st.DEPTH_PLANES, st.DEPTH_BRACKETS, st.DEPTH_REFINE_STEPS,
         st.FAILURE_PLANES, st.TIME_BISECTION_STEPS, st.DEPTH_REFINE_STEPS // 2,
@@ -559,7 +560,7 @@ def _tables(
     tables = np.empty((4, jumps.shape[0], last + 1 - first))
     for h, row in enumerate(jumps):
         history = tuple(map(float, row))
-        found = rh.peak_table(history, starts_s, float(times_s[2]), first, last)
+        found = rh.peak_table(history, starts_s, float(times_s[1]), first, last)
         tables[0, h], tables[1, h] = found
         tables[2, h] = rh.time_table(history, starts_s, float(times_s[0]))[first : last + 1]
         tables[3, h] = rh.time_table(history, starts_s, float(times_s[1]))[first : last + 1]
