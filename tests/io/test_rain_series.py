@@ -118,3 +118,15 @@ def test_a_folder_needs_its_unit_and_distinct_times(tmp_path):
         read_series(folder)
     with pytest.raises(InputError, match="two rasters for 2026-11-30T01:00"):
         read_series(folder, unit="mm_h")
+
+
+def test_the_manifest_hashes_the_series(region, tmp_path):
+    # the NetCDF file the rain was read from, by its SHA-256 (hashlib, common practice)
+    import hashlib
+    import json
+
+    write_rain_netcdf(region / "hashed.nc", RECORD_MM_H)
+    storm_fs(region, tmp_path / "hashed", 'rain_series = "hashed.nc"', later_h=8.0)
+    hashes = json.loads((tmp_path / "hashed" / "manifest.json").read_text())["inputs_sha256"]
+    expected = hashlib.sha256((region / "hashed.nc").read_bytes()).hexdigest()
+    assert hashes["storm_rain:s:hashed.nc"] == expected

@@ -124,3 +124,17 @@ def test_bad_gauges_are_refused_in_one_line(region, tmp_path, change, message):
     text = str(caught.value)
     assert message in text and "\n" not in text
     assert "bad" in text or "gauge_power" in text  # the file or the key is named
+
+
+def test_the_manifest_hashes_every_file_the_rain_comes_from(region, tmp_path):
+    # a rerun is reproducible only if the manifest names what the rain was read from:
+    # the gauge layer and every gauge's record, each by its SHA-256 (hashlib, common
+    # practice for file identity)
+    import hashlib
+    import json
+
+    storm_fs(region, tmp_path / "hashed", 'gauges = "gauges.gpkg"')
+    hashes = json.loads((tmp_path / "hashed" / "manifest.json").read_text())["inputs_sha256"]
+    for name in ("gauges.gpkg", "a.csv", "b.csv"):
+        expected = hashlib.sha256((region / name).read_bytes()).hexdigest()
+        assert hashes[f"storm_rain:s:{name}"] == expected

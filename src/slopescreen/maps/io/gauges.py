@@ -26,6 +26,7 @@ class Gauges(NamedTuple):
     crs_wkt: str
     ends_h: np.ndarray
     rain_mm_h: np.ndarray
+    records: tuple[Path, ...]  # each gauge's record file
 
 
 def read_gauges(path: Path) -> Gauges:
@@ -54,7 +55,8 @@ def read_gauges(path: Path) -> Gauges:
     repeated = sorted({n for n in names if names.count(n) > 1})
     if repeated:
         raise InputError(f"{path}: gauge name {repeated[0]!r} is used more than once")
-    records = [read_record(path.parent / str(r)) for r in frame[RECORD_FIELD]]
+    files = tuple(path.parent / str(r) for r in frame[RECORD_FIELD])
+    records = [read_record(file) for file in files]
     clocks = sorted({r.clock for r in records})
     if len(clocks) > 1:
         raise InputError(
@@ -65,4 +67,4 @@ def read_gauges(path: Path) -> Gauges:
         [r.start_h for r in records], [r.ends_h for r in records], [r.rain_mm_h for r in records]
     )
     xy = tuple((float(g.x), float(g.y)) for g in frame.geometry)
-    return Gauges(names, xy, frame.crs.to_wkt(), ends, rain)
+    return Gauges(names, xy, frame.crs.to_wkt(), ends, rain, files)

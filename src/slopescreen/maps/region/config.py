@@ -133,6 +133,7 @@ class StormSpec:
     # take their share ("nearest" or "inverse_distance" with gauge_power)
     gauges: Path | None = None
     gauge_names: tuple[str, ...] = ()
+    gauge_records: tuple[Path, ...] = ()
     gauge_xy: tuple[tuple[float, float], ...] = ()
     gauge_crs: str = ""
     gauge_rain: tuple[tuple[float, ...], ...] = ()
@@ -142,6 +143,16 @@ class StormSpec:
     # then the mean of each step over its grid): maps.io.rain_series.RainSeries
     rain_series: Any = None
     series_resampling: str = "bilinear"  # or "nearest"
+
+    @property
+    def files(self) -> list[Path]:
+        """The files the storm's rain is read from."""
+        files = [p for p in (self.hyetograph, self.gauges) if p is not None]
+        files += list(self.gauge_records)
+        series = self.rain_series
+        if series is not None:
+            files += list(series.files) or [series.path]
+        return files
 
     @property
     def initial_state(self) -> str:
@@ -751,6 +762,7 @@ def _gauge_fields(r: _Reader, sub: str, raw: dict[str, Any]) -> dict[str, Any]:
     return {
         "gauges": path,
         "gauge_names": found.names,
+        "gauge_records": found.records,
         "gauge_xy": found.xy,
         "gauge_crs": found.crs_wkt,
         "gauge_rain": tuple(tuple(map(float, row)) for row in found.rain_mm_h),

@@ -211,6 +211,8 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)
         if sc.rain_raster is not None:
             hashes[f"rain_raster:{sc.name}"] = file_sha256(sc.rain_raster)
+        for path in sc.storm.files if sc.storm is not None else []:
+            hashes[f"storm_rain:{sc.name}:{path.name}"] = file_sha256(path)
     if rain is not None:
         for path in rain.files:
             hashes[f"design_rainfall:{path.name}"] = file_sha256(path)
