@@ -25,6 +25,7 @@ from slopescreen.maps.outputs.output_names import (
 )
 from slopescreen.maps.outputs.summary import write_summary
 from slopescreen.maps.outputs.validation_plots import histogram_figure
+from slopescreen.maps.region.cell_fields import soil_at
 from slopescreen.maps.region.config import Scenario
 from slopescreen.maps.region.terrain_cache import NODATA_F32
 from slopescreen.maps.region.tile_job import CORE_FIELDS
@@ -64,7 +65,15 @@ def cell_inputs(done: FinishedRun, sc: Scenario, rows: np.ndarray, cols: np.ndar
         ok &= v[k] != NODATA_F32
     codes = np.where(ok, codes, 0).astype(np.int64)
     units = done.soils.with_overrides(sc.soil_overrides, f"{done.cfg.path}: scenario {sc.name}")
-    v |= {name: units.parameters[name][codes] for name in CORE_FIELDS}
+    soil = soil_at(
+        done.cell_soil(sc),
+        units.parameters,
+        done.grid,
+        done.verified(f"{TERRAIN_FOLDER}/{SOIL_UNIT}"),
+        rows,
+        cols,
+    )
+    v |= {name: np.where(ok, soil.get(name, np.nan), np.nan) for name in CORE_FIELDS}
     v["codes"], v["ok"], v["tables"] = codes, ok, units.parameters
     return v
 

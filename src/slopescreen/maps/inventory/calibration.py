@@ -38,11 +38,12 @@ from slopescreen.maps.outputs.output_names import (
     TERRAIN_FOLDER,
     VALIDATION_FOLDER,
 )
+from slopescreen.maps.region.cell_fields import CellSoil, soil_cells
 from slopescreen.maps.region.config import Scenario
 from slopescreen.maps.region.runners import Runner, serial_runner
 from slopescreen.maps.region.scenario_tiles import fs_fast
 from slopescreen.maps.region.terrain_cache import NODATA_F32
-from slopescreen.maps.region.tile_job import add_tile
+from slopescreen.maps.region.tile_job import CORE_FIELDS, add_tile
 from slopescreen.validation import grouped_curves, held_out_blocks, masses_around
 
 CALIBRATED = ("cohesion_kpa", "friction_deg", "root_cohesion_kpa")
@@ -60,7 +61,9 @@ class CalibrationJob:
     saturation: Path
     slope_deg: Path
     codes: Path
-    tables: dict[str, np.ndarray]  # soil parameters by code, current multipliers applied
+    tables: dict[str, np.ndarray]  # soil parameters by code (no multipliers)
+    soil: CellSoil  # soil fields set cell by cell
+    multipliers: dict[int, float]  # current multipliers of the other units
     changed: tuple[int, ...]  # units whose FS differs from fs.tif
     unit: int
     parameter: str
@@ -75,8 +78,7 @@ class CalibrationJob:
 
 
 def unit_fs(
-    tables: dict[str, np.ndarray],
-    code: int,
+    soil: dict[str, np.ndarray],
     parameter: str,
     multiplier: float,
     tan_slope: np.ndarray,
@@ -84,12 +86,11 @@ def unit_fs(
     seismic: float,
     fs_cap: float,
 ) -> np.ndarray:
-    """FS of a unit's cells with its ``parameter`` times ``multiplier``, rounded as fs.tif
-    stores it (float32, capped)."""
-    p = {name: float(values[code]) for name, values in tables.items()}
-    p[parameter] *= multiplier
-    if p["friction_deg"] >= 90.0:
-        p["friction_deg"] = 89.999
+    """FS of a unit's cells (``soil``: their soil fields, cell by cell) with ``parameter``
+    times ``multiplier``, rounded as fs.tif stores it (float32, capped)."""
+    p = {name: soil[name] for name in CORE_FIELDS}
+    p[parameter] = p[parameter] * multiplier
+    p["friction_deg"] = np.minimum(p["friction_deg"], 89.999)
     fs = fs_fast(seismic, tan_slope, saturation, **p)
     return np.minimum(fs, fs_cap).astype(np.float32).astype(np.float64)
 
@@ -110,25 +111,26 @@ def calibration_tile(job: CalibrationJob, rows: slice, cols: slice) -> dict[str,
     touched = valid & np.isin(codes, (*job.changed, job.unit))
     m = read_block(job.saturation, rows, cols).astype(np.float64)
     tan = np.tan(np.radians(read_block(job.slope_deg, rows, cols).astype(np.float64)))
+    soil = soil_cells(job.soil, job.tables, job.grid, rows, cols, codes, touched)
+    c = codes[touched]
+
+    def cells(code: int) -> dict[str, np.ndarray]:
+        return {name: soil[name][c == code] for name in CORE_FIELDS}
+
     for code in job.changed:
         sel = valid & (codes == code)
         if code != job.unit and sel.any():
+            k = job.multipliers.get(code, 1.0)
             fs[sel] = unit_fs(
-                job.tables, code, job.parameter, 1.0, tan[sel], m[sel], job.seismic, job.fs_cap
+                cells(code), job.parameter, k, tan[sel], m[sel], job.seismic, job.fs_cap
             )
     sel = valid & (codes == job.unit)
+    mine = cells(job.unit)
     out: dict[str, Any] = {"flagged": np.zeros(job.candidates.size)}
     for i, k in enumerate(job.candidates):
         if sel.any():
             fs[sel] = unit_fs(
-                job.tables,
-                job.unit,
-                job.parameter,
-                float(k),
-                tan[sel],
-                m[sel],
-                job.seismic,
-                job.fs_cap,
+                mine, job.parameter, float(k), tan[sel], m[sel], job.seismic, job.fs_cap
             )
         for g in GROUPS:
             keep = masks[g]
@@ -149,6 +151,7 @@ class Landslides:
     area: np.ndarray
     fs: np.ndarray  # of fs.tif
     test: np.ndarray
+    soil: dict[str, np.ndarray]  # each soil field at the cells
 
 
 def _landslides(done: FinishedRun, sc: Scenario, inv: Inventory) -> Landslides:
@@ -165,6 +168,7 @@ def _landslides(done: FinishedRun, sc: Scenario, inv: Inventory) -> Landslides:
         np.broadcast_to(area, (int(ok.sum()),)).astype(float),
         fs[ok],
         inv.cell_is_test()[ok],
+        {name: v[name][ok] for name in CORE_FIELDS},
     )
 
 
@@ -182,27 +186,31 @@ class Search:
         self.done, self.sc, self.inv, self.parameter, self.runner = done, sc, inv, parameter, runner
         self.slides = _landslides(done, sc, inv)
         self.base = done.soils.with_overrides(sc.soil_overrides, f"scenario {sc.name}").parameters
+        self.soil = done.cell_soil(sc)
         self.evaluations = 0
         self.cells_recomputed = 0
 
-    def tables(self, multipliers: dict[int, float]) -> dict[str, np.ndarray]:
-        from slopescreen.maps.region.tile_job import CORE_FIELDS
+    def cell_set(self, parameter: str) -> set[int]:
+        """Unit codes whose ``parameter`` is set cell by cell: a calibrated soil table
+        cannot hold their multiplied values, so they are not searched."""
+        codes = set(self.soil.rasters.get(parameter, {}))
+        if parameter == "depth_m":
+            codes |= set(self.soil.depth)
+        if parameter == "root_cohesion_kpa" and self.soil.cover is not None:
+            codes |= set(self.soil.cover_units)
+        return codes
 
-        t = {name: self.base[name].copy() for name in CORE_FIELDS}
-        for code, k in multipliers.items():
-            t[self.parameter][code] *= k
-        return t
-
-    def _slide_fs(self, tables: dict, changed: tuple[int, ...], unit: int, k: float) -> np.ndarray:
+    def _slide_fs(
+        self, multipliers: dict[int, float], changed: tuple[int, ...], unit: int, k: float
+    ) -> np.ndarray:
         s = self.slides
         fs = s.fs.copy()
         for code in (*changed, unit):
             sel = s.codes == code
             if sel.any():
-                mult = k if code == unit else 1.0
+                mult = k if code == unit else multipliers.get(code, 1.0)
                 fs[sel] = unit_fs(
-                    tables,
-                    code,
+                    {name: v[sel] for name, v in s.soil.items()},
                     self.parameter,
                     mult,
                     s.tan[sel],
@@ -218,13 +226,12 @@ class Search:
         """Per candidate multiplier of ``unit`` (the others as in ``multipliers``): training
         and held-out success AUC and the flagged share."""
         current = {c: k for c, k in multipliers.items() if c != unit}
-        tables = self.tables(current)
         changed = tuple(sorted(c for c, k in current.items() if k != 1.0))
         s = self.slides
         per_candidate = []
         slide_fs = []
         for k in candidates:
-            fs = self._slide_fs(tables, changed, unit, float(k))
+            fs = self._slide_fs(current, changed, unit, float(k))
             slide_fs.append(fs)
             per_candidate.append({"train": np.unique(fs[~s.test]), "test": np.unique(fs[s.test])})
         grid = self.done.grid
@@ -235,7 +242,9 @@ class Search:
             saturation=out_dir / self.sc.name / SATURATION,
             slope_deg=out_dir / TERRAIN_FOLDER / SLOPE_DEG,
             codes=out_dir / TERRAIN_FOLDER / SOIL_UNIT,
-            tables=tables,
+            tables=self.base,
+            soil=self.soil,
+            multipliers=current,
             changed=changed,
             unit=unit,
             parameter=self.parameter,
@@ -338,6 +347,8 @@ def calibrate(
             notes[key] = "not searched (--units)"
         elif parameter in ("cohesion_kpa", "friction_deg") and key in done.soils.lab_tests:
             notes[key] = "strength from lab tests: refit the tests instead"
+        elif code in search.cell_set(parameter):
+            notes[key] = f"{parameter} set cell by cell (a raster, [soil_depth] or land cover)"
         elif search.base[parameter][code] == 0.0:
             notes[key] = f"{parameter} = 0: a multiplier cannot change it"
         elif n < FEW_CELLS:

@@ -18,6 +18,7 @@ from slopescreen.errors import InputError
 from slopescreen.maps.io.grid import Grid, read_grid
 from slopescreen.maps.io.safe_writes import file_sha256, write_text
 from slopescreen.maps.outputs.output_names import FS, MANIFEST, REPORT
+from slopescreen.maps.region.cell_fields import CellSoil
 from slopescreen.maps.region.config import Config, InventorySpec, Scenario, load_config
 from slopescreen.maps.region.soils import SoilUnits, load_soils
 
@@ -32,6 +33,16 @@ class FinishedRun:
     manifest: dict[str, Any]
     grid: Grid
     soils: SoilUnits
+
+    def cell_soil(self, sc: Scenario) -> CellSoil:
+        """What sets the scenario's soil fields cell by cell (its overrides, the run's
+        [soil_depth] and [land_cover]; terrain from the run's own folder)."""
+        from slopescreen.maps.outputs.output_names import TERRAIN_FOLDER
+        from slopescreen.maps.region.cell_fields import cell_soil, elevation_range
+
+        units = self.soils.with_overrides(sc.soil_overrides, f"scenario {sc.name}")
+        span = elevation_range(self.cfg.region, self.grid)
+        return cell_soil(units, self.cfg.region, sc, self.out / TERRAIN_FOLDER, span)
 
     def scenario(self, name: str) -> Scenario:
         """The finished scenario ``name``; InputError if the run did not finish it or its

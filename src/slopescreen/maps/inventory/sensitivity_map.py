@@ -10,6 +10,7 @@ half a bin at any map size.
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -30,12 +31,14 @@ from slopescreen.maps.outputs.output_names import (
 )
 from slopescreen.maps.outputs.summary import write_summary
 from slopescreen.maps.outputs.validation_plots import tornado_figure
+from slopescreen.maps.region.cell_fields import field_range
 from slopescreen.maps.region.config import Scenario
 from slopescreen.maps.region.runners import Runner, serial_runner
 from slopescreen.maps.region.tile_job import CORE_FIELDS, summed_tiles
 from slopescreen.maps.region.unit_medians import (
     SensitivityJob,
     tile_inputs,
+    unit_means,
     unit_medians,
 )
 from slopescreen.sensitivity import parameter_range, steady_fs
@@ -45,7 +48,21 @@ VARIED = ("cohesion_kpa", "friction_deg", "root_cohesion_kpa", "unit_weight_kn_m
 
 
 def _fs(job: SensitivityJob, code: int, v: dict, sel: np.ndarray, **change: float) -> np.ndarray:
-    p = {name: float(job.tables[name][code]) for name in CORE_FIELDS} | change
+    """FS of a unit's cells ``sel`` with one field moved to ``change``: a field that varies
+    by cell moves by the same amount on every cell (from the unit's mean to the value),
+    kept within its range."""
+    if not job.soil.varies:
+        p: dict[str, Any] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
+        p |= change
+    else:
+        p = {name: v[name][sel] for name in CORE_FIELDS}
+        for name, value in change.items():
+            mean = job.means.get(code, {}).get(name)
+            if mean is None:
+                p[name] = value
+            else:
+                low, high = field_range(name)
+                p[name] = np.clip(p[name] + (value - mean), max(low, 1e-9), high)
     return steady_fs(
         v["slope"][sel],
         v["sca"][sel],
@@ -86,6 +103,21 @@ def sensitivity(
         )
     units = done.soils.with_overrides(sc.soil_overrides, f"scenario {sc.name}")
     tables = {name: units.parameters[name] for name in CORE_FIELDS}
+    job = SensitivityJob(
+        grid=done.grid,
+        slope_deg=done.verified(f"{TERRAIN_FOLDER}/{SLOPE_DEG}"),
+        sca=done.verified(f"{TERRAIN_FOLDER}/{SCA}"),
+        saturation=done.verified(f"{sc.name}/{SATURATION}"),
+        codes=done.verified(f"{TERRAIN_FOLDER}/{SOIL_UNIT}"),
+        tables=tables,
+        ranges={},
+        recharge_mm_day=sc.recharge_mm_day,
+        seismic=float(sc.seismic_coefficient),
+        fs_breaks=done.cfg.fs_breaks,
+        n_units=len(units.keys),
+        soil=done.cell_soil(sc),
+    )
+    means = unit_means(job, runner)  # fields that vary by cell: the unit's mean stands in
     varied = list(VARIED)
     if sc.recharge_mm_day is not None:
         varied.append("hydraulic_conductivity_m_s")
@@ -95,7 +127,7 @@ def sensitivity(
         spreads = units.unit_spreads(code)
         ranges[code] = {}
         for name in varied:
-            value = float(tables[name][code])
+            value = means.get(code, {}).get(name, float(tables[name][code]))
             if not np.isfinite(value):
                 continue
             sd = spreads[name].sd if name in spreads else None
@@ -103,26 +135,17 @@ def sensitivity(
                 sd = spreads["depth_m"].sd
             upper = np.inf  # the moist unit weight stays at most the saturated one
             if name == "unit_weight_kn_m3":
-                upper = float(tables["saturated_unit_weight_kn_m3"][code])
+                upper = means.get(code, {}).get(
+                    "saturated_unit_weight_kn_m3",
+                    float(tables["saturated_unit_weight_kn_m3"][code]),
+                )
             low, high, text = parameter_range(
                 name, value, None if sd is None else float(sd), upper=upper
             )
             if low != high:
                 ranges[code][name] = (low, high)
                 how[(code, name)] = text
-    job = SensitivityJob(
-        grid=done.grid,
-        slope_deg=done.verified(f"{TERRAIN_FOLDER}/{SLOPE_DEG}"),
-        sca=done.verified(f"{TERRAIN_FOLDER}/{SCA}"),
-        saturation=done.verified(f"{sc.name}/{SATURATION}"),
-        codes=done.verified(f"{TERRAIN_FOLDER}/{SOIL_UNIT}"),
-        tables=tables,
-        ranges=ranges,
-        recharge_mm_day=sc.recharge_mm_day,
-        seismic=float(sc.seismic_coefficient),
-        fs_breaks=done.cfg.fs_breaks,
-        n_units=len(units.keys),
-    )
+    job = replace(job, ranges=ranges, means=means)
     tiles = [(job, r, c) for r, c in windows(done.grid)]
     medians = unit_medians(job, runner)
     changes = summed_tiles(runner(class_change_tile, tiles))
@@ -133,7 +156,7 @@ def sensitivity(
             continue
         slope, sca, m_median = medians[code]
         m = sc.saturation if sc.saturation is not None else m_median
-        base = {name: float(tables[name][code]) for name in CORE_FIELDS}
+        base = {name: float(tables[name][code]) for name in CORE_FIELDS} | means.get(code, {})
 
         def fs_of(**p: float) -> float:
             return float(

@@ -53,6 +53,9 @@ HAZARD_CLASS_MAP = "hazard_class.png"
 HAZARD_ZONES = "hazard_class_zones.gpkg"
 THRESHOLDS_MAP = "rainfall_thresholds.png"
 SUCCESS_RATE = "success_rate.png"
+SOIL_DEPTH = "soil_depth_m.tif"
+SOIL_DEPTH_MAP = "soil_depth_m.png"
+ROOT_COHESION = "root_cohesion_kpa.tif"
 
 # comparison/
 SIDE_BY_SIDE = "stability_classes.png"
@@ -93,6 +96,9 @@ TERRAIN_OUTPUTS: tuple[tuple[str, str, str], ...] = (
 SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     (FS, "always", "factor of safety (capped at fs_cap)"),
     (SATURATION, "always", "saturation ratio m"),
+    (SOIL_DEPTH, "always", "soil depth (m): the unit's, a raster's or a depth model's"),
+    (SOIL_DEPTH_MAP, "maps on", "map of the soil depth"),
+    (ROOT_COHESION, "land cover", "root cohesion (kPa) on the slip plane, from land cover"),
     (RECHARGE, "always", "steady recharge bringing FS to 1; codes -1, -2"),
     (STABILITY_CLASS, "always", "FS classes 1 (least stable) to n, colour table"),
     (SUMMARY, "always", "ground hectares per class and soil unit"),
@@ -192,6 +198,7 @@ def written(
     report: bool = True,
     inventory: bool = False,
     rainfall: bool = False,
+    land_cover: bool = False,
 ) -> list[str]:
     """The files of ``table`` a run with these settings writes."""
     conditions = {
@@ -203,6 +210,7 @@ def written(
         "report on": report,
         "inventory given": inventory,
         "rainfall": rainfall,
+        "land cover": land_cover,
     }
     out = []
     for name, when, _ in table:

@@ -52,6 +52,12 @@ from slopescreen.maps.outputs.output_names import (
     TERRAIN_FOLDER,
     VALIDATION_FOLDER,
 )
+from slopescreen.maps.region.field_config import (
+    DepthModel,
+    LandCover,
+    land_cover,
+    soil_depth_models,
+)
 from slopescreen.maps.region.gauge_rain import DEFAULT_POWER, WEIGHTINGS
 from slopescreen.maps.region.scenario_schema import (
     SCHEMA,
@@ -109,6 +115,8 @@ class Region:
     soil_unit_field: str
     soil_table: Path | None
     soil_layer: str | None
+    soil_depth: tuple[DepthModel, ...] = ()  # [soil_depth]: depth models by unit
+    land_cover: LandCover | None = None  # [land_cover]: root cohesion by class
 
 
 @dataclass(frozen=True)
@@ -258,6 +266,9 @@ class Scenario:
     # a raster in place of the rain number: recharge_mm_day (steady) or the storm's
     # rain_mm_h, on any grid, resampled bilinearly onto the DEM's
     rain_raster: Path | None = None
+    year: int | None = None  # the year the scenario is for (roots after a harvest)
+    use_soil_depth: bool = True  # [soil_depth]'s models, where the file has them
+    use_land_cover: bool = True  # [land_cover]'s roots, where the file has them
 
     @property
     def steady_recharge(self) -> bool:
@@ -443,6 +454,7 @@ class _Reader:
     def __init__(self, path: Path, text: str) -> None:
         self.path = path
         self.lines = _Lines(text)
+        self.raw_scenarios: list[Any] = []
 
     def fail(self, table: str, key: str, message: str) -> InputError:
         where = f"[{re.sub(r'#[0-9]+', '', table)}]" if table else "top level"
@@ -595,6 +607,8 @@ def load_config(path: str | Path) -> Config:
         soil_unit_field=r.text("region", reg, "soil_unit_field", "unit"),
         soil_table=r.file("region", reg, "soil_table") if "soil_table" in reg else None,
         soil_layer=r.text("region", reg, "soil_layer") if "soil_layer" in reg else None,
+        soil_depth=soil_depth_models(r, data),
+        land_cover=land_cover(r, data),
     )
 
     classes_table = "hazard" if ("hazard", "") in r.lines.where else "classes"
@@ -638,6 +652,7 @@ def load_config(path: str | Path) -> Config:
     raw_scenarios = data.get("scenario")
     if not isinstance(raw_scenarios, list) or not raw_scenarios:
         raise r.fail("", "scenario", "at least one [[scenario]] table is required")
+    r.raw_scenarios = raw_scenarios
     scenarios: list[Scenario] = []
     for i, sc in enumerate(raw_scenarios, start=1):
         if not isinstance(sc, dict):
@@ -657,6 +672,7 @@ def load_config(path: str | Path) -> Config:
         )
     )
     scenarios = [_with_min_slip_depth(s, min_slip) for s in scenarios]
+    scenarios = [_with_cell_fields(r, s, i, region) for i, s in enumerate(scenarios, start=1)]
     rainfall_frequency = _rainfall_frequency(r, data, scenarios)
     scenarios = _with_design_storms(r, scenarios, rainfall_frequency)
     zones = r.flag("outputs", out, "zones", True)
@@ -834,6 +850,38 @@ def _with_design_storms(
         )
         out.append(replace(sc, storm=storm))
     return out
+
+
+def _with_cell_fields(r: _Reader, sc: Scenario, number: int, region: Region) -> Scenario:
+    """The scenario's year and switches checked against [soil_depth] and [land_cover]:
+    a key that would change nothing is refused; the year defaults to [land_cover]'s."""
+    from dataclasses import replace
+
+    table = f"scenario#{number}"
+    raw = r.raw_scenarios[number - 1]
+    if "use_soil_depth" in raw and not region.soil_depth:
+        raise r.fail(table, "use_soil_depth", "needs a [soil_depth] table; remove it")
+    cover = region.land_cover
+    if "use_land_cover" in raw and cover is None:
+        raise r.fail(table, "use_land_cover", "needs a [land_cover] table; remove it")
+    if "year" in raw:
+        if cover is None or not cover.harvests:
+            raise r.fail(
+                table, "year", "sets roots after a harvest: needs [land_cover] classes with "
+                "a harvest_year; remove it"
+            )  # fmt: skip
+        if not sc.use_land_cover:
+            raise r.fail(table, "year", "applies with use_land_cover = true; remove it")
+    if cover is not None and cover.harvests and sc.use_land_cover and sc.year is None:
+        if cover.year is None:
+            raise r.fail(
+                table,
+                "name",
+                f"scenario {sc.name!r} needs a year (or [land_cover] year): "
+                f"{cover.table.name} has harvest years",
+            )
+        return replace(sc, year=cover.year)
+    return sc
 
 
 def _with_min_slip_depth(sc: Scenario, depth_m: float) -> Scenario:
@@ -1132,4 +1180,7 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
             )
         ),
         soil_overrides=overrides,
+        year=r.integer(table, sc, "year", *_whole("scenario", "year"), 0) if "year" in sc else None,
+        use_soil_depth=r.flag(table, sc, "use_soil_depth", True),
+        use_land_cover=r.flag(table, sc, "use_land_cover", True),
     )

@@ -41,6 +41,7 @@ from slopescreen.maps.io.locks import folder_lock
 from slopescreen.maps.io.rasters import RasterSink, all_or_nothing, read_on_grid
 from slopescreen.maps.outputs.comparison import ClassChange
 from slopescreen.maps.outputs.report import Extras, RunFacts, write_report
+from slopescreen.maps.region.cell_fields import cell_input_files, check_cell_inputs
 from slopescreen.maps.region.config import Config, Scenario, load_config
 from slopescreen.maps.region.runners import Runner, serial_runner
 from slopescreen.maps.region.scenario_run import ScenarioSummary, run_scenario
@@ -198,6 +199,7 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
         soils.measure_coverage(grid, valid_tile, sink)
         if soils.data_cells == 0:
             raise InputError(f"{cfg.region.dem}: DEM holds no data cells")
+        check_cell_inputs(soils, cfg.region, grid, dem_cells)
     dem_files = dem_files_sha256(cfg.region.dem)  # the DEM itself first, as GDAL lists it
     hashes = {
         "scenario_file": file_sha256(cfg.path),
@@ -206,6 +208,8 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
     }
     if cfg.region.soil_table is not None:
         hashes["soil_table"] = file_sha256(cfg.region.soil_table)
+    for path in cell_input_files(soils, cfg.region):
+        hashes[f"soil_field:{path.name}"] = file_sha256(path)
     for sc in cfg.scenarios:
         if sc.saturation_raster is not None:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)

@@ -175,15 +175,24 @@ def critical_intensity(
     codes: np.ndarray,
     tables: dict[float, UnitTables],
     where: tuple[np.ndarray, np.ndarray] | None = None,
+    soil: dict[str, np.ndarray] | None = None,
 ) -> np.ndarray:
     """Critical intensity (mm/h, codes) of cells: from their unit's table where there is
     one, by the kernel elsewhere and where a table cannot answer. ``where``: the cells'
-    (slope degrees, log10 SCA) when the caller has them (:func:`table_coordinates`)."""
+    (slope degrees, log10 SCA) when the caller has them (:func:`table_coordinates`);
+    ``soil``: each cell's soil fields for the kernel (default: the unit's, by code)."""
     from slopescreen.maps.region.kernels import intensity_from_table
+
+    def kernel(part: np.ndarray | slice) -> np.ndarray:
+        if soil is None:
+            return by_kernel(job, duration_h, tan[part], sca[part], codes[part])
+        cells = {name: v[part] for name, v in soil.items()}
+        each = np.arange(tan[part].size, dtype=np.int64)
+        return by_kernel(job, duration_h, tan[part], sca[part], each, cells)
 
     mine = tables.get(duration_h)
     if mine is None:
-        return by_kernel(job, duration_h, tan, sca, codes)
+        return kernel(slice(None))
     slope_deg, log_sca = where if where is not None else table_coordinates(tan, sca)
     out = np.empty(tan.size)
     exact = np.zeros(tan.size, bool)
@@ -200,7 +209,7 @@ def critical_intensity(
         exact,
     )
     if exact.any():
-        out[exact] = by_kernel(job, duration_h, tan[exact], sca[exact], codes[exact])
+        out[exact] = kernel(exact)
     return out
 
 
@@ -235,12 +244,14 @@ def unit_cells(codes: Path, grid: Grid) -> dict[int, int]:
 
 def tables_for(job: Any, unit_cells: dict[int, int]) -> dict[float, UnitTables]:
     """Tables for the units with at least ``MIN_CELLS_PER_NODE`` cells per node, stacked
-    by duration."""
+    by duration; none for a unit whose soil fields vary by cell (one table cannot stand
+    for them: its cells go to the kernel)."""
+    varying = job.soil.varying_units()
     return stack_tables(
         {
             (code, d): build_table(job, code, d)
             for code, cells in unit_cells.items()
-            if cells >= MIN_CELLS_PER_NODE * node_count()
+            if cells >= MIN_CELLS_PER_NODE * node_count() and code not in varying
             for d in job.rainfall.durations_h
         }
     )

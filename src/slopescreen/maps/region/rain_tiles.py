@@ -12,6 +12,7 @@ import numpy as np
 from slopescreen.maps.io.rasters import read_block
 from slopescreen.maps.outputs.output_names import intensity_name
 from slopescreen.maps.region.config import RainfallFrequency
+from slopescreen.maps.region.tile_job import CORE_FIELDS
 
 if TYPE_CHECKING:
     from slopescreen.maps.region.tile_job import TileJob
@@ -36,6 +37,7 @@ def rainfall_tile(
     spec, table = job.scenario.rainfall, job.rainfall
     assert spec is not None and table is not None
     c = block["codes"]
+    soil = {name: block[name] for name in CORE_FIELDS}  # each cell's soil fields
     out: dict[str, np.ndarray] = {}
     if table.rasters:  # gridded design rainfall: (durations, return periods, cells)
         from slopescreen.maps.region.idf_table import gridded_block
@@ -56,7 +58,7 @@ def rainfall_tile(
             out[f"intensity_{duration:g}"] = cached[valid].astype(np.float64)
             continue
         intensity = critical_intensity(
-            job, duration, block["tan"], block["sca"], c, job.intensity_tables, where
+            job, duration, block["tan"], block["sca"], c, job.intensity_tables, where, soil
         )
         out[f"intensity_{duration:g}"] = intensity.astype(np.float32).astype(np.float64)
     found = np.array([out[f"intensity_{d:g}"] for d in table.durations_h])
@@ -74,7 +76,9 @@ def rainfall_tile(
         # the cells searched have a critical intensity at some duration: they hold before
         # rain, which does not depend on the duration
         tan, sca = block["tan"][cells], block["sca"][cells]
-        return by_kernel(job, durations_h, tan, sca, c[cells], holds_before_rain=True)
+        each = np.arange(tan.size, dtype=np.int64)
+        part = {name: v[cells] for name, v in soil.items()}
+        return by_kernel(job, durations_h, tan, sca, each, part, holds_before_rain=True)
 
     refined = rf.refined_return_period_yr(
         period, found, table.durations_h, table.return_periods_yr, design, critical_at,

@@ -37,11 +37,13 @@ from slopescreen.maps.outputs.output_names import (
     RELIABILITY,
     RETURN_PERIOD,
     RETURN_PERIOD_MAP,
+    ROOT_COHESION,
     SATURATION,
     SCA,
     SCENARIO_OUTPUTS,
     SLOPE_DEG,
     SLOPE_TAN,
+    SOIL_DEPTH,
     SOIL_UNIT,
     STABILITY_CLASS,
     STABILITY_CLASS_MAP,
@@ -55,6 +57,8 @@ from slopescreen.maps.outputs.output_names import (
     intensity_name,
 )
 from slopescreen.maps.outputs.summary import summary_rows, write_summary
+from slopescreen.maps.region.cell_fields import CellSoil, cell_soil, elevation_range
+from slopescreen.maps.region.cell_fields import content_key as soil_key
 from slopescreen.maps.region.config import Config, Scenario, StormSpec
 from slopescreen.maps.region.intensity_tables import table_settings, tables_for, unit_cells
 from slopescreen.maps.region.runners import Runner, serial_runner
@@ -99,6 +103,7 @@ def _sinks(
     out: Path,
     names: list[str],
     with_probability: bool,
+    soil: CellSoil | None = None,
 ) -> dict[str, RasterSink]:
     from slopescreen.maps.outputs.quicklook import colour_table
 
@@ -117,6 +122,14 @@ def _sinks(
         base["saturation_raster"] = (
             f"{sc.saturation_raster.name} resampled bilinearly onto the DEM grid (any grid, "
             "shift or CRS)"
+        )
+
+    depth_source = "the soil units' depth_m"
+    if soil is not None and soil.depth:
+        depth_source += "; " + "; ".join(sorted({m.text for m in soil.depth.values()}))
+    if soil is not None and "depth_m" in soil.rasters:
+        depth_source += "; rasters " + ", ".join(
+            sorted({p.name for p in soil.rasters["depth_m"].values()})
         )
 
     def f32(name: str, **tags: str) -> RasterSink:
@@ -140,6 +153,7 @@ def _sinks(
             ),
         ),
         "saturation": f32(SATURATION, units="saturation ratio m = h_w / z"),
+        "soil_depth": f32(SOIL_DEPTH, units="m, vertical soil depth z", source=depth_source),
         "classes": RasterSink(
             out / STABILITY_CLASS,
             grid,
@@ -153,6 +167,14 @@ def _sinks(
         ),
     }
     sinks["recharge"] = f32(RECHARGE, **recharge_tags(sc))
+    if soil is not None and soil.cover is not None:
+        sinks["root_cohesion"] = f32(
+            ROOT_COHESION,
+            units="kPa, root cohesion on the slip plane at the soil's base",
+            source=f"land cover {soil.cover.path.name} ({soil.cover.root_profile} profile"
+            + (f", year {soil.year}" if soil.year is not None else "")
+            + "); cells in no class: their unit's root_cohesion_kpa",
+        )
     if sc.storm is not None:
         sinks["storm_fs_end"] = f32(
             STORM_FS_END,
@@ -334,17 +356,20 @@ def recharge_tags(sc: Scenario) -> dict[str, str]:
     }
 
 
-def recharge_key(units: SoilUnits, sc: Scenario, terrain_key: str) -> str:
+def recharge_key(units: SoilUnits, sc: Scenario, terrain_key: str, soil: CellSoil) -> str:
     """Content key of a critical-recharge raster: terrain (DEM content), the rasterized soil
-    units, every unit's parameters, the seismic load and the program version."""
-    parts: list[str | bytes] = [terrain_key, units.codes_sha256, __version__]
+    units, every unit's parameters, the soil fields set cell by cell (every raster's bytes,
+    the depth models, land cover and year), the seismic load and the program version."""
+    parts: list[str | bytes] = [terrain_key, units.codes_sha256, __version__, soil_key(soil)]
     for name in CORE_FIELDS:
         parts += [name, np.ascontiguousarray(units.parameters[name], np.float64).tobytes()]
     parts.append(repr(float(sc.seismic_coefficient)))
     return content_key(*parts)
 
 
-def intensity_key(units: SoilUnits, sc: Scenario, terrain_key: str, cfg: Config) -> str:
+def intensity_key(
+    units: SoilUnits, sc: Scenario, terrain_key: str, cfg: Config, soil: CellSoil
+) -> str:
     """Content key of a rainfall scenario's critical intensities: everything but the
     design-rainfall table, the uplift and the class breaks (a new table or climate scenario
     reuses them): terrain, soil units and parameters, the seismic load, the antecedent
@@ -353,7 +378,7 @@ def intensity_key(units: SoilUnits, sc: Scenario, terrain_key: str, cfg: Config)
 
     table, spec = cfg.rainfall_frequency, sc.rainfall
     assert table is not None and spec is not None
-    parts: list[str | bytes] = [terrain_key, units.codes_sha256, __version__]
+    parts: list[str | bytes] = [terrain_key, units.codes_sha256, __version__, soil_key(soil)]
     for name in CORE_FIELDS:
         parts += [name, np.ascontiguousarray(units.parameters[name], np.float64).tobytes()]
     parts += [
@@ -397,11 +422,12 @@ def _tile_job(
     """(the scenario's tile job, the critical-recharge cache entry's name, whether that
     entry was reused, the critical-intensity entry's name to build or None). Verified cache
     entries are handed to the job; large grids get per-unit intensity tables."""
-    entry_name = f"critical_recharge-{recharge_key(units, sc, terrain_key)}"
+    soil = cell_soil(units, cfg.region, sc, terrain_dir, elevation_range(cfg.region, grid))
+    entry_name = f"critical_recharge-{recharge_key(units, sc, terrain_key, soil)}"
     entry = usable_entry(terrain_cache.parent, entry_name, echo)
     intensity_entry, intensity_cached = None, None
     if sc.rainfall is not None and cfg.rainfall_frequency is not None:
-        intensity_entry = f"critical_intensity-{intensity_key(units, sc, terrain_key, cfg)}"
+        intensity_entry = f"critical_intensity-{intensity_key(units, sc, terrain_key, cfg, soil)}"
         intensity_cached = usable_entry(terrain_cache.parent, intensity_entry, echo)
         if intensity_cached is not None:
             echo(f"scenario {sc.name}: critical intensities reused from cache (verified)")
@@ -425,6 +451,7 @@ def _tile_job(
         rainfall=cfg.rainfall_frequency if sc.rainfall is not None else None,
         intensity_cache=intensity_cached,
         cell_progress=cell_progress,
+        soil=soil,
     )
     if sc.rainfall is not None and intensity_cached is None:
         job = replace(job, intensity_tables=tables_for(job, unit_cells(job.codes, grid)))
@@ -690,7 +717,7 @@ def run_scenario(
         cfg, sc, grid, units, terrain_dir, terrain_cache, terrain_key, numba_threads, echo,
         cell_progress,
     )  # fmt: skip
-    sinks = _sinks(cfg, sc, grid, out, names, bool(units.spreads))
+    sinks = _sinks(cfg, sc, grid, out, names, job.with_probability, job.soil)
     sums = _write_tiles(job, sinks, runner, progress)
     _cache_results(
         cfg, sc, out, terrain_cache, terrain_key, (recharge_entry, reused), intensity_entry
@@ -902,26 +929,32 @@ def draw_thresholds(
     """rainfall_thresholds.png: each unit's critical intensity against duration at its
     median slope and specific catchment area, over the design-rainfall curves."""
     from slopescreen.maps.outputs.validation_plots import threshold_figure
-    from slopescreen.maps.region.unit_medians import SensitivityJob, unit_medians
+    from slopescreen.maps.region.unit_medians import SensitivityJob, unit_means, unit_medians
     from slopescreen.rain_thresholds import critical_intensity_mm_h
 
     table, spec = cfg.rainfall_frequency, sc.rainfall
     assert table is not None and spec is not None
-    p = units.parameters
     job = SensitivityJob(
         grid=grid,
         slope_deg=terrain_dir / SLOPE_DEG,
         sca=terrain_dir / SCA,
         saturation=out / SATURATION,
         codes=terrain_dir / SOIL_UNIT,
-        tables={},
+        tables=units.parameters,
         ranges={},
         recharge_mm_day=None,
         seismic=float(sc.seismic_coefficient),
         fs_breaks=cfg.fs_breaks,
         n_units=len(units.keys),
+        soil=cell_soil(units, cfg.region, sc, terrain_dir, elevation_range(cfg.region, grid)),
     )
     medians, steep = unit_medians(job), unit_medians(job, share=0.9)
+    means = unit_means(job)  # units whose fields vary by cell: their means stand in
+    p = {
+        name: np.array([means.get(code, {}).get(name, v) for code, v in enumerate(values)], float)
+        for name, values in units.parameters.items()
+        if name in CORE_FIELDS
+    }
     # one column per unit and slope (median, steepest 10%), all durations vectorised
     labels, codes, slopes, scas = [], [], [], []
     for code, (slope, sca, _) in medians.items():
@@ -972,6 +1005,6 @@ def draw_thresholds(
         intensity,
         f"{cfg.region.name}: {sc.name}. Critical rain per soil unit at its median and its "
         f"steepest 10% slope (median catchment), water table {spec.initial_water_table_depth_m:g}"
-        " m deep",
+        " m deep" + ("; soil fields set cell by cell at their unit means" if means else ""),
         "median of the gridded design rainfall" if table.rasters else "design rainfall",
     )

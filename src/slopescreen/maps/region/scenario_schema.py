@@ -157,6 +157,114 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
             "or 1 - exp(-1/T) (partial duration); the default is the higher of the two",
         ),
     ],
+    "soil_depth": [
+        (
+            "model",
+            '"slope_linear", "elevation_linear", "soil_production" or "raster"',
+            "required",
+            "soil depth cell by cell in place of the units' depth_m; one table, or several "
+            "[[soil_depth]] tables each with its units",
+        ),
+        ("units", "list of soil-unit names", "every unit", "the units this model sets"),
+        ("gentle_slope_deg", Span(0, 89), "slope_linear: required", "slope of the gentle end"),
+        ("steep_slope_deg", Span(0.1, 89.9), "slope_linear: required", "slope of the steep end"),
+        ("gentle_depth_m", Span(*RANGES["depth_m"][:2]), "slope_linear: required", "depth there"),
+        ("steep_depth_m", Span(*RANGES["depth_m"][:2]), "slope_linear: required", "depth there"),
+        (
+            "low_depth_m",
+            Span(*RANGES["depth_m"][:2]),
+            "elevation_linear: required",
+            "depth at the lowest elevation (Saulnier et al. 1997)",
+        ),
+        (
+            "high_depth_m",
+            Span(*RANGES["depth_m"][:2]),
+            "elevation_linear: required",
+            "depth at the highest elevation",
+        ),
+        (
+            "low_elevation_m",
+            Span(-1000, 9000),
+            "the DEM's lowest data cell",
+            "elevation_linear: where low_depth_m applies",
+        ),
+        (
+            "high_elevation_m",
+            Span(-1000, 9000),
+            "the DEM's highest data cell",
+            "elevation_linear: where high_depth_m applies",
+        ),
+        (
+            "production_m_yr",
+            Span(1e-7, 0.1),
+            "soil_production: required",
+            "P0, soil production from bare rock (Heimsath et al. 1997)",
+        ),
+        ("density_ratio", Span(0.5, 5), "2", "soil_production: rock over soil bulk density"),
+        (
+            "creep_diffusivity_m2_yr",
+            Span(1e-6, 1),
+            "soil_production: required",
+            "K of linear creep, m2/yr (Dietrich et al. 1995)",
+        ),
+        (
+            "production_depth_m",
+            Span(0.01, 5),
+            "soil_production: required",
+            "h0, depth scale of production's decline",
+        ),
+        (
+            "max_depth_m",
+            Span(*RANGES["depth_m"][:2]),
+            "soil_production: required",
+            "depth of hollows and planar ground, and the cap",
+        ),
+        (
+            "min_depth_m",
+            Span(*RANGES["depth_m"][:2]),
+            f"{RANGES['depth_m'][0]:g}",
+            "soil_production: the floor on sharp ridges",
+        ),
+        ("path", "path", "raster: required", "a depth raster (m) on any grid"),
+        (
+            "resampling",
+            '"bilinear" or "nearest"',
+            '"bilinear"',
+            "raster: how it is resampled onto the DEM grid",
+        ),
+    ],
+    "land_cover": [
+        (
+            "path",
+            "path",
+            "required",
+            "land cover: polygons geopandas reads (with class_field) or a raster of whole-"
+            "number classes (read by nearest cell)",
+        ),
+        ("layer", "text", "the first layer", "layer of a multi-layer polygon file"),
+        ("class_field", "text", "required for polygons", "the polygons' field naming the class"),
+        (
+            "table",
+            "path",
+            "required",
+            "CSV, one row per class: class, root_cohesion_kpa, rooting_depth_m; optional "
+            "root_cohesion_kpa_sd or _cov, harvest_year, regrown_root_cohesion_kpa, "
+            "decay_rate, decay_exponent, regrowth_shape, regrowth_rate, description",
+        ),
+        (
+            "year",
+            Span(1800, 2300),
+            "none",
+            "the year of every scenario without its own (roots after harvest)",
+        ),
+        (
+            "root_profile",
+            '"step" or "exponential"',
+            '"step"',
+            "slip planes deeper than rooting_depth_m get no roots, or roots decline as "
+            "exp(-depth / rooting_depth_m)",
+        ),
+    ],
     "scenario": [
         ("name", "1-64 letters, digits, _ . -", "required", "names the scenario's folder"),
         ("description", "text", "none", "shown in the report and the manifest"),
@@ -183,6 +291,25 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
             "horizontal pseudo-static coefficient k_h",
         ),
         ("soil", "table of units", "none", "[scenario.soil.UNIT]: any soil field below"),
+        (
+            "year",
+            Span(1800, 2300),
+            "[land_cover] year",
+            "the year the scenario is for: root cohesion of harvested land-cover classes "
+            "after decay and regrowth (Sidle 1991)",
+        ),
+        (
+            "use_soil_depth",
+            "true/false",
+            "true",
+            "false: the units' depth_m in place of [soil_depth] (needs [soil_depth])",
+        ),
+        (
+            "use_land_cover",
+            "true/false",
+            "true",
+            "false: the units' root_cohesion_kpa in place of [land_cover] (needs [land_cover])",
+        ),
     ],
     "scenario.storm": [
         (
@@ -360,6 +487,12 @@ def markdown() -> str:
         "`uniform`, `triangular`); `c_phi_correlation` (-1 to 1) correlates c' and phi';",
         "`strength_lab_tests` names a lab-test CSV whose fitted c', phi', standard errors and",
         "correlation become the unit's strength and its spread.",
+        "",
+        "Any soil field, and the `_sd` and `_cov` of a spread, may name a raster in place of",
+        "the number (`depth_m` = `depth.tif`, a path relative to the soil table): it is",
+        "resampled bilinearly onto the DEM grid tile by tile, from any CRS, and checked",
+        "before the run to cover every mapped cell of the unit and to lie in the field's",
+        "range. A `[scenario.soil.UNIT]` number replaces it for that unit.",
         "",
     ]
     return "\n".join(lines)

@@ -137,6 +137,8 @@ class TileInputs:
     rain: np.ndarray | None = None  # the rain or recharge raster on the tile, in its range
     gauge_weights: np.ndarray | None = None  # (gauges, rows, cols): each cell's share
     rain_steps: np.ndarray | None = None  # (steps, rows, cols) mm/h: a rain series
+    rows: slice | None = None  # where the tile lies (soil fields read cell by cell)
+    cols: slice | None = None
 
 
 def read_tile(job: TileJob, rows: slice, cols: slice) -> TileInputs:
@@ -165,6 +167,8 @@ def read_tile(job: TileJob, rows: slice, cols: slice) -> TileInputs:
         rain=rain,
         gauge_weights=_gauge_weights(job, rows, cols),
         rain_steps=_series_steps(job, rows, cols),
+        rows=rows,
+        cols=cols,
     )
 
 
@@ -268,21 +272,25 @@ def _initial_water_table(job: TileJob, block: dict[str, np.ndarray]) -> np.ndarr
     surface of the soil of depth z: d = z (1 - m)."""
     from slopescreen.maps.region.kernels import steady_saturation_by_unit
 
-    t, c = job.tables, block["codes"]
     storm = job.scenario.storm
     assert storm is not None and storm.initial_recharge_mm_day is not None
-    m = np.empty(c.size)
+    m = np.empty(block["codes"].size)
     steady_saturation_by_unit(
         np.array([storm.initial_recharge_mm_day], float),
         block["tan"],
         block["sca"],
-        c,
-        t["depth_m"],
-        t["hydraulic_conductivity_m_s"],
-        t["transmissivity_m2_day"],
+        _each(block),
+        block["depth_m"],
+        block["hydraulic_conductivity_m_s"],
+        block["transmissivity_m2_day"],
         m,
     )
-    return t["depth_m"][c] * (1.0 - m)
+    return block["depth_m"] * (1.0 - m)
+
+
+def _each(block: dict[str, np.ndarray]) -> np.ndarray:
+    """Every cell its own entry of the per-cell soil fields (the kernels' look-up codes)."""
+    return np.arange(block["codes"].size, dtype=np.int64)
 
 
 def _steady_saturation(
@@ -291,21 +299,21 @@ def _steady_saturation(
     """Saturation m of the cells of a scenario without a storm."""
     from slopescreen.maps.region.kernels import steady_saturation_by_unit
 
-    sc, t, c = job.scenario, job.tables, block["codes"]
-    m = np.empty(c.size)
+    sc = job.scenario
+    m = np.empty(block["codes"].size)
     if sc.steady_recharge:
         steady_saturation_by_unit(
             block["rain"] if "rain" in block else np.array([sc.recharge_mm_day], float),
             block["tan"],
             block["sca"],
-            c,
-            t["depth_m"],
-            t["hydraulic_conductivity_m_s"],
-            t["transmissivity_m2_day"],
+            _each(block),
+            block["depth_m"],
+            block["hydraulic_conductivity_m_s"],
+            block["transmissivity_m2_day"],
             m,
         )
     elif sc.rainfall is not None:  # before the rain: the water table d below the ground
-        depth = t["depth_m"][c]
+        depth = block["depth_m"]
         m = np.clip((depth - sc.rainfall.initial_water_table_depth_m) / depth, 0.0, 1.0)
     elif saturation is not None:
         m = saturation
@@ -321,20 +329,19 @@ def _steady_saturation(
 
 
 def _steady_fs(job: TileJob, block: dict[str, np.ndarray], m: np.ndarray) -> np.ndarray:
-    """FS of the cells by the compiled kernel, soil parameters looked up by unit."""
+    """FS of the cells by the compiled kernel, with each cell's soil fields."""
     from slopescreen.maps.region.kernels import fs_by_unit
 
-    t = job.tables
     fs = np.empty(block["codes"].size)
     fs_by_unit(
         block["tan"],
-        block["codes"],
+        _each(block),
         m,
-        t["depth_m"],
-        t["cohesion_kpa"] + t["root_cohesion_kpa"],
-        np.tan(np.radians(t["friction_deg"])),
-        t["unit_weight_kn_m3"],
-        t["saturated_unit_weight_kn_m3"],
+        block["depth_m"],
+        block["cohesion_kpa"] + block["root_cohesion_kpa"],
+        np.tan(np.radians(block["friction_deg"])),
+        block["unit_weight_kn_m3"],
+        block["saturated_unit_weight_kn_m3"],
         float(job.scenario.seismic_coefficient),
         9.81,
         fs,
@@ -343,13 +350,19 @@ def _steady_fs(job: TileJob, block: dict[str, np.ndarray], m: np.ndarray) -> np.
 
 
 def tile_values(
-    job: TileJob, tile: TileInputs, valid: np.ndarray
+    job: TileJob,
+    tile: TileInputs,
+    valid: np.ndarray,
+    soil: dict[str, np.ndarray] | None = None,
 ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
     """(block, values): the inputs at the valid cells, and every per-cell output there
-    (storm rasters, classes, FS capped, saturation, probability and reliability index)."""
+    (storm rasters, classes, FS capped, saturation, probability and reliability index,
+    soil depth). ``soil``: each soil field on the valid cells (default: read by
+    :func:`soil_on`)."""
     sc = job.scenario
     c = tile.codes[valid]
     block = {"tan": tile.tan[valid], "sca": tile.sca[valid], "codes": c}
+    block |= soil if soil is not None else soil_on(job, tile, valid)
     if tile.rain is not None:
         block["rain"] = tile.rain[valid]
     if tile.rain_steps is not None:
@@ -361,7 +374,7 @@ def tile_values(
         block["slope"] = tile.slope_deg[valid].astype(np.float64)
     values: dict[str, np.ndarray] = {}
     if sc.storm is not None:
-        params = {name: job.tables[name][c] for name in CORE_FIELDS}
+        params = {name: block[name] for name in CORE_FIELDS}
         fs, m, values = _storm_values(job, block, params)
     else:
         saturation = None if tile.saturation is None else tile.saturation[valid]
@@ -371,9 +384,22 @@ def tile_values(
     values["classes"] = classify(fs, job.fs_breaks)
     values["fs"] = np.minimum(fs, job.fs_cap)
     values["saturation"] = block["saturation"]
-    if job.spreads:
+    values["soil_depth"] = block["depth_m"]
+    if job.soil.cover is not None:
+        values["root_cohesion"] = block["root_cohesion_kpa"]
+    if job.with_probability:
         values["probability"], values["reliability"] = probability(job, block)
     return block, values
+
+
+def soil_on(job: TileJob, tile: TileInputs, cells: np.ndarray) -> dict[str, np.ndarray]:
+    """Each soil field on the tile's ``cells`` (mask), cell by cell
+    (:func:`slopescreen.maps.region.cell_fields.soil_cells`)."""
+    from slopescreen.maps.region.cell_fields import soil_cells
+
+    rows = tile.rows or slice(0, tile.codes.shape[0])
+    cols = tile.cols or slice(0, tile.codes.shape[1])
+    return soil_cells(job.soil, job.tables, job.grid, rows, cols, tile.codes, cells)
 
 
 def full_rasters(values: dict[str, np.ndarray], valid: np.ndarray) -> dict[str, np.ndarray]:
@@ -471,7 +497,9 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
         numba.set_num_threads(job.numba_threads)
     tile = read_tile(job, rows, cols)
     terrain_ok, valid, missing = mapped_cells(tile)
-    block, values = tile_values(job, tile, valid)
+    soil = soil_on(job, tile, terrain_ok)  # every cell with terrain and a unit
+    inner = valid[terrain_ok]
+    block, values = tile_values(job, tile, valid, {k: v[inner] for k, v in soil.items()})
     if job.scenario.rainfall is not None and job.rainfall is not None:
         from slopescreen.maps.region.rain_tiles import rainfall_tile
 
@@ -481,7 +509,7 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     out["recharge"] = (
         read_block(job.recharge_cache, rows, cols)
         if job.recharge_cache is not None
-        else _recharge_tile(job, rows, cols, terrain_ok, tile)
+        else _recharge_tile(job, rows, cols, terrain_ok, tile, soil)
     )
     tables = area_tables(job, tile, valid, out, values.get("probability"))
     out.pop("hazard_classes_spread", None)
@@ -494,11 +522,12 @@ def _recharge_tile(
     cols: slice,
     cells: np.ndarray,
     tile: TileInputs,
+    soil: dict[str, np.ndarray],
 ) -> np.ndarray:
-    """Critical recharge (mm/day) on the tile's cells with terrain and a soil unit (the
-    slope read once: the tile's own where storms or spreads read it already)."""
-    c = tile.codes[cells]
-    params = {name: job.tables[name][c] for name in CORE_FIELDS}
+    """Critical recharge (mm/day) on the tile's cells with terrain and a soil unit, with
+    their soil fields ``soil`` (the slope read once: the tile's own where storms or spreads
+    read it already)."""
+    params = {name: soil[name] for name in CORE_FIELDS}
     slope_deg = tile.slope_deg
     if slope_deg is None:
         slope_deg = read_block(job.slope_deg, rows, cols)

@@ -51,6 +51,15 @@ class SoilUnits:
     diffusivity_derived: frozenset[int] = frozenset()  # codes whose D0 is K / C0
     saturated_defaulted: frozenset[int] = frozenset()  # codes whose gamma_sat is gamma
     lab_tests: dict[str, Path] = field(default_factory=dict)  # unit -> lab-test CSV fitted
+    # soil fields given as rasters: field (or a spread's field_sd / field_cov) -> code -> path
+    rasters: dict[str, dict[int, Path]] = field(default_factory=dict)
+    spread_cov: dict[int, dict[str, float]] = field(default_factory=dict)  # code -> cov given
+    # code -> field -> distribution of a spread whose sd or cov is a raster
+    cell_spreads: dict[int, dict[str, str]] = field(default_factory=dict)
+
+    def raster(self, name: str, code: int) -> Path | None:
+        """The raster giving ``name`` for unit ``code``, or None (a number)."""
+        return self.rasters.get(name, {}).get(code)
 
     def unit_spreads(self, code: int) -> dict[str, Spread]:
         """The unit's spreads, centred on its current (possibly overridden) means."""
@@ -68,26 +77,9 @@ class SoilUnits:
 
     def rasterize(self, grid: Grid, rows: slice, cols: slice) -> np.ndarray:
         """uint16 unit codes of one tile (0: no unit), from the polygons that touch it."""
-        from rasterio import features
-        from rasterio.windows import Window, transform
-        from shapely.geometry import box
+        from slopescreen.maps.io.shapes import rasterize_tile
 
-        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
-        t = transform(window, grid.transform)
-        shape = (rows.stop - rows.start, cols.stop - cols.start)
-        x0, y1 = t.c, t.f
-        x1, y0 = t.c + t.a * shape[1], t.f + t.e * shape[0]
-        hits = self.polygons.sindex.query(box(x0, y0, x1, y1))
-        if len(hits) == 0:
-            return np.zeros(shape, np.uint16)
-        part = self.polygons.iloc[np.sort(hits)]
-        return features.rasterize(
-            zip(part.geometry, part["code"], strict=True),
-            out_shape=shape,
-            transform=t,
-            fill=0,
-            dtype="uint16",
-        )
+        return rasterize_tile(self.polygons, "code", grid, rows, cols).astype(np.uint16)
 
     def measure_coverage(self, grid: Grid, valid_tile: Any, sink: Any = None) -> None:
         """Rasterize tile by tile (into ``sink`` when given) and report unmapped cells."""
@@ -118,6 +110,7 @@ class SoilUnits:
     def with_overrides(self, overrides: dict[str, dict[str, float]], where: str) -> SoilUnits:
         """A copy with per-unit parameter overrides applied (unknown units are errors)."""
         params = {k: v.copy() for k, v in self.parameters.items()}
+        rasters = {k: dict(v) for k, v in self.rasters.items()}
         for unit, fields in overrides.items():
             if unit not in self.keys:
                 raise InputError(
@@ -127,9 +120,11 @@ class SoilUnits:
             code = self.keys.index(unit) + 1
             for name, value in fields.items():
                 params[name][code] = value
+                rasters.get(name, {}).pop(code, None)  # the number replaces a raster
                 if name in HYDRAULIC_FIELDS:  # one hydraulic property replaces the other
                     other = next(h for h in HYDRAULIC_FIELDS if h != name)
                     params[other][code] = np.nan
+                    rasters.get(other, {}).pop(code, None)
             capacity = "moisture_capacity_per_m" in fields
             conductivity = "hydraulic_conductivity_m_s" in fields
             if "diffusivity_m2_s" not in fields and (
@@ -144,12 +139,14 @@ class SoilUnits:
             defaulted = code in self.saturated_defaulted
             if defaulted and "saturated_unit_weight_kn_m3" not in fields:
                 wet = params["saturated_unit_weight_kn_m3"][code] = max(moist, 9.81)  # "as above"
-            if wet < moist:
+            if wet < moist:  # (NaN where one is a raster: checked cell by cell)
                 raise InputError(
                     f"{where}: soil override for unit {unit!r}: saturated_unit_weight_kn_m3 "
                     f"{wet:g} would be below unit_weight_kn_m3 ({moist:g}); give both"
                 )
-        return dataclasses.replace(self, parameters=params)
+        return dataclasses.replace(
+            self, parameters=params, rasters={k: v for k, v in rasters.items() if v}
+        )
 
 
 def _to_float(source: str, unit: str, name: str, value: Any) -> float:
@@ -164,11 +161,34 @@ def _to_float(source: str, unit: str, name: str, value: Any) -> float:
     return number
 
 
-def _check_unit(source: str, unit: str, values: dict[str, float]) -> None:
+def _raster_value(source: str, unit: str, name: str, value: Any) -> Path | None:
+    """The raster a soil field names in place of a number, or None for a number or a blank
+    (a path relative to the soil table; it must exist)."""
+    if not isinstance(value, str) or not value.strip():
+        return None
+    try:
+        float(value)
+        return None
+    except ValueError:
+        pass
+    path = (Path(source).parent / value.strip()).resolve()
+    if not path.is_file():
+        raise InputError(
+            f"{source}: unit {unit!r}, field {name}: {value.strip()!r} is neither a number "
+            f"nor a raster file (not found: {path})"
+        )
+    return path
+
+
+def _check_unit(
+    source: str, unit: str, values: dict[str, float], given: frozenset[str] = frozenset()
+) -> None:
+    """Ranges and required fields of one unit; ``given``: fields set cell by cell (a raster
+    or a depth model), checked on the cells instead."""
     for name, (low, high, required) in SOIL_FIELDS.items():
         v = values.get(name, math.nan)
         if math.isnan(v):
-            if required:
+            if required and name not in given:
                 raise InputError(
                     f"{source}: unit {unit!r}, field {name}: missing; required, "
                     f"allowed range [{low:g}, {high:g}]"
@@ -179,7 +199,7 @@ def _check_unit(source: str, unit: str, values: dict[str, float]) -> None:
                 f"{source}: unit {unit!r}, field {name}: {v:g} is outside the "
                 f"allowed range [{low:g}, {high:g}]"
             )
-    if all(math.isnan(values.get(h, math.nan)) for h in HYDRAULIC_FIELDS):
+    if all(math.isnan(values.get(h, math.nan)) and h not in given for h in HYDRAULIC_FIELDS):
         raise InputError(
             f"{source}: unit {unit!r}: needs hydraulic_conductivity_m_s or transmissivity_m2_day"
         )
@@ -192,11 +212,22 @@ def _check_unit(source: str, unit: str, values: dict[str, float]) -> None:
 
 
 def _unit_spreads(
-    source: str, unit: str, record: dict[str, Any], values: dict[str, float]
-) -> tuple[dict[str, Spread], float]:
+    source: str,
+    unit: str,
+    record: dict[str, Any],
+    values: dict[str, float],
+    rasters: dict[str, Path] | None = None,
+    cell_given: frozenset[str] = frozenset(),
+) -> tuple[dict[str, Spread], float, dict[str, float], dict[str, str]]:
     """Spreads of one unit from its columns (and a lab-test envelope fit, which also sets the
-    unit's cohesion and friction means); ``values`` is updated with those means."""
+    unit's cohesion and friction means); ``values`` is updated with those means. Also the
+    covs given as numbers (a field varying by cell scales its sd with each cell's value) and
+    the distributions of spreads whose sd or cov is a raster (``rasters``: field_sd or
+    field_cov -> path). ``cell_given``: fields whose values vary by cell."""
+    rasters = rasters or {}
     spreads: dict[str, Spread] = {}
+    covs: dict[str, float] = {}
+    cell_kinds: dict[str, str] = {}
     rho = 0.0
     lab = record.get("strength_lab_tests")
     if isinstance(lab, str) and lab.strip():
@@ -214,6 +245,26 @@ def _unit_spreads(
         spreads["friction_deg"] = phi
     for name in UNCERTAIN_FIELDS:
         raw = {suffix[1:]: record.get(name + suffix) for suffix in SPREAD_SUFFIXES}
+        for k in ("low", "mode", "high"):
+            if _raster_value(source, unit, f"{name}_{k}", raw[k]) is not None:
+                raise InputError(
+                    f"{source}: unit {unit!r}, field {name}_{k}: a raster may give a spread's "
+                    "_sd or _cov only (one value per cell); give a number"
+                )
+        cell = [k for k in ("sd", "cov") if raw[k] is not None and rasters.get(f"{name}_{k}")]
+        if cell:
+            kind = str(raw.get("distribution") or "").strip() or "normal"
+            if kind not in ("normal", "lognormal"):
+                raise InputError(
+                    f"{source}: unit {unit!r}, field {name}_{cell[0]}: a spread from a raster "
+                    f"is normal or lognormal, not {kind}"
+                )
+            if len([k for k in ("sd", "cov") if str(raw[k] or "").strip()]) > 1:
+                raise InputError(
+                    f"{source}: unit {unit!r}, field {name}: give {name}_sd or {name}_cov, not both"
+                )
+            cell_kinds[name] = kind
+            continue
         given = {
             k: v
             for k, v in raw.items()
@@ -225,8 +276,12 @@ def _unit_spreads(
             "triangular" if "mode" in given else "uniform" if "low" in given else "normal"
         )
         numbers = {k: _to_float(source, unit, name + "_" + k, v) for k, v in given.items()}
+        if "cov" in numbers:
+            covs[name] = numbers["cov"]
         if kind in ("normal", "lognormal"):
             numbers["mean"] = values.get(name, math.nan)
+            if math.isnan(numbers["mean"]) and name in cell_given:  # the mean varies by cell
+                numbers["mean"] = 1.0  # a stand-in: each cell's spread is centred on it
             if math.isnan(numbers["mean"]):
                 raise InputError(
                     f"{source}: unit {unit!r}, field {name}: a spread needs the "
@@ -236,7 +291,7 @@ def _unit_spreads(
             spreads[name] = spread(kind, **numbers)
         except InputError as exc:
             raise InputError(f"{source}: unit {unit!r}, field {name} spread: {exc}") from None
-        if math.isnan(values.get(name, math.nan)):
+        if math.isnan(values.get(name, math.nan)) and name not in cell_given:
             values[name] = float(spreads[name].mean)
     corr = _to_float(source, unit, "c_phi_correlation", record.get("c_phi_correlation"))
     if not math.isnan(corr):
@@ -245,13 +300,13 @@ def _unit_spreads(
                 f"{source}: unit {unit!r}, field c_phi_correlation: {corr:g} is "
                 "outside the allowed range [-1, 1]"
             )
-        if not {"cohesion_kpa", "friction_deg"} <= set(spreads):
+        if not {"cohesion_kpa", "friction_deg"} <= set(spreads) | set(cell_kinds):
             raise InputError(
                 f"{source}: unit {unit!r}, field c_phi_correlation: needs spreads "
                 "for both cohesion_kpa and friction_deg"
             )
         rho = corr
-    return spreads, rho
+    return spreads, rho, covs, cell_kinds
 
 
 def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
@@ -351,6 +406,19 @@ def _overlaps(polygons: Any, key: str, grid: Grid) -> str:
     )
 
 
+def _depth_model_units(region: Region, keys: list[str]) -> set[str]:
+    """The units whose depth a [soil_depth] model sets (unknown names are errors)."""
+    out: set[str] = set()
+    for model in region.soil_depth:
+        for unit in model.units:
+            if unit not in keys:
+                raise InputError(
+                    f"[soil_depth] units: unknown soil unit {unit!r}; units: {', '.join(keys)}"
+                )
+        out |= set(model.units or keys)
+    return out
+
+
 def load_soils(region: Region, grid: Grid) -> SoilUnits:
     """Read, validate and reproject the soil units onto ``grid``'s CRS (their coverage is
     measured, tile by tile, by :meth:`SoilUnits.measure_coverage`)."""
@@ -385,15 +453,36 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
     params = {name: np.full(len(keys) + 1, np.nan) for name in SOIL_FIELDS}
     spreads: dict[int, dict[str, Spread]] = {}
     correlations: dict[int, float] = {}
+    rasters: dict[str, dict[int, Path]] = {}
+    covs: dict[int, dict[str, float]] = {}
+    cell_spreads: dict[int, dict[str, str]] = {}
+    modelled = _depth_model_units(region, keys)
+    cell_names = (*SOIL_FIELDS, *(f + s for f in UNCERTAIN_FIELDS for s in ("_sd", "_cov")))
     for code, k in enumerate(keys, start=1):
-        values = {name: _to_float(source, k, name, records[k].get(name)) for name in SOIL_FIELDS}
-        unit_spreads, rho = _unit_spreads(source, k, records[k], values)
-        _check_unit(source, k, values)
+        record = dict(records[k])
+        found = {}
+        for name in cell_names:
+            path = _raster_value(source, k, name, record.get(name))
+            if path is not None:
+                found[name] = path
+                rasters.setdefault(name, {})[code] = path
+                record[name] = None
+        given = frozenset(found) | ({"depth_m"} if k in modelled else frozenset())
+        values = {name: _to_float(source, k, name, record.get(name)) for name in SOIL_FIELDS}
+        unit_spreads, rho, unit_covs, kinds = _unit_spreads(
+            source, k, {**record, **{n: str(p) for n, p in found.items() if n not in SOIL_FIELDS}},
+            values, found, given,
+        )  # fmt: skip
+        _check_unit(source, k, values, given)
         for name, v in values.items():
             params[name][code] = v
-        if unit_spreads:
+        if unit_spreads or kinds:
             spreads[code] = unit_spreads
             correlations[code] = rho
+        if unit_covs:
+            covs[code] = unit_covs
+        if kinds:
+            cell_spreads[code] = kinds
     # hydraulic diffusivity D0 = K / C0 where only the moisture capacity C0 is given
     derived = params["hydraulic_conductivity_m_s"] / params["moisture_capacity_per_m"]
     from_capacity = np.isnan(params["diffusivity_m2_s"]) & np.isfinite(derived)
@@ -436,6 +525,9 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
         correlations=correlations,
         diffusivity_derived=frozenset(int(c) for c in np.flatnonzero(from_capacity)),
         saturated_defaulted=frozenset(int(c) for c in sat_defaulted if c > 0),
+        rasters=rasters,
+        spread_cov=covs,
+        cell_spreads=cell_spreads,
         lab_tests={
             k: (Path(source).parent / str(records[k]["strength_lab_tests"]).strip()).resolve()
             for k in keys

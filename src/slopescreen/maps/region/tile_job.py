@@ -13,7 +13,9 @@ from typing import Any
 import numpy as np
 
 from slopescreen.maps.io.grid import Grid
+from slopescreen.maps.region.cell_fields import SD, CellSoil
 from slopescreen.maps.region.config import RainfallFrequency, ReliabilitySpec, Scenario
+from slopescreen.maps.region.scenario_schema import UNCERTAIN_FIELDS
 from slopescreen.reliability import Spread
 from slopescreen.scenario import Storm
 
@@ -56,6 +58,12 @@ class TileJob:
     # tables of critical intensity by duration on large grids (intensity_tables.UnitTables)
     intensity_tables: dict[float, Any] = field(default_factory=dict)
     cell_progress: bool = False  # a progress bar over the cells of each storm tile
+    soil: CellSoil = field(default_factory=CellSoil)  # soil fields set cell by cell
+
+    @property
+    def with_probability(self) -> bool:
+        """Probability maps are made: some unit has spreads, or an sd varies by cell."""
+        return bool(self.spreads) or self.soil.spreads_by_cell
 
 
 def core_storm(sc: Scenario, block: dict[str, np.ndarray] | None = None) -> Storm | None:
@@ -81,19 +89,49 @@ def core_storm(sc: Scenario, block: dict[str, np.ndarray] | None = None) -> Stor
 def units_with_spreads(
     job: TileJob, block: dict[str, np.ndarray]
 ) -> Iterator[tuple[np.ndarray, dict[str, np.ndarray], dict[str, Any], dict]]:
-    """For each soil unit of the block that has spreads: its cells (mask), the block at
-    them, its soil values (numbers, spreads as ``Spread``) and the c'-phi' correlation."""
+    """For each soil unit of the block with spreads (its own, or an sd that varies by cell):
+    its cells (mask), the block at them, its soil values on them (arrays; spreads as
+    ``Spread`` centred on each cell's value) and the c'-phi' correlation. The block holds
+    each soil field per cell (:mod:`slopescreen.maps.region.cell_fields`)."""
     codes = block["codes"]
-    for code in np.unique(codes):
-        spreads = job.spreads.get(int(code))
-        if not spreads:
-            continue
+    for code in (int(c) for c in np.unique(codes)):
         sel = codes == code
-        values: dict[str, Any] = {name: float(job.tables[name][code]) for name in CORE_FIELDS}
-        values.update(spreads)
-        rho = job.correlations.get(int(code), 0.0)
+        spreads = job.spreads.get(code, {})
+        cell_sd = {
+            name: block[name + SD][sel]
+            for name in UNCERTAIN_FIELDS
+            if name + SD in block and np.isfinite(block[name + SD][sel]).any()
+        }
+        if not spreads and not cell_sd:
+            continue
+        sub = {k: v[..., sel] for k, v in block.items()}  # cells: the last axis
+        values: dict[str, Any] = {name: sub[name] for name in CORE_FIELDS}
+        kinds = job.soil.cell_spreads.get(code, {})
+        for name in set(spreads) | set(cell_sd):
+            values[name] = centred(spreads.get(name), sub[name], cell_sd.get(name), kinds.get(name))
+        rho = job.correlations.get(code, 0.0)
         corr = {("cohesion_kpa", "friction_deg"): rho} if rho else {}
-        yield sel, {k: v[..., sel] for k, v in block.items()}, values, corr  # cells: last axis
+        yield sel, sub, values, corr
+
+
+def centred(
+    unit: Spread | None, mean: np.ndarray, sd: np.ndarray | None, kind: str | None
+) -> Spread:
+    """A spread on each cell's value ``mean``: the unit's spread keeping its shape (its sd,
+    or ``sd`` where that is given per cell), or a normal (or ``kind``) one of sd ``sd``
+    (0 where none)."""
+    if unit is None:
+        sigma = np.nan_to_num(sd, nan=0.0) if sd is not None else np.zeros_like(mean)
+        dist = kind or "normal"
+    else:
+        sigma = np.asarray(unit.sd, float) if sd is None else np.where(np.isfinite(sd), sd, unit.sd)
+        dist = unit.distribution
+    if dist == "lognormal":  # a positive mean (a cell without roots: as good as none)
+        mean = np.maximum(mean, 1e-9)
+    if unit is None or dist in ("normal", "lognormal"):
+        return Spread(dist, mean, np.broadcast_to(sigma, mean.shape))
+    shift = mean - unit.mean
+    return Spread(dist, mean, sigma, unit.low + shift, unit.mode + shift, unit.high + shift)
 
 
 def add_tile(total: dict[Any, Any], result: dict[Any, Any]) -> None:

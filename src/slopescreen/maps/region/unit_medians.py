@@ -7,16 +7,17 @@ figure of a rainfall scenario and by the sensitivity of a finished run.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.io.rasters import read_block, windows
+from slopescreen.maps.region.cell_fields import CellSoil, soil_cells
 from slopescreen.maps.region.runners import Runner, serial_runner
 from slopescreen.maps.region.terrain_cache import NODATA_F32
-from slopescreen.maps.region.tile_job import summed_tiles
+from slopescreen.maps.region.tile_job import CORE_FIELDS, summed_tiles
 
 SLOPE_BINS = np.linspace(0.0, 90.0, 9001)  # 0.01 degree
 SCA_BINS = np.linspace(-2.0, 8.0, 11_501)  # log10(m): 0.2% wide
@@ -39,6 +40,9 @@ class SensitivityJob:
     seismic: float
     fs_breaks: tuple[float, ...]
     n_units: int
+    soil: CellSoil = field(default_factory=CellSoil)  # soil fields set cell by cell
+    # unit code -> field -> the unit's mean where the field varies by cell (unit_means)
+    means: dict[int, dict[str, float]] = field(default_factory=dict)
 
 
 def tile_inputs(job: SensitivityJob, rows: slice, cols: slice) -> dict[str, np.ndarray]:
@@ -53,7 +57,40 @@ def tile_inputs(job: SensitivityJob, rows: slice, cols: slice) -> dict[str, np.n
     ok &= v["m"] != NODATA_F32
     v["ok"] = ok
     v["area"] = np.broadcast_to(job.grid.ground.cell_area_m2(rows, cols), ok.shape)
+    if job.soil.varies:  # each soil field on the tile (NaN off the cells with every value)
+        soil = soil_cells(job.soil, job.tables, job.grid, rows, cols, v["codes"], ok)
+        for name in CORE_FIELDS:
+            v[name] = np.full(ok.shape, np.nan)
+            v[name][ok] = soil[name]
     return v
+
+
+def means_tile(job: SensitivityJob, rows: slice, cols: slice) -> dict[str, np.ndarray]:
+    """Per unit, the area-weighted sum of each soil field and the area (for unit_means)."""
+    v = tile_inputs(job, rows, cols)
+    out = {"area": np.zeros(job.n_units + 1)}
+    np.add.at(out["area"], v["codes"][v["ok"]], v["area"][v["ok"]])
+    for name in CORE_FIELDS:
+        if name in v:
+            sums = np.zeros(job.n_units + 1)
+            np.add.at(sums, v["codes"][v["ok"]], (v[name] * v["area"])[v["ok"]])
+            out[name] = sums
+    return out
+
+
+def unit_means(job: SensitivityJob, runner: Runner = serial_runner) -> dict[int, dict[str, float]]:
+    """Per unit code whose soil fields vary by cell, the area-weighted mean of each field
+    over its cells (summed tile by tile; NaN for a field the unit leaves blank, such as
+    transmissivity where K is given)."""
+    if not job.soil.varies:
+        return {}
+    total = summed_tiles(runner(means_tile, [(job, r, c) for r, c in windows(job.grid)]))
+    varying = job.soil.varying_units()
+    return {
+        code: {name: float(total[name][code] / total["area"][code]) for name in CORE_FIELDS}
+        for code in range(1, job.n_units + 1)
+        if code in varying and total["area"][code] > 0
+    }
 
 
 def histogram_tile(job: SensitivityJob, rows: slice, cols: slice) -> dict[str, np.ndarray]:
