@@ -1,7 +1,8 @@
 """Build the invented demo region: the fictitious Quillbrook catchment.
 
 Writes quillbrook_dem.tif (450 x 450 cells at 10 m), soil_units.gpkg (five soil units),
-soil_parameters.csv and mapped_landslides.gpkg (an invented inventory of slides drawn from
+soil_parameters.csv, the land cover (quillbrook_land_cover.gpkg and .csv) and
+mapped_landslides.gpkg (an invented inventory of slides drawn from
 a hidden soil table, see HIDDEN_CHANGES) beside this file. The terrain is synthetic: a
 valley draining south, fractal relief by spectral synthesis, then a few thousand years of
 stream incision and hillslope diffusion so that tributaries, hollows and spurs form as on
@@ -433,6 +434,61 @@ def gauge_record() -> None:
     (HERE / "quillbrook_gauge_record.csv").write_text("\n".join(lines) + "\n")
 
 
+# Invented land cover: pasture on the valley floor and lower slopes, forest above, a block
+# clear-cut in 2019 on the western slopes and a block due to be cut in 2027 on the eastern
+# ones. Root cohesion under forest 1-10 kPa and under grass about 1-2 kPa, rooting depths
+# about 1-2 m and 0.3-0.5 m, are of the order summarised by Sidle & Ochiai (2006) (from
+# memory); the values are illustrative, not measurements.
+COVER_CLASSES = [
+    ("forest", "mature conifer forest", 6.0, 2.0, 1.5, ""),
+    ("pasture", "grazed pasture", 1.5, 0.5, 0.4, ""),
+    ("clearcut_2019", "forest clear-cut in 2019", 6.0, 2.0, 1.5, "2019"),
+    ("planned_cut", "forest due to be clear-cut in 2027", 6.0, 2.0, 1.5, "2027"),
+]
+CUT_BLOCKS = {  # class -> (first row, last row, first column, last column) of the block
+    "clearcut_2019": (90, 190, 40, 170),
+    "planned_cut": (200, 300, 290, 420),
+}
+
+
+def land_cover(codes: np.ndarray, transform: object) -> None:
+    """quillbrook_land_cover.gpkg (polygons, field cover) and quillbrook_land_cover.csv
+    (each class's roots) from the soil-unit map: pasture on alluvium and till, forest
+    elsewhere, and the two cut blocks on forest ground."""
+    import geopandas as gpd
+    from rasterio import features
+    from shapely.geometry import shape
+
+    names = [c[0] for c in COVER_CLASSES]
+    cover = np.full(codes.shape, names.index("forest") + 1, np.int32)
+    cover[np.isin(codes, (1, 4))] = names.index("pasture") + 1  # ALV, TIL
+    for name, (r0, r1, c0, c1) in CUT_BLOCKS.items():
+        block = np.zeros(codes.shape, bool)
+        block[r0:r1, c0:c1] = True
+        cover[block & (cover == names.index("forest") + 1)] = names.index(name) + 1
+    geoms, classes = [], []
+    for geom, value in features.shapes(cover, transform=transform, connectivity=4):
+        geoms.append(shape(geom).simplify(2.0))
+        classes.append(names[int(value) - 1])
+    frame = gpd.GeoDataFrame({"cover": classes}, geometry=geoms, crs=CRS)
+    frame = frame.dissolve(by="cover", as_index=False)
+    target = HERE / "quillbrook_land_cover.gpkg"
+    if target.exists():
+        target.unlink()
+    frame.to_file(target, driver="GPKG", layer="land_cover")
+    with open(HERE / "quillbrook_land_cover.csv", "w", newline="") as handle:
+        handle.write(
+            "# Invented land-cover classes of the fictitious Quillbrook catchment "
+            "(illustrative values, not measurements)\n"
+        )
+        writer = csv.writer(handle)
+        writer.writerow(
+            ["class", "description", "root_cohesion_kpa", "root_cohesion_kpa_sd",
+             "rooting_depth_m", "harvest_year"]
+        )  # fmt: skip
+        writer.writerows(COVER_CLASSES)
+
+
 def main() -> None:
     import geopandas as gpd
     import rasterio
@@ -486,6 +542,7 @@ def main() -> None:
         writer.writerows(UNITS)
     design_rainfall()
     gauge_record()
+    land_cover(codes, transform)
     slides = landslide_inventory(transform)
     target = HERE / "mapped_landslides.gpkg"
     if target.exists():

@@ -13,10 +13,11 @@ from region_files import write_gauges
 
 from slopescreen.errors import InputError
 from slopescreen.maps.region.config import load_config
+from slopescreen.maps.region.field_config import DEPTH_MODELS
 from slopescreen.maps.region.scenario_schema import SCHEMA, Span
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_region"
-PATH_KEYS = {"dem", "soil_units", "soil_table", "idf_table", "path", "hyetograph"}
+PATH_KEYS = {"dem", "soil_units", "soil_table", "idf_table", "path", "hyetograph", "table"}
 # a design storm's keys: within their span, and also within the design-rainfall table
 DESIGN_KEYS = {"design_return_period_yr", "design_duration_h", "block_h"}
 
@@ -49,6 +50,8 @@ def _demo() -> dict:
     data = tomllib.loads((DEMO / "quillbrook_scenarios.toml").read_text(encoding="utf-8"))
     for table in data.values():
         for item in table if isinstance(table, list) else [table]:
+            if not isinstance(item, dict):
+                continue
             for where in (item, item.get("storm") or {}):
                 for key in PATH_KEYS & set(where):
                     where[key] = str(DEMO / where[key])
@@ -78,6 +81,12 @@ def _with(table: str, key: str, value: float) -> dict:
             where.pop("initial_water_table_depth_m")
     elif table == "scenario.rainfall":
         where = by_name["rain_frequency"]["rainfall"]
+    elif table == "soil_depth":  # one model of the key's own, its other keys mid-range
+        model = next(m for m, keys in DEPTH_MODELS.items() if key in keys)
+        where = {"model": model} | {
+            k: v for k, v in MODEL_KEYS[model].items() if k not in PAIRED.get(key, ())
+        }
+        data["soil_depth"] = where
     else:
         where = data.setdefault(table, {})
     if table == "reliability":
@@ -89,6 +98,28 @@ def _with(table: str, key: str, value: float) -> dict:
     return data
 
 
+# a valid table of each depth model; a key probed alone drops the key it is checked against
+MODEL_KEYS = {
+    "slope_linear": {
+        "gentle_slope_deg": 0.0,
+        "steep_slope_deg": 89.9,
+        "gentle_depth_m": 2.0,
+        "steep_depth_m": 0.5,
+    },
+    "elevation_linear": {"low_depth_m": 2.0, "high_depth_m": 1.0},
+    "soil_production": {
+        "production_m_yr": 1e-4,
+        "creep_diffusivity_m2_yr": 0.005,
+        "production_depth_m": 0.5,
+        "max_depth_m": 50.0,
+        "min_depth_m": 0.05,
+    },
+}
+# keys checked against another: the probe leaves the other out (or at its own end)
+PAIRED = {"max_depth_m": ("min_depth_m",)}
+# pairs whose bound cannot be taken alone (the other key must lie beyond it)
+ORDERED = {"gentle_slope_deg", "steep_slope_deg", "low_elevation_m", "high_elevation_m"}
+
 NUMERIC = [
     (table, key, span)
     for table, rows in SCHEMA.items()
@@ -98,8 +129,8 @@ NUMERIC = [
 
 
 def test_every_numeric_key_is_probed():
-    # the keys the reader checks as numbers: each has its range in the schema (25 of them)
-    assert len(NUMERIC) == 25
+    # the keys the reader checks as numbers: each has its range in the schema (41 of them)
+    assert len(NUMERIC) == 41
     assert {("scenario.storm", "rain_mm_h"), ("inventory", "test_share")} <= {
         (t, k) for t, k, _ in NUMERIC
     }
@@ -111,7 +142,7 @@ def test_the_reader_checks_the_schema_range(tmp_path, table, key, span):
     if key == "gauge_power":
         record = DEMO / "quillbrook_gauge_record.csv"
         write_gauges(tmp_path, "gauges.gpkg", (str(record), str(record)))
-    whole = key in ("samples", "random_state")  # read as integers
+    whole = key in ("samples", "random_state", "year")  # read as integers
     beyond = span.high + max(1, abs(span.high)) * 0.5
     path.write_text(_toml(_with(table, key, int(beyond) if whole else beyond)))
     with pytest.raises(InputError) as refused:
@@ -124,8 +155,8 @@ def test_the_reader_checks_the_schema_range(tmp_path, table, key, span):
         path.write_text(_toml(_with(table, key, math.floor(below) if whole else below)))
         with pytest.raises(InputError, match=key):
             load_config(path)
-    if key in DESIGN_KEYS:
-        return  # the table, not the span, decides which values are taken (tested elsewhere)
+    if key in DESIGN_KEYS or key in ORDERED:
+        return  # the table or the other key decides which values are taken (tested elsewhere)
     high = int(span.high) if whole else float(span.high)
     path.write_text(_toml(_with(table, key, high)))
     load_config(path)  # the bound itself is taken

@@ -284,12 +284,9 @@ class _Terrain:
         r0, r1 = max(self.rows.start - 1, 0), min(self.rows.stop + 1, self.grid.height)
         c0, c1 = max(self.cols.start - 1, 0), min(self.cols.stop + 1, self.grid.width)
         z = read_elevations(self.cs.dem, self.cs.dem_unit, slice(r0, r1), slice(c0, c1))
-        z = np.pad(
-            z,
-            ((self.rows.start - r0 == 0, r1 - self.rows.stop == 0),
-             (self.cols.start - c0 == 0, c1 - self.cols.stop == 0)),
-            constant_values=np.nan,
-        )  # fmt: skip
+        top, bottom = int(self.rows.start == r0), int(self.rows.stop == r1)
+        left, right = int(self.cols.start == c0), int(self.cols.stop == c1)
+        z = np.pad(z, ((top, bottom), (left, right)), constant_values=np.nan)
         ue, un, ve, vn = self.grid.ground.vectors(self.rows, self.cols)
         lap = laplacian_per_m(z, np.hypot(ue, un), np.hypot(ve, vn))
         return np.broadcast_to(lap, self.valid.shape)[self.valid]

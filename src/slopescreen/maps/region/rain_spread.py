@@ -140,8 +140,9 @@ def annual_probability_with_spread(
     capacity, conductivity = {}, {}
     for key, params in points.items():
         ic = np.empty(n)
-        for d, cells, part in by_duration:
-            ic[cells] = critical_intensities(job, part, d, **params)
+        for d, cells, part in by_duration:  # per-cell values at those cells
+            at = {k: v[..., cells] if np.shape(v)[-1:] == (n,) else v for k, v in params.items()}
+            ic[cells] = critical_intensities(job, part, d, **at)
         k_mm_h = np.broadcast_to(params["hydraulic_conductivity_m_s"], (n,)) * 3.6e6
         # the codes at their limits: failure before rain is I_c -> 0; no intensity up to
         # K_z failing is I_c = K_z, where rain of any strength infiltrates at K_z at most

@@ -44,6 +44,7 @@ from slopescreen.maps.outputs.output_names import (
     SLOPE_DEG,
     SLOPE_TAN,
     SOIL_DEPTH,
+    SOIL_DEPTH_MAP,
     SOIL_UNIT,
     STABILITY_CLASS,
     STABILITY_CLASS_MAP,
@@ -844,6 +845,10 @@ def draw_scenario_maps(
         "steady recharge bringing FS to 1 (mm/day, log scale)",
         log=True,
         specials=CRITICAL_RECHARGE_SPECIALS,
+    )
+    f = frame("soil depth of each cell (the depth every FS on this map uses)")
+    maps["soil depth"] = draw_values(
+        out / SOIL_DEPTH_MAP, f, out / SOIL_DEPTH, "vertical soil depth (m)"
     )
     if sc.storm is not None:
         f = frame("time from the start of the storm until FS falls below 1")
