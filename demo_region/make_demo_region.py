@@ -317,7 +317,7 @@ def _channel_level(z: np.ndarray, channel: np.ndarray) -> np.ndarray:
 # scenario file does not use: the weathered siltstone's c' is 30% lower than the table
 # says. Calibration against the inventory should move it back towards this value.
 HIDDEN_CHANGES = {"SLP": {"cohesion_kpa": 2.8}}
-HIDDEN_SCENARIO = "wet_season"  # the wetness the hidden slides happened under
+HIDDEN_SCENARIO = "wet_season_units"  # the wetness (and per-unit soils) of the hidden slides
 SLIDE_CHANCE = 0.06  # chance that a cell far below FS = 1 holds a mapped slide
 SLIDE_SPREAD = 0.08  # FS width over which the chance falls (logistic)
 YEARS = (1996, 2025)  # invented dates of the mapped slides

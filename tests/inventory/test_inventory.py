@@ -283,16 +283,17 @@ def test_demo_calibration_recovers_the_hidden_cohesion(demo_out, tmp_path, capsy
     hidden = demo.HIDDEN_CHANGES["SLP"]["cohesion_kpa"]
     out, lines = demo_out
     scores = json.loads((out / "manifest.json").read_text())["inventory"]["scenarios"]
-    wet = next(r for r in scores if r["scenario"] == "wet_season")
+    # the slides were drawn from the per-unit soils: the scenario with per-unit constants
+    wet = next(r for r in scores if r["scenario"] == "wet_season_units")
     assert wet["success_auc"] > 0.8 and wet["prediction_auc"] > 0.8
-    assert any(line.startswith("scenario wet_season: success AUC") for line in lines)
+    assert any(line.startswith("scenario wet_season_units: success AUC") for line in lines)
     copy = _copy(out, tmp_path)
     table = file_sha256(REGION / "soil_parameters.csv")
     toml = REGION / "quillbrook_scenarios.toml"
-    argv = ["calibrate", str(toml), "--out", str(copy), "--scenario", "wet_season"]
+    argv = ["calibrate", str(toml), "--out", str(copy), "--scenario", "wet_season_units"]
     assert main([*argv, "--max-flagged-share", "0.1"]) == 0, capsys.readouterr().err
     entry = json.loads((copy / "manifest.json").read_text())["calibration"]
-    result = entry["wet_season:cohesion_kpa"]
+    result = entry["wet_season_units:cohesion_kpa"]
     slp = next(u for u in result["units"] if u["soil_unit"] == "SLP")
     assert slp["after"] == pytest.approx(hidden, abs=0.4)
     assert result["after"]["train_auc"] >= result["before"]["train_auc"]
@@ -305,7 +306,7 @@ def test_demo_calibration_recovers_the_hidden_cohesion(demo_out, tmp_path, capsy
     # a limit no map meets: every unit keeps its value, with a note
     assert main([*argv, "--max-flagged-share", "0.001"]) == 0
     result = json.loads((copy / "manifest.json").read_text())["calibration"]
-    strict = result["wet_season:cohesion_kpa"]["units"]
+    strict = result["wet_season_units:cohesion_kpa"]["units"]
     assert all(u["multiplier"] == 1.0 for u in strict)
     assert any("no multiplier keeps the flagged share" in u["note"] for u in strict)
 

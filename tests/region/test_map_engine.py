@@ -63,6 +63,111 @@ def _soil_table():
     return table
 
 
+def _per_cell(out, scenario):
+    """The scenario's soil depth and root cohesion rasters as the run wrote them (checked
+    against the core's depth and root models in test_depth_and_roots_follow_the_models)."""
+    depth, *_ = _read(out / scenario / "soil_depth_m.tif")
+    root_path = out / scenario / "root_cohesion_kpa.tif"
+    return depth, _read(root_path)[0] if root_path.exists() else None
+
+
+def _cell(table, unit, cells, r, c):
+    """The soil-table row of ``unit`` with the cell's own depth and root cohesion; the root
+    cohesion's spread scales with it (the land-cover classes' sd over their value)."""
+    depth, root = cells
+    p = dict(table[unit], depth_m=float(depth[r, c]))
+    if root is not None:
+        p["root_cohesion_kpa"] = float(root[r, c])
+        p["root_cohesion_kpa_sd"] = float(root[r, c]) * COVER_SD_SHARE
+    return p
+
+
+def _cover_table():
+    with open(REGION / "quillbrook_land_cover.csv") as handle:
+        rows = list(csv.DictReader(line for line in handle if not line.startswith("#")))
+    return {r["class"]: r for r in rows}
+
+
+def _sd_share():
+    """The demo classes' root-cohesion sd over their value: one share for all of them."""
+    shares = {
+        float(r["root_cohesion_kpa_sd"]) / float(r["root_cohesion_kpa"])
+        for r in _cover_table().values()
+    }
+    assert len(shares) == 1
+    return shares.pop()
+
+
+COVER_SD_SHARE = _sd_share()
+
+
+def test_depth_and_roots_follow_the_models(demo_out):
+    """soil_depth_m.tif and root_cohesion_kpa.tif at sampled cells against the core's depth
+    and root models, fed independently: the slope raster, the DEM's five-point Laplacian
+    on ground lengths from PROJ's scale factor, the land-cover class at the cell's centre
+    (a point in the polygons, shapely) and the scenario file's numbers."""
+    import tomllib
+
+    from slopescreen.root_cohesion import (
+        root_cohesion_after_harvest_kpa,
+        root_cohesion_at_depth_kpa,
+    )
+    from slopescreen.soil_depth import slope_linear_depth_m, soil_production_depth_m
+
+    out, _ = demo_out
+    cfg = tomllib.loads(SCENARIOS.read_text())
+    models = {u: m for m in cfg["soil_depth"] for u in m["units"]}
+    table = _soil_table()
+    classes = _cover_table()
+    slope, profile, *_ = _read(out / "terrain" / "slope_deg.tif")
+    units, _, unit_tags, _ = _read(out / "terrain" / "soil_unit.tif")
+    z, *_ = _read(REGION / "quillbrook_dem.tif")
+    z = z.astype(np.float64)
+    cover = gpd.read_file(REGION / cfg["land_cover"]["path"])
+    t = profile["transform"]
+    rng = np.random.default_rng(5)
+    rows, cols = np.nonzero(units > 0)
+    inner = (rows > 0) & (rows < units.shape[0] - 1) & (cols > 0) & (cols < units.shape[1] - 1)
+    pick = rng.choice(np.flatnonzero(inner), 400, replace=False)
+    seen = set()
+    for scenario, year in (("wet_season", cfg["land_cover"]["year"]), ("wet_season_2035", 2035)):
+        depth, root = _per_cell(out, scenario)
+        for r, c in zip(rows[pick], cols[pick], strict=True):
+            unit = unit_tags[f"unit_{units[r, c]}"]
+            m = models.get(unit)
+            if m is None:
+                expected = table[unit]["depth_m"]
+            elif m["model"] == "slope_linear":
+                keys = ("gentle_slope_deg", "steep_slope_deg", "gentle_depth_m", "steep_depth_m")
+                expected = slope_linear_depth_m(float(slope[r, c]), *(m[k] for k in keys))
+            else:
+                x, y = t * (c + 0.5, r + 0.5)
+                k = float(np.sqrt(_areal_scale(profile["crs"], x, y)))  # conformal: one scale
+                step = 10.0 / k  # ground metres of one 10 m map step
+                lap = (z[r, c - 1] + z[r, c + 1] + z[r - 1, c] + z[r + 1, c] - 4 * z[r, c]) / step**2
+                expected = soil_production_depth_m(
+                    lap, m["production_m_yr"], 2.0, m["creep_diffusivity_m2_yr"],
+                    m["production_depth_m"], m["min_depth_m"], m["max_depth_m"],
+                )  # fmt: skip
+            assert depth[r, c] == pytest.approx(float(expected), rel=2e-4), (unit, r, c)
+            seen.add(m["model"] if m else "table")
+            x, y = t * (c + 0.5, r + 0.5)
+            name = cover[cover.contains(gpd.points_from_xy([x], [y])[0])]["cover"].tolist()
+            if len(name) != 1:
+                continue  # on a boundary between classes: either may hold the cell
+            row = classes[name[0]]
+            full = float(row["root_cohesion_kpa"])
+            value = full
+            if row["harvest_year"]:
+                value = root_cohesion_after_harvest_kpa(year - float(row["harvest_year"]), full)
+            expected_root = root_cohesion_at_depth_kpa(
+                value, float(depth[r, c]), float(row["rooting_depth_m"])
+            )
+            assert root[r, c] == pytest.approx(float(expected_root), rel=1e-6, abs=1e-6)
+            seen.add(name[0])
+    assert seen >= {"table", "slope_linear", "soil_production", "forest", "pasture"}
+
+
 def _fs(p, beta, m):
     """The core factor of safety for one soil-table row."""
     return factor_of_safety(
@@ -164,13 +269,14 @@ def test_fs_raster_matches_core_at_sampled_cells(demo_out, scenario):
     units, _, unit_tags, _ = _read(out / "terrain" / "soil_unit.tif")
     table = _soil_table()
     cap = float(tags["fs_cap"])
+    cells = _per_cell(out, scenario)
     rng = np.random.default_rng(1)
     rows, cols = np.nonzero(fs != -9999.0)
     pick = rng.choice(rows.size, 300, replace=False)
     for r, c in zip(rows[pick], cols[pick], strict=True):
-        p = dict(table[unit_tags[f"unit_{units[r, c]}"]])
+        p = _cell(table, unit_tags[f"unit_{units[r, c]}"], cells, r, c)
         if scenario == "wet_season_logged" and unit_tags[f"unit_{units[r, c]}"] in ("SLP", "COL"):
-            p["root_cohesion_kpa"] = 0.0
+            assert p["root_cohesion_kpa"] == 0.0  # the scenario's number beats land cover
         beta = float(slope[r, c])
         if scenario == "dry_season":
             m = 0.1
@@ -193,11 +299,12 @@ def test_critical_recharge_brings_fs_to_one(demo_out):
     units, _, unit_tags, _ = _read(out / "terrain" / "soil_unit.tif")
     fs_dry, *_ = _read(out / "dry_season" / "fs.tif")
     table = _soil_table()
+    cells = _per_cell(out, "wet_season")
     rows, cols = np.nonzero(rc > 0.0)
     assert rows.size > 100
     assert ((rc == -1) | (rc == -2) | (rc >= 0) | (rc == -9999)).all()
     for r, c in list(zip(rows, cols, strict=True))[:: max(1, rows.size // 200)]:
-        p = table[unit_tags[f"unit_{units[r, c]}"]]
+        p = _cell(table, unit_tags[f"unit_{units[r, c]}"], cells, r, c)
         beta = float(slope[r, c])
         t = p["hydraulic_conductivity_m_s"] * 86400.0 * p["depth_m"] * np.cos(np.radians(beta))
         m = float(steady_state_saturation(float(rc[r, c]), float(sca[r, c]), beta, t))
@@ -286,6 +393,7 @@ def _taylor_probability(p, beta, sca):
         "cohesion_kpa": p.get("cohesion_kpa_sd"),
         "friction_deg": p.get("friction_deg_sd"),
         "depth_m": p["depth_m"] * p["depth_m_cov"] if "depth_m_cov" in p else None,
+        "root_cohesion_kpa": p.get("root_cohesion_kpa_sd"),
     }
     spreads = {k: v for k, v in spreads.items() if v}
 
@@ -313,11 +421,12 @@ def test_probability_raster_matches_taylor_series_by_hand(demo_out):
     sca, *_ = _read(out / "terrain" / "specific_catchment_area_m.tif")
     units, _, unit_tags, _ = _read(out / "terrain" / "soil_unit.tif")
     table = _soil_table()
+    cells = _per_cell(out, "wet_season")
     rng = np.random.default_rng(2)
     rows, cols = np.nonzero(pf != -9999.0)
     for i in rng.choice(rows.size, 150, replace=False):
         r, c = rows[i], cols[i]
-        p = table[unit_tags[f"unit_{units[r, c]}"]]
+        p = _cell(table, unit_tags[f"unit_{units[r, c]}"], cells, r, c)
         expected = _taylor_probability(p, float(slope[r, c]), float(sca[r, c]))
         assert pf[r, c] == pytest.approx(expected, abs=2e-6)
     with open(out / "wet_season" / "summary.csv") as handle:
@@ -336,11 +445,12 @@ def test_storm_rasters_match_core_at_sampled_cells(demo_out):
     slope, *_ = _read(out / "terrain" / "slope_deg.tif")
     units, _, unit_tags, _ = _read(out / "terrain" / "soil_unit.tif")
     table = _soil_table()
+    cells = _per_cell(out, "design_storm")
     rng = np.random.default_rng(3)
     rows, cols = np.nonzero(fs != -9999.0)
     for i in rng.choice(rows.size, 100, replace=False):
         r, c = rows[i], cols[i]
-        p = table[unit_tags[f"unit_{units[r, c]}"]]
+        p = _cell(table, unit_tags[f"unit_{units[r, c]}"], cells, r, c)
         # fs.tif: the minimum over depth and time up to 24 h, against a dense grid of
         # 300 planes from the shallowest slip plane (0.05 m) x 97 times with the core
         # function (tolerance of storm_summary: 0.005)

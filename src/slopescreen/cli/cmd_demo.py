@@ -5,9 +5,10 @@
 3. Runs every scenario of the regional scenario file: terrain, factor-of-safety maps,
    low-margin zones, area tables, scores against the invented landslide inventory,
    report.html and manifest.json, all under --out.
-4. On the wet-season scenario: back-analyses c' at the landslide cells, calibrates c' per
-   soil unit against the inventory, and draws the sensitivity tornado; the report shows
-   all three.
+4. On the wet-season scenario: back-analyses c' at the landslide cells and draws the
+   sensitivity tornado, with soil depth and roots cell by cell; on its per-unit twin (the
+   model the invented landslides were drawn from) calibrates c' per soil unit against the
+   inventory; the report shows all three.
 
 Example::
 
@@ -86,7 +87,9 @@ def read_slope_file(path: Path) -> dict[str, Any]:
     return kwargs
 
 
-DEMO_SCENARIO = "wet_season"  # the wetness the demo's invented landslides happened under
+DEMO_SCENARIO = "wet_season"  # back-analysis and sensitivity, soil fields cell by cell
+# calibration: the per-unit scenario the invented landslides were drawn from
+CALIBRATION_SCENARIO = "wet_season_units"
 DEMO_FLAGGED_LIMIT = 0.1  # calibration: at most 10% of the demo region at FS < 1
 
 
@@ -114,7 +117,8 @@ def hidden_note(region: Path) -> str:
 
 
 def known_landslides(scenarios: Path, out: Path) -> None:
-    """Back-analysis, calibration and sensitivity of the demo's wet season."""
+    """Back-analysis and sensitivity of the demo's wet season, and calibration of its
+    per-unit twin."""
     from slopescreen.cli import cmd_backcalc, cmd_calibrate, cmd_sensitivity
 
     common = dict(scenarios=scenarios, out=out, inventory=None, scenario=DEMO_SCENARIO)
@@ -123,7 +127,7 @@ def known_landslides(scenarios: Path, out: Path) -> None:
     print()
     cmd_calibrate.execute(
         argparse.Namespace(
-            **common,
+            **(common | {"scenario": CALIBRATION_SCENARIO}),
             parameter="cohesion_kpa",
             max_flagged_share=DEMO_FLAGGED_LIMIT,
             multipliers=None,
