@@ -26,10 +26,12 @@ from slopescreen.rainfall_frequency import idf_formula
 
 X0, Y0, CELL = 500000.0, 5000400.0, 10.0
 
+# B's cohesion from a raster (a global grid), its depth from slope; A's depth from soil
+# production on the DEM's own curvature; roots from a global land-cover raster
 SOIL_TABLE = """unit,cohesion_kpa,cohesion_kpa_sd,friction_deg,friction_deg_sd,unit_weight_kn_m3,\
 saturated_unit_weight_kn_m3,depth_m,hydraulic_conductivity_m_s,diffusivity_m2_s
 A,0.0,,34.0,2.0,17.0,19.0,1.2,1e-5,5e-5
-B,3.0,1.0,31.0,2.0,18.0,20.0,2.0,3e-6,2e-5
+B,cohesion.tif,1.0,31.0,2.0,18.0,20.0,2.0,3e-6,2e-5
 """
 
 SCENARIOS = """[region]
@@ -47,6 +49,27 @@ report = {maps}
 [reliability]
 method = "{method}"
 {samples}
+
+[[soil_depth]]
+model = "soil_production"
+units = ["A"]
+production_m_yr = 3e-4
+creep_diffusivity_m2_yr = 0.005
+production_depth_m = 0.5
+max_depth_m = 2.0
+
+[[soil_depth]]
+model = "slope_linear"
+units = ["B"]
+gentle_slope_deg = 5.0
+steep_slope_deg = 45.0
+gentle_depth_m = 2.5
+steep_depth_m = 0.5
+
+[land_cover]
+path = "cover.tif"
+table = "cover.csv"
+year = 2024
 
 [[scenario]]
 name = "dry"
@@ -246,6 +269,19 @@ def gauntlet(tmp_path_factory):
     header = SOIL_TABLE.splitlines()[0].split(",")
     keep = [i for i, name in enumerate(header) if not name.endswith("_sd")]
     plain = [",".join(line.split(",")[i] for i in keep) for line in SOIL_TABLE.splitlines()]
+    lon, lat = np.meshgrid(np.arange(-179.5, 180.0), np.arange(89.5, -90.0, -1.0))
+    cohesion = 2.0 + 3.0 * (np.sin(np.radians(lon)) + 1.0) / 2.0  # 2 to 5 kPa by longitude
+    _geographic(tmp / "cohesion.tif", cohesion, -180.0, 90.0, 1.0, "float32", -9999.0)
+    cover = np.where(np.floor(lon) % 2 == 0, 1.0, 2.0)  # forest and grass in strips
+    cover[lat < -60.0] = 0.0  # no class: the units' roots
+    _geographic(tmp / "cover.tif", cover, -180.0, 90.0, 1.0, "float32", 0.0)
+    (tmp / "cover.csv").write_text(
+        "class,root_cohesion_kpa,root_cohesion_kpa_sd,rooting_depth_m,harvest_year\n"
+        "1,5.0,1.5,1.5,2015\n2,1.0,,0.4,\n"
+    )
+    (tmp / "cover_plain.csv").write_text(  # no spread on the roots either
+        "class,root_cohesion_kpa,rooting_depth_m,harvest_year\n1,5.0,1.5,2015\n2,1.0,0.4,\n"
+    )
     (tmp / "soils_plain.csv").write_text("\n".join(plain) + "\n")  # no spreads
     wet = np.full((50, 60), 0.6)
     _raster(tmp / "wet.tif", wet, X0 - 50, Y0 + 50, 10.0, "float32", -1.0, "EPSG:32633")
@@ -310,7 +346,8 @@ def test_rain_scenarios_without_spreads_on_flat_and_cliff_terrain(gauntlet):
     tmp, dems = gauntlet
     dem, unit = dems["valley_lake_cliff"]
     config = _scenario_file(tmp, "plain", dem, unit)
-    config.write_text(config.read_text().replace('"soils.csv"', '"soils_plain.csv"'))
+    text = config.read_text().replace('"soils.csv"', '"soils_plain.csv"')
+    config.write_text(text.replace('"cover.csv"', '"cover_plain.csv"'))
     run(config, tmp / "out_plain", progress=False, echo=lambda s: None)
     assert not (tmp / "out_plain" / "rain" / "probability_of_failure.tif").exists()
     with rasterio.open(tmp / "out_plain" / "rain" / "annual_failure_probability.tif") as src:
@@ -340,6 +377,10 @@ def test_every_scenario_kind_runs_on_real_terrain(gauntlet, name):
         with rasterio.open(out / scenario / "fs.tif") as src:
             fs = src.read(1, masked=True)
             cap = float(src.tags()["fs_cap"])
+        for field, (low, high) in (("soil_depth_m", (0.05, 2.5)), ("root_cohesion_kpa", (0, 5))):
+            with rasterio.open(out / scenario / f"{field}.tif") as src:
+                v = src.read(1, masked=True)
+            assert v.count() == fs.count() and ((v >= low) & (v <= high)).all(), field
         assert not np.isnan(fs.compressed()).any()
         assert (fs.compressed() > 0).all() and (fs.compressed() <= cap).all()
         assert fs.count() > 0 and fs.count() <= has_data.sum()

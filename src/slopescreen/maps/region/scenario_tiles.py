@@ -157,7 +157,9 @@ def read_tile(job: TileJob, rows: slice, cols: slice) -> TileInputs:
         cut_off=read_block(job.cut_off, rows, cols) == 1,
         cell_area_m2=job.grid.ground.cell_area_m2(rows, cols),
         slope_deg=(
-            read_block(job.slope_deg, rows, cols) if sc.storm is not None or job.spreads else None
+            read_block(job.slope_deg, rows, cols)
+            if sc.storm is not None or job.with_probability
+            else None
         ),
         saturation=(
             None
