@@ -744,3 +744,50 @@ def SS_STORM_FS(
             ),
         },
     )
+
+
+# --- roots ------------------------------------------------------------------------------------
+
+
+@xw.func
+@_ranges("years_since_harvest", "root_cohesion_kpa", "regrown_root_cohesion_kpa")
+def SS_ROOTS_AFTER_CUT(years_since_harvest, root_cohesion_kpa, regrown_root_cohesion_kpa=None):
+    """Root cohesion (kPa) some years after a clear-cut: decay of the old roots plus
+    regrowth of new ones (Sidle 1991 forms, the default constants)."""
+    from slopescreen.root_cohesion import root_cohesion_after_harvest_kpa
+
+    def after(years_since_harvest, root_cohesion_kpa, regrown_root_cohesion_kpa):
+        return root_cohesion_after_harvest_kpa(
+            years_since_harvest, root_cohesion_kpa, regrown_root_cohesion_kpa
+        )
+
+    return _call(
+        after,
+        {
+            "years_since_harvest": (years_since_harvest, _REQUIRED),
+            "root_cohesion_kpa": (root_cohesion_kpa, _REQUIRED),
+            "regrown_root_cohesion_kpa": (regrown_root_cohesion_kpa, None),
+        },
+    )
+
+
+@xw.func
+@_ranges("root_cohesion_kpa", "depth_m", "rooting_depth_m")
+def SS_ROOTS_AT_DEPTH(root_cohesion_kpa, depth_m, rooting_depth_m, profile=None):
+    """Root cohesion (kPa) on a slip plane at a depth: none below the rooting depth
+    ("step", the default) or declining as exp(-depth / rooting depth) ("exponential")."""
+    from slopescreen.root_cohesion import root_cohesion_at_depth_kpa
+
+    shape = "step" if _is_empty(profile) else str(profile).strip().lower()
+
+    def at_depth(root_cohesion_kpa, depth_m, rooting_depth_m):
+        return root_cohesion_at_depth_kpa(root_cohesion_kpa, depth_m, rooting_depth_m, shape)
+
+    return _call(
+        at_depth,
+        {
+            "root_cohesion_kpa": (root_cohesion_kpa, _REQUIRED),
+            "depth_m": (depth_m, _REQUIRED),
+            "rooting_depth_m": (rooting_depth_m, _REQUIRED),
+        },
+    )

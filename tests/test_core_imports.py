@@ -23,7 +23,8 @@ def test_core_pulls_in_no_heavy_packages():
         "slopescreen.storm, "
         "slopescreen.validation, slopescreen.back_analysis, slopescreen.sensitivity, "
         "slopescreen.rain_thresholds, slopescreen.rainfall_frequency, "
-        "slopescreen.maps.terrain.slope, slopescreen.rain_history, slopescreen.design_storm; "
+        "slopescreen.maps.terrain.slope, slopescreen.rain_history, slopescreen.design_storm, "
+        "slopescreen.soil_depth, slopescreen.root_cohesion; "
         "print(','.join(sorted({m.split('.')[0] for m in sys.modules})))"
     )
     loaded = (

@@ -236,3 +236,19 @@ def test_readme_lists_every_cell_function():
     assert len(functions) >= 17
     for name in functions:
         assert f"`{name}(" in readme, name
+
+
+def test_root_functions_are_the_cores():
+    # thin shells: the same numbers as slopescreen.root_cohesion (tested against its
+    # analytic cases in tests/test_soil_depth.py)
+    from slopescreen.root_cohesion import root_cohesion_after_harvest_kpa
+
+    assert udf.SS_ROOTS_AFTER_CUT(0.0, 6.0) == pytest.approx(6.0)
+    assert udf.SS_ROOTS_AFTER_CUT(10.0, 6.0, 4.0) == pytest.approx(
+        float(root_cohesion_after_harvest_kpa(10.0, 6.0, 4.0))
+    )
+    column = udf.SS_ROOTS_AT_DEPTH(5.0, [[0.5], [1.5]], 1.0)
+    assert column == [[5.0], [0.0]]
+    assert udf.SS_ROOTS_AT_DEPTH(5.0, 1.0, 1.0, "Exponential") == pytest.approx(5.0 * np.exp(-1))
+    assert "root profile must be one of" in udf.SS_ROOTS_AT_DEPTH(5.0, 1.0, 1.0, "linear")
+    assert "rooting_depth_m" in udf.SS_ROOTS_AT_DEPTH(5.0, 1.0, None)

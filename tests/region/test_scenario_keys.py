@@ -481,3 +481,113 @@ def test_the_shallowest_slip_plane_changes_storms_and_rainfall(region, tmp_path)
     base = _run(region, tmp_path, "slip_rain_base", rain)
     deeper = rain + "\n[slip_planes]\nmin_slip_depth_m = 0.5\n"
     assert _run(region, tmp_path, "slip_rain_deeper", deeper) != base
+
+
+# per-cell soil fields: each [soil_depth] and [land_cover] key alone changes the outputs
+# (the test DEM is planar on each side of a ridge: slopes near 32 degrees, the ridge
+# column convex, so soil production has one column to set and the rest is planar ground)
+DEPTH_BASE = {
+    "slope_linear": 'model = "slope_linear"\ngentle_slope_deg = 10.0\nsteep_slope_deg = 40.0\n'
+    "gentle_depth_m = 2.0\nsteep_depth_m = 0.8\n",
+    "elevation_linear": 'model = "elevation_linear"\nlow_depth_m = 2.0\nhigh_depth_m = 0.8\n'
+    "low_elevation_m = 100.0\nhigh_elevation_m = 300.0\n",
+    "soil_production": 'model = "soil_production"\nproduction_m_yr = 3e-4\ndensity_ratio = 2.0\n'
+    "creep_diffusivity_m2_yr = 0.001\nproduction_depth_m = 0.5\nmax_depth_m = 2.0\n"
+    "min_depth_m = 0.1\n",
+    "raster": 'model = "raster"\npath = "depth.tif"\nresampling = "bilinear"\n',
+}
+DEPTH_CHANGES = {  # key: (model, changed line)
+    "model": ("slope_linear", None),  # to elevation_linear
+    "units": ("slope_linear", 'units = ["A"]'),
+    "gentle_slope_deg": ("slope_linear", "gentle_slope_deg = 20.0"),
+    "steep_slope_deg": ("slope_linear", "steep_slope_deg = 50.0"),
+    "gentle_depth_m": ("slope_linear", "gentle_depth_m = 2.5"),
+    "steep_depth_m": ("slope_linear", "steep_depth_m = 0.6"),
+    "low_depth_m": ("elevation_linear", "low_depth_m = 2.4"),
+    "high_depth_m": ("elevation_linear", "high_depth_m = 0.5"),
+    "low_elevation_m": ("elevation_linear", "low_elevation_m = 50.0"),
+    "high_elevation_m": ("elevation_linear", "high_elevation_m = 400.0"),
+    "production_m_yr": ("soil_production", "production_m_yr = 6e-4"),
+    "density_ratio": ("soil_production", "density_ratio = 1.5"),
+    "creep_diffusivity_m2_yr": ("soil_production", "creep_diffusivity_m2_yr = 0.0005"),
+    "production_depth_m": ("soil_production", "production_depth_m = 0.6"),
+    "max_depth_m": ("soil_production", "max_depth_m = 1.8"),
+    "min_depth_m": ("soil_production", "min_depth_m = 0.9"),
+    "path": ("raster", 'path = "depth2.tif"'),
+    "resampling": ("raster", 'resampling = "nearest"'),
+}
+COVER_BASE = 'path = "cover.tif"\ntable = "cover.csv"\nyear = 2025\nroot_profile = "step"\n'
+COVER_POLYGONS = (
+    'path = "cover.gpkg"\nclass_field = "kind"\nlayer = "first"\ntable = "cover2.csv"\n'
+)
+COVER_CHANGES = {  # key: (base, changed line)
+    "path": (COVER_BASE, 'path = "cover2.tif"'),
+    "table": (COVER_BASE, 'table = "cover3.csv"'),
+    "year": (COVER_BASE, "year = 2033"),
+    "root_profile": (COVER_BASE, 'root_profile = "exponential"'),
+    "class_field": (COVER_POLYGONS, 'class_field = "swapped"'),
+    "layer": (COVER_POLYGONS, 'layer = "second"'),
+}
+
+
+def _replaced(base, line):
+    key = line.split("=")[0].strip()
+    lines = [x for x in base.splitlines() if not x.startswith(f"{key} =")]
+    return "\n".join([*lines, line]) + "\n"
+
+
+@pytest.fixture(scope="module")
+def field_region(region):
+    """Rasters and land cover for the per-cell keys, beside the region's files."""
+    from region_files import write_raster
+
+    grid = rasterio.transform.from_origin(500000.0, 5000400.0, 10.0, 10.0)
+    coarse = rasterio.transform.from_origin(499990.0, 5000410.0, 25.0, 25.0)
+    ramp = np.linspace(0.8, 2.2, 22)[None, :].repeat(18, axis=0)
+    write_raster(region / "depth.tif", ramp, transform=coarse)
+    write_raster(region / "depth2.tif", ramp[:, ::-1], transform=coarse)
+    classes = np.ones((40, 50))
+    classes[:, 30:] = 2.0
+    write_raster(region / "cover.tif", classes, transform=grid)
+    write_raster(region / "cover2.tif", 3.0 - classes, transform=grid)
+    head = "class,root_cohesion_kpa,rooting_depth_m,harvest_year\n"
+    (region / "cover.csv").write_text(head + "1,6.0,3.0,2020\n2,1.0,3.0,\n")
+    (region / "cover3.csv").write_text(head + "1,3.0,3.0,2020\n2,1.0,3.0,\n")
+    (region / "cover2.csv").write_text(
+        "class,root_cohesion_kpa,rooting_depth_m\nwood,6.0,3.0\nmeadow,1.0,3.0\n"
+    )
+    west = box(500000.0, 5000000.0, 500300.0, 5000400.0)
+    east = box(500300.0, 5000000.0, 500500.0, 5000400.0)
+    frame = gpd.GeoDataFrame(
+        {"kind": ["wood", "meadow"], "swapped": ["meadow", "wood"]},
+        geometry=[west, east], crs="EPSG:32633",
+    )  # fmt: skip
+    frame.to_file(region / "cover.gpkg", layer="first", driver="GPKG")
+    frame.assign(kind=["meadow", "meadow"]).to_file(region / "cover.gpkg", layer="second")
+    return region
+
+
+def test_the_per_cell_key_lists_are_complete():
+    from slopescreen.maps.region.scenario_schema import allowed
+
+    assert set(DEPTH_CHANGES) == allowed("soil_depth")
+    assert set(COVER_CHANGES) == allowed("land_cover")
+
+
+@pytest.mark.parametrize("key", sorted(DEPTH_CHANGES))
+def test_every_soil_depth_key_changes_the_outputs(key, field_region, tmp_path):
+    model, line = DEPTH_CHANGES[key]
+    base = DEPTH_BASE[model]
+    changed = DEPTH_BASE["elevation_linear"] if line is None else _replaced(base, line)
+    a = _run(field_region, tmp_path, "depth_a", _text("uniform") + f"[soil_depth]\n{base}")
+    b = _run(field_region, tmp_path, "depth_b", _text("uniform") + f"[soil_depth]\n{changed}")
+    assert a != b
+
+
+@pytest.mark.parametrize("key", sorted(COVER_CHANGES))
+def test_every_land_cover_key_changes_the_outputs(key, field_region, tmp_path):
+    base, line = COVER_CHANGES[key]
+    a = _run(field_region, tmp_path, "cover_a", _text("uniform") + f"[land_cover]\n{base}")
+    changed = _replaced(base, line)
+    b = _run(field_region, tmp_path, "cover_b", _text("uniform") + f"[land_cover]\n{changed}")
+    assert a != b

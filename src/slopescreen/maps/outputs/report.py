@@ -140,7 +140,14 @@ def _comparison(
     return parts
 
 
-def _scenario_section(s: ScenarioSummary, class_names: list[str], unit_keys: list[str]) -> str:
+def _scenario_section(
+    s: ScenarioSummary,
+    class_names: list[str],
+    unit_keys: list[str],
+    depths: dict[str, str] | None = None,
+) -> str:
+    """One scenario's maps and tables. ``depths``: the soil-depth maps shown so far (pixel
+    digest -> scenario); a depth map equal to an earlier one is named, not shown again."""
     mapped = sum(s.class_areas_ha)
     parts = [
         f"<h2 id='sc-{esc(s.name)}'>Scenario {esc(s.name)}</h2>",
@@ -148,7 +155,14 @@ def _scenario_section(s: ScenarioSummary, class_names: list[str], unit_keys: lis
         f"<p><strong>Loads:</strong> {esc(s.loads)}</p>",
     ]
     for what, png in s.maps.items():
-        parts.append(f"<h3>{esc(what[:1].upper() + what[1:])}</h3>" + embedded_image(png, what))
+        title = f"<h3>{esc(what[:1].upper() + what[1:])}</h3>"
+        if what == "soil depth" and depths is not None:
+            digest = _pixels_sha256(png.with_suffix(".tif"))
+            if digest in depths:
+                parts.append(f"{title}<p>As in scenario {esc(depths[digest])}.</p>")
+                continue
+            depths[digest] = s.name
+        parts.append(title + embedded_image(png, what))
     rows = []
     for key, areas in zip(unit_keys, s.unit_class_areas_ha, strict=True):
         total = sum(areas)
@@ -216,11 +230,40 @@ def _scenario_section(s: ScenarioSummary, class_names: list[str], unit_keys: lis
     return "\n".join(parts)
 
 
+def _pixels_sha256(path: Path) -> str:
+    """sha256 of a raster's pixel values (not its tags, which name the scenario)."""
+    import hashlib
+
+    import rasterio
+
+    with rasterio.open(path) as src:
+        return hashlib.sha256(src.read(1).tobytes()).hexdigest()
+
+
+def _cell_sources(cfg: Config, soils: SoilUnits) -> dict[tuple[str, int], str]:
+    """(field, unit code) -> what sets it cell by cell: a raster, a depth model, land cover."""
+    out: dict[tuple[str, int], str] = {}
+    for name, by_code in soils.rasters.items():
+        for code, path in by_code.items():
+            out[(name, code)] = f"raster {_relative(path, cfg)}"
+    for model in cfg.region.soil_depth:
+        for unit in model.units or soils.keys:
+            out[("depth_m", soils.keys.index(unit) + 1)] = model.model.replace("_", " ")
+    if cfg.region.land_cover is not None:
+        for code in range(1, len(soils.keys) + 1):
+            out[("root_cohesion_kpa", code)] = "land cover"
+    return out
+
+
 def _soil_table(cfg: Config, soils: SoilUnits) -> str:
+    cells = _cell_sources(cfg, soils)
     fields = [
         f
         for f in SOIL_FIELDS
-        if any(math.isfinite(float(soils.parameters[f][c])) for c in range(1, len(soils.keys) + 1))
+        if any(
+            math.isfinite(float(soils.parameters[f][c])) or (f, c) in cells
+            for c in range(1, len(soils.keys) + 1)
+        )
     ]
     rows = []
     for code, key in enumerate(soils.keys, start=1):
@@ -239,12 +282,80 @@ def _soil_table(cfg: Config, soils: SoilUnits) -> str:
         rows.append(
             [
                 esc(key),
-                *(num(soils.parameters[f][code]) for f in fields),
+                *(
+                    f"<em>{esc(cells[(f, code)])}</em>"
+                    if (f, code) in cells
+                    else num(soils.parameters[f][code])
+                    for f in fields
+                ),
                 esc("; ".join(text)) or EMPTY,
             ]
         )
     head = ["unit", *fields, "spread (drives the probability of failure)"]
     return boxed_table(head, rows, wrap_last=True)
+
+
+def _cell_field_notes(cfg: Config, scenarios: list[ScenarioSummary]) -> list[str]:
+    """The depth models and the land-cover classes (roots in each scenario's year)."""
+    from slopescreen.root_cohesion import root_cohesion_after_harvest_kpa
+
+    parts = []
+    region = cfg.region
+    if region.soil_depth:
+        items = "".join(
+            f"<li>{esc(', '.join(m.units) or 'every unit')}: {esc(m.text)}</li>"
+            for m in region.soil_depth
+        )
+        parts.append(
+            "<h3>Soil depth cell by cell</h3><ul>" + items + "</ul><p>Slope-linear: a common "
+            "screening form; elevation-linear: Saulnier, Beven &amp; Obled (1997); soil "
+            "production: Heimsath et al. (1997), Dietrich et al. (1995), on the ground "
+            "Laplacian of the DEM. Each scenario writes its <code>soil_depth_m.tif</code>."
+            "</p>"
+        )
+    cover = region.land_cover
+    if cover is not None:
+        ran = {s.name for s in scenarios}
+        years = sorted({sc.year for sc in cfg.scenarios if sc.year is not None and sc.name in ran})
+        rows = []
+        for name, c in cover.classes.items():
+            after = []
+            for year in years:
+                value = c.root_cohesion_kpa
+                if math.isfinite(c.harvest_year):
+                    regrown = (
+                        c.root_cohesion_kpa
+                        if math.isnan(c.regrown_root_cohesion_kpa)
+                        else c.regrown_root_cohesion_kpa
+                    )
+                    value = float(
+                        root_cohesion_after_harvest_kpa(
+                            year - c.harvest_year, c.root_cohesion_kpa, regrown, *c.constants
+                        )
+                    )
+                after.append(num(value, ".2f"))
+            rows.append(
+                [
+                    esc(name),
+                    esc(c.description) or EMPTY,
+                    num(c.root_cohesion_kpa, ".2f"),
+                    num(c.rooting_depth_m, ".2f"),
+                    num(c.harvest_year, ".0f") if math.isfinite(c.harvest_year) else EMPTY,
+                    *after,
+                ]
+            )
+        head = ["class", "description", "root cohesion (kPa)", "rooting depth (m)", "harvested"]
+        head += [f"in {y} (kPa)" for y in years]
+        parts.append(
+            f"<h3>Root cohesion from land cover</h3><p><code>{esc(_relative(cover.path, cfg))}"
+            f"</code>, classes in <code>{esc(_relative(cover.table, cfg))}</code>; after a "
+            "harvest the old roots decay and new ones grow (Sidle 1991), so root cohesion "
+            "is least some years after the cut; slip planes deeper than the rooting depth "
+            + ("get none" if cover.root_profile == "step" else "get exp(-depth / rooting depth)")
+            + ". Cells in no class keep their unit's root cohesion; a scenario's own "
+            "number for a unit beats its land cover.</p>" + boxed_table(head, rows, left=2)
+        )
+    return parts
 
 
 def _lab_fits(cfg: Config, soils: SoilUnits, extras: Extras, work: Path) -> list[str]:
@@ -437,7 +548,8 @@ def write_report(
             "parameters (not an annual frequency). Areas of the units that have spreads.</p>"
             + boxed_table(["chance that FS < 1", *(s.name for s in with_pf)], rows)
         )
-    parts += [_scenario_section(s, class_names, soils.keys) for s in scenarios]
+    depths: dict[str, str] = {}
+    parts += [_scenario_section(s, class_names, soils.keys, depths) for s in scenarios]
     parts.append(SECTION_START + validation + SECTION_END)
 
     t = grid.transform
@@ -470,6 +582,7 @@ def write_report(
     ]
     parts.append(boxed_table(["input", "value"], [[esc(a), b] for a, b in rows], 2, wrap_last=True))
     parts.append("<h3>Soil parameters</h3>" + _soil_table(cfg, soils))
+    parts += _cell_field_notes(cfg, scenarios)
     with tempfile.TemporaryDirectory() as work:
         parts += _lab_fits(cfg, soils, extras, Path(work))
         if extras.hillside is not None:

@@ -329,9 +329,16 @@ class Scenario:
             f"{unit}: " + ", ".join(f"{k} = {v:g}" for k, v in fields.items())
             for unit, fields in self.soil_overrides.items()
         )
+        cells = "".join(
+            (
+                f"; year {self.year}" if self.year is not None else "",
+                "; depth: the units' depth_m" if not self.use_soil_depth else "",
+                "; roots: the units' root_cohesion_kpa" if not self.use_land_cover else "",
+            )
+        )
         return (
             f"{self.wetness}; seismic k_h = {self.seismic_coefficient:g}; "
-            f"soil overrides: {over or 'none'}"
+            f"soil overrides: {over or 'none'}{cells}"
         )
 
 
