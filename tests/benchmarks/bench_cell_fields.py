@@ -15,9 +15,6 @@ own "scenario" step: tiles, rasters, maps, zones) and the ratio the issue asks a
 from __future__ import annotations
 
 import argparse
-import json
-import subprocess
-import sys
 import tempfile
 import time
 from pathlib import Path
@@ -109,15 +106,10 @@ def write_inputs(folder: Path, n: int, cell: float = 5.0) -> None:
 
 
 def _run(folder: Path, name: str, suffix: str = "") -> float:
-    """The scenario step's time (s) of a run of one scenario into the shared output."""
-    out = folder / "out"
-    subprocess.run(
-        [sys.executable, "-m", "slopescreen.cli.main", "run",
-         str(folder / f"scenarios{suffix}.toml"), "--out", str(out), "--only", name, "--quiet"],
-        check=True,
-        stdout=subprocess.DEVNULL,
-    )  # fmt: skip
-    return json.loads((out / "manifest.json").read_text())["timings_s"][f"scenario {name}"]
+    """The scenario step's time (s) of one scenario of scenarios{suffix}.toml."""
+    from bench_storm_map import scenario_seconds  # beside this script
+
+    return scenario_seconds(folder, name, f"scenarios{suffix}.toml")
 
 
 def main() -> None:

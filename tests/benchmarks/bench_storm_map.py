@@ -80,16 +80,20 @@ def write_inputs(folder: Path) -> None:
     (folder / "scenarios.toml").write_text(SCENARIOS)
 
 
-def _run(folder: Path, name: str) -> float:
-    """The scenario step's time (s) of a run of one scenario into the shared output."""
+def scenario_seconds(folder: Path, name: str, toml: str = "scenarios.toml") -> float:
+    """The scenario step's time (s) of a run of one scenario of ``toml`` into the shared
+    output (also used by bench_cell_fields.py)."""
     out = folder / "out"
     subprocess.run(
-        [sys.executable, "-m", "slopescreen.cli.main", "run", str(folder / "scenarios.toml"),
+        [sys.executable, "-m", "slopescreen.cli.main", "run", str(folder / toml),
          "--out", str(out), "--only", name, "--quiet"],
         check=True,
         stdout=subprocess.DEVNULL,
     )  # fmt: skip
     return json.loads((out / "manifest.json").read_text())["timings_s"][f"scenario {name}"]
+
+
+_run = scenario_seconds
 
 
 def main() -> None:

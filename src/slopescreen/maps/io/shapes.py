@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 
+from slopescreen.errors import InputError
 from slopescreen.maps.io.grid import Grid
 
 
@@ -32,3 +34,24 @@ def rasterize_tile(frame: Any, column: str, grid: Grid, rows: slice, cols: slice
         fill=0,
         dtype="int32",
     )
+
+
+def read_layer(path: Path, layer: str | None, field: str, key: str, what: str) -> Any:
+    """A layer of polygons with the field ``field`` (named in the scenario file as
+    ``key``) and a CRS, features without geometry dropped; InputError in one line for a
+    file that cannot be read, a missing field or no CRS (``what``: "soil polygons")."""
+    import geopandas as gpd
+
+    kwargs = {"layer": layer} if layer else {}
+    try:
+        frame = gpd.read_file(path, **kwargs)
+    except Exception as exc:  # any reader failure is a problem with the user file
+        first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        raise InputError(f"{path}: cannot read {what} ({first})") from None
+    if field not in frame.columns:
+        raise InputError(
+            f"{path}: no field {field!r} ({key}); fields: {', '.join(map(str, frame.columns))}"
+        )
+    if frame.crs is None:
+        raise InputError(f"{path}: {what} have no coordinate reference system")
+    return frame[frame.geometry.notna() & ~frame.geometry.is_empty]

@@ -45,19 +45,10 @@ from slopescreen.soil_depth import (
     soil_production_depth_m,
 )
 
-# every soil field a tile's cells carry (the core's, and C0 for D0 = K / C0)
-CELL_FIELDS = (
-    "cohesion_kpa",
-    "friction_deg",
-    "unit_weight_kn_m3",
-    "depth_m",
-    "saturated_unit_weight_kn_m3",
-    "root_cohesion_kpa",
-    "hydraulic_conductivity_m_s",
-    "transmissivity_m2_day",
-    "diffusivity_m2_s",
-    "moisture_capacity_per_m",
-)
+# soil parameters the core takes, and every field a tile's cells carry (with C0 for
+# D0 = K / C0): the soil fields but C0 in the core's order
+CORE_FIELDS = tuple(name for name in SOIL_FIELDS if name != "moisture_capacity_per_m")
+CELL_FIELDS = (*CORE_FIELDS, "moisture_capacity_per_m")
 SD = "_sd"  # a field's per-cell standard deviation: "depth_m_sd"
 
 
@@ -178,6 +169,42 @@ def cell_soil(
     )
 
 
+class SoilBlock(dict):  # type: ignore[type-arg]
+    """A tile's arrays by name (cells on the last axis). Where no soil field varies by
+    cell (``tables`` given), a soil field is looked up from the unit tables by the cells'
+    ``codes`` when first asked for, so a run that needs few fields gathers few: the
+    kernels take the unit tables and codes themselves (:attr:`by_unit`)."""
+
+    def __init__(
+        self,
+        items: Any = (),
+        codes: np.ndarray | None = None,
+        tables: dict[str, np.ndarray] | None = None,
+    ) -> None:
+        super().__init__(items)
+        self.codes = codes
+        self.tables = tables
+
+    @property
+    def by_unit(self) -> bool:
+        return self.tables is not None
+
+    def __missing__(self, key: str) -> np.ndarray:
+        if self.tables is None or self.codes is None or key not in CELL_FIELDS:
+            raise KeyError(key)
+        values = self.tables.get(key)
+        if values is None:
+            values = np.full(int(self.codes.max(initial=0)) + 1, np.nan)
+        # np.take with native indices: several times faster than a fancy index
+        self[key] = np.take(np.asarray(values, np.float64), self.codes.astype(np.intp))
+        return self[key]
+
+    def subset(self, mask: np.ndarray) -> SoilBlock:
+        """The block at the cells ``mask`` (a mask or index along the cells)."""
+        codes = None if self.codes is None else self.codes[mask]
+        return SoilBlock({k: v[..., mask] for k, v in self.items()}, codes, self.tables)
+
+
 def soil_cells(
     cs: CellSoil,
     tables: dict[str, np.ndarray],
@@ -186,14 +213,15 @@ def soil_cells(
     cols: slice,
     codes: np.ndarray,
     valid: np.ndarray,
-) -> dict[str, np.ndarray]:
+) -> SoilBlock:
     """Every soil field on the tile's ``valid`` cells (``codes``: the tile's unit codes),
-    float64, and ``field_sd`` where a spread varies by cell (NaN where none)."""
+    float64, and ``field_sd`` where a spread varies by cell (NaN where none); looked up by
+    unit when asked for where no field varies (:class:`SoilBlock`)."""
     c = codes[valid]
-    blank = np.full(int(codes.max(initial=0)) + 1, np.nan)
-    out = {name: np.asarray(tables.get(name, blank), np.float64)[c] for name in CELL_FIELDS}
     if not cs.varies:
-        return out
+        return SoilBlock(codes=c, tables=tables)
+    lookup = SoilBlock(codes=c, tables=tables)
+    out = {name: lookup[name].copy() for name in CELL_FIELDS}
     read: dict[Path, np.ndarray] = {}
 
     def raster(path: Path, what: str, resampling: str = "bilinear") -> np.ndarray:
@@ -222,7 +250,7 @@ def soil_cells(
     _spreads_by_cell(cs, out, c)
     if cs.cover is not None and cs.cover_units:
         _cover_roots(cs, out, c, terrain)
-    return out
+    return SoilBlock(out, codes=c)
 
 
 def _fill_blanks(out: dict[str, np.ndarray]) -> None:
@@ -374,27 +402,18 @@ def _cover_polygons(cover: LandCover, grid: Grid) -> Any:
     process and file)."""
     key = (str(cover.path), str(cover.layer), grid.crs.to_wkt())  # type: ignore[attr-defined]
     if key not in _POLYGONS:
-        import geopandas as gpd
+        from slopescreen.maps.io.shapes import read_layer
 
-        kwargs = {"layer": cover.layer} if cover.layer else {}
-        try:
-            frame = gpd.read_file(cover.path, **kwargs)
-        except Exception as exc:  # any reader failure is a problem with the user file
-            first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-            raise InputError(f"{cover.path}: cannot read land-cover polygons ({first})") from None
-        if cover.class_field not in frame.columns:
-            raise InputError(
-                f"{cover.path}: no field {cover.class_field!r} (class_field); fields: "
-                f"{', '.join(map(str, frame.columns))}"
-            )
-        if frame.crs is None:
-            raise InputError(f"{cover.path}: land-cover polygons have no coordinate system")
+        assert cover.class_field is not None
+        frame = read_layer(
+            cover.path, cover.layer, cover.class_field, "class_field", "land-cover polygons"
+        )
         names = list(cover.classes)
         labels = frame[cover.class_field].astype(str).str.strip()
         frame = frame.assign(
             class_code=[names.index(x) + 1 if x in names else -1 for x in labels]
         ).to_crs(grid.crs)
-        _POLYGONS[key] = frame[frame.geometry.notna() & ~frame.geometry.is_empty]
+        _POLYGONS[key] = frame
     return _POLYGONS[key]
 
 

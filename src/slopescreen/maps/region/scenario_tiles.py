@@ -17,6 +17,7 @@ import numpy as np
 from slopescreen.errors import InputError
 from slopescreen.maps.io.rasters import read_block, read_on_grid
 from slopescreen.maps.outputs.summary import add_areas
+from slopescreen.maps.region.cell_fields import SoilBlock
 from slopescreen.maps.region.config import Scenario
 from slopescreen.maps.region.soils import SoilUnits
 from slopescreen.maps.region.terrain_cache import NODATA_F32
@@ -277,22 +278,26 @@ def _initial_water_table(job: TileJob, block: dict[str, np.ndarray]) -> np.ndarr
     storm = job.scenario.storm
     assert storm is not None and storm.initial_recharge_mm_day is not None
     m = np.empty(block["codes"].size)
+    codes, t = _lookup(block)
     steady_saturation_by_unit(
         np.array([storm.initial_recharge_mm_day], float),
         block["tan"],
         block["sca"],
-        _each(block),
-        block["depth_m"],
-        block["hydraulic_conductivity_m_s"],
-        block["transmissivity_m2_day"],
+        codes,
+        t["depth_m"],
+        t["hydraulic_conductivity_m_s"],
+        t["transmissivity_m2_day"],
         m,
     )
     return block["depth_m"] * (1.0 - m)
 
 
-def _each(block: dict[str, np.ndarray]) -> np.ndarray:
-    """Every cell its own entry of the per-cell soil fields (the kernels' look-up codes)."""
-    return np.arange(block["codes"].size, dtype=np.int64)
+def _lookup(block: dict[str, np.ndarray]) -> tuple[np.ndarray, Any]:
+    """(look-up codes, tables) for the kernels: the unit codes and tables where no soil
+    field varies by cell, else every cell its own entry of the per-cell fields."""
+    if isinstance(block, SoilBlock) and block.tables is not None:
+        return block["codes"], block.tables
+    return np.arange(block["codes"].size, dtype=np.int64), block
 
 
 def _steady_saturation(
@@ -304,14 +309,15 @@ def _steady_saturation(
     sc = job.scenario
     m = np.empty(block["codes"].size)
     if sc.steady_recharge:
+        codes, t = _lookup(block)
         steady_saturation_by_unit(
             block["rain"] if "rain" in block else np.array([sc.recharge_mm_day], float),
             block["tan"],
             block["sca"],
-            _each(block),
-            block["depth_m"],
-            block["hydraulic_conductivity_m_s"],
-            block["transmissivity_m2_day"],
+            codes,
+            t["depth_m"],
+            t["hydraulic_conductivity_m_s"],
+            t["transmissivity_m2_day"],
             m,
         )
     elif sc.rainfall is not None:  # before the rain: the water table d below the ground
@@ -335,15 +341,16 @@ def _steady_fs(job: TileJob, block: dict[str, np.ndarray], m: np.ndarray) -> np.
     from slopescreen.maps.region.kernels import fs_by_unit
 
     fs = np.empty(block["codes"].size)
+    codes, t = _lookup(block)
     fs_by_unit(
         block["tan"],
-        _each(block),
+        codes,
         m,
-        block["depth_m"],
-        block["cohesion_kpa"] + block["root_cohesion_kpa"],
-        np.tan(np.radians(block["friction_deg"])),
-        block["unit_weight_kn_m3"],
-        block["saturated_unit_weight_kn_m3"],
+        t["depth_m"],
+        t["cohesion_kpa"] + t["root_cohesion_kpa"],
+        np.tan(np.radians(t["friction_deg"])),
+        t["unit_weight_kn_m3"],
+        t["saturated_unit_weight_kn_m3"],
         float(job.scenario.seismic_coefficient),
         9.81,
         fs,
@@ -355,7 +362,7 @@ def tile_values(
     job: TileJob,
     tile: TileInputs,
     valid: np.ndarray,
-    soil: dict[str, np.ndarray] | None = None,
+    soil: SoilBlock | None = None,
 ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
     """(block, values): the inputs at the valid cells, and every per-cell output there
     (storm rasters, classes, FS capped, saturation, probability and reliability index,
@@ -363,8 +370,9 @@ def tile_values(
     :func:`soil_on`)."""
     sc = job.scenario
     c = tile.codes[valid]
-    block = {"tan": tile.tan[valid], "sca": tile.sca[valid], "codes": c}
-    block |= soil if soil is not None else soil_on(job, tile, valid)
+    soil = soil if soil is not None else soil_on(job, tile, valid)
+    block = SoilBlock(soil, codes=c, tables=soil.tables if isinstance(soil, SoilBlock) else None)
+    block |= {"tan": tile.tan[valid], "sca": tile.sca[valid], "codes": c}
     if tile.rain is not None:
         block["rain"] = tile.rain[valid]
     if tile.rain_steps is not None:
@@ -394,7 +402,7 @@ def tile_values(
     return block, values
 
 
-def soil_on(job: TileJob, tile: TileInputs, cells: np.ndarray) -> dict[str, np.ndarray]:
+def soil_on(job: TileJob, tile: TileInputs, cells: np.ndarray) -> SoilBlock:
     """Each soil field on the tile's ``cells`` (mask), cell by cell
     (:func:`slopescreen.maps.region.cell_fields.soil_cells`)."""
     from slopescreen.maps.region.cell_fields import soil_cells
@@ -501,7 +509,8 @@ def compute_tile(job: TileJob, rows: slice, cols: slice) -> dict[str, Any]:
     terrain_ok, valid, missing = mapped_cells(tile)
     soil = soil_on(job, tile, terrain_ok)  # every cell with terrain and a unit
     inner = valid[terrain_ok]
-    block, values = tile_values(job, tile, valid, {k: v[inner] for k, v in soil.items()})
+    on_valid = soil if inner.all() else soil.subset(inner)
+    block, values = tile_values(job, tile, valid, on_valid)
     if job.scenario.rainfall is not None and job.rainfall is not None:
         from slopescreen.maps.region.rain_tiles import rainfall_tile
 
@@ -524,7 +533,7 @@ def _recharge_tile(
     cols: slice,
     cells: np.ndarray,
     tile: TileInputs,
-    soil: dict[str, np.ndarray],
+    soil: SoilBlock,
 ) -> np.ndarray:
     """Critical recharge (mm/day) on the tile's cells with terrain and a soil unit, with
     their soil fields ``soil`` (the slope read once: the tile's own where storms or spreads

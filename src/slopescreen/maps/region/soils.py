@@ -345,22 +345,15 @@ def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
 
 
 def read_polygons(region: Region) -> Any:
-    import geopandas as gpd
+    from slopescreen.maps.io.shapes import read_layer
 
-    kwargs = {"layer": region.soil_layer} if region.soil_layer else {}
-    try:
-        frame = gpd.read_file(region.soil_units, **kwargs)
-    except Exception as exc:  # any reader failure is a problem with the user file
-        first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-        raise InputError(f"{region.soil_units}: cannot read soil polygons ({first})") from None
-    if region.soil_unit_field not in frame.columns:
-        raise InputError(
-            f"{region.soil_units}: no field {region.soil_unit_field!r} "
-            f"(soil_unit_field); fields: {', '.join(map(str, frame.columns))}"
-        )
-    if frame.crs is None:
-        raise InputError(f"{region.soil_units}: soil polygons have no coordinate reference system")
-    frame = frame[frame.geometry.notna() & ~frame.geometry.is_empty]
+    frame = read_layer(
+        region.soil_units,
+        region.soil_layer,
+        region.soil_unit_field,
+        "soil_unit_field",
+        "soil polygons",
+    )
     if frame.empty:
         raise InputError(f"{region.soil_units}: no polygons")
     kinds = set(frame.geometry.geom_type)

@@ -13,24 +13,11 @@ from typing import Any
 import numpy as np
 
 from slopescreen.maps.io.grid import Grid
-from slopescreen.maps.region.cell_fields import SD, CellSoil
+from slopescreen.maps.region.cell_fields import CORE_FIELDS, SD, CellSoil, SoilBlock
 from slopescreen.maps.region.config import RainfallFrequency, ReliabilitySpec, Scenario
 from slopescreen.maps.region.scenario_schema import UNCERTAIN_FIELDS
 from slopescreen.reliability import Spread
 from slopescreen.scenario import Storm
-
-# soil parameters the core takes
-CORE_FIELDS = (
-    "cohesion_kpa",
-    "friction_deg",
-    "unit_weight_kn_m3",
-    "depth_m",
-    "saturated_unit_weight_kn_m3",
-    "root_cohesion_kpa",
-    "hydraulic_conductivity_m_s",
-    "transmissivity_m2_day",
-    "diffusivity_m2_s",
-)
 
 
 @dataclass(frozen=True)
@@ -104,7 +91,11 @@ def units_with_spreads(
         }
         if not spreads and not cell_sd:
             continue
-        sub = {k: v[..., sel] for k, v in block.items()}  # cells: the last axis
+        sub = (  # cells: the last axis; soil fields looked up by unit stay so
+            block.subset(sel)
+            if isinstance(block, SoilBlock)
+            else {k: v[..., sel] for k, v in block.items()}
+        )
         values: dict[str, Any] = {name: sub[name] for name in CORE_FIELDS}
         kinds = job.soil.cell_spreads.get(code, {})
         for name in set(spreads) | set(cell_sd):
