@@ -337,7 +337,8 @@ def _steady_saturation(
 
 
 def _steady_fs(job: TileJob, block: dict[str, np.ndarray], m: np.ndarray) -> np.ndarray:
-    """FS of the cells by the compiled kernel, with each cell's soil fields."""
+    """FS of the cells by the compiled kernel: soil fields looked up by unit, or each
+    cell's own where some field varies by cell."""
     from slopescreen.maps.region.kernels import fs_by_unit
 
     fs = np.empty(block["codes"].size)
