@@ -652,7 +652,7 @@ def soil_at(
         index = np.full(codes.shape, -1)
         index[mask] = np.arange(int(mask.sum()))
         at = index[rows[inside] - r.start, cols[inside] - c.start]
-        for name, v in values.items():
+        for name in (*CELL_FIELDS, *(k for k in values if k not in CELL_FIELDS)):
             target = out.setdefault(name, np.full(rows.shape, np.nan))
-            target[np.flatnonzero(inside)[at >= 0]] = v[at[at >= 0]]
+            target[np.flatnonzero(inside)[at >= 0]] = values[name][at[at >= 0]]
     return out
