@@ -420,3 +420,32 @@ def test_sensitivity_takes_the_units_mean_of_a_field_that_varies(tmp_path):
     base = factor_of_safety(float(rows[0]["median_slope_deg"]), mean_depth, 2.0, 30.0, 18.0, 0.3)
     assert float(rows[0]["fs_base"]) == pytest.approx(float(base), rel=1e-4)
     assert {r["parameter"] for r in rows} >= {"cohesion_kpa", "depth_m"}
+
+
+def test_a_scenario_can_give_a_unit_a_raster(tmp_path):
+    import json
+
+    _region(tmp_path, depth_a="1.5")
+    toml = _write(
+        tmp_path,
+        '[[scenario]]\nname = "table"\nsaturation = 0.0\n'
+        '[[scenario]]\nname = "mapped"\nsaturation = 0.0\n'
+        '[scenario.soil.A]\ndepth_m = "depth.tif"\n',
+    )
+    out = tmp_path / "out"
+    run(toml, out, progress=False, echo=lambda s: None)
+    r, c = CELL
+    assert _read(out / "table" / "soil_depth_m.tif")[r, c] == pytest.approx(1.5)
+    assert _read(out / "mapped" / "soil_depth_m.tif")[r, c] == pytest.approx(DEEP, rel=1e-7)
+    beta = float(_read(out / "terrain" / "slope_deg.tif")[r, c])
+    assert _read(out / "mapped" / "fs.tif")[r, c] == pytest.approx(
+        factor_of_safety(beta, DEEP, 2.0, 30.0, 18.0, 0.0), rel=2e-6
+    )
+    manifest = json.loads((out / "manifest.json").read_text())
+    mapped = next(s for s in manifest["scenarios"] if s["name"] == "mapped")
+    assert mapped["soil_overrides"]["A"]["depth_m"].endswith("depth.tif")
+    assert "soil_field:mapped:A:depth_m" in manifest["inputs_sha256"]
+    bad = np.full((40, 50), 0.01)  # below depth_m's 0.05 m on every cell of A
+    write_raster(tmp_path / "depth.tif", bad, transform=GRID)
+    with pytest.raises(InputError, match=r"depth.tif: depth_m raster is outside \[0.05, 50\]"):
+        prepare(load_config(toml))

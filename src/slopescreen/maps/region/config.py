@@ -260,7 +260,8 @@ class Scenario:
     saturation_raster: Path | None
     recharge_mm_day: float | None
     seismic_coefficient: float
-    soil_overrides: dict[str, dict[str, float]] = field(default_factory=dict)
+    # unit -> field -> a number, or a raster giving the field cell by cell
+    soil_overrides: dict[str, dict[str, float | Path]] = field(default_factory=dict)
     storm: StormSpec | None = None
     rainfall: RainfallSpec | None = None
     # a raster in place of the rain number: recharge_mm_day (steady) or the storm's
@@ -326,7 +327,7 @@ class Scenario:
     def loads(self) -> str:
         """Every load that changes the result: wetness, seismic k_h, soil overrides."""
         over = "; ".join(
-            f"{unit}: " + ", ".join(f"{k} = {v:g}" for k, v in fields.items())
+            f"{unit}: " + ", ".join(f"{k} = {shown(v)}" for k, v in fields.items())
             for unit, fields in self.soil_overrides.items()
         )
         cells = "".join(
@@ -414,6 +415,11 @@ class Config:
                 "the design-rainfall table', not by the breaks"
             )
         return out
+
+
+def shown(value: float | Path) -> str:
+    """A soil override as the file gives it: a number, or a raster's name."""
+    return value.name if isinstance(value, Path) else f"{value:g}"
 
 
 # old names still read for one release: (table, key or "") -> new name
@@ -1103,7 +1109,7 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
             given[1] if len(given) > 1 else "name",
             f"scenario {name!r} must set exactly one of {', '.join(WETNESS_KEYS)}",
         )
-    overrides: dict[str, dict[str, float]] = {}
+    overrides: dict[str, dict[str, float | Path]] = {}
     soil = sc.get("soil", {})
     if not isinstance(soil, dict):
         raise r.fail(table, "soil", "must be a table of soil units")
@@ -1115,7 +1121,12 @@ def _scenario(r: _Reader, table: str, sc: dict[str, Any], taken: set[str]) -> Sc
         for key in STORM_ONLY_FIELDS:
             if key in fields and "storm" not in sc and "rainfall" not in sc:
                 raise r.fail(sub, key, "applies to storm and rainfall scenarios only; remove it")
-        overrides[str(unit)] = {k: r.number(sub, fields, k, *SOIL_FIELDS[k][:2]) for k in fields}  # type: ignore[misc]
+        overrides[str(unit)] = {  # a number, or a raster path (relative to this file)
+            k: r.file(sub, fields, k)
+            if isinstance(fields[k], str)
+            else r.number(sub, fields, k, *SOIL_FIELDS[k][:2])
+            for k in fields
+        }  # type: ignore[misc]
     storm = None
     rain_raster = None
     if "storm" in sc:

@@ -23,7 +23,7 @@ import sys
 import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from contextlib import contextmanager, nullcontext
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from html import escape
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -200,6 +200,12 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
         if soils.data_cells == 0:
             raise InputError(f"{cfg.region.dem}: DEM holds no data cells")
         check_cell_inputs(soils, cfg.region, grid, dem_cells)
+        bare = replace(cfg.region, soil_depth=(), land_cover=None)
+        for sc in cfg.scenarios:  # rasters a scenario gives for a unit, checked the same way
+            if any(isinstance(v, Path) for f in sc.soil_overrides.values() for v in f.values()):
+                where = f"{cfg.path}: scenario {sc.name}"
+                check_cell_inputs(soils.with_overrides(sc.soil_overrides, where), bare, grid,
+                                  dem_cells)  # fmt: skip
     dem_files = dem_files_sha256(cfg.region.dem)  # the DEM itself first, as GDAL lists it
     hashes = {
         "scenario_file": file_sha256(cfg.path),
@@ -210,6 +216,11 @@ def prepare(cfg: Config, codes_target: Path | None = None) -> Inputs:
         hashes["soil_table"] = file_sha256(cfg.region.soil_table)
     for path in cell_input_files(soils, cfg.region):
         hashes[f"soil_field:{path.name}"] = file_sha256(path)
+    for sc in cfg.scenarios:
+        for unit, fields in sc.soil_overrides.items():
+            for name, value in fields.items():
+                if isinstance(value, Path):
+                    hashes[f"soil_field:{sc.name}:{unit}:{name}"] = file_sha256(value)
     for sc in cfg.scenarios:
         if sc.saturation_raster is not None:
             hashes[f"saturation_raster:{sc.name}"] = file_sha256(sc.saturation_raster)
@@ -772,7 +783,10 @@ def write_state(
                 "description": s.description,
                 "wetness": s.wetness,
                 "seismic_coefficient": s.seismic_coefficient,
-                "soil_overrides": s.soil_overrides,
+                "soil_overrides": {
+                    unit: {k: str(v) if isinstance(v, Path) else v for k, v in fields.items()}
+                    for unit, fields in s.soil_overrides.items()
+                },
             }
             for s in chosen
         ],

@@ -290,7 +290,12 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
             "0",
             "horizontal pseudo-static coefficient k_h",
         ),
-        ("soil", "table of units", "none", "[scenario.soil.UNIT]: any soil field below"),
+        (
+            "soil",
+            "table of units",
+            "none",
+            "[scenario.soil.UNIT]: any soil field below, a number or a raster path",
+        ),
         (
             "year",
             Span(1800, 2300),
@@ -492,7 +497,8 @@ def markdown() -> str:
         "the number (`depth_m` = `depth.tif`, a path relative to the soil table): it is",
         "resampled bilinearly onto the DEM grid tile by tile, from any CRS, and checked",
         "before the run to cover every mapped cell of the unit and to lie in the field's",
-        "range. A `[scenario.soil.UNIT]` number replaces it for that unit.",
+        "range. A `[scenario.soil.UNIT]` number or raster (relative to the scenario file)",
+        "replaces it for that unit.",
         "",
     ]
     return "\n".join(lines)

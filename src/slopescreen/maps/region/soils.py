@@ -107,8 +107,9 @@ class SoilUnits:
                 f"({unmapped} cells) lie in no soil unit and are left unmapped"
             )
 
-    def with_overrides(self, overrides: dict[str, dict[str, float]], where: str) -> SoilUnits:
-        """A copy with per-unit parameter overrides applied (unknown units are errors)."""
+    def with_overrides(self, overrides: dict[str, dict[str, Any]], where: str) -> SoilUnits:
+        """A copy with per-unit parameter overrides applied (unknown units are errors); an
+        override that is a raster path gives the field cell by cell."""
         params = {k: v.copy() for k, v in self.parameters.items()}
         rasters = {k: dict(v) for k, v in self.rasters.items()}
         for unit, fields in overrides.items():
@@ -119,8 +120,12 @@ class SoilUnits:
                 )
             code = self.keys.index(unit) + 1
             for name, value in fields.items():
-                params[name][code] = value
-                rasters.get(name, {}).pop(code, None)  # the number replaces a raster
+                rasters.get(name, {}).pop(code, None)  # the override replaces a raster
+                if isinstance(value, Path):
+                    params[name][code] = np.nan
+                    rasters.setdefault(name, {})[code] = value
+                else:
+                    params[name][code] = value
                 if name in HYDRAULIC_FIELDS:  # one hydraulic property replaces the other
                     other = next(h for h in HYDRAULIC_FIELDS if h != name)
                     params[other][code] = np.nan
