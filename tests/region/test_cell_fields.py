@@ -449,3 +449,35 @@ def test_a_scenario_can_give_a_unit_a_raster(tmp_path):
     write_raster(tmp_path / "depth.tif", bad, transform=GRID)
     with pytest.raises(InputError, match=r"depth.tif: depth_m raster is outside \[0.05, 50\]"):
         prepare(load_config(toml))
+
+
+def test_a_storm_takes_conductivity_and_capacity_from_rasters(tmp_path):
+    # K from a raster and D0 = K / C0 cell by cell (no D0 in the table): the storm runs, and
+    # its FS at a cell equals the core's with that cell's K and D0
+    from slopescreen.scenario import Storm, storm_response
+
+    _region(tmp_path, depth_a="1.5")
+    k = np.full((40, 50), 2e-5)
+    k[CELL] = 5e-6
+    write_raster(tmp_path / "k.tif", k, transform=GRID)
+    (tmp_path / "soils.csv").write_text(
+        "unit,cohesion_kpa,friction_deg,unit_weight_kn_m3,depth_m,hydraulic_conductivity_m_s,"
+        "moisture_capacity_per_m\nA,2,30,18,1.5,k.tif,0.1\nB,5,30,18,1.5,1e-5,0.1\n"
+    )
+    toml = _write(
+        tmp_path,
+        '[[scenario]]\nname = "storm"\n[scenario.storm]\nrain_mm_h = 15.0\nduration_h = 6.0\n'
+        "later_h = 12.0\ninitial_water_table_depth_m = 1.0\n",
+    )
+    out = tmp_path / "out"
+    run(toml, out, progress=False, echo=lambda s: None)
+    r, c = CELL
+    beta = float(_read(out / "terrain" / "slope_deg.tif")[r, c])
+    storm = Storm(rain_mm_h=15.0, duration_h=6.0, later_h=12.0, water_table_depth_m=1.0)
+    summary, _ = storm_response(
+        np.array([beta]), storm, hydraulic_conductivity_m_s=5e-6, diffusivity_m2_s=5e-5,
+        root_cohesion_kpa=0.0, saturated_unit_weight_kn_m3=18.0, depth_m=1.5, **SOIL,
+    )  # fmt: skip
+    assert _read(out / "storm" / "fs.tif")[r, c] == pytest.approx(
+        float(summary.window_min_fs[0]), rel=2e-6
+    )

@@ -38,9 +38,16 @@ def check_storm_soils(units: SoilUnits, sc: Scenario, where: str) -> None:
     if sc.storm is None and sc.rainfall is None:
         return
     kind = "storm" if sc.storm is not None else "rainfall"
+
+    def given(name: str, code: int) -> bool:  # a number, or a raster cell by cell
+        return not np.isnan(units.parameters[name][code]) or units.raster(name, code) is not None
+
     for code, key in enumerate(units.keys, start=1):
         for name in ("hydraulic_conductivity_m_s", "diffusivity_m2_s"):
-            if np.isnan(units.parameters[name][code]):
+            derived = name == "diffusivity_m2_s" and all(
+                given(n, code) for n in ("hydraulic_conductivity_m_s", "moisture_capacity_per_m")
+            )  # D0 = K / C0 cell by cell
+            if not given(name, code) and not derived:
                 extra = " (or moisture_capacity_per_m)" if name == "diffusivity_m2_s" else ""
                 raise InputError(
                     f"{where}: {kind} scenario {sc.name!r} needs {name}{extra} for soil unit "
