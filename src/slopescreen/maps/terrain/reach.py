@@ -1,0 +1,165 @@
+"""Run-out reach on the DEM grid: flow from source cells spread downslope over the eight
+neighbours in Holmgren (1994) shares until the angle of reach or the energy line is spent
+(the core's physics, :mod:`slopescreen.runout`, compiled into one sweep).
+
+The sweep takes the cells from the highest down, once each. A cell holds the flow that
+reached it, as one state that is at least as far-reaching as every path that brought flow
+(so the reach errs on the far side, never short):
+
+- ``mass``: the share of all source flow passing the cell (the sources' masses summed, each
+  path's share of it by the spreading shares);
+- ``margin``: the horizontal ground distance the flow may still travel on the angle of
+  reach, the largest over the arriving paths: margin' = margin + dz / tan(alpha) - dx,
+  spent where it falls below 0 (at a source: the horizontal distance the top of the source
+  patch allows, (z_top - z) / tan(alpha) - L(top to cell));
+- ``tan_alpha``: the smallest tan(alpha) (the most mobile source) among them;
+- ``energy``: the largest kinetic energy per unit mass, E' = E + g dz - g dx tan(phi_t), at
+  most v_max^2 / 2, spent where it falls to 0 or below (without a travel friction angle the
+  energy line is not applied).
+
+On level ground (no lower neighbour) the flow goes on in its direction of travel: to level
+neighbours within 45 degrees of the direction it came in, so a flow running out of a slope
+onto a flat continues until its margin or energy is spent (level cells are taken as they
+receive flow, so the sweep stays one pass). A cell whose flow would leave the DEM or enter
+no data with margin and energy to spare is marked cut off: the reach there is a lower bound.
+
+Ground lengths of the steps come from the grid's ground geometry (any CRS).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+
+from slopescreen.runout import GRAVITY_M_S2
+
+# the eight neighbours, clockwise from north: row and column offsets
+D_ROW = np.array([-1, -1, 0, 1, 1, 1, 0, -1], np.int64)
+D_COL = np.array([0, 1, 1, 1, 0, -1, -1, -1], np.int64)
+
+
+@numba.njit(cache=True)
+def _step_m(r, c, k, col_step, row_step):
+    """Horizontal ground length from cell (r, c) to its neighbour k."""
+    dx = col_step[r, c] * abs(D_COL[k])
+    dy = row_step[r, c] * abs(D_ROW[k])
+    return math.sqrt(dx * dx + dy * dy)
+
+
+@numba.njit(cache=True)
+def spread_reach(
+    z,
+    col_step,
+    row_step,
+    mass,
+    margin,
+    tan_alpha,
+    exponent,
+    tan_phi,
+    max_energy,
+    min_mass,
+    share,
+    cut_off,
+):
+    """Spread the sources' flow over the grid in place (see the module docstring).
+
+    ``z`` (rows, cols) elevations, NaN for no data; ``col_step`` and ``row_step`` the ground
+    lengths of one column and one row step at each cell (m); ``mass``, ``margin`` and
+    ``tan_alpha`` hold the sources' values (mass 0 elsewhere, margin -inf, tan_alpha +inf)
+    and are filled for the cells reached; ``tan_phi`` < 0: no energy line; ``max_energy``:
+    v_max^2 / 2 (+inf: no cap); ``min_mass``: a move carrying less flow is dropped.
+    Writes ``share`` (the source flow reaching each cell, 0 where none: a cell on level
+    ground that the flow crosses takes the largest share of the cells it came from) and
+    ``cut_off`` (uint8). Returns (flow stopped where the ground levels out or the sweep
+    found no lower cell, flow dropped where the margin or energy was spent or the move was
+    too small): with every source's flow counted once, their sum is the sources' total."""
+    rows, cols = z.shape
+    energy = np.zeros(z.shape)
+    spread = np.zeros(z.shape)  # flow already sent on (or stopped) at each cell
+    flat = z.ravel()
+    valid = np.flatnonzero(~np.isnan(flat))
+    order = valid[np.argsort(-flat[valid], kind="mergesort")]
+    stopped, dropped = 0.0, 0.0
+    dirty = mass > 0.0  # reached, or improved, since the cell was last taken
+    stack = np.empty(1024, np.int64)
+    shares = np.zeros(8)
+    slopes = np.zeros(8)
+    for start in order:
+        stack[0] = start
+        top = 1
+        while top > 0:
+            top -= 1
+            i = stack[top]
+            r, c = i // cols, i % cols
+            if not dirty[r, c] or margin[r, c] < 0.0:
+                continue
+            dirty[r, c] = False
+            fresh = mass[r, c] - spread[r, c]
+            spread[r, c] = mass[r, c]
+            share[r, c] = max(share[r, c], mass[r, c])
+            lower = 0
+            steepest = 0.0
+            for k in range(8):
+                rr, cc = r + D_ROW[k], c + D_COL[k]
+                slopes[k] = -1.0
+                if rr < 0 or rr >= rows or cc < 0 or cc >= cols or math.isnan(z[rr, cc]):
+                    cut_off[r, c] = 1  # flow with room to travel at the edge: a lower bound
+                    continue
+                slopes[k] = (z[r, c] - z[rr, cc]) / _step_m(r, c, k, col_step, row_step)
+                if slopes[k] > 0.0:
+                    lower += 1
+                    steepest = max(steepest, slopes[k])
+            total = 0.0
+            for k in range(8):
+                shares[k] = 0.0
+                if lower > 0 and slopes[k] > 0.0:
+                    shares[k] = (slopes[k] / steepest) ** exponent
+                elif lower == 0 and slopes[k] == 0.0:
+                    shares[k] = 1.0  # level ground: the reach goes on, the flow stays
+                total += shares[k]
+            if lower == 0 and fresh > 0.0:
+                stopped += fresh
+            for k in range(8):
+                if shares[k] <= 0.0:
+                    continue
+                rr, cc = r + D_ROW[k], c + D_COL[k]
+                step = _step_m(r, c, k, col_step, row_step)
+                drop = z[r, c] - z[rr, cc]
+                room = margin[r, c] + drop / tan_alpha[r, c] - step
+                power = energy[r, c] + GRAVITY_M_S2 * drop
+                if tan_phi >= 0.0:
+                    power -= GRAVITY_M_S2 * step * tan_phi
+                power = min(power, max_energy)
+                spent = room < 0.0 or (tan_phi >= 0.0 and power <= 0.0)
+                part = share[r, c] * shares[k] / total if lower > 0 else share[r, c]
+                if lower > 0:  # down the slope: the flow splits
+                    moved = fresh * shares[k] / total
+                    if spent or (moved < min_mass and part < min_mass):
+                        dropped += moved
+                        continue
+                    mass[rr, cc] += moved
+                    if moved > 0.0:
+                        dirty[rr, cc] = True
+                elif spent:
+                    continue
+                if (
+                    room > margin[rr, cc]
+                    or power > energy[rr, cc]
+                    or part > share[rr, cc]
+                    or tan_alpha[r, c] < tan_alpha[rr, cc]
+                ):
+                    dirty[rr, cc] = True
+                margin[rr, cc] = max(margin[rr, cc], room)
+                tan_alpha[rr, cc] = min(tan_alpha[rr, cc], tan_alpha[r, c])
+                energy[rr, cc] = max(energy[rr, cc], power)
+                share[rr, cc] = max(share[rr, cc], part)
+                if lower == 0 and dirty[rr, cc]:  # level ground: taken now, as it improves
+                    if top == stack.size:  # a long level run: room for more
+                        bigger = np.empty(2 * stack.size, np.int64)
+                        bigger[: stack.size] = stack
+                        stack = bigger
+                    stack[top] = rr * cols + cc
+                    top += 1
+    return stopped, dropped
