@@ -56,6 +56,13 @@ SUCCESS_RATE = "success_rate.png"
 SOIL_DEPTH = "soil_depth_m.tif"
 SOIL_DEPTH_MAP = "soil_depth_m.png"
 ROOT_COHESION = "root_cohesion_kpa.tif"
+RUNOUT_REACH = "runout_reach.tif"
+RUNOUT_SHARE = "runout_source_share.tif"
+RUNOUT_ANGLE = "runout_travel_angle_deg.tif"
+RUNOUT_ZONES = "runout_zones.gpkg"
+RUNOUT_MAP = "runout_reach.png"
+RUNOUT_ASSETS = "runout_assets.csv"
+RUNOUT_ASSETS_LAYER = "runout_assets.gpkg"
 
 # comparison/
 SIDE_BY_SIDE = "stability_classes.png"
@@ -140,6 +147,13 @@ SCENARIO_OUTPUTS: tuple[tuple[str, str, str], ...] = (
     ),
     (RETURN_PERIOD_MAP, "rainfall, maps on", "map of the return period"),
     (THRESHOLDS_MAP, "rainfall, maps on", "critical intensity-duration per unit"),
+    (RUNOUT_REACH, "runout", "1 where flow from a failing source reaches the cell"),
+    (RUNOUT_SHARE, "runout", "share of all source flow passing the cell"),
+    (RUNOUT_ANGLE, "runout", "angle of reach of the most mobile source reaching the cell"),
+    (RUNOUT_ZONES, "runout", "polygons of the reach with ground areas"),
+    (RUNOUT_MAP, "runout, maps on", "map of the reach"),
+    (RUNOUT_ASSETS, "runout, assets given", "assets in reach: share, worst source, length"),
+    (RUNOUT_ASSETS_LAYER, "runout, assets given", "the same as a GeoPackage layer"),
     (INVENTORY_SCORES, "inventory given", "landslide density and frequency ratio"),
     (SUCCESS_RATE, "inventory given", "success and prediction rates with AUC"),
 )
@@ -199,6 +213,8 @@ def written(
     inventory: bool = False,
     rainfall: bool = False,
     land_cover: bool = False,
+    runout: bool = False,
+    assets: bool = False,
 ) -> list[str]:
     """The files of ``table`` a run with these settings writes."""
     conditions = {
@@ -211,6 +227,8 @@ def written(
         "inventory given": inventory,
         "rainfall": rainfall,
         "land cover": land_cover,
+        "runout": runout,
+        "assets given": assets,
     }
     out = []
     for name, when, _ in table:

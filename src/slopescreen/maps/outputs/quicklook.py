@@ -104,6 +104,7 @@ class MapFrame:
     subtitle: str
     soil_codes: Path | None = None  # soil-unit raster for boundaries
     zones: Path | None = None  # zone polygons for outlines
+    zones_label: str = "low-margin zone outline"  # what the outlines are, in the legend
     inset: tuple[list[str], np.ndarray] | None = None  # units, areas (unit x class)
     inset_title: str = "share of each soil unit's area by class"
     notes: list[str] = field(default_factory=list)  # extra legend lines
@@ -266,7 +267,7 @@ def _map_panel(
         zones = gpd.read_file(frame.zones)
         if 0 < len(zones) <= MAX_ZONE_OUTLINES:
             zones.boundary.plot(ax=ax, color="0.1", linewidth=0.3)
-            handles.append(Line2D([], [], color="0.1", lw=0.8, label="low-margin zone outline"))
+            handles.append(Line2D([], [], color="0.1", lw=0.8, label=frame.zones_label))
         elif len(zones):
             notes.append(f"{len(zones):,} zones: too many to outline at this scale")
     ax.set_xlim(extent[0], extent[1])

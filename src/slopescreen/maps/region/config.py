@@ -59,6 +59,7 @@ from slopescreen.maps.region.field_config import (
     soil_depth_models,
 )
 from slopescreen.maps.region.gauge_rain import DEFAULT_POWER, WEIGHTINGS
+from slopescreen.maps.region.runout_config import RunoutSpec, runout
 from slopescreen.maps.region.scenario_schema import (
     SCHEMA,
     allowed,
@@ -393,6 +394,7 @@ class Config:
     inventory: InventorySpec | None = None
     rainfall_frequency: RainfallFrequency | None = None
     min_slip_depth_m: float = MIN_SLIP_DEPTH_M  # [slip_planes]
+    runout: RunoutSpec | None = None  # [runout]: reach below failing cells
 
     @property
     def notes(self) -> list[str]:
@@ -708,6 +710,7 @@ def load_config(path: str | Path) -> Config:
         deprecations=tuple(notes),
         comparison=_comparison(r, r.table("", data, "comparison"), [s.name for s in scenarios]),
         inventory=_inventory(r, data["inventory"]) if "inventory" in data else None,
+        runout=runout(r, data, [s.name for s in scenarios], "inventory" in data),
         rainfall_frequency=rainfall_frequency,
         min_slip_depth_m=min_slip,
     )

@@ -646,6 +646,7 @@ def _terrain_and_scenarios(
             steps.numba_threads,
             echo,
             cell_progress=progress and steps.runner is serial_runner,
+            inventory=inputs.inventory,
         )
         state.summaries.append(summary)
         state.outputs += [f"{sc.name}/{f}" for f in summary.outputs]

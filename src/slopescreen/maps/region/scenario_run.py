@@ -10,6 +10,7 @@ import shutil
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -95,6 +96,7 @@ class ScenarioSummary:
     hazard_areas_ha: list[float] | None = None  # per hazard class (rainfall scenarios)
     hazard_names: list[str] = field(default_factory=list)
     hazard_spread_areas_ha: list[float] | None = None  # the same with the soil spreads
+    runout: Any = None  # RunoutResult of a scenario named in [runout]
 
 
 def _sinks(
@@ -708,6 +710,7 @@ def run_scenario(
     numba_threads: int = 0,
     echo: Callable[[str], None] = print,
     cell_progress: bool = False,
+    inventory: Any = None,
 ) -> tuple[ScenarioSummary, list[dict[str, object]]]:
     """Write every output of one scenario into ``out``; ``terrain_cache`` is the folder of
     the terrain cache entry, and critical recharge is cached beside it (in its parent).
@@ -744,6 +747,20 @@ def run_scenario(
     written |= {p.name for p in maps.values()}
     if sums.failing is not None and sc.storm is not None:
         written |= _failing_series(cfg, sc, sums.failing, out, maps)
+    runout = None
+    if cfg.runout is not None and sc.name in cfg.runout.scenarios:
+        from slopescreen.maps.region.runout_run import runout_outputs
+
+        runout = runout_outputs(cfg, sc, grid, out, terrain_dir, inventory)
+        written |= set(runout.files)
+        if runout.map is not None:
+            maps["run-out reach"] = runout.map
+        echo(
+            f"scenario {sc.name}: run-out from {runout.source_ha:,.2f} ha of sources reaches "
+            f"{runout.reach_ha:,.2f} ha"
+            + (f"; {runout.asset_count} assets in reach" if cfg.runout.assets else "")
+            + " (an empirical screening estimate)"
+        )
     _remove_stale(out, written)
     return ScenarioSummary(
         sc.name,
@@ -763,6 +780,7 @@ def run_scenario(
         hazard_areas.sum(axis=0).tolist() if hazard_areas is not None else None,
         hazard_names,
         areas.spread,
+        runout,
     ), rows_out
 
 

@@ -265,6 +265,76 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
             "exp(-depth / rooting_depth_m)",
         ),
     ],
+    "runout": [
+        (
+            "scenarios",
+            "list of scenario names",
+            "required",
+            "the scenarios whose failing cells start run-out (empirical reach, screening only)",
+        ),
+        (
+            "source",
+            '"fs", "probability" or "inventory"',
+            '"fs"',
+            "source cells: FS below fs_below, P(FS < 1) above probability_above (sources "
+            "weighted by it), or the inventory's landslide cells",
+        ),
+        ("fs_below", Span(0.1, 10), "1", 'source = "fs": cells below this FS'),
+        ("probability_above", Span(0, 1), "0.5", 'source = "probability": cells above it'),
+        (
+            "min_source_area_m2",
+            Span(0, 1e9),
+            "0",
+            "source patches (touching cells) smaller on the ground are left out",
+        ),
+        (
+            "travel_angle_deg",
+            Span(1, 60),
+            "from the volume",
+            "one angle of reach for every source, in place of the regression",
+        ),
+        (
+            "regression_a",
+            Span(-5, 5),
+            "-0.012",
+            "A of log10(H/L) = A + B log10(V) (Corominas 1996, debris flows)",
+        ),
+        ("regression_b", Span(-1, 1), "-0.105", "B of the same"),
+        (
+            "angle_table",
+            "path",
+            "none",
+            "CSV of max_volume_m3, travel_angle_deg: the angle by the patch's volume class",
+        ),
+        (
+            "exponent",
+            Span(0, 1000),
+            "4",
+            "spreading exponent x of Holmgren (1994): 1 spreads by slope, large follows the "
+            "steepest path",
+        ),
+        (
+            "friction_angle_deg",
+            Span(0, 60),
+            "none",
+            "travel friction angle of the energy line (none: the angle of reach alone)",
+        ),
+        ("max_speed_m_s", Span(0.1, 100), "none", "the energy line's speed cap"),
+        (
+            "min_share",
+            Span(0, 0.5),
+            "1e-4",
+            "moves carrying less of all source flow are dropped (thin fringes)",
+        ),
+        (
+            "assets",
+            "path",
+            "none",
+            "roads, buildings or any points, lines or polygons (any CRS) to check for reach",
+        ),
+        ("asset_layer", "text", "the first layer", "layer of a multi-layer asset file"),
+        ("asset_field", "text", "feature number", "the assets' field naming each one"),
+    ],
     "scenario": [
         ("name", "1-64 letters, digits, _ . -", "required", "names the scenario's folder"),
         ("description", "text", "none", "shown in the report and the manifest"),

@@ -62,6 +62,7 @@ def spread_reach(
     min_mass,
     share,
     cut_off,
+    worst,
 ):
     """Spread the sources' flow over the grid in place (see the module docstring).
 
@@ -72,9 +73,11 @@ def spread_reach(
     v_max^2 / 2 (+inf: no cap); ``min_mass``: a move carrying less flow is dropped.
     Writes ``share`` (the source flow reaching each cell, 0 where none: a cell on level
     ground that the flow crosses takes the largest share of the cells it came from) and
-    ``cut_off`` (uint8). Returns (flow stopped where the ground levels out or the sweep
-    found no lower cell, flow dropped where the margin or energy was spent or the move was
-    too small): with every source's flow counted once, their sum is the sources' total."""
+    ``cut_off`` (uint8); ``worst`` holds a value of each source (its FS, say; +inf
+    elsewhere) and is filled with the least of the sources whose flow reaches a cell.
+    Returns (flow stopped where the ground levels out or the sweep found no lower cell,
+    flow dropped where the margin or energy was spent or the move was too small): with
+    every source's flow counted once, their sum is the sources' total."""
     rows, cols = z.shape
     energy = np.zeros(z.shape)
     spread = np.zeros(z.shape)  # flow already sent on (or stopped) at each cell
@@ -149,10 +152,12 @@ def spread_reach(
                     or power > energy[rr, cc]
                     or part > share[rr, cc]
                     or tan_alpha[r, c] < tan_alpha[rr, cc]
+                    or worst[r, c] < worst[rr, cc]
                 ):
                     dirty[rr, cc] = True
                 margin[rr, cc] = max(margin[rr, cc], room)
                 tan_alpha[rr, cc] = min(tan_alpha[rr, cc], tan_alpha[r, c])
+                worst[rr, cc] = min(worst[rr, cc], worst[r, c])
                 energy[rr, cc] = max(energy[rr, cc], power)
                 share[rr, cc] = max(share[rr, cc], part)
                 if lower == 0 and dirty[rr, cc]:  # level ground: taken now, as it improves
@@ -163,3 +168,30 @@ def spread_reach(
                     stack[top] = rr * cols + cc
                     top += 1
     return stopped, dropped
+
+
+@numba.njit(cache=True)
+def label_patches(mask):
+    """Connected patches of ``mask`` (eight neighbours): labels 1..n (0 outside), and n."""
+    rows, cols = mask.shape
+    labels = np.zeros(mask.shape, np.int64)
+    stack = np.empty(rows * cols, np.int64)
+    n = 0
+    for start in range(rows * cols):
+        r0, c0 = start // cols, start % cols
+        if not mask[r0, c0] or labels[r0, c0]:
+            continue
+        n += 1
+        labels[r0, c0] = n
+        stack[0] = start
+        top = 1
+        while top > 0:
+            top -= 1
+            r, c = stack[top] // cols, stack[top] % cols
+            for k in range(8):
+                rr, cc = r + D_ROW[k], c + D_COL[k]
+                if 0 <= rr < rows and 0 <= cc < cols and mask[rr, cc] and not labels[rr, cc]:
+                    labels[rr, cc] = n
+                    stack[top] = rr * cols + cc
+                    top += 1
+    return labels, n

@@ -1,0 +1,105 @@
+"""Run-out in a run: a slope that fails above flat ground, its reach, zones, map and the
+assets in reach, against the angle-of-reach geometry worked out by hand."""
+
+import csv
+import math
+
+import geopandas as gpd
+import numpy as np
+import pytest
+import rasterio
+from rasterio.transform import from_origin
+from region_files import write_raster
+from shapely.geometry import LineString, Point, box
+
+from slopescreen.errors import InputError
+from slopescreen.maps.region.config import load_config
+from slopescreen.maps.region.engine import run
+
+X0, Y0, CELL = 500000.0, 5000400.0, 10.0
+ROWS, COLS, PLANE = 30, 80, 20  # a plane falling east over 20 columns, then flat ground
+
+
+def _region(tmp_path, runout):
+    x = np.arange(COLS) * CELL
+    edge = (PLANE - 1) * CELL
+    z = np.tile(np.where(x <= edge, 0.8 * (edge - x), 0.0) + 100.0, (ROWS, 1))
+    write_raster(tmp_path / "dem.tif", z, transform=from_origin(X0, Y0, CELL, CELL))
+    gpd.GeoDataFrame(
+        {"unit": ["A"], "cohesion_kpa": [1.0], "friction_deg": [30.0],
+         "unit_weight_kn_m3": [18.0], "depth_m": [1.5], "hydraulic_conductivity_m_s": [1e-5]},
+        geometry=[box(X0, Y0 - ROWS * CELL, X0 + COLS * CELL, Y0)], crs="EPSG:32633",
+    ).to_file(tmp_path / "soils.geojson", driver="GeoJSON")  # fmt: skip
+    road = LineString([(X0 + 5.0, Y0 - 150.0), (X0 + COLS * CELL - 5.0, Y0 - 150.0)])
+    far = Point(X0 + COLS * CELL - 15.0, Y0 - 155.0)
+    gpd.GeoDataFrame(
+        {"name": ["valley road", "barn"]}, geometry=[road, far], crs="EPSG:32633"
+    ).to_crs("EPSG:4326").to_file(tmp_path / "assets.gpkg", driver="GPKG")
+    (tmp_path / "s.toml").write_text(
+        '[region]\ndem = "dem.tif"\nsoil_units = "soils.geojson"\n'
+        "[outputs]\nreport = false\nzones = false\n"
+        '[[scenario]]\nname = "wet"\nsaturation = 1.0\n' + runout
+    )
+    return tmp_path / "s.toml", z
+
+
+def _read(path):
+    with rasterio.open(path) as src:
+        return src.read(1)
+
+
+def test_reach_below_a_failing_slope_and_the_assets_in_it(tmp_path):
+    toml, z = _region(
+        tmp_path,
+        '[runout]\nscenarios = ["wet"]\ntravel_angle_deg = 20.0\nexponent = 1000.0\n'
+        'assets = "assets.gpkg"\nasset_field = "name"\n',
+    )
+    out = tmp_path / "out"
+    run(toml, out, progress=False, echo=lambda s: None)
+    fs = _read(out / "wet" / "fs.tif")
+    reach = _read(out / "wet" / "runout_reach.tif")
+    share = _read(out / "wet" / "runout_source_share.tif")
+    source = (fs < 1.0) & (fs > -9000)
+    assert source.any() and (reach[source] == 1).all()
+    # the sources are the plane's steep cells; on each row the flow from the highest
+    # source runs east and stops where the 20-degree line from its top meets the flat:
+    # L = (z_top - z_flat) / tan(20 deg) from the top (analytic; steps of 10 m on the row)
+    row = ROWS // 2
+    top = int(np.flatnonzero(source[row])[0])
+    length = (z[row, top] - 100.0) / math.tan(math.radians(20.0))
+    last = int(np.flatnonzero(reach[row] == 1)[-1])
+    ground = CELL * 0.9996  # UTM 33N near 15 E: the grid's 10 m are 9.996 m on the ground
+    assert last == top + math.floor(length / ground)
+    assert share[row, last] > 0 and share[row, last + 1] == 0
+    with open(out / "wet" / "runout_assets.csv") as handle:
+        rows = {r["asset"]: r for r in csv.DictReader(handle)}
+    assert set(rows) == {"valley road"}  # the barn lies beyond the reach
+    # the road's length in reach: its ground length across the reach zones (pyproj's
+    # geodesic of the same line, computed here from the zones and the road)
+    zones = gpd.read_file(out / "wet" / "runout_zones.gpkg")
+    road = gpd.read_file(tmp_path / "assets.gpkg").to_crs(zones.crs).geometry.iloc[0]
+    piece = road.intersection(zones.union_all())
+    from pyproj import Geod
+
+    expected = Geod(ellps="WGS84").geometry_length(
+        gpd.GeoSeries([piece], crs=zones.crs).to_crs("EPSG:4326").iloc[0]
+    )
+    assert float(rows["valley road"]["length_in_reach_m"]) == pytest.approx(expected, abs=0.006)
+    assert float(rows["valley road"]["source_value"]) < 1.0  # the FS of a failing source
+    assert (out / "wet" / "runout_reach.png").exists()
+    assert len(gpd.read_file(out / "wet" / "runout_assets.gpkg")) == 1
+
+
+def test_runout_keys_are_checked(tmp_path):
+    for text, key in (
+        ('[runout]\nscenarios = ["nope"]\n', "scenarios"),
+        ('[runout]\nscenarios = ["wet"]\nfs_below = 1.2\nsource = "probability"\n', "fs_below"),
+        ('[runout]\nscenarios = ["wet"]\nsource = "inventory"\n', "source"),
+        ('[runout]\nscenarios = ["wet"]\ntravel_angle_deg = 20.0\nregression_a = 0.1\n',
+         "travel_angle_deg"),
+        ('[runout]\nscenarios = ["wet"]\nmax_speed_m_s = 10.0\n', "max_speed_m_s"),
+        ('[runout]\nscenarios = ["wet"]\nasset_field = "name"\n', "asset_field"),
+    ):  # fmt: skip
+        toml, _ = _region(tmp_path, text)
+        with pytest.raises(InputError, match=key):
+            load_config(toml)
