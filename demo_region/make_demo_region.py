@@ -1,13 +1,14 @@
 """Build the invented demo region: the fictitious Quillbrook catchment.
 
 Writes quillbrook_dem.tif (450 x 450 cells at 10 m), soil_units.gpkg (five soil units),
-soil_parameters.csv, the land cover (quillbrook_land_cover.gpkg and .csv) and
-mapped_landslides.gpkg (an invented inventory of slides drawn from
-a hidden soil table, see HIDDEN_CHANGES) beside this file. The terrain is synthetic: a
-valley draining south, fractal relief by spectral synthesis, then a few thousand years of
-stream incision and hillslope diffusion so that tributaries, hollows and spurs form as on
-real ground, all from the formulas below (numpy only; the same numbers every run). It is placed at
-sea, off any coast, in UTM zone 25S so it cannot be mistaken for real ground.
+soil_parameters.csv, the land cover (quillbrook_land_cover.gpkg and .csv), invented roads
+and buildings (quillbrook_assets.gpkg) and mapped_landslides.gpkg (an invented inventory
+of slides drawn from a hidden soil table, see HIDDEN_CHANGES) beside this file. The
+terrain is synthetic: a valley draining south, fractal relief by spectral synthesis, then
+a few thousand years of stream incision and hillslope diffusion so that tributaries,
+hollows and spurs form as on real ground, all from the formulas below (numpy only; the
+same numbers every run). It is placed at sea, off any coast, in UTM zone 25S so it cannot
+be mistaken for real ground.
 
     python demo_region/make_demo_region.py
 
@@ -489,6 +490,39 @@ def land_cover(codes: np.ndarray, transform: object) -> None:
         writer.writerows(COVER_CLASSES)
 
 
+# Invented assets: a road up the valley floor (along the channel line of the terrain
+# formula) and a few buildings, some at the foot of the slopes and some on open ground
+BUILDINGS = [  # (name, metres east of the western edge, metres north of the southern one)
+    ("farm house", 465.0, 3895.0),  # on the valley floor below the western slopes
+    ("mill", 4305.0, 2815.0),  # by the eastern stream, below steep ground
+    ("school", 2600.0, 2500.0),  # in the open valley
+    ("pump house", 2300.0, 1200.0),
+    ("barn", 3600.0, 4200.0),
+]
+
+
+def assets() -> None:
+    """quillbrook_assets.gpkg: the valley road (a line) and the buildings (points)."""
+    import geopandas as gpd
+    from shapely.geometry import LineString, Point
+
+    x0, y_top = ORIGIN
+    south = y_top - SIZE * CELL  # northings of the grid's southern edge
+    ys = np.linspace(60.0, SIZE * CELL - 60.0, 90)
+    road = LineString(
+        [(x0 + 2250.0 + 260.0 * np.sin(2.0 * np.pi * y / 3100.0) + 35.0, south + y) for y in ys]
+    )
+    names = ["valley road", *(b[0] for b in BUILDINGS)]
+    kinds = ["road", *("building" for _ in BUILDINGS)]
+    geoms = [road, *(Point(x0 + bx, south + by) for _, bx, by in BUILDINGS)]
+    target = HERE / "quillbrook_assets.gpkg"
+    if target.exists():
+        target.unlink()
+    gpd.GeoDataFrame({"name": names, "kind": kinds}, geometry=geoms, crs=CRS).to_file(
+        target, driver="GPKG", layer="assets"
+    )
+
+
 def main() -> None:
     import geopandas as gpd
     import rasterio
@@ -543,6 +577,7 @@ def main() -> None:
     design_rainfall()
     gauge_record()
     land_cover(codes, transform)
+    assets()
     slides = landslide_inventory(transform)
     target = HERE / "mapped_landslides.gpkg"
     if target.exists():

@@ -5,7 +5,8 @@ from __future__ import annotations
 CAUTIONS: tuple[str, ...] = (
     "Screening level only: these results are not a slope design.",
     "The infinite-slope model ignores slope curvature, layering, deep-seated and "
-    "rock failures, and debris run-out; inputs are rarely known well.",
+    "rock failures; run-out reach, where mapped, is an empirical estimate; inputs are "
+    "rarely known well.",
     "Verify on site before any decision, and defer to local codes and licensed "
     "geotechnical practice.",
 )

@@ -591,3 +591,72 @@ def test_every_land_cover_key_changes_the_outputs(key, field_region, tmp_path):
     changed = _replaced(base, line)
     b = _run(field_region, tmp_path, "cover_b", _text("uniform") + f"[land_cover]\n{changed}")
     assert a != b
+
+
+# [runout]: each key alone changes the outputs (base: FS below 1.2 on the planar sides)
+RUNOUT_BASE = '[runout]\nscenarios = ["s"]\n'
+FS_SOURCES = "fs_below = 1.2"
+RUNOUT_CHANGES = {  # key: (base lines, changed lines), with FS_SOURCES unless probability
+    "scenarios": (None, None),  # two scenarios: run-out for one or the other
+    "source": ("", 'source = "probability"\nprobability_above = 0.01'),
+    "fs_below": ("fs_below = 1.2", "fs_below = 1.1"),
+    "probability_above": (
+        'source = "probability"\nprobability_above = 0.01',
+        'source = "probability"\nprobability_above = 0.4',
+    ),
+    "min_source_area_m2": ("", "min_source_area_m2 = 1e6"),
+    "travel_angle_deg": ("", "travel_angle_deg = 35.0"),
+    "regression_a": ("", "regression_a = -0.5"),
+    "regression_b": ("", "regression_b = -0.5"),
+    "angle_table": ("", 'angle_table = "angles.csv"'),
+    "exponent": ("", "exponent = 1.0"),
+    "friction_angle_deg": ("", "friction_angle_deg = 25.0"),
+    "max_speed_m_s": ("friction_angle_deg = 5.0", "friction_angle_deg = 5.0\nmax_speed_m_s = 1.5"),
+    "min_share": ("", "min_share = 0.05"),
+    "assets": ('assets = "assets2.gpkg"', 'assets = "assets3.gpkg"'),
+    "asset_layer": ('assets = "assets.gpkg"\nasset_layer = "one"',
+                    'assets = "assets.gpkg"\nasset_layer = "two"'),
+    "asset_field": ('assets = "assets2.gpkg"\nasset_field = "name"',
+                    'assets = "assets2.gpkg"\nasset_field = "other"'),
+}  # fmt: skip
+
+
+@pytest.fixture(scope="module")
+def runout_region(region):
+    from shapely.geometry import LineString
+
+    line = LineString([(500010.0, 5000200.0), (500490.0, 5000210.0)])
+    short = LineString([(500240.0, 5000390.0), (500260.0, 5000010.0)])
+    frame = gpd.GeoDataFrame(
+        {"name": ["a", "b"], "other": ["x", "y"]}, geometry=[line, short], crs="EPSG:32633"
+    )
+    frame.to_file(region / "assets.gpkg", layer="one", driver="GPKG")
+    frame.iloc[[1]].to_file(region / "assets.gpkg", layer="two", driver="GPKG")
+    frame.iloc[[1]].to_file(region / "assets2.gpkg", driver="GPKG")
+    frame.iloc[[0]].to_file(region / "assets3.gpkg", driver="GPKG")
+    (region / "angles.csv").write_text("max_volume_m3,travel_angle_deg\n1e12,40.0\n")
+    return region
+
+
+def test_the_runout_key_list_is_complete():
+    from slopescreen.maps.region.scenario_schema import allowed
+
+    assert set(RUNOUT_CHANGES) == allowed("runout")
+
+
+@pytest.mark.parametrize("key", sorted(RUNOUT_CHANGES))
+def test_every_runout_key_changes_the_outputs(key, runout_region, tmp_path):
+    base, changed = RUNOUT_CHANGES[key]
+    text = _text("uniform").replace("saturation = 0.3", "saturation = 0.8")
+    if key == "scenarios":
+        text += '[[scenario]]\nname = "t"\nsaturation = 0.2\n'
+        a_text = text + RUNOUT_BASE + FS_SOURCES + "\n"
+        b_text = text + RUNOUT_BASE.replace('["s"]', '["t"]') + FS_SOURCES + "\n"
+    else:
+        fs = {line: "" if "fs_below" in line or "probability" in line else FS_SOURCES + "\n"
+              for line in (base, changed)}  # fmt: skip
+        a_text = text + RUNOUT_BASE + fs[base] + base + "\n"
+        b_text = text + RUNOUT_BASE + fs[changed] + changed + "\n"
+    a = _run(runout_region, tmp_path, "runout_a", a_text)
+    b = _run(runout_region, tmp_path, "runout_b", b_text)
+    assert a != b

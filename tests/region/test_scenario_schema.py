@@ -17,7 +17,16 @@ from slopescreen.maps.region.field_config import DEPTH_MODELS
 from slopescreen.maps.region.scenario_schema import SCHEMA, Span
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_region"
-PATH_KEYS = {"dem", "soil_units", "soil_table", "idf_table", "path", "hyetograph", "table"}
+PATH_KEYS = {
+    "dem",
+    "soil_units",
+    "soil_table",
+    "idf_table",
+    "path",
+    "hyetograph",
+    "table",
+    "assets",
+}
 # a design storm's keys: within their span, and also within the design-rainfall table
 DESIGN_KEYS = {"design_return_period_yr", "design_duration_h", "block_h"}
 
@@ -87,6 +96,13 @@ def _with(table: str, key: str, value: float) -> dict:
             k: v for k, v in MODEL_KEYS[model].items() if k not in PAIRED.get(key, ())
         }
         data["soil_depth"] = where
+    elif table == "runout":  # a fresh table: what the key needs beside it
+        where = {"scenarios": ["wet_season"]}
+        if key == "probability_above":
+            where["source"] = "probability"
+        if key == "max_speed_m_s":
+            where["friction_angle_deg"] = 10.0
+        data["runout"] = where
     else:
         where = data.setdefault(table, {})
     if table == "reliability":
@@ -129,8 +145,8 @@ NUMERIC = [
 
 
 def test_every_numeric_key_is_probed():
-    # the keys the reader checks as numbers: each has its range in the schema (41 of them)
-    assert len(NUMERIC) == 41
+    # the keys the reader checks as numbers: each has its range in the schema (51 of them)
+    assert len(NUMERIC) == 51
     assert {("scenario.storm", "rain_mm_h"), ("inventory", "test_share")} <= {
         (t, k) for t, k, _ in NUMERIC
     }

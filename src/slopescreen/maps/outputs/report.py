@@ -201,6 +201,8 @@ def _scenario_section(
                 else ""
             )
         )
+    if s.runout is not None:
+        parts.append(_runout_section(s))
     if s.cut_off_ha and mapped:
         parts.append(
             f"<p>{s.cut_off_ha:,.2f} ha ({100 * s.cut_off_ha / mapped:.1f}% of the mapped area) "
@@ -228,6 +230,48 @@ def _scenario_section(
     parts.append(f"<p class='meta'>Files: {files}</p>")
     parts += [f"<p class='warn'>{esc(w)}</p>" for w in s.warnings]
     return "\n".join(parts)
+
+
+def _runout_section(s: ScenarioSummary) -> str:
+    """What the run-out of a scenario reaches: sources, reach, and the assets in it."""
+    ro = s.runout
+    text = (
+        f"<h3>Run-out reach</h3><p>Sources: {ro.source_cells:,} cells in {ro.source_patches:,} "
+        f"patches ({ro.source_ha:,.2f} ha); reach {ro.reach_ha:,.2f} ha on the ground. "
+        f"{esc(ro.rule[:1].upper() + ro.rule[1:])}. Reach is an empirical screening estimate "
+        "(angle of reach, Corominas 1996; spreading, Holmgren 1994): no entrainment, no "
+        "deposition volume balance, no impact pressure; verify on site.</p>"
+    )
+    if ro.cut_off_cells:
+        text += (
+            f"<p class='warn'>The flow reaches the DEM's edge or no data with room to travel "
+            f"on {ro.cut_off_cells:,} cells: the reach there is a lower bound.</p>"
+        )
+    if any(f.startswith("runout_assets") for f in ro.files):  # assets were checked
+        rows = [
+            [
+                esc(str(a["asset"])),
+                esc(str(a["kind"])),
+                num(a["max_share"], ".3g"),
+                num(a["source_value"], ".3g"),
+                num(a["length_in_reach_m"], ",.1f") if a["length_in_reach_m"] else EMPTY,
+            ]
+            for a in ro.assets[:20]
+        ]
+        text += (
+            f"<p>{ro.asset_count} assets lie in reach; lines run {ro.asset_length_m:,.0f} m "
+            "on the ground inside it (<code>runout_assets.csv</code>, "
+            "<code>runout_assets.gpkg</code>)"
+            + (": the 20 with the most source flow below." if ro.asset_count > 20 else ".")
+            + "</p>"
+        )
+        if rows:
+            text += boxed_table(
+                ["asset", "kind", "share of source flow", ro.worst_label, "length in reach (m)"],
+                rows,
+                left=2,
+            )
+    return text
 
 
 def _pixels_sha256(path: Path) -> str:

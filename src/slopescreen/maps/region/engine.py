@@ -800,5 +800,8 @@ def write_state(
         "cautions": list(CAUTIONS),
         **state.validation,
     }
+    runout = {s.name: s.runout.as_dict() for s in state.summaries if s.runout is not None}
+    if runout:
+        manifest["runout"] = runout
     text = json.dumps(manifest, indent=2, allow_nan=False) + "\n"
     return write_text(out / MANIFEST, text)

@@ -184,7 +184,7 @@ def runout_outputs(
         result.asset_count = len(result.assets)
         result.asset_length_m = float(sum(float(r["length_in_reach_m"]) for r in result.assets))  # type: ignore[arg-type]
     if cfg.quicklook_map:
-        result.map = _draw(cfg, sc, grid, out, terrain_dir)
+        result.map = _draw(cfg, sc, grid, out, terrain_dir, _map_classes(mask, share, data))
         files.append(RUNOUT_MAP)
     result.files = files
     return result
@@ -349,9 +349,31 @@ def _write_assets(rows: list[dict[str, object]], out: Path, grid: Grid) -> list[
     return [RUNOUT_ASSETS, RUNOUT_ASSETS_LAYER]
 
 
-def _draw(cfg: Config, sc: Scenario, grid: Grid, out: Path, terrain_dir: Path) -> Path:
+MAP_CLASSES = (  # the run-out map's classes, in blues apart from the stability classes
+    ("source: failing ground", "#08306b"),
+    ("reach: the more travelled half", "#2171b5"),
+    ("reach: the rest", "#9ecae1"),
+    ("not reached", "#f7fbff"),
+)
+
+
+def _map_classes(source: np.ndarray, share: np.ndarray, data: np.ndarray) -> np.ndarray:
+    """Classes 1-4 of :data:`MAP_CLASSES` (0: no data): the reach split at the median share
+    of the reached cells that are not sources."""
+    reached = (share > 0.0) & ~source
+    split = float(np.median(share[reached])) if reached.any() else 0.0
+    out = np.where(data, 4, 0).astype(np.uint8)
+    out[reached] = np.where(share[reached] >= split, 2, 3)
+    out[source & data] = 1
+    return out
+
+
+def _draw(
+    cfg: Config, sc: Scenario, grid: Grid, out: Path, terrain_dir: Path, classes: np.ndarray
+) -> Path:
     from slopescreen.maps.outputs.output_names import HILLSHADE, SOIL_UNIT
-    from slopescreen.maps.outputs.quicklook import MapFrame, draw_values
+    from slopescreen.maps.outputs.palette import hex_rgb
+    from slopescreen.maps.outputs.quicklook import MapFrame, draw_classes
 
     frame = MapFrame(
         grid,
@@ -362,13 +384,16 @@ def _draw(cfg: Config, sc: Scenario, grid: Grid, out: Path, terrain_dir: Path) -
         zones=out / RUNOUT_ZONES,
         zones_label="run-out reach outline",
     )
-    return draw_values(
+    step = frame.step
+    shown = classes[::step, ::step][: max(1, grid.height // step), : max(1, grid.width // step)]
+    return draw_classes(
         out / RUNOUT_MAP,
         frame,
-        out / RUNOUT_SHARE,
-        "share of all source flow reaching the cell (log scale)",
-        log=True,
-        no_data_label="not reached, or no data",
+        shown,
+        [name for name, _ in MAP_CLASSES],
+        "run-out below failing ground",
+        no_data_label="no data",
+        colours=np.array([hex_rgb(code) for _, code in MAP_CLASSES]),
     )
 
 
