@@ -24,7 +24,7 @@ def test_core_pulls_in_no_heavy_packages():
         "slopescreen.validation, slopescreen.back_analysis, slopescreen.sensitivity, "
         "slopescreen.rain_thresholds, slopescreen.rainfall_frequency, "
         "slopescreen.maps.terrain.slope, slopescreen.rain_history, slopescreen.design_storm, "
-        "slopescreen.soil_depth, slopescreen.root_cohesion; "
+        "slopescreen.soil_depth, slopescreen.root_cohesion, slopescreen.runout; "
         "print(','.join(sorted({m.split('.')[0] for m in sys.modules})))"
     )
     loaded = (

@@ -48,6 +48,7 @@ class RunoutResult:
     asset_count: int = 0
     asset_length_m: float = 0.0
     worst_label: str = "lowest source FS"
+    seconds: float = 0.0  # the run-out step's own time
 
     def as_dict(self) -> dict[str, object]:
         return {
@@ -59,6 +60,7 @@ class RunoutResult:
             "cut_off_cells": self.cut_off_cells,
             "assets_in_reach": self.asset_count,
             "line_length_in_reach_m": round(self.asset_length_m, 2),
+            "seconds": round(self.seconds, 3),
             "files": self.files,
         }
 
@@ -114,6 +116,9 @@ def runout_outputs(
     """Every run-out output of the scenario in ``out`` (its folder)."""
     from slopescreen.maps.terrain.reach import label_patches, spread_reach
 
+    import time
+
+    started = time.perf_counter()
     spec = cfg.runout
     assert spec is not None
     shape = (grid.height, grid.width)
@@ -187,6 +192,7 @@ def runout_outputs(
         result.map = _draw(cfg, sc, grid, out, terrain_dir, _map_classes(mask, share, data))
         files.append(RUNOUT_MAP)
     result.files = files
+    result.seconds = time.perf_counter() - started
     return result
 
 
