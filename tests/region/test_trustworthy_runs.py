@@ -1053,15 +1053,28 @@ def test_two_runs_sharing_one_cache(tmp_path):
     assert _outputs(tmp_path / "a") == _outputs(tmp_path / "b")
 
 
-@pytest.mark.parametrize("moment", [0, 1, 2])
-def test_killed_rerun_leaves_old_or_new_files_and_says_so(moment, tmp_path):
-    toml = _big_region(tmp_path / "r")
-    out = tmp_path / "out"
-    assert subprocess.run(_cli("run", toml, "--out", out, "--quiet")).returncode == 0
-    old = _files(out)
+@pytest.fixture(scope="module")
+def old_and_new(tmp_path_factory):
+    """A region run once (the old outputs), its file edited so that every output changes,
+    and run again elsewhere (the new outputs): (folder, old files, new files)."""
+    folder = tmp_path_factory.mktemp("killed")
+    toml = _big_region(folder / "r")
+    assert subprocess.run(_cli("run", toml, "--out", folder / "old", "--quiet")).returncode == 0
+    old = _files(folder / "old")
     _edit(toml, "[classes]", "[classes]\nfs_breaks = [1.0, 1.2, 1.4]")  # new classes everywhere
-    assert subprocess.run(_cli("run", toml, "--out", tmp_path / "new", "--quiet")).returncode == 0
-    new = _files(tmp_path / "new")
+    assert subprocess.run(_cli("run", toml, "--out", folder / "new", "--quiet")).returncode == 0
+    return folder, old, _files(folder / "new")
+
+
+@pytest.mark.parametrize("moment", [0, 1, 2])
+def test_killed_rerun_leaves_old_or_new_files_and_says_so(moment, tmp_path, old_and_new):
+    import shutil
+
+    folder, old, new = old_and_new
+    shutil.copytree(folder / "r", tmp_path / "r")  # the edited file, beside its inputs
+    toml = tmp_path / "r" / "scenarios.toml"
+    out = tmp_path / "out"
+    shutil.copytree(folder / "old", out)  # the old run's folder, its cache and all
     proc = subprocess.Popen(_cli("run", toml, "--out", out, "--quiet"))
     deadline = time.monotonic() + 300
     while time.monotonic() < deadline:
@@ -1093,7 +1106,7 @@ def test_killed_rerun_leaves_old_or_new_files_and_says_so(moment, tmp_path):
     assert report == old["report.html"] or b"run not finished" in report
     # the next run completes the folder and leaves no work folders behind
     assert subprocess.run(_cli("run", toml, "--out", out, "--quiet")).returncode == 0
-    assert _outputs(out) == _outputs(tmp_path / "new")
+    assert _outputs(out) == _outputs(folder / "new")
     assert not [p for p in out.rglob(".slopescreen-tmp-*")]
 
 

@@ -114,9 +114,9 @@ def runout_outputs(
     cfg: Config, sc: Scenario, grid: Grid, out: Path, terrain_dir: Path, inventory: Any = None
 ) -> RunoutResult:
     """Every run-out output of the scenario in ``out`` (its folder)."""
-    from slopescreen.maps.terrain.reach import label_patches, spread_reach
-
     import time
+
+    from slopescreen.maps.terrain.reach import label_patches, spread_reach
 
     started = time.perf_counter()
     spec = cfg.runout
