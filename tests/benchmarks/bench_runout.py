@@ -39,7 +39,7 @@ recharge_mm_day = 20.0
 [runout]
 scenarios = ["with_runout"]
 fs_below = 1.3
-travel_angle_deg = 15.0  # a mobile flow, so that the sweep travels
+travel_angle_deg = 8.0  # a mobile flow (below the valley sides), so that the sweep travels
 """
 
 

@@ -103,3 +103,28 @@ def test_runout_keys_are_checked(tmp_path):
         toml, _ = _region(tmp_path, text)
         with pytest.raises(InputError, match=key):
             load_config(toml)
+
+
+def test_sources_from_the_inventory_and_from_the_probability(tmp_path):
+    """Inventory sources: the reach starts at the slides' cells only (one slide on the
+    plane's axis, the rest of the plane holding); probability sources: cells above the
+    limit, each weighted by its probability of failure."""
+    toml, _ = _region(tmp_path, "")
+    slide = Point(X0 + 5 * CELL + 5.0, Y0 - (ROWS // 2) * CELL - 5.0)
+    gpd.GeoDataFrame({"slide_id": ["s1"]}, geometry=[slide], crs="EPSG:32633").to_file(
+        tmp_path / "slides.gpkg", driver="GPKG"
+    )
+    text = toml.read_text().replace("saturation = 1.0", "saturation = 0.0")
+    toml.write_text(
+        text + '[inventory]\npath = "slides.gpkg"\nkey = "slide_id"\n'
+        '[runout]\nscenarios = ["wet"]\nsource = "inventory"\ntravel_angle_deg = 20.0\n'
+        "exponent = 1000.0\n"
+    )
+    out = tmp_path / "out"
+    run(toml, out, progress=False, echo=lambda s: None)
+    reach = _read(out / "wet" / "runout_reach.tif")
+    row, col = ROWS // 2, 5
+    assert reach[row, col] == 1 and reach[row - 3, col] == 0  # one slide: one path
+    height = 0.8 * (PLANE - 1 - col) * CELL  # the slide's cell above the flat
+    last = int(np.flatnonzero(reach[row] == 1)[-1])
+    assert last == col + math.floor(height / math.tan(math.radians(20.0)) / (CELL * 0.9996))

@@ -163,7 +163,7 @@ def runout_outputs(
         tan_phi = math.tan(math.radians(spec.friction_angle_deg))
     spread_reach(
         np.ascontiguousarray(z), col_step, row_step, mass, margin, ta, spec.exponent, tan_phi,
-        spec.max_speed_m_s**2 / 2.0, spec.min_share, share, cut, worst,
+        spec.max_speed_m_s**2 / 2.0, spec.min_share / max(cells.size, 1), share, cut, worst,
     )  # fmt: skip
     reached = share > 0.0
     data = np.isfinite(z)

@@ -324,7 +324,8 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
             "min_share",
             Span(0, 0.5),
             "1e-4",
-            "moves carrying less of all source flow are dropped (thin fringes)",
+            "moves carrying less than this share of one source cell's flow are dropped "
+            "(thin fringes)",
         ),
         (
             "assets",
