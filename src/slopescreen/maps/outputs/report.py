@@ -236,7 +236,8 @@ def _runout_section(s: ScenarioSummary) -> str:
     """What the run-out of a scenario reaches: sources, reach, and the assets in it."""
     ro = s.runout
     text = (
-        f"<h3>Run-out reach</h3><p>Sources: {ro.source_cells:,} cells in {ro.source_patches:,} "
+        f"<h3>Run-out: sources, reach and assets</h3><p>Sources: {ro.source_cells:,} cells in "
+        f"{ro.source_patches:,} "
         f"patches ({ro.source_ha:,.2f} ha); reach {ro.reach_ha:,.2f} ha on the ground. "
         f"{esc(ro.rule[:1].upper() + ro.rule[1:])}. Reach is an empirical screening estimate "
         "(angle of reach, Corominas 1996; spreading, Holmgren 1994): no entrainment, no "
