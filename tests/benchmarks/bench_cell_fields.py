@@ -14,9 +14,6 @@ own "scenario" step: tiles, rasters, maps, zones) and the ratio the issue asks a
 
 from __future__ import annotations
 
-import argparse
-import tempfile
-import time
 from pathlib import Path
 
 FIELDS = ("depth_m", "cohesion_kpa", "friction_deg")
@@ -113,19 +110,9 @@ def _run(folder: Path, name: str, suffix: str = "") -> float:
 
 
 def main() -> None:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--size", type=int, default=3163)
-    parser.add_argument("--workdir", type=Path, default=None)
-    args = parser.parse_args()
-    from bench_end_to_end import make_region  # beside this script
+    from bench_storm_map import bench_region  # beside this script
 
-    folder = args.workdir or Path(tempfile.mkdtemp(prefix="slopescreen-fields-bench-"))
-    started = time.perf_counter()
-    make_region(folder, args.size)
-    write_inputs(folder, args.size)
-    cells = args.size**2
-    print(f"region {args.size} x {args.size} ({cells / 1e6:.1f} M cells) made in "
-          f"{time.perf_counter() - started:.0f} s under {folder}")  # fmt: skip
+    folder, cells = bench_region(__doc__.splitlines()[0], "fields", write_inputs)
     _run(folder, "constants")  # terrain and the compiled kernels warmed up, not timed
     took: dict[str, float] = {}
     for _ in range(2):

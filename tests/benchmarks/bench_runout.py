@@ -12,10 +12,7 @@ at most 3x) and the reach's extent. Not a test: no assertion.
 
 from __future__ import annotations
 
-import argparse
 import json
-import tempfile
-import time
 from pathlib import Path
 
 SCENARIOS = """[region]
@@ -44,20 +41,12 @@ travel_angle_deg = 8.0  # a mobile flow (below the valley sides), so that the sw
 
 
 def main() -> None:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--size", type=int, default=3163)
-    parser.add_argument("--workdir", type=Path, default=None)
-    args = parser.parse_args()
-    from bench_end_to_end import make_region  # beside this script
-    from bench_storm_map import scenario_seconds
+    from bench_storm_map import bench_region, scenario_seconds  # beside this script
 
-    folder = args.workdir or Path(tempfile.mkdtemp(prefix="slopescreen-runout-bench-"))
-    started = time.perf_counter()
-    make_region(folder, args.size)
-    (folder / "scenarios.toml").write_text(SCENARIOS)
-    cells = args.size**2
-    print(f"region {args.size} x {args.size} ({cells / 1e6:.1f} M cells) made in "
-          f"{time.perf_counter() - started:.0f} s under {folder}")  # fmt: skip
+    def write(folder: Path, _: int) -> None:
+        (folder / "scenarios.toml").write_text(SCENARIOS)
+
+    folder, _ = bench_region(__doc__.splitlines()[0], "runout", write)
     scenario_seconds(folder, "steady")  # terrain and the compiled kernels warmed up
     scenario_seconds(folder, "with_runout")
     steady, runout = float("inf"), float("inf")

@@ -18,6 +18,7 @@ import subprocess
 import sys
 import tempfile
 import time
+from collections.abc import Callable
 from pathlib import Path
 
 SCENARIOS = """[region]
@@ -96,20 +97,32 @@ def scenario_seconds(folder: Path, name: str, toml: str = "scenarios.toml") -> f
 _run = scenario_seconds
 
 
-def main() -> None:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+def bench_region(
+    description: str, prefix: str, write: Callable[[Path, int], None]
+) -> tuple[Path, int]:
+    """The benchmarks' invented region (``--size`` cells a side, ``--workdir`` or a new
+    folder), its inputs written by ``write(folder, size)``: (folder, cells). Also used by
+    bench_cell_fields.py and bench_runout.py."""
+    parser = argparse.ArgumentParser(description=description)
     parser.add_argument("--size", type=int, default=3163)
     parser.add_argument("--workdir", type=Path, default=None)
     args = parser.parse_args()
     from bench_end_to_end import make_region  # beside this script
 
-    folder = args.workdir or Path(tempfile.mkdtemp(prefix="slopescreen-storm-bench-"))
+    folder = args.workdir or Path(tempfile.mkdtemp(prefix=f"slopescreen-{prefix}-bench-"))
     started = time.perf_counter()
     make_region(folder, args.size)
-    write_inputs(folder)
+    write(folder, args.size)
     cells = args.size**2
     print(f"region {args.size} x {args.size} ({cells / 1e6:.1f} M cells) made in "
           f"{time.perf_counter() - started:.0f} s under {folder}")  # fmt: skip
+    return folder, cells
+
+
+def main() -> None:
+    folder, cells = bench_region(
+        __doc__.splitlines()[0], "storm", lambda folder, _: write_inputs(folder)
+    )
     _run(folder, "steady")  # terrain and the compiled kernels warmed up, not timed
     _run(folder, "constant_storm")
     took = {name: _run(folder, name) for name in
