@@ -128,3 +128,28 @@ def test_sources_from_the_inventory_and_from_the_probability(tmp_path):
     height = 0.8 * (PLANE - 1 - col) * CELL  # the slide's cell above the flat
     last = int(np.flatnonzero(reach[row] == 1)[-1])
     assert last == col + math.floor(height / math.tan(math.radians(20.0)) / (CELL * 0.9996))
+
+
+def test_sources_weighted_by_their_probability_of_failure(tmp_path):
+    """Probability sources: every cell above the limit starts flow in proportion to its
+    P(FS < 1), so a source cell passes at least its own share p / sum(p) of all source
+    flow, and the assets table gives the highest P among the sources reaching an asset."""
+    toml, _ = _region(
+        tmp_path,
+        '[runout]\nscenarios = ["wet"]\nsource = "probability"\nprobability_above = 0.5\n'
+        'travel_angle_deg = 20.0\nassets = "assets.gpkg"\nasset_field = "name"\n',
+    )
+    frame = gpd.read_file(tmp_path / "soils.geojson")
+    frame["cohesion_kpa_sd"] = 0.8  # a spread: probabilities of failure
+    frame.to_file(tmp_path / "soils.geojson", driver="GeoJSON")
+    out = tmp_path / "out"
+    run(toml, out, progress=False, echo=lambda s: None)
+    p = _read(out / "wet" / "probability_of_failure.tif").astype(float)
+    share = _read(out / "wet" / "runout_source_share.tif").astype(float)
+    source = p > 0.5
+    assert source.any() and (share[source] > 0).all()
+    own = p[source] / p[source].sum()
+    assert (share[source] >= own * (1 - 1e-6)).all()  # float32 storage
+    with open(out / "wet" / "runout_assets.csv") as handle:
+        rows = {r["asset"]: r for r in csv.DictReader(handle)}
+    assert 0.5 < float(rows["valley road"]["source_value"]) <= 1.0
