@@ -55,7 +55,27 @@ def run(args: argparse.Namespace) -> int:
     for sc in cfg.scenarios:
         extra = f", seismic k_h {sc.seismic_coefficient:g}" if sc.seismic_coefficient else ""
         over = f", overrides for {', '.join(sc.soil_overrides)}" if sc.soil_overrides else ""
-        print(f"    {sc.name}: {sc.wetness}{extra}{over}")
+        cells = f", year {sc.year}" if sc.year is not None else ""
+        cells += ", depth: the units' numbers" if not sc.use_soil_depth else ""
+        cells += ", roots: the units' numbers" if not sc.use_land_cover else ""
+        print(f"    {sc.name}: {sc.wetness}{extra}{over}{cells}")
+    for model in cfg.region.soil_depth:
+        print(f"  soil depth of {', '.join(model.units) or 'every unit'}: {model.text}")
+    for name, by_code in sorted(soils.rasters.items()):
+        units = ", ".join(soils.keys[c - 1] for c in sorted(by_code))
+        files = ", ".join(sorted({p.name for p in by_code.values()}))
+        print(f"  {name} cell by cell from {files} ({units}): checked to cover and in range")
+    cover = cfg.region.land_cover
+    if cover is not None:
+        print(
+            f"  root cohesion from land cover {cover.path.name}: {len(cover.classes)} classes "
+            f"({', '.join(cover.classes)}), {cover.root_profile} profile"
+        )
+    ro = cfg.runout
+    if ro is not None:
+        print(f"  run-out for {', '.join(ro.scenarios)}: {ro.reach_rule}")
+        if ro.assets is not None:
+            print(f"  assets checked for reach: {ro.assets.name}")
     spreads = bool(soils.spreads)
     if spreads:
         print(
@@ -81,6 +101,14 @@ def run(args: argparse.Namespace) -> int:
     if any(sc.storm for sc in cfg.scenarios):
         extra = [f for f in written(SCENARIO_OUTPUTS, storm=True, **settings) if f not in wanted]
         print(f"  storm scenarios also: {', '.join(extra)}")
+    if ro is not None:
+        extra = written(
+            SCENARIO_OUTPUTS, storm=False, runout=True, assets=ro.assets is not None, **settings
+        )
+        print(f"  run-out scenarios also: {', '.join(f for f in extra if f not in wanted)}")
+    if cover is not None:
+        extra = written(SCENARIO_OUTPUTS, storm=False, land_cover=True, **settings)
+        print(f"  with land cover also: {', '.join(f for f in extra if f not in wanted)}")
     across = "comparison/, report.html, " if cfg.report else ""
     across += "inventory_scores.csv, " if inv is not None else ""
     print(f"  across scenarios: {across}manifest.json")

@@ -49,7 +49,11 @@ class RunoutSpec:
             rule = f"travel angle by source volume from {name}"
         else:
             a, b = self.regression
-            rule = f"angle of reach from the source volume: log10(H/L) = {a:g} + {b:g} log10(V)"
+            sign = "+" if b >= 0 else "-"
+            rule = (
+                f"angle of reach from the source volume: log10(H/L) = {a:g} {sign} "
+                f"{abs(b):g} log10(V)"
+            )
         if self.friction_angle_deg is not None:
             cap = (
                 ""
