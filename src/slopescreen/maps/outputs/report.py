@@ -342,8 +342,6 @@ def _soil_table(cfg: Config, soils: SoilUnits) -> str:
 
 def _cell_field_notes(cfg: Config, scenarios: list[ScenarioSummary]) -> list[str]:
     """The depth models and the land-cover classes (roots in each scenario's year)."""
-    from slopescreen.root_cohesion import root_cohesion_after_harvest_kpa
-
     parts = []
     region = cfg.region
     if region.soil_depth:
@@ -364,21 +362,7 @@ def _cell_field_notes(cfg: Config, scenarios: list[ScenarioSummary]) -> list[str
         years = sorted({sc.year for sc in cfg.scenarios if sc.year is not None and sc.name in ran})
         rows = []
         for name, c in cover.classes.items():
-            after = []
-            for year in years:
-                value = c.root_cohesion_kpa
-                if math.isfinite(c.harvest_year):
-                    regrown = (
-                        c.root_cohesion_kpa
-                        if math.isnan(c.regrown_root_cohesion_kpa)
-                        else c.regrown_root_cohesion_kpa
-                    )
-                    value = float(
-                        root_cohesion_after_harvest_kpa(
-                            year - c.harvest_year, c.root_cohesion_kpa, regrown, *c.constants
-                        )
-                    )
-                after.append(num(value, ".2f"))
+            after = [num(c.roots_in(year), ".2f") for year in years]
             rows.append(
                 [
                     esc(name),

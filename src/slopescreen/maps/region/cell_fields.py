@@ -37,7 +37,7 @@ from slopescreen.maps.io.grid import Grid
 from slopescreen.maps.region.config import SOIL_FIELDS, Region, Scenario
 from slopescreen.maps.region.field_config import CoverClass, DepthModel, LandCover
 from slopescreen.maps.region.soils import SoilUnits
-from slopescreen.root_cohesion import root_cohesion_after_harvest_kpa, root_cohesion_at_depth_kpa
+from slopescreen.root_cohesion import root_cohesion_at_depth_kpa
 from slopescreen.soil_depth import (
     elevation_linear_depth_m,
     laplacian_per_m,
@@ -60,6 +60,7 @@ class CellSoil:
     depth: dict[int, DepthModel] = field(default_factory=dict)  # unit code -> model
     cover: LandCover | None = None
     cover_units: frozenset[int] = frozenset()  # the unit codes land cover sets roots on
+    cover_sha256: str = ""  # the land-cover file's content (keys its polygons in memory)
     year: int | None = None
     dem: Path | None = None
     dem_unit: str = "m"
@@ -107,19 +108,7 @@ class CellSoil:
         assert self.cover is not None
         out = {}
         for name, cls in self.cover.classes.items():
-            full = cls.root_cohesion_kpa
-            value = full
-            if math.isfinite(cls.harvest_year) and self.year is not None:
-                regrown = (
-                    full
-                    if math.isnan(cls.regrown_root_cohesion_kpa)
-                    else (cls.regrown_root_cohesion_kpa)
-                )
-                value = float(
-                    root_cohesion_after_harvest_kpa(
-                        self.year - cls.harvest_year, full, regrown, *cls.constants
-                    )
-                )
+            value, full = cls.roots_in(self.year), cls.root_cohesion_kpa
             out[name] = (value, value / full if full > 0 else 1.0)
         return out
 
@@ -159,6 +148,7 @@ def cell_soil(
         depth=depth,
         cover=cover,
         cover_units=cover_units,
+        cover_sha256=cover_digest(cover),
         year=sc.year,
         dem=region.dem,
         dem_unit=region.dem_elevation_unit,
@@ -363,6 +353,13 @@ def model_depth_m(model: DepthModel, terrain: _Terrain, raster: Any) -> np.ndarr
     return raster(model.path, "depth_m", model.resampling)
 
 
+def cover_digest(cover: LandCover | None) -> str:
+    """sha256 of the land-cover file's bytes ("" without land cover)."""
+    from slopescreen.maps.io.safe_writes import file_sha256
+
+    return "" if cover is None else file_sha256(cover.path)
+
+
 def cover_classes(cs: CellSoil, grid: Grid, rows: slice, cols: slice) -> np.ndarray:
     """The tile's land-cover class per cell: 1 + the index of the class in the table, 0 for
     none. A raster's values are read by nearest cell; a value not in the table is -1."""
@@ -370,7 +367,7 @@ def cover_classes(cs: CellSoil, grid: Grid, rows: slice, cols: slice) -> np.ndar
     assert cover is not None
     names = list(cover.classes)
     if cover.polygons:
-        frame = _cover_polygons(cover, grid)
+        frame = _cover_polygons(cover, grid, cs.cover_sha256)
         from slopescreen.maps.io.shapes import rasterize_tile
 
         return rasterize_tile(frame, "class_code", grid, rows, cols).astype(np.int64)
@@ -397,10 +394,11 @@ def cover_classes(cs: CellSoil, grid: Grid, rows: slice, cols: slice) -> np.ndar
 _POLYGONS: dict[tuple[str, str, str], Any] = {}
 
 
-def _cover_polygons(cover: LandCover, grid: Grid) -> Any:
+def _cover_polygons(cover: LandCover, grid: Grid, digest: str) -> Any:
     """The land-cover polygons in the DEM's CRS with a class_code field (read once per
-    process and file)."""
-    key = (str(cover.path), str(cover.layer), grid.crs.to_wkt())  # type: ignore[attr-defined]
+    process and file content)."""
+    # keyed by the file's bytes (hashed once per job): a file rewritten in place is read again
+    key = (digest, str(cover.layer), grid.crs.to_wkt())  # type: ignore[attr-defined]
     if key not in _POLYGONS:
         from slopescreen.maps.io.shapes import read_layer
 
@@ -478,30 +476,24 @@ def content_key(cs: CellSoil) -> str:
     return digest.hexdigest()
 
 
-_RANGES: dict[tuple[str, str], tuple[float, float]] = {}
-
-
 def elevation_range(region: Region, grid: Grid) -> tuple[float, float]:
     """The DEM's lowest and highest data cell (m), read tile by tile when an elevation
-    model needs them (NaN otherwise); once per process and DEM."""
+    model needs them (NaN otherwise)."""
     needed = any(
         m.model == "elevation_linear" and math.isnan(m.value("low_elevation_m"))
         for m in region.soil_depth
     )
     if not needed:
         return (math.nan, math.nan)
-    key = (str(region.dem), region.dem_elevation_unit)
-    if key not in _RANGES:
-        from slopescreen.maps.io.grid import read_elevations
-        from slopescreen.maps.io.rasters import windows
+    from slopescreen.maps.io.grid import read_elevations
+    from slopescreen.maps.io.rasters import windows
 
-        low, high = math.inf, -math.inf
-        for rows, cols in windows(grid):
-            z = read_elevations(region.dem, region.dem_elevation_unit, rows, cols)
-            if np.isfinite(z).any():
-                low, high = min(low, float(np.nanmin(z))), max(high, float(np.nanmax(z)))
-        _RANGES[key] = (low, high) if high > low else (low, low + 1.0)
-    return _RANGES[key]
+    low, high = math.inf, -math.inf
+    for rows, cols in windows(grid):
+        z = read_elevations(region.dem, region.dem_elevation_unit, rows, cols)
+        if np.isfinite(z).any():
+            low, high = min(low, float(np.nanmin(z))), max(high, float(np.nanmax(z)))
+    return (low, high) if high > low else (low, low + 1.0)
 
 
 def cell_input_files(units: SoilUnits, region: Region) -> list[Path]:
@@ -542,7 +534,11 @@ def check_cell_inputs(units: SoilUnits, region: Region, grid: Grid, dem_cells: A
 
     bad_count: dict[tuple[str, Path, str], int] = {}
     first: dict[tuple[str, Path, str], str] = {}
-    every = CellSoil(cover=cover, cover_units=frozenset(range(1, len(units.keys) + 1)))
+    every = CellSoil(
+        cover=cover,
+        cover_units=frozenset(range(1, len(units.keys) + 1)),
+        cover_sha256=cover_digest(cover),
+    )
     for rows, cols in windows(grid):
         codes = units.rasterize(grid, rows, cols)
         mapped = dem_cells(rows, cols) & (codes > 0)

@@ -15,7 +15,11 @@ from slopescreen.errors import InputError
 from slopescreen.maps.io.textfiles import read_text
 from slopescreen.maps.region.scenario_schema import SCHEMA, limits
 from slopescreen.ranges import RANGES
-from slopescreen.root_cohesion import DEFAULT_CONSTANTS, ROOT_PROFILES
+from slopescreen.root_cohesion import (
+    DEFAULT_CONSTANTS,
+    ROOT_PROFILES,
+    root_cohesion_after_harvest_kpa,
+)
 
 DEPTH_MODELS: dict[str, tuple[str, ...]] = {  # model -> its keys (required first)
     "slope_linear": ("gentle_slope_deg", "steep_slope_deg", "gentle_depth_m", "steep_depth_m"),
@@ -73,6 +77,21 @@ class CoverClass:
     regrown_root_cohesion_kpa: float = math.nan
     constants: tuple[float, float, float, float] = DEFAULT_CONSTANTS
     description: str = ""
+
+    def roots_in(self, year: int | None) -> float:
+        """Root cohesion (kPa) in ``year``: after the harvest, decay and regrowth (Sidle
+        1991 forms, :func:`slopescreen.root_cohesion.root_cohesion_after_harvest_kpa`);
+        the stand's value without a harvest year or a year."""
+        if not math.isfinite(self.harvest_year) or year is None:
+            return self.root_cohesion_kpa
+        regrown = self.regrown_root_cohesion_kpa
+        if math.isnan(regrown):
+            regrown = self.root_cohesion_kpa
+        return float(
+            root_cohesion_after_harvest_kpa(
+                year - self.harvest_year, self.root_cohesion_kpa, regrown, *self.constants
+            )
+        )
 
 
 @dataclass(frozen=True)

@@ -29,7 +29,7 @@ from slopescreen.maps.outputs.output_names import (
 from slopescreen.maps.region.config import Config, Scenario
 from slopescreen.maps.region.runout_config import RunoutSpec
 from slopescreen.maps.region.terrain_cache import NODATA_F32
-from slopescreen.runout import GRAVITY_M_S2, reach_ratio
+from slopescreen.runout import reach_ratio
 
 
 @dataclass
@@ -88,9 +88,10 @@ def _tan_alpha(spec: RunoutSpec, volume_m3: np.ndarray) -> np.ndarray:
 
 
 def sources(
-    spec: RunoutSpec, sc: Scenario, out: Path, grid: Grid, inventory: Any
+    spec: RunoutSpec, sc: Scenario, out: Path, grid: Grid, inventory: Any, fs: np.ndarray
 ) -> tuple[np.ndarray, np.ndarray]:
-    """(source mask, each cell's weight: 1 or its P(FS < 1)) of a scenario's run-out."""
+    """(source mask, each cell's weight: 1 or its P(FS < 1)) of a scenario's run-out;
+    ``fs``: the scenario's FS on the whole grid (NaN for no data)."""
     if spec.source == "probability":
         if not (out / PROBABILITY).exists():
             raise InputError(
@@ -100,7 +101,6 @@ def sources(
         p = _whole(out / PROBABILITY, grid)
         mask = np.isfinite(p) & (p > spec.probability_above)
         return mask, np.where(mask, p, 0.0)
-    fs = _whole(out / FS, grid)
     if spec.source == "fs":
         mask = np.isfinite(fs) & (fs < spec.fs_below)
     else:
@@ -129,7 +129,8 @@ def runout_outputs(
     area = np.broadcast_to(
         grid.ground.cell_area_m2(slice(0, grid.height), slice(0, grid.width)), shape
     )
-    mask, weight = sources(spec, sc, out, grid, inventory)
+    fs = _whole(out / FS, grid)
+    mask, weight = sources(spec, sc, out, grid, inventory, fs)
     mask &= np.isfinite(z)
     depth = np.nan_to_num(_whole(out / SOIL_DEPTH, grid), nan=0.0)
     labels, n = label_patches(mask)
@@ -152,7 +153,6 @@ def runout_outputs(
         # source it comes from
         margin.ravel()[cells] = 0.0
         ta.ravel()[cells] = tan_alpha[lab]
-    fs = _whole(out / FS, grid)
     probability = spec.source == "probability"
     worst = np.full(shape, np.inf)
     worst.ravel()[cells] = (-weight if probability else fs).ravel()[cells]
@@ -401,6 +401,3 @@ def _draw(
         no_data_label="no data",
         colours=np.array([hex_rgb(code) for _, code in MAP_CLASSES]),
     )
-
-
-__all__ = ["GRAVITY_M_S2", "RunoutResult", "runout_outputs", "sources"]

@@ -302,7 +302,7 @@ def _initial_water_table(job: TileJob, block: dict[str, np.ndarray]) -> np.ndarr
 def _lookup(block: dict[str, np.ndarray]) -> tuple[np.ndarray, Any]:
     """(look-up codes, tables) for the kernels: the unit codes and tables where no soil
     field varies by cell, else every cell its own entry of the per-cell fields."""
-    if isinstance(block, SoilBlock) and block.tables is not None:
+    if isinstance(block, SoilBlock) and block.by_unit:
         return block["codes"], block.tables
     return np.arange(block["codes"].size, dtype=np.int64), block
 

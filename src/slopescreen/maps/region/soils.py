@@ -256,7 +256,7 @@ def _unit_spreads(
                     f"{source}: unit {unit!r}, field {name}_{k}: a raster may give a spread's "
                     "_sd or _cov only (one value per cell); give a number"
                 )
-        cell = [k for k in ("sd", "cov") if raw[k] is not None and rasters.get(f"{name}_{k}")]
+        cell = [k for k in ("sd", "cov") if f"{name}_{k}" in rasters]
         if cell:
             kind = str(raw.get("distribution") or "").strip() or "normal"
             if kind not in ("normal", "lognormal"):
@@ -264,7 +264,7 @@ def _unit_spreads(
                     f"{source}: unit {unit!r}, field {name}_{cell[0]}: a spread from a raster "
                     f"is normal or lognormal, not {kind}"
                 )
-            if len([k for k in ("sd", "cov") if str(raw[k] or "").strip()]) > 1:
+            if len([k for k in ("sd", "cov") if k in cell or str(raw[k] or "").strip()]) > 1:
                 raise InputError(
                     f"{source}: unit {unit!r}, field {name}: give {name}_sd or {name}_cov, not both"
                 )
@@ -467,10 +467,7 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
                 record[name] = None
         given = frozenset(found) | ({"depth_m"} if k in modelled else frozenset())
         values = {name: _to_float(source, k, name, record.get(name)) for name in SOIL_FIELDS}
-        unit_spreads, rho, unit_covs, kinds = _unit_spreads(
-            source, k, {**record, **{n: str(p) for n, p in found.items() if n not in SOIL_FIELDS}},
-            values, found, given,
-        )  # fmt: skip
+        unit_spreads, rho, unit_covs, kinds = _unit_spreads(source, k, record, values, found, given)
         _check_unit(source, k, values, given)
         for name, v in values.items():
             params[name][code] = v
