@@ -8,20 +8,35 @@ REGION = Path(__file__).resolve().parents[1] / "demo_region"
 
 
 @pytest.fixture(scope="session")
-def demo_out(tmp_path_factory):
+def demo_out(tmp_path_factory, worker_id):
     """The demo command (lab fit, hillside check, every scenario of the demo region, the
-    known-landslide checks) run once for the session: (output folder, console lines)."""
+    known-landslide checks) run once for the session: (output folder, console lines). With
+    pytest-xdist the workers share one run: the first to take the lock runs it, the others
+    wait and read it (the tests only read the demo's outputs)."""
     import contextlib
+    import fcntl
     import io
+    import json
 
     from slopescreen.cli.main import main
 
-    out = tmp_path_factory.mktemp("quillbrook")
-    text = io.StringIO()
-    with contextlib.redirect_stdout(text):
-        code = main(["demo", "--region", str(REGION), "--out", str(out)])
-    assert code == 0, text.getvalue()
-    return out, text.getvalue().splitlines()
+    def demo(out):
+        text = io.StringIO()
+        with contextlib.redirect_stdout(text):
+            code = main(["demo", "--region", str(REGION), "--out", str(out)])
+        assert code == 0, text.getvalue()
+        return text.getvalue().splitlines()
+
+    if worker_id == "master":  # one process
+        out = tmp_path_factory.mktemp("quillbrook")
+        return out, demo(out)
+    shared = tmp_path_factory.getbasetemp().parent
+    out, said = shared / "quillbrook", shared / "quillbrook-lines.json"
+    with open(shared / "quillbrook.lock", "w") as lock:
+        fcntl.flock(lock, fcntl.LOCK_EX)
+        if not said.exists():
+            said.write_text(json.dumps(demo(out)))
+    return out, json.loads(said.read_text())
 
 
 # modules whose every test runs whole regions, clusters or dense references

@@ -153,3 +153,39 @@ def test_sources_weighted_by_their_probability_of_failure(tmp_path):
     with open(out / "wet" / "runout_assets.csv") as handle:
         rows = {r["asset"]: r for r in csv.DictReader(handle)}
     assert 0.5 < float(rows["valley road"]["source_value"]) <= 1.0
+
+
+@pytest.mark.parametrize("source", ["fs", "probability"])
+def test_tiles_do_not_change_the_runout(tmp_path, monkeypatch, source):
+    """Tiles of 7 cells against one tile: the source patches cross tile edges (their
+    volumes, and so their angles by the regression, are joined), the flow crosses them and
+    the flat floor; the reach and angles are the same, the shares to float32 storage."""
+    from slopescreen.maps.region import runout_tiles
+
+    rule = 'source = "probability"\nprobability_above = 0.3\n' if source != "fs" else ""
+    toml, _ = _region(
+        tmp_path,
+        f'[runout]\nscenarios = ["wet"]\n{rule}min_source_area_m2 = 2500.0\n'
+        'assets = "assets.gpkg"\nasset_field = "name"\n',
+    )
+    frame = gpd.read_file(tmp_path / "soils.geojson")
+    frame["cohesion_kpa_sd"] = 0.8
+    frame.to_file(tmp_path / "soils.geojson", driver="GeoJSON")
+    outs = {}
+    for size in (1000, 7):
+        monkeypatch.setattr(runout_tiles, "RUNOUT_TILE", size)
+        outs[size] = tmp_path / f"out{size}"
+        run(toml, outs[size], progress=False, echo=lambda s: None)
+    one, many = outs[1000] / "wet", outs[7] / "wet"
+    reach = _read(one / "runout_reach.tif")
+    assert (reach == 1).sum() > 200
+    for name in ("runout_reach.tif", "runout_travel_angle_deg.tif"):
+        assert np.array_equal(_read(one / name), _read(many / name)), name
+    np.testing.assert_allclose(
+        _read(many / "runout_source_share.tif"), _read(one / "runout_source_share.tif"),
+        rtol=1e-6,
+    )  # fmt: skip
+    assert (one / "runout_assets.csv").read_text() == (many / "runout_assets.csv").read_text()
+    zones = [gpd.read_file(o / "runout_zones.gpkg") for o in (one, many)]
+    assert len(zones[0]) == len(zones[1])
+    assert zones[0]["area_m2"].sum() == pytest.approx(zones[1]["area_m2"].sum(), rel=1e-12)

@@ -27,8 +27,8 @@ def _run(z, sources, tan_alpha, margin=0.0, exponent=1.0, tan_phi=-1.0, max_ener
     cut = np.zeros(z.shape, np.uint8)
     worst = np.full(z.shape, np.inf)
     stopped, dropped = spread_reach(
-        z, steps, steps, mass, room, ta, exponent, tan_phi, max_energy, min_mass, share, cut,
-        worst,
+        z, steps, steps, mass, room, ta, np.zeros(z.shape), exponent, tan_phi, max_energy,
+        min_mass, share, cut, worst,
     )  # fmt: skip
     return (share > 0).astype(np.uint8), cut, share, stopped, dropped
 

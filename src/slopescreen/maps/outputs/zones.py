@@ -7,6 +7,7 @@ does not depend on the tiling.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
@@ -19,8 +20,8 @@ ZONE_CLASSES = (1, 2)  # the two least stable classes
 _UNIT_SPAN = 65536
 
 
-def _tile_polygons(classes: np.ndarray, codes: np.ndarray, transform: object) -> list[tuple]:
-    """(polygon, class, unit code) of every 4-connected patch of classes 1-2 in a tile.
+def _tile_polygons(label: np.ndarray, transform: object) -> list[tuple]:
+    """(polygon, label) of every 4-connected patch of equal positive labels in a tile.
 
     Polygons are built in one vectorised shapely call from the traced rings (one Python
     object per polygon would dominate the run time on large regions).
@@ -28,13 +29,12 @@ def _tile_polygons(classes: np.ndarray, codes: np.ndarray, transform: object) ->
     import shapely
     from rasterio import features
 
-    mask = np.isin(classes, ZONE_CLASSES) & (codes > 0)
+    mask = label > 0
     if not mask.any():
         return []
-    label = (classes.astype(np.int32) * _UNIT_SPAN + codes.astype(np.int32)) * mask
     rings, ring_owner, values = [], [], []
     for k, (geom, value) in enumerate(
-        features.shapes(label, mask=mask, transform=transform, connectivity=4)
+        features.shapes(label.astype(np.int32), mask=mask, transform=transform, connectivity=4)
     ):
         values.append(int(value))
         for ring in geom["coordinates"]:
@@ -45,9 +45,42 @@ def _tile_polygons(classes: np.ndarray, codes: np.ndarray, transform: object) ->
         np.concatenate(rings), indices=np.repeat(np.arange(len(rings)), lengths)
     )
     polygons = shapely.polygons(made, indices=np.asarray(ring_owner))
-    return [
-        (poly, v // _UNIT_SPAN, v % _UNIT_SPAN) for poly, v in zip(polygons, values, strict=True)
-    ]
+    return list(zip(polygons, values, strict=True))
+
+
+def traced_patches(
+    read: Callable[[slice, slice], np.ndarray], grid: Grid
+) -> tuple[list[object], list[int]]:
+    """(polygons, labels) of the 4-connected patches of equal positive labels that ``read``
+    returns window by window (int32 or bool). Traced tile by tile, so memory stays bounded;
+    pieces that meet across a tile edge are merged by label afterwards, so the result does
+    not depend on the tiling. Pieces inside one tile come first, in tracing order, then the
+    merged ones by label."""
+    import geopandas as gpd
+    import shapely
+    from rasterio.windows import Window, transform
+
+    pieces: list[tuple] = []
+    edges = []
+    for rows, cols in windows(grid):
+        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
+        t = transform(window, grid.transform)
+        pieces += _tile_polygons(np.asarray(read(rows, cols)), t)
+        x0, y0 = t.c, t.f
+        x1, y1 = t.c + t.a * (cols.stop - cols.start), t.f + t.e * (rows.stop - rows.start)
+        edges.append(shapely.box(min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1)).boundary)
+    geoms = [p[0] for p in pieces]
+    labels = [p[1] for p in pieces]
+    if len(edges) > 1 and pieces:
+        frame = gpd.GeoDataFrame({"label": labels}, geometry=geoms, crs=grid.crs)
+        outer = shapely.box(*grid_bounds(grid)).boundary
+        inner_edges = shapely.difference(shapely.union_all(edges), outer)
+        on_edge = frame.intersects(inner_edges).to_numpy()
+        merged = frame[on_edge].dissolve(by="label", as_index=False)
+        merged = merged.explode(index_parts=False)
+        geoms = list(frame.geometry[~on_edge]) + list(merged.geometry)
+        labels = list(frame["label"][~on_edge]) + [int(v) for v in merged["label"]]
+    return geoms, labels
 
 
 def low_margin_zones(
@@ -64,44 +97,20 @@ def low_margin_zones(
     soil unit; patches under ``min_area_m2`` (the minimum mapping unit, on the ground) are
     dropped. Areas are ground areas in m2 (:func:`ground_areas_m2`), whatever the CRS."""
     import geopandas as gpd
-    import shapely
-    from rasterio.windows import Window, transform
 
-    pieces: list[tuple] = []
-    edges = []
-    for rows, cols in windows(grid):
-        window = Window(cols.start, rows.start, cols.stop - cols.start, rows.stop - rows.start)
-        t = transform(window, grid.transform)
-        found = _tile_polygons(
-            read_block(class_path, rows, cols), read_block(codes_path, rows, cols), t
-        )
-        pieces += found
-        x0, y0 = t.c, t.f
-        x1, y1 = t.c + t.a * (cols.stop - cols.start), t.f + t.e * (rows.stop - rows.start)
-        edges.append(shapely.box(min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1)).boundary)
+    def label(rows: slice, cols: slice) -> np.ndarray:
+        classes, codes = read_block(class_path, rows, cols), read_block(codes_path, rows, cols)
+        mask = np.isin(classes, ZONE_CLASSES) & (codes > 0)
+        return (classes.astype(np.int32) * _UNIT_SPAN + codes.astype(np.int32)) * mask
+
+    geoms, labels = traced_patches(label, grid)
+    values = np.asarray(labels, np.int64)
     frame = gpd.GeoDataFrame(
-        {"stability_class": [p[1] for p in pieces], "code": [p[2] for p in pieces]},
-        geometry=[p[0] for p in pieces],
+        {"stability_class": values // _UNIT_SPAN, "code": values % _UNIT_SPAN},
+        geometry=geoms,
         crs=grid.crs,
     )
-    if len(edges) > 1 and len(frame):
-        outer = shapely.box(*grid_bounds(grid)).boundary
-        inner_edges = shapely.difference(shapely.union_all(edges), outer)
-        on_edge = frame.intersects(inner_edges)
-        merged = frame[on_edge].dissolve(by=["stability_class", "code"], as_index=False)
-        merged = merged.explode(index_parts=False)
-        frame = gpd.GeoDataFrame(
-            np.concatenate(
-                [
-                    frame[~on_edge][["stability_class", "code"]].to_numpy(),
-                    merged[["stability_class", "code"]].to_numpy(),
-                ]
-            ),
-            columns=["stability_class", "code"],
-            geometry=list(frame[~on_edge].geometry) + list(merged.geometry),
-            crs=grid.crs,
-        )
-        frame = frame.sort_values(["stability_class", "code"], kind="stable")
+    frame = frame.sort_values(["stability_class", "code"], kind="stable")
     frame["scenario"] = scenario
     frame["class_name"] = [class_names[int(c) - 1] for c in frame["stability_class"]]
     frame["soil_unit"] = [unit_keys[int(c) - 1] for c in frame["code"]]

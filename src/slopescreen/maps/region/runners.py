@@ -36,3 +36,9 @@ def threaded_runner(fn: Callable[..., dict], jobs: list[tuple]) -> Iterator[dict
     threads = max(1, min(os.cpu_count() or 1, 8))
     with ThreadPoolExecutor(threads) as pool:
         yield from in_order(lambda *args: pool.submit(fn, *args), jobs, 2 * threads)
+
+
+def side_by_side(runner: Runner) -> Runner:
+    """The run's cluster, or a thread per core (at most 8) instead of one after another:
+    for tasks that release the GIL in their compiled kernels and numpy."""
+    return threaded_runner if runner is serial_runner else runner

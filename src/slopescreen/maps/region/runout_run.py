@@ -1,6 +1,6 @@
-"""Run-out of one scenario (``[runout]``): its source cells and patches, the reach sweep
-(:mod:`slopescreen.maps.terrain.reach`) on the whole grid, the reach rasters, zones and
-map, and the assets lying in reach. Reach is an empirical screening estimate."""
+"""Run-out of one scenario (``[runout]``): its source patches and the reach sweep, tile by
+tile (:mod:`slopescreen.maps.region.runout_tiles`), then the reach rasters, zones and map,
+and the assets lying in reach. Reach is an empirical screening estimate."""
 
 from __future__ import annotations
 
@@ -12,8 +12,9 @@ from typing import Any
 import numpy as np
 
 from slopescreen.errors import InputError
-from slopescreen.maps.io.grid import Grid, read_elevations
-from slopescreen.maps.io.rasters import RasterSink, all_or_nothing, read_block, windows
+from slopescreen.maps.io.grid import Grid
+from slopescreen.maps.io.rasters import RasterSink, all_or_nothing, read_block
+from slopescreen.maps.io.safe_writes import TEMP_PREFIX, real_folder
 from slopescreen.maps.outputs.output_names import (
     FS,
     PROBABILITY,
@@ -26,10 +27,14 @@ from slopescreen.maps.outputs.output_names import (
     RUNOUT_ZONES,
     SOIL_DEPTH,
 )
+from slopescreen.maps.region import runout_tiles
 from slopescreen.maps.region.config import Config, Scenario
+from slopescreen.maps.region.runners import Runner, serial_runner, side_by_side
 from slopescreen.maps.region.runout_config import RunoutSpec
-from slopescreen.maps.region.terrain_cache import NODATA_F32
-from slopescreen.runout import reach_ratio
+from slopescreen.maps.region.runout_tiles import SourceRule
+from slopescreen.maps.region.terrain_cache import NODATA_F32, ElevationSource
+from slopescreen.maps.terrain.tiled_reach import tile_outputs
+from slopescreen.maps.terrain.tiled_routing import Layout, Tile
 
 
 @dataclass
@@ -65,148 +70,167 @@ class RunoutResult:
         }
 
 
-def _whole(path: Path, grid: Grid) -> np.ndarray:
-    """A float32 output of the run on the whole grid, float64 with NaN for no data."""
-    out = np.empty((grid.height, grid.width))
-    for rows, cols in windows(grid):
-        out[rows, cols] = read_block(path, rows, cols)
-    out[out == NODATA_F32] = np.nan
-    return out
-
-
-def _tan_alpha(spec: RunoutSpec, volume_m3: np.ndarray) -> np.ndarray:
-    """tan(alpha) of each source patch by the spec's reach rule."""
-    if spec.travel_angle_deg is not None:
-        return np.full(volume_m3.shape, math.tan(math.radians(spec.travel_angle_deg)))
-    if spec.angle_table:
-        limits = np.array([v for v, _ in spec.angle_table])
-        angles = np.array([a for _, a in spec.angle_table])
-        k = np.minimum(np.searchsorted(limits, volume_m3), limits.size - 1)
-        return np.tan(np.radians(angles[k]))
-    a, b = spec.regression
-    return np.asarray(reach_ratio(np.maximum(volume_m3, 1e-3), a, b), float)
-
-
-def sources(
-    spec: RunoutSpec, sc: Scenario, out: Path, grid: Grid, inventory: Any, fs: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    """(source mask, each cell's weight: 1 or its P(FS < 1)) of a scenario's run-out;
-    ``fs``: the scenario's FS on the whole grid (NaN for no data)."""
+def _source_rule(
+    spec: RunoutSpec, sc: Scenario, out: Path, layout: Layout, inventory: Any
+) -> SourceRule:
+    """The scenario's source cells by the spec's rule."""
     if spec.source == "probability":
         if not (out / PROBABILITY).exists():
             raise InputError(
                 f'[runout] source = "probability": scenario {sc.name} has no probability of '
                 "failure (no spread in the soil table)"
             )
-        p = _whole(out / PROBABILITY, grid)
-        mask = np.isfinite(p) & (p > spec.probability_above)
-        return mask, np.where(mask, p, 0.0)
+        return SourceRule("probability", out / PROBABILITY, spec.probability_above)
     if spec.source == "fs":
-        mask = np.isfinite(fs) & (fs < spec.fs_below)
-    else:
-        mask = np.zeros(fs.shape, bool)
-        mask[inventory.rows, inventory.cols] = True
-        mask &= np.isfinite(fs)
-    return mask, mask.astype(float)
+        return SourceRule("fs", out / FS, spec.fs_below)
+    r, c = np.asarray(inventory.rows), np.asarray(inventory.cols)
+    tile = (r // layout.size) * layout.tile_cols + c // layout.size
+    by_tile = {}
+    for t in layout.tiles():
+        here = tile == t.index
+        by_tile[t.index] = (r[here] - t.r0) * (t.c1 - t.c0) + c[here] - t.c0
+    return SourceRule("inventory", out / FS, math.inf, by_tile)
 
 
 def runout_outputs(
-    cfg: Config, sc: Scenario, grid: Grid, out: Path, terrain_dir: Path, inventory: Any = None
+    cfg: Config,
+    sc: Scenario,
+    grid: Grid,
+    out: Path,
+    terrain_dir: Path,
+    inventory: Any = None,
+    runner: Runner = serial_runner,
 ) -> RunoutResult:
-    """Every run-out output of the scenario in ``out`` (its folder)."""
+    """Every run-out output of the scenario in ``out`` (its folder), tile by tile on the
+    run's runner (a thread per core when it runs here)."""
+    import shutil
+    import tempfile
     import time
-
-    from slopescreen.maps.terrain.reach import label_patches, spread_reach
 
     started = time.perf_counter()
     spec = cfg.runout
     assert spec is not None
-    shape = (grid.height, grid.width)
-    z = read_elevations(cfg.region.dem, cfg.region.dem_elevation_unit)
-    ue, un, ve, vn = grid.ground.vectors(slice(0, grid.height), slice(0, grid.width))
-    col_step = np.ascontiguousarray(np.broadcast_to(np.hypot(ue, un), shape), np.float64)
-    row_step = np.ascontiguousarray(np.broadcast_to(np.hypot(ve, vn), shape), np.float64)
-    area = np.broadcast_to(
-        grid.ground.cell_area_m2(slice(0, grid.height), slice(0, grid.width)), shape
-    )
-    fs = _whole(out / FS, grid)
-    mask, weight = sources(spec, sc, out, grid, inventory, fs)
-    mask &= np.isfinite(z)
-    depth = np.nan_to_num(_whole(out / SOIL_DEPTH, grid), nan=0.0)
-    labels, n = label_patches(mask)
-    patch_area = np.bincount(labels.ravel(), weights=area.ravel(), minlength=n + 1)
-    keep = patch_area >= spec.min_source_area_m2
-    keep[0] = False
-    mask &= keep[labels]
-    volume = np.bincount(labels.ravel(), weights=(area * depth).ravel(), minlength=n + 1)
-    tan_alpha = _tan_alpha(spec, volume)
-    cells = np.flatnonzero(mask)
-    lab = labels.ravel()[cells]
-    mass = np.zeros(shape)
-    margin = np.full(shape, -np.inf)
-    ta = np.full(shape, np.inf)
-    total = float(weight.ravel()[cells].sum())
-    if cells.size:
-        mass.ravel()[cells] = weight.ravel()[cells] / total
-        # every source cell starts a line of reach; below the top of a source the top's
-        # line carries the larger margin, so a path is measured from the top of the
-        # source it comes from
-        margin.ravel()[cells] = 0.0
-        ta.ravel()[cells] = tan_alpha[lab]
-    probability = spec.source == "probability"
-    worst = np.full(shape, np.inf)
-    worst.ravel()[cells] = (-weight if probability else fs).ravel()[cells]
-    share = np.zeros(shape)
-    cut = np.zeros(shape, np.uint8)
-    tan_phi = -1.0
-    if spec.friction_angle_deg is not None:
-        tan_phi = math.tan(math.radians(spec.friction_angle_deg))
-    spread_reach(
-        np.ascontiguousarray(z), col_step, row_step, mass, margin, ta, spec.exponent, tan_phi,
-        spec.max_speed_m_s**2 / 2.0, spec.min_share / max(cells.size, 1), share, cut, worst,
-    )  # fmt: skip
-    reached = share > 0.0
-    data = np.isfinite(z)
-    files = _write_rasters(cfg, sc, grid, out, share, reached, ta, data, spec)
-    zones = _zones(grid, reached, out / RUNOUT_ZONES)
-    files.append(RUNOUT_ZONES)
-    result = RunoutResult(
-        rule=spec.reach_rule,
-        source_cells=int(mask.sum()),
-        source_patches=int(np.unique(labels[mask]).size),
-        source_ha=float(area[mask].sum()) / 1e4,
-        reach_ha=float(area[reached].sum()) / 1e4,
-        cut_off_cells=int((cut.astype(bool) & reached).sum()),
-        worst_label="highest source P(FS < 1)" if probability else "lowest source FS",
-    )
-    if spec.assets is not None:
-        rows = _exposure(spec, grid, share, -worst if probability else worst, zones)
-        files += _write_assets(rows, out, grid)
-        result.assets = sorted(
-            (r for r in rows if r["in_reach"]),
-            key=lambda r: -float(r["max_share"]),  # type: ignore[arg-type]
+    layout = Layout(grid.height, grid.width, runout_tiles.RUNOUT_TILE)
+    rule = _source_rule(spec, sc, out, layout, inventory)
+    dem = ElevationSource(cfg.region.dem, cfg.region.dem_elevation_unit)
+    scratch = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}runout-", dir=real_folder(out)))
+    try:
+        layout, patches, swept, _ = runout_tiles.reach_tiles(
+            spec, rule, grid, dem, out / SOIL_DEPTH, scratch, side_by_side(runner)
         )
-        result.asset_count = len(result.assets)
-        result.asset_length_m = float(sum(float(r["length_in_reach_m"]) for r in result.assets))  # type: ignore[arg-type]
-    if cfg.quicklook_map:
-        result.map = _draw(cfg, sc, grid, out, terrain_dir, _map_classes(mask, share, data))
-        files.append(RUNOUT_MAP)
+        stitched = Stitched(scratch, layout, swept)
+        files, written = _write_rasters(sc, grid, out, spec, dem, patches, stitched)
+        zones = _zones(grid, out / RUNOUT_REACH, out / RUNOUT_ZONES)
+        files.append(RUNOUT_ZONES)
+        probability = rule.probability
+        result = RunoutResult(
+            rule=spec.reach_rule,
+            source_cells=patches.cells,
+            source_patches=patches.count,
+            source_ha=patches.area_m2 / 1e4,
+            reach_ha=written.reach_m2 / 1e4,
+            cut_off_cells=written.cut_off_cells,
+            worst_label="highest source P(FS < 1)" if probability else "lowest source FS",
+        )
+        if spec.assets is not None:
+            rows = _exposure(spec, grid, stitched, probability, zones)
+            files += _write_assets(rows, out, grid)
+            result.assets = sorted(
+                (r for r in rows if r["in_reach"]),
+                key=lambda r: -float(r["max_share"]),  # type: ignore[arg-type]
+            )
+            result.asset_count = len(result.assets)
+            result.asset_length_m = float(
+                sum(float(r["length_in_reach_m"]) for r in result.assets)  # type: ignore[arg-type]
+            )
+        if cfg.quicklook_map:
+            result.map = _draw(cfg, sc, grid, out, terrain_dir, written.classes())
+            files.append(RUNOUT_MAP)
+    finally:
+        shutil.rmtree(scratch, ignore_errors=True)
     result.files = files
     result.seconds = time.perf_counter() - started
     return result
 
 
+@dataclass
+class Stitched:
+    """Windows of the swept tiles' results, stitched across tile edges."""
+
+    folder: Path
+    layout: Layout
+    swept: set[int]
+
+    def window(self, name: str, rows: slice, cols: slice) -> np.ndarray:
+        first = None
+        for t in self.layout.tiles():
+            r0, r1 = max(rows.start, t.r0), min(rows.stop, t.r1)
+            c0, c1 = max(cols.start, t.c0), min(cols.stop, t.c1)
+            if r0 >= r1 or c0 >= c1:
+                continue
+            part = tile_outputs(self.folder, t, self.swept)[name]
+            if first is None:
+                first = np.empty((rows.stop - rows.start, cols.stop - cols.start), part.dtype)
+            first[r0 - rows.start : r1 - rows.start, c0 - cols.start : c1 - cols.start] = part[
+                r0 - t.r0 : r1 - t.r0, c0 - t.c0 : c1 - t.c0
+            ]
+        assert first is not None
+        return first
+
+
+@dataclass
+class Written:
+    """What the raster pass gathers: reach area, cut-off cells and the map's cells."""
+
+    step: int
+    shown: tuple[int, int]
+    reach_m2: float = 0.0
+    cut_off_cells: int = 0
+    share: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    source: np.ndarray = field(default_factory=lambda: np.zeros(0, bool))
+    data: np.ndarray = field(default_factory=lambda: np.zeros(0, bool))
+    travelled: list[np.ndarray] = field(default_factory=list)  # shares of reached non-sources
+
+    def __post_init__(self) -> None:
+        self.share = np.zeros(self.shown)
+        self.source = np.zeros(self.shown, bool)
+        self.data = np.zeros(self.shown, bool)
+
+    def take(self, t: Tile, share: np.ndarray, source: np.ndarray, data: np.ndarray) -> None:
+        """Keep the map's cells of a tile: every ``step``-th row and column of the grid."""
+        self.travelled.append(share[(share > 0.0) & ~source])
+        rows = np.arange(-(-t.r0 // self.step) * self.step, t.r1, self.step)
+        cols = np.arange(-(-t.c0 // self.step) * self.step, t.c1, self.step)
+        rows = rows[rows // self.step < self.shown[0]]
+        cols = cols[cols // self.step < self.shown[1]]
+        at = np.ix_(rows // self.step, cols // self.step)
+        inner = np.ix_(rows - t.r0, cols - t.c0)
+        self.share[at], self.source[at], self.data[at] = share[inner], source[inner], data[inner]
+
+    def classes(self) -> np.ndarray:
+        """Classes 1-4 of :data:`MAP_CLASSES` (0: no data) on the map's cells: the reach split
+        at the median share of all reached cells that are not sources."""
+        travelled = np.concatenate(self.travelled) if self.travelled else np.zeros(0)
+        split = float(np.median(travelled)) if travelled.size else 0.0
+        reached = (self.share > 0.0) & ~self.source
+        out = np.where(self.data, 4, 0).astype(np.uint8)
+        out[reached] = np.where(self.share[reached] >= split, 2, 3)
+        out[self.source & self.data] = 1
+        return out
+
+
 def _write_rasters(
-    cfg: Config,
     sc: Scenario,
     grid: Grid,
     out: Path,
-    share: np.ndarray,
-    reached: np.ndarray,
-    tan_alpha: np.ndarray,
-    data: np.ndarray,
     spec: RunoutSpec,
-) -> list[str]:
+    dem: ElevationSource,
+    patches: runout_tiles.Patches,
+    stitched: Stitched,
+) -> tuple[list[str], Written]:
+    """The reach rasters, tile by tile, and what the zones, map and result need."""
+    from slopescreen.maps.outputs.quicklook import MAX_PIXELS
+
     tags = {
         "scenario": sc.name,
         "reach_rule": spec.reach_rule,
@@ -215,46 +239,50 @@ def _write_rasters(
         "deposition volume balance, no impact pressure",
         "ground_geometry": grid.ground.note,
     }
-    angle = np.where(reached, np.degrees(np.arctan(np.minimum(tan_alpha, 1e9))), np.nan)
     layers = {
-        RUNOUT_REACH: (np.where(data, reached, 255).astype(np.uint8), "uint8", 255,
-                       "1 where flow from a source reaches the cell, 0 where none"),
-        RUNOUT_SHARE: (np.where(data, share, np.nan), "float32", NODATA_F32,
-                       "share of all source flow passing the cell (0 to 1)"),
-        RUNOUT_ANGLE: (angle, "float32", NODATA_F32,
+        RUNOUT_REACH: ("uint8", 255, "1 where flow from a source reaches the cell, 0 where none"),
+        RUNOUT_SHARE: ("float32", NODATA_F32, "share of all source flow passing the cell (0 to 1)"),
+        RUNOUT_ANGLE: ("float32", NODATA_F32,
                        "angle of reach (degrees) of the most mobile source reaching the cell"),
     }  # fmt: skip
     sinks = {
         name: RasterSink(out / name, grid, dtype, nodata, tags=tags | {"units": what},
                          resampling="nearest" if dtype == "uint8" else "average")
-        for name, (_, dtype, nodata, what) in layers.items()
+        for name, (dtype, nodata, what) in layers.items()
     }  # fmt: skip
+    step = max(1, math.ceil(max(grid.height, grid.width) / MAX_PIXELS))
+    written = Written(step, (max(1, grid.height // step), max(1, grid.width // step)))
     with all_or_nothing(*sinks.values()):
-        for rows, cols in windows(grid):
-            for name, (values, dtype, nodata, _) in layers.items():
-                block = values[rows, cols]
-                if dtype == "float32":
-                    block = np.nan_to_num(block, nan=nodata).astype(np.float32)
+        for t in stitched.layout.tiles():
+            rows, cols = slice(t.r0, t.r1), slice(t.c0, t.c1)
+            got = tile_outputs(stitched.folder, t, stitched.swept)
+            data = np.isfinite(dem(rows, cols))
+            share = np.where(data, got["share"], 0.0)
+            reached = share > 0.0
+            angle = np.degrees(np.arctan(np.minimum(got["tan_alpha"], 1e9)))
+            blocks = {
+                RUNOUT_REACH: np.where(data, reached, 255).astype(np.uint8),
+                RUNOUT_SHARE: np.where(data, share, NODATA_F32).astype(np.float32),
+                RUNOUT_ANGLE: np.where(reached, angle, NODATA_F32).astype(np.float32),
+            }
+            for name, block in blocks.items():
                 sinks[name].write(rows, cols, block)
-    return list(layers)
+            area = np.broadcast_to(grid.ground.cell_area_m2(rows, cols), t.shape)
+            written.reach_m2 += float(area[reached].sum())
+            written.cut_off_cells += int((got["cut"].astype(bool) & reached).sum())
+            written.take(t, share, patches.source_mask(t), data)
+    return list(layers), written
 
 
-def _zones(grid: Grid, reached: np.ndarray, target: Path) -> Any:
-    """Polygons of the reach with their ground area (m2), written to ``target``."""
+def _zones(grid: Grid, reach: Path, target: Path) -> Any:
+    """Polygons of the reach (four neighbours) with their ground area (m2), traced tile by
+    tile from ``reach`` and written to ``target``."""
     import geopandas as gpd
-    from rasterio import features
-    from shapely.geometry import shape
 
     from slopescreen.maps.io.safe_writes import replacing
-    from slopescreen.maps.outputs.zones import ground_areas_m2
+    from slopescreen.maps.outputs.zones import ground_areas_m2, traced_patches
 
-    geoms = [
-        shape(g)
-        for g, v in features.shapes(
-            reached.astype(np.uint8), mask=reached, transform=grid.transform, connectivity=8
-        )
-        if v == 1
-    ]
+    geoms, _ = traced_patches(lambda rows, cols: read_block(reach, rows, cols) == 1, grid)
     frame = gpd.GeoDataFrame({"zone": np.arange(1, len(geoms) + 1)}, geometry=geoms, crs=grid.crs)
     frame["area_m2"] = np.asarray(ground_areas_m2(frame.geometry.to_numpy(), grid), float)
     with replacing(target) as tmp:
@@ -263,7 +291,7 @@ def _zones(grid: Grid, reached: np.ndarray, target: Path) -> Any:
 
 
 def _exposure(
-    spec: RunoutSpec, grid: Grid, share: np.ndarray, worst: np.ndarray, zones: Any
+    spec: RunoutSpec, grid: Grid, stitched: Stitched, probability: bool, zones: Any
 ) -> list[dict[str, object]]:
     """Each asset: whether it lies in reach, the largest share of source flow on its cells,
     the worst source reaching it and, for lines, the ground length inside the reach."""
@@ -306,11 +334,13 @@ def _exposure(
                 [(geom, 1)], out_shape=(r1 - r0, c1 - c0), transform=t, all_touched=True,
                 dtype="uint8",
             ).astype(bool)  # fmt: skip
-            part = share[r0:r1, c0:c1][cells]
+            window = (slice(r0, r1), slice(c0, c1))
+            part = stitched.window("share", *window)[cells]
             if part.size and (part > 0).any():
                 inside = True
                 best = float(part.max())
-                source = float(worst[r0:r1, c0:c1][cells][part > 0].min())
+                worst = stitched.window("worst", *window)[cells][part > 0].min()
+                source = float(-worst if probability else worst)
         length = 0.0
         if inside and geom.geom_type in ("LineString", "MultiLineString"):
             piece = shapely.intersection(geom, reach)
@@ -361,17 +391,6 @@ MAP_CLASSES = (  # the run-out map's classes, in blues apart from the stability 
     ("reach: the rest", "#9ecae1"),
     ("not reached", "#f7fbff"),
 )
-
-
-def _map_classes(source: np.ndarray, share: np.ndarray, data: np.ndarray) -> np.ndarray:
-    """Classes 1-4 of :data:`MAP_CLASSES` (0: no data): the reach split at the median share
-    of the reached cells that are not sources."""
-    reached = (share > 0.0) & ~source
-    split = float(np.median(share[reached])) if reached.any() else 0.0
-    out = np.where(data, 4, 0).astype(np.uint8)
-    out[reached] = np.where(share[reached] >= split, 2, 3)
-    out[source & data] = 1
-    return out
 
 
 def _draw(

@@ -751,7 +751,7 @@ def run_scenario(
     if cfg.runout is not None and sc.name in cfg.runout.scenarios:
         from slopescreen.maps.region.runout_run import runout_outputs
 
-        runout = runout_outputs(cfg, sc, grid, out, terrain_dir, inventory)
+        runout = runout_outputs(cfg, sc, grid, out, terrain_dir, inventory, runner)
         written |= set(runout.files)
         if runout.map is not None:
             maps["run-out reach"] = runout.map

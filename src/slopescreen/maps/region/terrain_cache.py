@@ -25,7 +25,7 @@ from slopescreen.maps.outputs.output_names import (
     SLOPE_TAN,
     TERRAIN_CACHE,
 )
-from slopescreen.maps.region.runners import Runner, serial_runner, threaded_runner
+from slopescreen.maps.region.runners import Runner, serial_runner, side_by_side
 from slopescreen.maps.terrain import slope as terrain
 from slopescreen.maps.terrain import tiled_routing
 from slopescreen.maps.terrain.ground import GROUND_VERSION, gradient_on_ground
@@ -155,7 +155,7 @@ def _compute(
     windows = list(rasters.windows(grid))
     jobs = [(grid, elevation_unit, rows, cols) for rows, cols in windows]
     with all_or_nothing(*sinks.values(), shade):
-        results = _side_by_side(runner)(_slope_task, jobs)
+        results = side_by_side(runner)(_slope_task, jobs)
         for (rows, cols), out in zip(windows, results, strict=True):
             for name, sink in (*sinks.items(), ("shade", shade)):
                 sink.write(rows, cols, out[name])
@@ -195,12 +195,6 @@ def _compute(
             cut_sink.write(*window, np.where(missing, 255, cut_off))
 
 
-def _side_by_side(runner: Runner) -> Runner:
-    """The run's cluster, or a thread per core (at most 8) instead of one after another:
-    terrain tasks release the GIL in their compiled kernels and numpy."""
-    return threaded_runner if runner is serial_runner else runner
-
-
 def _routed(
     grid: Grid, elevation_unit: str, scratch: Path, runner: Runner, echo: Callable[[str], None]
 ) -> Iterator[tuple[tuple[slice, slice], np.ndarray, np.ndarray]]:
@@ -222,7 +216,7 @@ def _routed(
         layout,
         grid.ground.lattice(),
         scratch,
-        _side_by_side(runner),
+        side_by_side(runner),
         sources,
         echo,
     )

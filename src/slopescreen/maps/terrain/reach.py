@@ -17,11 +17,19 @@ reached it, as one state that is at least as far-reaching as every path that bro
   most v_max^2 / 2, spent where it falls to 0 or below (without a travel friction angle the
   energy line is not applied).
 
-On level ground (no lower neighbour) the flow goes on in its direction of travel: to level
-neighbours within 45 degrees of the direction it came in, so a flow running out of a slope
-onto a flat continues until its margin or energy is spent (level cells are taken as they
-receive flow, so the sweep stays one pass). A cell whose flow would leave the DEM or enter
-no data with margin and energy to spare is marked cut off: the reach there is a lower bound.
+On level ground (no lower neighbour) the flow stays where it is, but its reach goes on to
+every level neighbour, so a flow running out of a slope onto a flat continues until its
+margin or energy is spent (level cells are taken as they receive flow, so the sweep stays
+one pass). A cell next to the DEM's edge or to no data, whose flow has margin and energy to
+spare, is marked cut off: the reach there is a lower bound.
+
+Tiles (:mod:`slopescreen.maps.region.runout_tiles`): the sweep takes a framed window whose
+outer ring of cells (``ring`` = 1) belongs to the neighbouring tiles. Those cells are never
+taken: what arrives in them is the tile's outflow, and what a neighbour sends in is placed
+on the tile's own cells before the sweep (``mass`` summed, the rest as the best state).
+Every merge is a sum, a max or a min, so the result does not depend on which cells were
+taken first, and a tile run again with everything that enters it gives what one sweep of
+the whole grid gives (but for the order in which flow masses are summed).
 
 Ground lengths of the steps come from the grid's ground geometry (any CRS).
 """
@@ -48,7 +56,7 @@ def _step_m(r, c, k, col_step, row_step):
     return math.sqrt(dx * dx + dy * dy)
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, nogil=True)
 def spread_reach(
     z,
     col_step,
@@ -56,6 +64,7 @@ def spread_reach(
     mass,
     margin,
     tan_alpha,
+    energy,
     exponent,
     tan_phi,
     max_energy,
@@ -63,14 +72,18 @@ def spread_reach(
     share,
     cut_off,
     worst,
+    ring=0,
 ):
     """Spread the sources' flow over the grid in place (see the module docstring).
 
     ``z`` (rows, cols) elevations, NaN for no data; ``col_step`` and ``row_step`` the ground
     lengths of one column and one row step at each cell (m); ``mass``, ``margin`` and
     ``tan_alpha`` hold the sources' values (mass 0 elsewhere, margin -inf, tan_alpha +inf)
-    and are filled for the cells reached; ``tan_phi`` < 0: no energy line; ``max_energy``:
-    v_max^2 / 2 (+inf: no cap); ``min_mass``: a move carrying less flow is dropped.
+    and are filled for the cells reached, ``energy`` likewise (0 at the start of a path);
+    a cell with margin >= 0 is taken (a source, or flow entering from a neighbouring tile);
+    the outer ``ring`` cells of the arrays are never taken: they receive the outflow;
+    ``tan_phi`` < 0: no energy line; ``max_energy``: v_max^2 / 2 (+inf: no cap);
+    ``min_mass``: a move carrying less flow is dropped.
     Writes ``share`` (the source flow reaching each cell, 0 where none: a cell on level
     ground that the flow crosses takes the largest share of the cells it came from) and
     ``cut_off`` (uint8); ``worst`` holds a value of each source (its FS, say; +inf
@@ -79,13 +92,19 @@ def spread_reach(
     flow dropped where the margin or energy was spent or the move was too small): with
     every source's flow counted once, their sum is the sources' total."""
     rows, cols = z.shape
-    energy = np.zeros(z.shape)
     spread = np.zeros(z.shape)  # flow already sent on (or stopped) at each cell
     flat = z.ravel()
-    valid = np.flatnonzero(~np.isnan(flat))
+    valid = np.empty(rows * cols, np.int64)
+    n = 0
+    for r in range(ring, rows - ring):
+        for c in range(ring, cols - ring):
+            if not math.isnan(z[r, c]):
+                valid[n] = r * cols + c
+                n += 1
+    valid = valid[:n]
     order = valid[np.argsort(-flat[valid], kind="mergesort")]
     stopped, dropped = 0.0, 0.0
-    dirty = mass > 0.0  # reached, or improved, since the cell was last taken
+    dirty = margin >= 0.0  # reached, or improved, since the cell was last taken
     stack = np.empty(1024, np.int64)
     shares = np.zeros(8)
     slopes = np.zeros(8)
@@ -98,6 +117,8 @@ def spread_reach(
             r, c = i // cols, i % cols
             if not dirty[r, c] or margin[r, c] < 0.0:
                 continue
+            if r < ring or r >= rows - ring or c < ring or c >= cols - ring:
+                continue  # a neighbouring tile's cell: what reached it leaves this tile
             dirty[r, c] = False
             fresh = mass[r, c] - spread[r, c]
             spread[r, c] = mass[r, c]
@@ -170,7 +191,7 @@ def spread_reach(
     return stopped, dropped
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, nogil=True)
 def label_patches(mask):
     """Connected patches of ``mask`` (eight neighbours): labels 1..n (0 outside), and n."""
     rows, cols = mask.shape
@@ -195,3 +216,23 @@ def label_patches(mask):
                     stack[top] = rr * cols + cc
                     top += 1
     return labels, n
+
+
+@numba.njit(cache=True)
+def join_labels(n, a, b):
+    """Patches joined across tile edges: for ids 0..n-1 and pairs (a[k], b[k]) that touch,
+    the smallest id of each joined patch (union-find with path halving)."""
+    parent = np.arange(n)
+    for k in range(a.size):
+        x, y = a[k], b[k]
+        while parent[x] != x:
+            parent[x] = parent[parent[x]]
+            x = parent[x]
+        while parent[y] != y:
+            parent[y] = parent[parent[y]]
+            y = parent[y]
+        if x != y:
+            parent[max(x, y)] = min(x, y)
+    for i in range(n):  # ids in increasing order: a parent is already final
+        parent[i] = parent[parent[i]]
+    return parent
