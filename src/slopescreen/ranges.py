@@ -47,3 +47,13 @@ def check_ranges(values: Mapping[str, object]) -> None:
         if name in RANGES and value is not None:
             low, high, high_open = RANGES[name]
             checked(name, value, low, high, high_open=high_open)
+
+
+def range_text(name: str) -> str:
+    """The range of a quantity as help and messages print it, e.g. "[0, 90)".
+
+    >>> range_text("slope_deg"), range_text("depth_m")
+    ('[0, 90)', '[0.05, 50]')
+    """
+    low, high, high_open = RANGES[name]
+    return f"[{low:g}, {high:g}{')' if high_open else ']'}"

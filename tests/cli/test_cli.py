@@ -315,3 +315,36 @@ def test_envelope_errors_name_line_and_specimen(tmp_path, capsys):
     assert "line 2, specimen T1: pore_pressure_kpa 60 exceeds sigma3_kpa 50" in (
         capsys.readouterr().err
     )
+
+
+def test_slope_help_ranges_are_the_enforced_ones(capsys):
+    # the help prints each option's range from the one table the command enforces: a value
+    # just outside a printed bound is refused, the bound itself (if closed) accepted
+    import re
+
+    from slopescreen.cli.options import SLOPE_OPTIONS
+    from slopescreen.ranges import RANGES
+
+    with pytest.raises(SystemExit):
+        main(["slope", "--help"])
+    text = " ".join(capsys.readouterr().out.split("slope and soil:")[1].split())
+    base = dict(zip(SLOPE[1::2], SLOPE[2::2], strict=True))
+    checked = 0
+    for option, dest, _, _ in SLOPE_OPTIONS:
+        if dest not in RANGES:
+            continue
+        shown = re.search(re.escape(option) + r" X [^\[]*\[([^,]+), ([^\])]+)([\])])", text)
+        assert shown, option
+        low, high, closed = float(shown[1]), float(shown[2]), shown[3] == "]"
+        for value, ok in ((low, True), (low - 1e-6 * max(1, abs(low)) - 1e-9, False),
+                          (high, closed), (high * (1 + 1e-6) + 1e-9, False)):  # fmt: skip
+            args = dict(base, **{option: repr(value)})
+            if option == "--unit-weight":  # the saturated weight stays above it and 9.81
+                args["--saturated-unit-weight"] = repr(max(value, 9.81))
+            if option == "--saturated-unit-weight":  # and the moist weight below it
+                args["--unit-weight"] = repr(min(value, 18.5))
+            code = main(["slope", *(f"{k}={v}" for k, v in args.items()), "--json"])
+            capsys.readouterr()
+            assert (code == 0) == ok, (option, value)
+        checked += 1
+    assert checked >= 10

@@ -57,13 +57,91 @@ def test_missing_dem(region, capsys):
 def test_dem_without_crs(region, capsys):
     folder, toml = region
     _dem(folder / "dem.tif", crs=None)
-    _fails(capsys, toml, "dem.tif: DEM has no coordinate reference system")
+    _fails(capsys, toml, "dem.tif: DEM has no coordinate reference system", "dem_crs")
+
+
+def test_dem_crs_declares_the_crs_of_a_dem_without_one(region, capsys):
+    folder, toml = region
+    assert main(["run", str(toml), "--out", str(folder / "with"), "--quiet"]) == 0
+    _dem(folder / "dem.tif", crs=None)
+    declared = SCENARIO_TEXT.replace('dem = "dem.tif"', 'dem = "dem.tif"\ndem_crs = "EPSG:32633"')
+    toml.write_text(declared)
+    assert main(["run", str(toml), "--out", str(folder / "declared"), "--quiet"]) == 0
+    for name in ("fs.tif", "stability_class.tif"):
+        with (
+            rasterio.open(folder / "with" / "wet" / name) as a,
+            rasterio.open(folder / "declared" / "wet" / name) as b,
+        ):
+            assert b.crs == a.crs and np.array_equal(a.read(1), b.read(1))
+    # another CRS changes the ground lengths (UTM zone 33 at 45 N against zone 31)
+    toml.write_text(declared.replace("EPSG:32633", "EPSG:32631"))
+    _polygons(folder / "soils.geojson", crs="EPSG:32631")
+    assert main(["run", str(toml), "--out", str(folder / "other"), "--quiet"]) == 0
+    with rasterio.open(folder / "other" / "wet" / "fs.tif") as b:
+        assert b.crs.to_epsg() == 32631
+    toml.write_text(declared.replace("EPSG:32633", "EPSG:99999999"))
+    _fails(capsys, toml, "[region] dem_crs", "is not a CRS")
+    _dem(folder / "dem.tif")  # a DEM with its own CRS: dem_crs is refused
+    toml.write_text(declared)
+    _fails(capsys, toml, "dem.tif: [region] dem_crs is for a DEM without", "remove dem_crs")
 
 
 def test_polygons_miss_the_dem(region, capsys):
     folder, toml = region
     _polygons(folder / "soils.geojson", bounds=(600000.0, 5100000.0, 600500.0, 5100400.0))
-    _fails(capsys, toml, "soils.geojson: no soil polygon overlaps the DEM")
+    _fails(
+        capsys, toml, "soils.geojson: no soil polygon overlaps the DEM",
+        "polygons span x 600000 to 600500, y 5100000 to 5100400",
+        "the DEM x 500000 to 500500, y 5000000 to 5000400",
+    )  # fmt: skip
+
+
+def test_semicolon_soil_table_with_decimal_commas_is_read_and_said(region, capsys):
+    # a spreadsheet in a European locale writes ';' between cells and decimal commas
+    folder, toml = region
+    head = "unit,cohesion_kpa,friction_deg,unit_weight_kn_m3,depth_m,hydraulic_conductivity_m_s"
+    (folder / "comma.csv").write_text(f"{head}\nA,2.5,30,18,1.5,1e-5\nB,2.5,30,18,1.5,1e-5\n")
+    (folder / "semi.csv").write_text(
+        head.replace(",", ";") + "\nA;2,5;30;18;1,5;1e-5\nB;2,5;30;18;1,5;1e-5\n"
+    )
+    lines = {}
+    for name in ("comma", "semi"):
+        toml.write_text(SCENARIO_TEXT.replace(
+            'soil_unit_field = "unit"', f'soil_unit_field = "unit"\nsoil_table = "{name}.csv"'
+        ))  # fmt: skip
+        assert main(["run", str(toml), "--out", str(folder / name), "--quiet"]) == 0
+        lines[name] = capsys.readouterr()
+    with (
+        rasterio.open(folder / "comma" / "wet" / "fs.tif") as a,
+        rasterio.open(folder / "semi" / "wet" / "fs.tif") as b,
+    ):
+        assert np.array_equal(a.read(1), b.read(1))
+    said = lines["semi"].out + lines["semi"].err
+    assert "semi.csv: soil table read with ';' separators and decimal commas" in said
+    assert "separators" not in lines["comma"].out + lines["comma"].err
+
+
+def test_unknown_soil_column_points_to_the_list(region, capsys):
+    folder, toml = region
+    (folder / "t.csv").write_text("unit,cohesion_kpa,frction_deg\nA,1,30\nB,1,30\n")
+    toml.write_text(SCENARIO_TEXT.replace(
+        'soil_unit_field = "unit"', 'soil_unit_field = "unit"\nsoil_table = "t.csv"'
+    ))  # fmt: skip
+    err = _fails(capsys, toml, "unknown column 'frction_deg'", "docs/scenario-file.md")
+    assert len(err) < 300  # one short line, not every allowed name
+
+
+def test_a_refused_run_leaves_the_disk_as_it_was(region, capsys):
+    folder, toml = region
+    _dem(folder / "dem.tif", crs=None)
+    out = folder / "new_out"
+    _fails(capsys, toml, "DEM has no coordinate reference system", command="run")
+    assert main(["run", str(toml), "--out", str(out)]) == 2
+    assert not out.exists()  # no folder, no lock file
+    out.mkdir()
+    (out / "mine.txt").write_text("a user's file")
+    assert main(["run", str(toml), "--out", str(out)]) == 2
+    assert sorted(p.name for p in out.iterdir()) == ["mine.txt"]
 
 
 def test_missing_soil_parameter(region, capsys):

@@ -8,36 +8,38 @@ import math
 from pathlib import Path
 from typing import Any
 
-# (option, core keyword, help, default); None default = required
+# (option, core keyword, help, default); None default = required. The help gains the
+# allowed range from slopescreen.ranges (the one the command enforces) and the default.
 SLOPE_OPTIONS: tuple[tuple[str, str, str, float | None], ...] = (
-    ("--slope-deg", "slope_deg", "slope angle, degrees [0, 90)", None),
-    ("--depth-m", "depth_m", "VERTICAL depth of the slip plane, m (>= 0)", None),
-    ("--cohesion-kpa", "cohesion_kpa", "effective cohesion c', kPa (>= 0)", None),
-    ("--friction-deg", "friction_deg", "effective friction angle phi', degrees [0, 90)", None),
+    ("--slope-deg", "slope_deg", "slope angle, degrees", None),
+    ("--depth-m", "depth_m", "VERTICAL depth of the slip plane, m", None),
+    ("--cohesion-kpa", "cohesion_kpa", "effective cohesion c', kPa", None),
+    ("--friction-deg", "friction_deg", "effective friction angle phi', degrees", None),
     ("--unit-weight", "unit_weight_kn_m3", "soil unit weight above the water table, kN/m3", None),
-    ("--saturation", "saturation", "saturation ratio m = h_w / z, [0, 1] (default 0)", 0.0),
+    ("--saturation", "saturation", "saturation ratio m = h_w / z", 0.0),
     (
         "--saturated-unit-weight",
         "saturated_unit_weight_kn_m3",
-        "unit weight below the water table, kN/m3 (default: --unit-weight)",
-        math.nan,
+        "unit weight below the water table, kN/m3",
+        math.nan,  # as --unit-weight
     ),
-    ("--root-cohesion-kpa", "root_cohesion_kpa", "apparent root cohesion, kPa (default 0)", 0.0),
-    ("--surcharge-kpa", "surcharge_kpa", "vertical surcharge, kPa (default 0)", 0.0),
-    (
-        "--seismic-coefficient",
-        "seismic_coefficient",
-        "horizontal pseudo-static coefficient k_h, [0, 1) (default 0)",
-        0.0,
-    ),
-    (
-        "--water-unit-weight",
-        "water_unit_weight_kn_m3",
-        "unit weight of water, kN/m3 (default 9.81)",
-        9.81,
-    ),
-    ("--target-fs", "target_fs", "target factor of safety for the inverse values (default 1)", 1.0),
+    ("--root-cohesion-kpa", "root_cohesion_kpa", "apparent root cohesion, kPa", 0.0),
+    ("--surcharge-kpa", "surcharge_kpa", "vertical surcharge, kPa", 0.0),
+    ("--seismic-coefficient", "seismic_coefficient", "horizontal pseudo-static k_h", 0.0),
+    ("--water-unit-weight", "water_unit_weight_kn_m3", "unit weight of water, kN/m3", 9.81),
+    ("--target-fs", "target_fs", "target factor of safety for the inverse values (> 0)", 1.0),
 )
+
+
+def option_help(dest: str, text: str, default: float | None) -> str:
+    """An option's help: what it is, its allowed range, its default."""
+    from slopescreen.ranges import RANGES, range_text
+
+    if dest in RANGES:
+        text = f"{text}, {range_text(dest)}"
+    if default is not None:
+        text += " (default: --unit-weight)" if math.isnan(default) else f" (default {default:g})"
+    return text
 
 
 def command_parser(
@@ -78,7 +80,7 @@ def add_slope_options(parser: argparse.ArgumentParser) -> None:
             type=float,
             required=default is None,
             default=default,
-            help=help_text,
+            help=option_help(dest, help_text, default),
             metavar="X",
         )
 

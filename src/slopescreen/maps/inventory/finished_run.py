@@ -93,7 +93,7 @@ def open_run(config_path: Path, out: Path) -> FinishedRun:
                 f"{path}: differs from the {key.replace('_', ' ')} the run in {out} read; "
                 "run again first"
             )
-    grid = read_grid(cfg.region.dem)
+    grid = read_grid(cfg.region.dem, cfg.region.dem_crs)
     return FinishedRun(cfg, out, manifest, grid, load_soils(cfg.region, grid))
 
 

@@ -65,9 +65,11 @@ def dem_files_sha256(path: Path) -> dict[str, str]:
     return out
 
 
-def read_grid(path: Path) -> Grid:
-    """The DEM's grid (no elevations read); InputError for rasters we cannot use."""
+def read_grid(path: Path, dem_crs: str | None = None) -> Grid:
+    """The DEM's grid (no elevations read); InputError for rasters we cannot use.
+    ``dem_crs``: the scenario file's CRS for a DEM that carries none."""
     import rasterio
+    from rasterio.crs import CRS
 
     try:
         src = rasterio.open(path)
@@ -76,11 +78,19 @@ def read_grid(path: Path) -> Grid:
     with src:
         if src.count != 1:
             raise InputError(f"{path}: DEM must have one band, found {src.count}")
-        if src.crs is None:
+        crs = src.crs
+        if crs is None and dem_crs is None:
             raise InputError(
-                f"{path}: DEM has no coordinate reference system; assign one "
-                "(projected in metres, or geographic)"
+                f"{path}: DEM has no coordinate reference system; declare it in the scenario "
+                'file ([region] dem_crs = "EPSG:...") or assign one to the file'
             )
+        if crs is not None and dem_crs is not None:
+            raise InputError(
+                f"{path}: [region] dem_crs is for a DEM without a coordinate reference system; "
+                f"this one has {crs.to_string()}: remove dem_crs"
+            )
+        if crs is None:
+            crs = CRS.from_user_input(dem_crs)
         t = src.transform
         if t.b != 0.0 or t.d != 0.0 or t.e >= 0.0 or t.a <= 0.0:
             raise InputError(
@@ -97,7 +107,7 @@ def read_grid(path: Path) -> Grid:
                 "(2^31 - 1) per run: split the region into parts"
             )
         try:
-            ground = ground_geometry(t, src.crs, src.height, src.width)
+            ground = ground_geometry(t, crs, src.height, src.width)
         except InputError as exc:
             raise InputError(f"{path}: {exc}") from None
         return Grid(
@@ -105,7 +115,7 @@ def read_grid(path: Path) -> Grid:
             width=src.width,
             height=src.height,
             transform=t,
-            crs=src.crs,
+            crs=crs,
             ground=ground,
         )
 

@@ -13,14 +13,13 @@ Direct-shear file columns: ``normal_kpa`` and ``shear_kpa`` (at failure), option
 
 from __future__ import annotations
 
-import csv
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from slopescreen.errors import InputError
-from slopescreen.maps.io.textfiles import read_text
+from slopescreen.maps.io.textfiles import read_csv_table
 
 
 @dataclass(frozen=True)
@@ -55,16 +54,7 @@ def _number(path: Path, line: int, column: str, text: str, *, allow_blank: bool)
 def read_lab_tests(path: str | Path) -> LabTests:
     """Read a triaxial or direct-shear CSV; raise InputError naming file, line and column."""
     path = Path(path)
-    text = read_text(path, "lab-test file")
-    try:
-        rows = list(csv.reader(text.splitlines()))
-    except csv.Error as exc:
-        raise InputError(f"{path}: lab-test file is not readable CSV ({exc})") from None
-    numbered = [
-        (i + 1, r)
-        for i, r in enumerate(rows)
-        if r and any(c.strip() for c in r) and not r[0].lstrip().startswith("#")
-    ]
+    numbered, _ = read_csv_table(path, "lab-test file")
     if not numbered:
         raise InputError(f"{path}: no header row found")
     header_line, header = numbered[0]

@@ -1,7 +1,9 @@
 """Advisory locks: one writer per output folder, one builder per cache entry.
 
-POSIX ``fcntl.flock`` (``msvcrt.locking`` on Windows) on a lock file that is never deleted;
-the lock goes with the process, so a killed run never leaves a folder locked.
+POSIX ``fcntl.flock`` (``msvcrt.locking`` on Windows) on a lock file; the lock goes with
+the process, so a killed run never leaves a folder locked. A folder's lock file stays once
+a run has written there; a run that stops on an error removes the lock file it created, so
+a refused run leaves the folder as it was.
 """
 
 from __future__ import annotations
@@ -54,9 +56,12 @@ def folder_lock(folder: Path, holder: str) -> Iterator[None]:
     ``holder`` (for example "PID 123, started 2026-01-01T00:00:00Z") is written into the
     lock file for the next run to quote.
     """
-    fd = _open_lock_file(folder / FOLDER_LOCK)
+    path = folder / FOLDER_LOCK
+    created = not path.exists()
+    fd = _open_lock_file(path)
     try:
         if not _try_lock(fd, wait=False):
+            created = False  # another run's
             other = ""
             for _ in range(40):  # the holder writes its line just after taking the lock
                 other = os.pread(fd, 200, 0).decode("utf-8", "replace").split("\n")[0].strip()
@@ -73,6 +78,11 @@ def folder_lock(folder: Path, holder: str) -> Iterator[None]:
         os.ftruncate(fd, len(line))
         try:
             yield
+        except BaseException:
+            if created:  # still held: no other run is using this file
+                with contextlib.suppress(OSError):
+                    path.unlink()
+            raise
         finally:
             os.ftruncate(fd, 0)  # at rest the file names nobody (no stale holder quoted)
     finally:

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import codecs
 import csv
+import re
 from pathlib import Path
 
 from slopescreen.errors import InputError
@@ -50,16 +51,64 @@ def read_text(path: str | Path, what: str) -> str:
     return text
 
 
-def read_csv_rows(path: str | Path, what: str) -> list[tuple[int, list[str]]]:
-    """(line number, cells) of every row of a CSV text file, blank lines and lines
-    starting with # skipped (the header is the first row)."""
+_DECIMAL_COMMA = re.compile(r"^\s*[+-]?(\d+,\d*|,\d+)([eE][+-]?\d+)?\s*$")
+
+
+def semicolon_note(path: str | Path, what: str) -> str:
+    """The line a run states when it read ``path`` as semicolon-separated."""
+    return f"{path}: {what} read with ';' separators and decimal commas (a European-locale CSV)"
+
+
+def parse_csv(text: str) -> tuple[list[tuple[int, list[str]]], bool]:
+    """(line number, cells) of every row of CSV text, blank lines and lines starting with #
+    skipped, and whether it was semicolon-separated. Spreadsheets in many European locales
+    write ``;`` between cells and a decimal comma: a header with more ``;`` than ``,`` is
+    read that way, and a cell that is a number with a decimal comma ("1,5") becomes "1.5".
+
+    >>> parse_csv("unit;depth_m\nA;1,5\n")
+    ([(1, ['unit', 'depth_m']), (2, ['A', '1.5'])], True)
+    """
     lines = [
         (n, line)
-        for n, line in enumerate(read_text(path, what).splitlines(), start=1)
+        for n, line in enumerate(text.splitlines(), start=1)
         if line.strip() and not line.lstrip().startswith("#")
     ]
+    semicolons = bool(lines) and lines[0][1].count(";") > lines[0][1].count(",")
+    rows = list(csv.reader((line for _, line in lines), delimiter=";" if semicolons else ","))
+    if semicolons:
+        rows = [
+            [c.replace(",", ".") if _DECIMAL_COMMA.match(c) else c for c in row] for row in rows
+        ]
+    return [(n, row) for (n, _), row in zip(lines, rows, strict=True)], semicolons
+
+
+def read_csv_rows(path: str | Path, what: str) -> list[tuple[int, list[str]]]:
+    """(line number, cells) of every row of a CSV text file (see :func:`parse_csv`; the
+    header is the first row)."""
+    return read_csv_table(path, what)[0]
+
+
+def read_csv_table(path: str | Path, what: str) -> tuple[list[tuple[int, list[str]]], str]:
+    """:func:`parse_csv` of a file, with the line to state when it was semicolon-separated
+    ("" otherwise)."""
     try:
-        rows = list(csv.reader(line for _, line in lines))
+        rows, semicolons = parse_csv(read_text(path, what))
     except csv.Error as exc:
         raise InputError(f"{path}: {what} is not readable CSV ({exc})") from None
-    return [(n, row) for (n, _), row in zip(lines, rows, strict=True)]
+    return rows, semicolon_note(path, what) if semicolons else ""
+
+
+def read_csv_dicts(path: str | Path, what: str) -> tuple[list[dict[str, str]], str]:
+    """Rows of a CSV file with a header, as dicts by column name (cells missing at the end
+    of a row are None, as ``csv.DictReader`` gives them), and the semicolon note."""
+    rows, note = read_csv_table(path, what)
+    if not rows:
+        return [], note
+    header = [c.strip() for c in rows[0][1]]
+    out = []
+    for _, row in rows[1:]:
+        record: dict[str, str] = dict(zip(header, row, strict=False))
+        for name in header[len(row) :]:
+            record[name] = None  # type: ignore[assignment]
+        out.append(record)
+    return out, note

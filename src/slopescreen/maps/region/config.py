@@ -118,6 +118,7 @@ class Region:
     soil_layer: str | None
     soil_depth: tuple[DepthModel, ...] = ()  # [soil_depth]: depth models by unit
     land_cover: LandCover | None = None  # [land_cover]: root cohesion by class
+    dem_crs: str | None = None  # the CRS of a DEM that carries none (as pyproj reads it)
 
 
 @dataclass(frozen=True)
@@ -614,10 +615,23 @@ def load_config(path: str | Path) -> Config:
     unit = r.text("region", reg, "dem_elevation_unit", "m")
     if unit not in ("m", "ft"):
         raise r.fail("region", "dem_elevation_unit", f'must be "m" or "ft", got {_shown(unit)}')
+    dem_crs = None
+    if "dem_crs" in reg:
+        from pyproj import CRS
+        from pyproj.exceptions import CRSError
+
+        dem_crs = r.text("region", reg, "dem_crs")
+        try:
+            CRS.from_user_input(dem_crs)
+        except CRSError:
+            raise r.fail(
+                "region", "dem_crs", f'{_shown(dem_crs)} is not a CRS (e.g. "EPSG:32633", or WKT)'
+            ) from None
     region = Region(
         name=r.text("region", reg, "name", path.stem),
         dem=r.file("region", reg, "dem"),
         dem_elevation_unit=unit,
+        dem_crs=dem_crs,
         soil_units=r.file("region", reg, "soil_units"),
         soil_unit_field=r.text("region", reg, "soil_unit_field", "unit"),
         soil_table=r.file("region", reg, "soil_table") if "soil_table" in reg else None,

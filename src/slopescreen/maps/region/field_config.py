@@ -5,14 +5,13 @@ with the file's line numbers. The models' physics is the core's
 
 from __future__ import annotations
 
-import csv
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from slopescreen.errors import InputError
-from slopescreen.maps.io.textfiles import read_text
+from slopescreen.maps.io.textfiles import read_csv_dicts
 from slopescreen.maps.region.scenario_schema import SCHEMA, limits
 from slopescreen.ranges import RANGES
 from slopescreen.root_cohesion import (
@@ -238,12 +237,7 @@ def land_cover(r: Any, data: dict[str, Any]) -> LandCover | None:
 
 def read_cover_table(path: Path) -> dict[str, CoverClass]:
     """The land-cover table: one row per class (see ``[land_cover] table``)."""
-    text = read_text(path, "land-cover table")
-    rows = list(
-        csv.DictReader(
-            line for line in text.splitlines() if line.strip() and not line.startswith("#")
-        )
-    )
+    rows, _ = read_csv_dicts(path, "land-cover table")
     allowed = ["class", "description", *COVER_COLUMNS]
     if not rows or "class" not in rows[0]:
         raise InputError(f"{path}: land-cover table needs a column 'class' and a row per class")

@@ -3,14 +3,13 @@ with which reach rule, and the assets to check (read with the file's line number
 
 from __future__ import annotations
 
-import csv
 import math
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from slopescreen.errors import InputError
-from slopescreen.maps.io.textfiles import read_text
+from slopescreen.maps.io.textfiles import read_csv_dicts
 from slopescreen.maps.region.scenario_schema import allowed, limits
 from slopescreen.runout import DEBRIS_FLOW_A, DEBRIS_FLOW_B
 
@@ -129,12 +128,7 @@ def runout(
 def read_angle_table(path: Path) -> tuple[tuple[float, float], ...]:
     """Rows (largest volume m3, travel angle deg), volumes rising; a source larger than the
     last row takes the last row's angle."""
-    text = read_text(path, "travel-angle table")
-    rows = list(
-        csv.DictReader(
-            line for line in text.splitlines() if line.strip() and not line.startswith("#")
-        )
-    )
+    rows, _ = read_csv_dicts(path, "travel-angle table")
     if not rows or {"max_volume_m3", "travel_angle_deg"} - set(rows[0]):
         raise InputError(
             f"{path}: travel-angle table needs columns max_volume_m3, travel_angle_deg"

@@ -23,7 +23,7 @@ from slopescreen.maps.terrain.tiled_reach import SweepRules, sweep_tiles
 from slopescreen.maps.terrain.tiled_routing import Layout, Tile
 from slopescreen.runout import reach_ratio
 
-RUNOUT_TILE = 3000  # cells a side of a run-out tile: about 1 GB a task at its peak
+RUNOUT_TILE = 4000  # cells a side of a run-out tile: about 1 GB a task at its peak
 
 
 @dataclass(frozen=True)
@@ -115,18 +115,27 @@ class Patches:
     folder: Path
 
     def __call__(self, t: Tile) -> tuple[np.ndarray, ...]:
-        """(mass, margin, tan(alpha), worst) of the tile's sources, as the sweep takes them:
-        every source cell starts a line of reach (below the top of a source the top's line
-        carries the larger margin, so a path is measured from the top of its source)."""
-        labels = np.load(self.folder / f"t{t.index}-src-labels.npy")
-        value = np.load(self.folder / f"t{t.index}-src-value.npy")
-        kept = self.keep[t.index][labels]
-        weight = value if self.probability else np.ones(t.shape)
-        mass = np.where(kept, weight / max(self.total_weight, 1e-300), 0.0)
-        margin = np.where(kept, 0.0, -np.inf)
-        tan_alpha = np.where(kept, self.tan_alpha[t.index][labels], np.inf)
-        worst = np.where(kept, -value if self.probability else value, np.inf)
-        return mass, margin, tan_alpha, worst
+        """The tile's source cells as the sweep takes them: inner flat indices, mass,
+        margin (0: every source cell starts a line of reach; below the top of a source the
+        top's line carries the larger margin, so a path is measured from the top of its
+        source), tan(alpha) and worst value (FS, or -P)."""
+        path = self.folder / f"t{t.index}-src-cells.npz"
+        if path.exists():  # a later round of the same tile
+            with np.load(path) as saved:
+                return tuple(saved[k] for k in ("cells", "mass", "margin", "tan_alpha", "worst"))
+        labels = np.load(self.folder / f"t{t.index}-src-labels.npy").ravel()
+        at = np.flatnonzero(self.keep[t.index][labels])
+        value = np.load(self.folder / f"t{t.index}-src-value.npy").ravel()[at]
+        weight = value if self.probability else np.ones(at.size)
+        out = {
+            "cells": at,
+            "mass": weight / max(self.total_weight, 1e-300),
+            "margin": np.zeros(at.size),
+            "tan_alpha": self.tan_alpha[t.index][labels[at]],
+            "worst": -value if self.probability else value,
+        }
+        np.savez(path, **out)
+        return tuple(out.values())
 
     def source_mask(self, t: Tile) -> np.ndarray:
         return self.keep[t.index][np.load(self.folder / f"t{t.index}-src-labels.npy")]

@@ -55,6 +55,12 @@ SCHEMA: dict[str, list[tuple[str, str | Span, str, str]]] = {
         ("name", "text", "the file's name", "shown in titles, the report and the manifest"),
         ("dem", "path", "required", "elevation raster GDAL reads (any CRS, north-up)"),
         ("dem_elevation_unit", '"m" or "ft"', '"m"', "unit of the DEM's values"),
+        (
+            "dem_crs",
+            "text",
+            "the DEM's own",
+            'CRS of a DEM that carries none ("EPSG:32633", or WKT); refused for a DEM with one',
+        ),
         ("soil_units", "path", "required", "soil-unit polygons in any format geopandas reads"),
         ("soil_layer", "text", "the first layer", "layer of a multi-layer soil file"),
         (

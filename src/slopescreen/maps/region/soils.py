@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import csv
 import dataclasses
 import hashlib
 import math
@@ -14,7 +13,7 @@ import numpy as np
 
 from slopescreen.errors import InputError
 from slopescreen.maps.io.grid import Grid
-from slopescreen.maps.io.textfiles import read_text
+from slopescreen.maps.io.textfiles import read_csv_dicts
 from slopescreen.maps.region.config import (
     HYDRAULIC_FIELDS,
     SOIL_FIELDS,
@@ -314,26 +313,20 @@ def _unit_spreads(
     return spreads, rho, covs, cell_kinds
 
 
-def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
-    text = read_text(path, "soil table")
-    try:
-        rows = list(
-            csv.DictReader(
-                line
-                for line in text.splitlines()
-                if line.strip() and not line.lstrip().startswith("#")
-            )
-        )
-    except csv.Error as exc:
-        raise InputError(f"{path}: soil table is not readable CSV ({exc})") from None
+def _table_from_csv(path: Path, key_field: str) -> tuple[dict[str, dict[str, Any]], str]:
+    """The soil table by unit, and the line to state if it was semicolon-separated."""
+    rows, note = read_csv_dicts(path, "soil table")
     if not rows or key_field not in rows[0]:
-        raise InputError(f"{path}: soil table needs a column {key_field!r} (soil_unit_field)")
+        found = ", ".join(map(repr, rows[0])) if rows else "no data rows"
+        raise InputError(
+            f"{path}: soil table needs a column {key_field!r} (soil_unit_field); found {found}"
+        )
     unknown = sorted(set(map(str, rows[0])) - set(ALL_COLUMNS) - {key_field})
     if unknown:
         raise InputError(
             f"{path}: unknown column {unknown[0]!r}"
-            f"{did_you_mean(unknown[0], [key_field, *ALL_COLUMNS])}; allowed: "
-            f"{', '.join([key_field, *ALL_COLUMNS])}"
+            f"{did_you_mean(unknown[0], [key_field, *ALL_COLUMNS])}; the allowed columns are "
+            "listed in docs/scenario-file.md (Soil fields)"
         )
     table: dict[str, dict[str, Any]] = {}
     for line, row in enumerate(rows, start=2):
@@ -346,7 +339,7 @@ def _table_from_csv(path: Path, key_field: str) -> dict[str, dict[str, Any]]:
         if key in table:
             raise InputError(f"{path}: unit {key!r} appears twice in the soil table")
         table[key] = row
-    return table
+    return table, note
 
 
 def read_polygons(region: Region) -> Any:
@@ -426,7 +419,7 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
     key = region.soil_unit_field
     keys = sorted(frame[key].unique())
     if region.soil_table is not None:
-        table = _table_from_csv(region.soil_table, key)
+        table, read_note = _table_from_csv(region.soil_table, key)
         source = str(region.soil_table)
         missing = [k for k in keys if k not in table]
         if missing:
@@ -436,7 +429,7 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
             )
         records = {k: table[k] for k in keys}
     else:
-        source = str(region.soil_units)
+        source, read_note = str(region.soil_units), ""
         records = {}
         for k in keys:
             rows = frame[frame[key] == k]
@@ -495,11 +488,15 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
     t = grid.transform
     dem_box = box(t.c, t.f + t.e * grid.height, t.c + t.a * grid.width, t.f)
     inside = frame.intersects(dem_box)
-    warnings: list[str] = []
+    warnings: list[str] = [read_note] if read_note else []
     if not inside.any():
+        x0, y0, x1, y1 = frame.total_bounds
+        d0, e0, d1, e1 = dem_box.bounds
         raise InputError(
-            f"{region.soil_units}: no soil polygon overlaps the DEM "
-            f"{grid.path.name} (after reprojection to the DEM's CRS)"
+            f"{region.soil_units}: no soil polygon overlaps the DEM {grid.path.name} (after "
+            f"reprojection to the DEM's CRS): polygons span x {x0:.10g} to {x1:.10g}, "
+            f"y {y0:.10g} to {y1:.10g}; the DEM x {d0:.10g} to {d1:.10g}, y {e0:.10g} to "
+            f"{e1:.10g} ({grid.crs.to_string()})"
         )
     outside = sorted(set(frame.loc[~inside, key]) - set(frame.loc[inside, key]))
     if outside:

@@ -36,6 +36,7 @@ Ground lengths of the steps come from the grid's ground geometry (any CRS).
 
 from __future__ import annotations
 
+import heapq
 import math
 
 import numba
@@ -93,101 +94,94 @@ def spread_reach(
     every source's flow counted once, their sum is the sources' total."""
     rows, cols = z.shape
     spread = np.zeros(z.shape)  # flow already sent on (or stopped) at each cell
-    flat = z.ravel()
-    valid = np.empty(rows * cols, np.int64)
-    n = 0
+    stopped, dropped = 0.0, 0.0
+    dirty = np.zeros(z.shape, np.bool_)  # reached, or improved, since last taken
+    # the cells to take, highest first (ties by index, as a stable sort of the grid would
+    # order them): only cells that flow reaches are ever pushed, so a sweep costs what it
+    # reaches, not the size of the grid
+    heap = [(0.0, np.int64(0))]
+    heap.pop()
     for r in range(ring, rows - ring):
         for c in range(ring, cols - ring):
-            if not math.isnan(z[r, c]):
-                valid[n] = r * cols + c
-                n += 1
-    valid = valid[:n]
-    order = valid[np.argsort(-flat[valid], kind="mergesort")]
-    stopped, dropped = 0.0, 0.0
-    dirty = margin >= 0.0  # reached, or improved, since the cell was last taken
-    stack = np.empty(1024, np.int64)
+            if margin[r, c] >= 0.0 and not math.isnan(z[r, c]):
+                dirty[r, c] = True
+                heap.append((-z[r, c], np.int64(r * cols + c)))
+    heapq.heapify(heap)
     shares = np.zeros(8)
     slopes = np.zeros(8)
-    for start in order:
-        stack[0] = start
-        top = 1
-        while top > 0:
-            top -= 1
-            i = stack[top]
-            r, c = i // cols, i % cols
-            if not dirty[r, c] or margin[r, c] < 0.0:
+    while len(heap) > 0:
+        _, i = heapq.heappop(heap)
+        r, c = i // cols, i % cols
+        if not dirty[r, c] or margin[r, c] < 0.0:
+            continue
+        dirty[r, c] = False
+        fresh = mass[r, c] - spread[r, c]
+        spread[r, c] = mass[r, c]
+        share[r, c] = max(share[r, c], mass[r, c])
+        lower = 0
+        steepest = 0.0
+        for k in range(8):
+            rr, cc = r + D_ROW[k], c + D_COL[k]
+            slopes[k] = -1.0
+            if rr < 0 or rr >= rows or cc < 0 or cc >= cols or math.isnan(z[rr, cc]):
+                cut_off[r, c] = 1  # flow with room to travel at the edge: a lower bound
                 continue
-            if r < ring or r >= rows - ring or c < ring or c >= cols - ring:
-                continue  # a neighbouring tile's cell: what reached it leaves this tile
-            dirty[r, c] = False
-            fresh = mass[r, c] - spread[r, c]
-            spread[r, c] = mass[r, c]
-            share[r, c] = max(share[r, c], mass[r, c])
-            lower = 0
-            steepest = 0.0
-            for k in range(8):
-                rr, cc = r + D_ROW[k], c + D_COL[k]
-                slopes[k] = -1.0
-                if rr < 0 or rr >= rows or cc < 0 or cc >= cols or math.isnan(z[rr, cc]):
-                    cut_off[r, c] = 1  # flow with room to travel at the edge: a lower bound
+            slopes[k] = (z[r, c] - z[rr, cc]) / _step_m(r, c, k, col_step, row_step)
+            if slopes[k] > 0.0:
+                lower += 1
+                steepest = max(steepest, slopes[k])
+        total = 0.0
+        for k in range(8):
+            shares[k] = 0.0
+            if lower > 0 and slopes[k] > 0.0:
+                shares[k] = (slopes[k] / steepest) ** exponent
+            elif lower == 0 and slopes[k] == 0.0:
+                shares[k] = 1.0  # level ground: the reach goes on, the flow stays
+            total += shares[k]
+        if lower == 0 and fresh > 0.0:
+            stopped += fresh
+        for k in range(8):
+            if shares[k] <= 0.0:
+                continue
+            rr, cc = r + D_ROW[k], c + D_COL[k]
+            step = _step_m(r, c, k, col_step, row_step)
+            drop = z[r, c] - z[rr, cc]
+            room = margin[r, c] + drop / tan_alpha[r, c] - step
+            power = energy[r, c] + GRAVITY_M_S2 * drop
+            if tan_phi >= 0.0:
+                power -= GRAVITY_M_S2 * step * tan_phi
+            power = min(power, max_energy)
+            spent = room < 0.0 or (tan_phi >= 0.0 and power <= 0.0)
+            part = share[r, c] * shares[k] / total if lower > 0 else share[r, c]
+            if lower > 0:  # down the slope: the flow splits
+                moved = fresh * shares[k] / total
+                if spent or (moved < min_mass and part < min_mass):
+                    dropped += moved
                     continue
-                slopes[k] = (z[r, c] - z[rr, cc]) / _step_m(r, c, k, col_step, row_step)
-                if slopes[k] > 0.0:
-                    lower += 1
-                    steepest = max(steepest, slopes[k])
-            total = 0.0
-            for k in range(8):
-                shares[k] = 0.0
-                if lower > 0 and slopes[k] > 0.0:
-                    shares[k] = (slopes[k] / steepest) ** exponent
-                elif lower == 0 and slopes[k] == 0.0:
-                    shares[k] = 1.0  # level ground: the reach goes on, the flow stays
-                total += shares[k]
-            if lower == 0 and fresh > 0.0:
-                stopped += fresh
-            for k in range(8):
-                if shares[k] <= 0.0:
-                    continue
-                rr, cc = r + D_ROW[k], c + D_COL[k]
-                step = _step_m(r, c, k, col_step, row_step)
-                drop = z[r, c] - z[rr, cc]
-                room = margin[r, c] + drop / tan_alpha[r, c] - step
-                power = energy[r, c] + GRAVITY_M_S2 * drop
-                if tan_phi >= 0.0:
-                    power -= GRAVITY_M_S2 * step * tan_phi
-                power = min(power, max_energy)
-                spent = room < 0.0 or (tan_phi >= 0.0 and power <= 0.0)
-                part = share[r, c] * shares[k] / total if lower > 0 else share[r, c]
-                if lower > 0:  # down the slope: the flow splits
-                    moved = fresh * shares[k] / total
-                    if spent or (moved < min_mass and part < min_mass):
-                        dropped += moved
-                        continue
-                    mass[rr, cc] += moved
-                    if moved > 0.0:
-                        dirty[rr, cc] = True
-                elif spent:
-                    continue
-                if (
-                    room > margin[rr, cc]
-                    or power > energy[rr, cc]
-                    or part > share[rr, cc]
-                    or tan_alpha[r, c] < tan_alpha[rr, cc]
-                    or worst[r, c] < worst[rr, cc]
-                ):
-                    dirty[rr, cc] = True
-                margin[rr, cc] = max(margin[rr, cc], room)
-                tan_alpha[rr, cc] = min(tan_alpha[rr, cc], tan_alpha[r, c])
-                worst[rr, cc] = min(worst[rr, cc], worst[r, c])
-                energy[rr, cc] = max(energy[rr, cc], power)
-                share[rr, cc] = max(share[rr, cc], part)
-                if lower == 0 and dirty[rr, cc]:  # level ground: taken now, as it improves
-                    if top == stack.size:  # a long level run: room for more
-                        bigger = np.empty(2 * stack.size, np.int64)
-                        bigger[: stack.size] = stack
-                        stack = bigger
-                    stack[top] = rr * cols + cc
-                    top += 1
+                mass[rr, cc] += moved
+                improved = moved > 0.0
+            elif spent:
+                continue
+            else:
+                improved = False
+            if (
+                room > margin[rr, cc]
+                or power > energy[rr, cc]
+                or part > share[rr, cc]
+                or tan_alpha[r, c] < tan_alpha[rr, cc]
+                or worst[r, c] < worst[rr, cc]
+            ):
+                improved = True
+            margin[rr, cc] = max(margin[rr, cc], room)
+            tan_alpha[rr, cc] = min(tan_alpha[rr, cc], tan_alpha[r, c])
+            worst[rr, cc] = min(worst[rr, cc], worst[r, c])
+            energy[rr, cc] = max(energy[rr, cc], power)
+            share[rr, cc] = max(share[rr, cc], part)
+            inside = ring <= rr < rows - ring and ring <= cc < cols - ring
+            if improved and not dirty[rr, cc] and inside:
+                heapq.heappush(heap, (-z[rr, cc], np.int64(rr * cols + cc)))
+            if improved:
+                dirty[rr, cc] = True
     return stopped, dropped
 
 

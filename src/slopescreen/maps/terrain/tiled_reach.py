@@ -13,9 +13,11 @@ gives: the same cells reached and the same angles; the shares differ only in the
 which masses are summed. Rounds are synchronous and joined in tile order, so any number of
 workers gives the same bytes.
 
-Work files per tile (``t{i}-reach-*.npy``): share, tan(alpha), worst source value (float64)
-and the cut-off flags: 25 bytes a cell. A task holds about 110 bytes a cell of its tile at
-its peak.
+A sweep takes the reached cells from the highest down from a heap, so a round costs what
+its flow reaches, plus setting up the tile's state (about 60 bytes a cell: the most a task
+holds). Work files per tile: its framed elevations (``t{i}-reach-z.npy``, read from the DEM
+once, memory-mapped in later rounds) and the cells reached with their share, tan(alpha),
+worst source value and cut-off flag (``t{i}-reach.npz``).
 """
 
 from __future__ import annotations
@@ -48,8 +50,7 @@ class SweepRules:
 @dataclass(frozen=True)
 class ArrayStates:
     """Sources from whole-grid arrays in memory (tests and small grids): mass, margin,
-    tan(alpha) and worst value per cell (mass 0, margin -inf, tan(alpha) and worst +inf
-    where no source lies)."""
+    tan(alpha) and worst value per cell (margin -inf where no source lies)."""
 
     mass: np.ndarray
     margin: np.ndarray
@@ -57,8 +58,10 @@ class ArrayStates:
     worst: np.ndarray
 
     def __call__(self, t: Tile) -> tuple[np.ndarray, ...]:
+        """The tile's sources: inner flat indices, mass, margin, tan(alpha), worst."""
         window = (slice(t.r0, t.r1), slice(t.c0, t.c1))
-        return tuple(np.array(a[window], np.float64) for a in self._fields())
+        at = np.flatnonzero(self.margin[window] >= 0.0)
+        return (at, *(np.asarray(a[window], np.float64).ravel()[at] for a in self._fields()))
 
     def _fields(self) -> tuple[np.ndarray, ...]:
         return self.mass, self.margin, self.tan_alpha, self.worst
@@ -79,18 +82,27 @@ class ArraySteps:
 
 def _framed_steps(steps: Callable, t: Tile) -> tuple[np.ndarray, np.ndarray]:
     """The tile's step lengths framed by one ring (the ring's own are never used: only a
-    taken cell, inside the tile, sends flow)."""
-    window = (slice(t.r0, t.r1), slice(t.c0, t.c1))
-    return tuple(  # type: ignore[return-value]
-        np.pad(np.ascontiguousarray(np.broadcast_to(a, t.shape), np.float64), 1, mode="edge")
-        for a in steps(*window)
-    )
+    taken cell, inside the tile, sends flow). A length constant along an axis stays one
+    value there (broadcast, no copy): on a projected grid the lengths are two numbers."""
+    h, w = t.shape
+    out = []
+    for a in steps(slice(t.r0, t.r1), slice(t.c0, t.c1)):
+        a = np.asarray(a, np.float64)
+        a = a.reshape((1,) * (2 - a.ndim) + a.shape)
+        pad = [(1, 1) if n > 1 else (0, 0) for n in a.shape]
+        out.append(np.broadcast_to(np.pad(a, pad, mode="edge"), (h + 2, w + 2)))
+    return out[0], out[1]
 
 
-def _framed(inner: np.ndarray, outside: float) -> np.ndarray:
-    out = np.full((inner.shape[0] + 2, inner.shape[1] + 2), outside)
-    out[1:-1, 1:-1] = inner
-    return out
+def _elevations(z_source: Callable, folder: Path, t: Tile, height: int, width: int) -> np.ndarray:
+    """The tile's elevations framed by one ring (NaN beyond the grid): read once, then
+    memory-mapped from the tile's work file (a round reads the pages its flow touches)."""
+    path = folder / f"t{t.index}-reach-z.npy"
+    if not path.exists():
+        z = framed_read(z_source, slice(t.r0, t.r1), slice(t.c0, t.c1), height, width)
+        np.save(path, z)
+        return z
+    return np.asarray(np.load(path, mmap_mode="r"))
 
 
 def sweep_task(
@@ -105,30 +117,33 @@ def sweep_task(
     entry: dict[str, np.ndarray] | None,
 ) -> dict[str, np.ndarray]:
     """One tile's sweep from its sources and what enters it (``entry``: inner flat
-    indices and the merged state of each, or None); saves its outputs and returns what
-    reached its ring: the ring cells' grid flat indices and states."""
-    z = framed_read(z_source, slice(t.r0, t.r1), slice(t.c0, t.c1), height, width)
+    indices and the merged state of each, or None); saves the cells it reached and
+    returns what reached its ring: the ring cells' grid flat indices and states."""
+    z = _elevations(z_source, folder, t, height, width)
     col_step, row_step = _framed_steps(steps, t)
-    mass, margin, tan_alpha, worst = sources(t)
+    h, w = t.shape
     state = {
-        "mass": _framed(mass, 0.0),
-        "margin": _framed(margin, -np.inf),
-        "tan_alpha": _framed(tan_alpha, np.inf),
+        "mass": np.zeros(z.shape),
+        "margin": np.full(z.shape, -np.inf),
+        "tan_alpha": np.full(z.shape, np.inf),
         "energy": np.zeros(z.shape),
         "share": np.zeros(z.shape),
-        "worst": _framed(worst, np.inf),
+        "worst": np.full(z.shape, np.inf),
     }
-    h, w = t.shape
+    at, *given = sources(t)
+    framed = (at // w + 1) * (w + 2) + at % w + 1
+    for name, values in zip(("mass", "margin", "tan_alpha", "worst"), given, strict=True):
+        state[name].ravel()[framed] = values
     if entry is not None:
-        at = (entry["cells"] // w + 1) * (w + 2) + entry["cells"] % w + 1
+        framed = (entry["cells"] // w + 1) * (w + 2) + entry["cells"] % w + 1
         for name in STATE:
             flat = state[name].ravel()
             if name == "mass":
-                flat[at] += entry[name]
+                flat[framed] += entry[name]
             elif name in ("margin", "energy", "share"):
-                flat[at] = np.maximum(flat[at], entry[name])
+                flat[framed] = np.maximum(flat[framed], entry[name])
             else:
-                flat[at] = np.minimum(flat[at], entry[name])
+                flat[framed] = np.minimum(flat[framed], entry[name])
     cut = np.zeros(z.shape, np.uint8)
     reach.spread_reach(
         z, col_step, row_step, state["mass"], state["margin"], state["tan_alpha"],
@@ -136,9 +151,16 @@ def sweep_task(
         state["share"], cut, state["worst"], 1,
     )  # fmt: skip
     inner = (slice(1, -1), slice(1, -1))
-    for name, a in (("share", state["share"]), ("tan_alpha", state["tan_alpha"]),
-                    ("worst", state["worst"]), ("cut", cut)):  # fmt: skip
-        np.save(folder / f"t{t.index}-reach-{name}.npy", np.ascontiguousarray(a[inner]))
+    share = state["share"][inner]
+    reached = np.flatnonzero(share > 0.0)
+    np.savez(
+        folder / f"t{t.index}-reach.npz",
+        cells=reached,
+        share=share.ravel()[reached],
+        tan_alpha=state["tan_alpha"][inner].ravel()[reached],
+        worst=state["worst"][inner].ravel()[reached],
+        cut=cut[inner].ravel()[reached],
+    )
     ring = _ring_index(h, w)
     gone = state["margin"].ravel()[ring] >= 0.0
     rr, cc = ring[gone] // (w + 2) - 1 + t.r0, ring[gone] % (w + 2) - 1 + t.c0
@@ -239,9 +261,12 @@ def _nothing(shape: tuple[int, int]) -> dict[str, np.ndarray]:
 def tile_outputs(folder: Path, t: Tile, swept: set[int]) -> dict[str, np.ndarray]:
     """A tile's share, tan(alpha), worst source value and cut-off flags (nothing reached
     in a tile never swept)."""
-    if t.index not in swept:
-        return _nothing(t.shape)
-    return {name: np.load(folder / f"t{t.index}-reach-{name}.npy") for name in OUTPUTS}
+    out = _nothing(t.shape)
+    if t.index in swept:
+        with np.load(folder / f"t{t.index}-reach.npz") as saved:
+            for name in OUTPUTS:
+                out[name].ravel()[saved["cells"]] = saved[name]
+    return out
 
 
 def reach_array(
@@ -260,7 +285,7 @@ def reach_array(
 
     layout = Layout(*z.shape, size)
     tiles = layout.tiles()
-    started = [t.index for t in tiles if (states(t)[1] >= 0.0).any()]
+    started = [t.index for t in tiles if states(t)[0].size]
     steps = ArraySteps(np.asarray(col_step, float), np.asarray(row_step, float))
     swept, rounds = sweep_tiles(
         layout, ArraySource(z), steps, states, folder, runner, rules, started
