@@ -132,6 +132,11 @@ after_h = 12.0
 [comparison]
 baseline = "dry"
 pairs = [["dry", "steady"], ["rain", "rain_more"]]
+
+[runout]
+scenarios = ["steady", "storm", "gauges"]
+fs_below = 1.6
+friction_angle_deg = 8.0
 """
 
 
@@ -356,7 +361,10 @@ def test_rain_scenarios_without_spreads_on_flat_and_cliff_terrain(gauntlet):
 
 
 @pytest.mark.parametrize("name", CASES)
-def test_every_scenario_kind_runs_on_real_terrain(gauntlet, name):
+def test_every_scenario_kind_runs_on_real_terrain(gauntlet, name, monkeypatch):
+    from slopescreen.maps.region import runout_tiles
+
+    monkeypatch.setattr(runout_tiles, "RUNOUT_TILE", 16)  # run-out across tile edges too
     tmp, dems = gauntlet
     dem, unit = dems[name]
     maps = name in ("constant", "real_coast_sea")  # figures on two: flat, and lat/lon with sea
@@ -387,6 +395,15 @@ def test_every_scenario_kind_runs_on_real_terrain(gauntlet, name):
         with rasterio.open(out / scenario / "probability_of_failure.tif") as src:
             pf = src.read(1, masked=True).compressed()
         assert ((pf >= 0) & (pf <= 1)).all()
+    for scenario in ("steady", "storm", "gauges"):  # run-out: codes and shares, never NaN
+        with rasterio.open(out / scenario / "runout_reach.tif") as src:
+            reach = src.read(1, masked=True)
+        with rasterio.open(out / scenario / "runout_source_share.tif") as src:
+            share = src.read(1, masked=True)
+        assert reach.count() == share.count() == has_data.sum()
+        assert set(np.unique(reach.compressed())) <= {0, 1}
+        assert ((share.compressed() >= 0) & (share.compressed() <= 1)).all()
+        assert ((share.compressed() > 0) == (reach.compressed() == 1)).all()
     for storm in ("storm", "gauge", "gauges", "radar"):
         with rasterio.open(out / storm / "storm_time_to_failure_h.tif") as src:
             ttf = src.read(1, masked=True).compressed()
