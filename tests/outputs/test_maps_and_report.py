@@ -177,7 +177,7 @@ def test_report_content(demo_out):
     assert "sqrt(1 + V^2)" in text  # why the top probability class repeats FS < 1
     assert "Lab fit for soil unit COL" in text
     assert "overflow-x:auto" in text
-    assert text.count("data:image/png;base64,") >= 12
+    assert text.count("data:image/webp;base64,") >= 12
     # "hazard" only where an annual frequency is attached: the rainfall scenarios' sections
     # and the comparison of their hazard classes (and the file names that carry the word)
     lower = text.lower()
@@ -187,12 +187,55 @@ def test_report_content(demo_out):
         "hazard</em> in the zoning sense",
         "where the hazard class changes",
         "hazard class change",
+        "the same hazard class",
+        "no cell changes hazard class",
         "hazard_class",
         "hazard classes",
     ):
         lower = lower.replace(allowed, "")
     at = lower.find("hazard")
     assert at < 0, lower[max(0, at - 80) : at + 80]
+
+
+def test_report_opens_on_the_answer_and_stays_small(demo_out):
+    """The first screen holds the cautions and one row per scenario (area failing and with
+    a narrow margin, the change from the baseline, the largest zone and where it lies);
+    every scenario's section opens on a click from a table of contents; the page stays
+    under 8 MB (figures scaled to the page and stored as WebP)."""
+    import re
+
+    out, _ = demo_out
+    text = (out / "report.html").read_text()
+    assert (out / "report.html").stat().st_size < 8 * 2**20
+    head = text[: text.index("Scenario comparison</h2>")]
+    assert head.index("Cautions") < head.index("At a glance") < head.index("Contents")
+    manifest = json.loads((out / "manifest.json").read_text())
+    names = [s["name"] for s in manifest["scenarios"]]
+    glance = head[head.index("At a glance") : head.index("Contents")]
+    for name in names:  # one row each, linked to its section, which is collapsible
+        assert f"<a href='#sc-{name}'>{name}</a>" in glance
+        assert f"<details class='part' id='sc-{name}'><summary>" in text
+    # the largest zone of each scenario with a point inside it, as the CSV of zones has it
+    import geopandas as gpd
+
+    zones = gpd.read_file(out / "wet_season" / "low_margin_zones.gpkg")
+    big = zones.sort_values("area_m2", ascending=False).iloc[0]
+    import html
+
+    assert f"{big.area_m2 / 1e4:,.2f} ha, {html.escape(big.class_name)}" in glance
+    point = big.geometry.representative_point()
+    assert f"x {point.x:,.0f}, y {point.y:,.0f}" in glance
+    # soil units by their names from the soil table
+    assert "SLP (weathered siltstone slope soil)" in text
+    # the inventory's scores on the first screen
+    assert "Against 764 known landslides" in glance or "known landslides" in head
+    # an empty class-change map is not drawn but said
+    for match in re.finditer(r"No cell changes (class|hazard class)", text):
+        after = text[match.end() : match.end() + 400]
+        assert "<img" not in after.split("<h3>")[0]
+    # print: every section opens before printing; wide cells wrap on paper
+    assert "beforeprint" in text and "@media print" in text
+    assert "href='map.html'" in text
 
 
 def test_report_methods_only_for_what_ran(tmp_path):

@@ -134,8 +134,11 @@ def record_results(
 def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
     """Rewrite the validation section of report.html from the manifest (no report: none)."""
     from slopescreen.maps.outputs.validation_report import (
+        GLANCE_END,
+        GLANCE_START,
         SECTION_END,
         SECTION_START,
+        glance_scores,
         validation_section,
     )
 
@@ -149,7 +152,11 @@ def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
             f"{report}: no validation section (written by an older version); run again"
         )
     section = validation_section(manifest, out)
-    write_text(report, text[: start + len(SECTION_START)] + section + text[end:])
+    text = text[: start + len(SECTION_START)] + section + text[end:]
+    start, end = text.find(GLANCE_START), text.find(GLANCE_END)
+    if start >= 0 and end > start:  # the first screen's line of scores
+        text = text[: start + len(GLANCE_START)] + glance_scores(manifest) + text[end:]
+    write_text(report, text)
 
 
 @contextmanager

@@ -9,6 +9,7 @@ TERRAIN_FOLDER = "terrain"
 COMPARISON_FOLDER = "comparison"
 VALIDATION_FOLDER = "validation"
 REPORT = "report.html"
+MAP_PAGE = "map.html"
 MANIFEST = "manifest.json"
 INVENTORY_SCORES = "inventory_scores.csv"
 
@@ -185,6 +186,7 @@ RUN_OUTPUTS: tuple[tuple[str, str, str], ...] = (
         "back-analysis, calibration and sensitivity tables and figures",
     ),
     (REPORT, "report on", "the self-contained report"),
+    (MAP_PAGE, "report on", "the maps to pan, zoom and click, offline (beside the report)"),
     (MANIFEST, "always", "the run's state, inputs, parameters and output hashes"),
 )
 # names of the release before 0.2: removed from a scenario folder where found

@@ -30,7 +30,7 @@ from slopescreen.maps.outputs.palette import (
 from slopescreen.scenario import FAILS_WHEN_DRY, HOLDS_WHEN_SATURATED
 
 MAX_PIXELS = 1600  # rasters are read at most this many cells a side for a figure
-BOUNDARY_HEX = "#1f4e79"  # soil-unit boundaries: dashed slate blue, apart from zone outlines
+BOUNDARY_HEX = "#5f5f5f"  # soil-unit boundaries: thin, grey, half transparent (not contours)
 MAX_ZONE_OUTLINES = 20_000  # beyond this many zones the outlines would hide the map
 
 
@@ -176,22 +176,18 @@ def class_legend(
     ]
 
 
-def draw_values(
-    target: Path,
-    frame: MapFrame,
-    value_path: Path,
-    label: str,
+def coloured_values(
+    values: np.ndarray,
     log: bool = False,
     specials: tuple[Special, ...] = (),
-    no_data_label: str = "no result (no soil unit or no data)",
     value_range: tuple[float, float] | None = None,
-) -> Path:
-    """A continuous map, low values (the worry) dark and prominent, high values pale, on a
-    log colour scale with ``log``; codes in ``specials`` get their own legend entries."""
-    from matplotlib.colors import ListedColormap, LogNorm, Normalize
-    from matplotlib.patches import Patch
+) -> tuple[np.ndarray, np.ndarray, tuple[float, float]]:
+    """(RGB 0-1, no-data mask, value range) of a continuous layer in the house ramp: low
+    values (the worry) dark, high values pale, on a log scale with ``log``; codes in
+    ``specials`` in their own colours; the range from the 1st to 99th percentile (whole
+    decades on a log scale) unless given."""
+    from matplotlib.colors import LogNorm, Normalize
 
-    values = _decimated(value_path, frame.step).astype(np.float64)
     nodata = ~np.isfinite(values) | (values <= -9000.0)
     special_masks = [(s, np.isclose(values, s.value) & ~nodata) for s in specials]
     regular = ~nodata
@@ -211,15 +207,39 @@ def draw_values(
         value_range = (float(lo), float(hi))
     norm = (LogNorm if log else Normalize)(*value_range, clip=True)
     colours = ramp(256)
-    cmap = ListedColormap(colours)
     rgb = np.empty((*values.shape, 3))
     rgb[:] = hex_rgb(NO_DATA_HEX)
     if data.size:
-        rgb[regular] = cmap(norm(data))[:, :3]
-    handles = []
+        # as a 256-colour matplotlib colormap indexes [0, 1]
+        index = np.clip((np.asarray(norm(data)) * 256.0).astype(int), 0, 255)
+        rgb[regular] = colours[index]
     for s, m in special_masks:
         rgb[m] = hex_rgb(s.hex_colour)
-        handles.append(Patch(facecolor=hex_rgb(s.hex_colour), edgecolor="0.3", label=s.label))
+    return rgb, nodata, value_range
+
+
+def draw_values(
+    target: Path,
+    frame: MapFrame,
+    value_path: Path,
+    label: str,
+    log: bool = False,
+    specials: tuple[Special, ...] = (),
+    no_data_label: str = "no result (no soil unit or no data)",
+    value_range: tuple[float, float] | None = None,
+) -> Path:
+    """A continuous map, low values (the worry) dark and prominent, high values pale, on a
+    log colour scale with ``log``; codes in ``specials`` get their own legend entries."""
+    from matplotlib.colors import ListedColormap, LogNorm, Normalize
+    from matplotlib.patches import Patch
+
+    values = _decimated(value_path, frame.step).astype(np.float64)
+    rgb, _, value_range = coloured_values(values, log, specials, value_range)
+    norm = (LogNorm if log else Normalize)(*value_range, clip=True)
+    cmap = ListedColormap(ramp(256))
+    handles = [
+        Patch(facecolor=hex_rgb(s.hex_colour), edgecolor="0.3", label=s.label) for s in specials
+    ]
     handles.append(Patch(facecolor=hex_rgb(NO_DATA_HEX), edgecolor="0.3", label=no_data_label))
     return _draw(target, frame, rgb, handles, "codes and lines", colourbar=(cmap, norm, label))
 
@@ -253,13 +273,22 @@ def _map_panel(
                 (codes == code).astype(float),
                 levels=[0.5],
                 colors=BOUNDARY_HEX,
-                linewidths=0.9,
+                linewidths=0.4,
                 linestyles="dashed",
+                alpha=0.6,
                 extent=extent,
                 origin="upper",
             )
         handles.append(
-            Line2D([], [], color=BOUNDARY_HEX, lw=0.9, ls="dashed", label="soil-unit boundary")
+            Line2D(
+                [],
+                [],
+                color=BOUNDARY_HEX,
+                lw=0.6,
+                ls="dashed",
+                alpha=0.6,
+                label="soil-unit boundary",
+            )
         )
     if frame.zones is not None and frame.zones.exists():
         import geopandas as gpd

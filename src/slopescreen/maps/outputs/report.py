@@ -25,7 +25,7 @@ from slopescreen.maps.outputs.html_parts import (
     esc,
     num,
 )
-from slopescreen.maps.outputs.output_names import COMPARISON_FOLDER
+from slopescreen.maps.outputs.output_names import COMPARISON_FOLDER, MAP_PAGE
 from slopescreen.maps.region.config import SOIL_FIELDS, Config
 from slopescreen.maps.region.scenario_run import ScenarioSummary
 from slopescreen.maps.region.soils import SoilUnits
@@ -43,10 +43,28 @@ vertical-align:top;white-space:nowrap}
 th{background:#f0eef3}td.l,th.l{text-align:left}td.w,th.w{white-space:normal;min-width:24em;
 text-align:left}
 .caution{border:2px solid #8a2a2a;background:#fbeeee;padding:0.5em 1em;margin:1em 0}
-.warn{color:#8a4b00}img{max-width:100%;border:1px solid #ccc;margin:0.4em 0}
+.warn{color:#8a4b00}img{max-width:100%;height:auto;border:1px solid #ccc;margin:0.4em 0}
 .up{color:#5a1a78;font-weight:600}.down{color:#1f4e79}
 code{font-size:0.9em;overflow-wrap:anywhere}
+nav.toc{columns:2 16em;background:#f7f6f9;border:1px solid #ddd;padding:0.4em 1em;margin:1em 0}
+nav.toc a{display:block;padding:1px 0}
+details.part{border-top:2px solid #5a1a78;margin:1.2em 0}
+details.part>summary{cursor:pointer;padding:0.4em 0}
+details.part>summary h2{display:inline;border:none;margin:0;font-size:1.3em}
+details.part>summary .gist{display:block;color:#555;font-size:0.9em;margin-left:1.2em}
+.glance th{white-space:normal;min-width:5em}.glance td.w{min-width:16em}
+@media (max-width:600px){body{padding:0 0.5em;margin:0.5em auto}h1{font-size:1.25em}
+td,th{font-size:0.8em;padding:2px 4px}nav.toc{columns:1}}
+@media print{@page{size:A4;margin:12mm}body{max-width:none;margin:0;font-size:10pt}
+nav.toc{display:none}.tbl{overflow:visible}td,th{white-space:normal;font-size:8pt}
+td.w,th.w{min-width:0}table{width:100%}img,tr,.caution{break-inside:avoid}
+details.part>summary{list-style:none}h2,h3{break-after:avoid}}
 """
+# opens every section before printing (reading needs no script: sections open on a click)
+_PRINT_SCRIPT = (
+    "<script>addEventListener('beforeprint',()=>document.querySelectorAll('details')"
+    ".forEach(d=>d.open=true))</script>"
+)
 
 
 @dataclass
@@ -93,7 +111,7 @@ def _comparison(
 ) -> list[str]:
     names = [s.name for s in scenarios]
     base_name = cfg.comparison.baseline or names[0]
-    parts = ["<h2>Scenario comparison</h2>"]
+    parts = ["<h2 id='comparison'>Scenario comparison</h2>"]
     if small_multiples is not None:
         parts.append(embedded_image(small_multiples, "factor-of-safety classes of every scenario"))
     baseline = next((s for s in scenarios if s.name == base_name), None)
@@ -121,10 +139,16 @@ def _comparison(
         less, more, same = ch.areas_ha
         worse, better, _ = ch.names
         what = "hazard class" if worse == "more frequent" else "class"
+        title = f"<h3>Where the {what} changes: {esc(ch.first)} to {esc(ch.second)}</h3>"
+        if less == 0.0 and more == 0.0:  # an empty map carries nothing: said, not drawn
+            parts.append(
+                f"{title}<p>No cell changes {what}: all {same:,.1f} ha are in the same {what} "
+                f"in {esc(ch.second)} as in {esc(ch.first)} (map not shown).</p>"
+            )
+            continue
         parts.append(
-            f"<h3>Where the {what} changes: {esc(ch.first)} to {esc(ch.second)}</h3><p>"
-            f"{less:,.1f} ha {worse}, {more:,.1f} ha {better} and {same:,.1f} ha in the "
-            f"same class in {esc(ch.second)} than in {esc(ch.first)}.</p>"
+            f"{title}<p>{less:,.1f} ha {worse}, {more:,.1f} ha {better} and {same:,.1f} ha in "
+            f"the same {what} in {esc(ch.second)} than in {esc(ch.first)}.</p>"
             + embedded_image(ch.png, f"{what} change {ch.first} to {ch.second}")
         )
         r = ch.ratio
@@ -143,14 +167,23 @@ def _comparison(
 def _scenario_section(
     s: ScenarioSummary,
     class_names: list[str],
-    unit_keys: list[str],
+    soils: SoilUnits,
     depths: dict[str, str] | None = None,
+    geographic: bool = False,
 ) -> str:
-    """One scenario's maps and tables. ``depths``: the soil-depth maps shown so far (pixel
-    digest -> scenario); a depth map equal to an earlier one is named, not shown again."""
+    """One scenario's maps and tables, a section that opens on a click. ``depths``: the
+    soil-depth maps shown so far (pixel digest -> scenario); a depth map equal to an
+    earlier one is named, not shown again."""
     mapped = sum(s.class_areas_ha)
+    gist = (
+        f"{class_names[0]}: {_ha(s.class_areas_ha[0], mapped)}; "
+        f"{class_names[1]}: {_ha(s.class_areas_ha[1], mapped)}"
+        if len(class_names) > 1
+        else ""
+    )
     parts = [
-        f"<h2 id='sc-{esc(s.name)}'>Scenario {esc(s.name)}</h2>",
+        f"<details class='part' id='sc-{esc(s.name)}'><summary><h2>Scenario {esc(s.name)}</h2>"
+        f"<span class='gist'>{esc(gist)}</span></summary>",
         f"<p>{esc(s.description)}</p>" if s.description else "",
         f"<p><strong>Loads:</strong> {esc(s.loads)}</p>",
     ]
@@ -164,9 +197,9 @@ def _scenario_section(
             depths[digest] = s.name
         parts.append(title + embedded_image(png, what))
     rows = []
-    for key, areas in zip(unit_keys, s.unit_class_areas_ha, strict=True):
+    for key, areas in zip(soils.keys, s.unit_class_areas_ha, strict=True):
         total = sum(areas)
-        rows.append([esc(key), *(_ha(a, total) for a in areas), f"{total:,.2f} ha"])
+        rows.append([esc(soils.label(key)), *(_ha(a, total) for a in areas), f"{total:,.2f} ha"])
     rows.append(
         ["<strong>all</strong>", *(_ha(a, mapped) for a in s.class_areas_ha), f"{mapped:,.2f} ha"]
     )
@@ -214,22 +247,113 @@ def _scenario_section(
         zone_rows = [
             [
                 esc(z["class_name"]),
-                esc(z["soil_unit"]),
+                esc(soils.label(str(z["soil_unit"]))),
                 num(z["area_ha"], ",.2f"),
                 num(z["mean_slope_deg"], ".1f"),
+                esc(_where(z, geographic)),
             ]
             for z in s.zones
         ]
         parts.append(
             "<h3>Largest low-margin zones</h3>"
             + boxed_table(
-                ["class", "soil unit", "area (ha)", "mean slope (deg)"], zone_rows, left=2
+                ["class", "soil unit", "area (ha)", "mean slope (deg)", "a point inside"],
+                zone_rows,
+                left=2,
             )
         )
     files = ", ".join(f"<code>{esc(s.name)}/{esc(f)}</code>" for f in s.outputs)
     parts.append(f"<p class='meta'>Files: {files}</p>")
     parts += [f"<p class='warn'>{esc(w)}</p>" for w in s.warnings]
+    parts.append("</details>")
     return "\n".join(parts)
+
+
+def _where(zone: dict[str, object], geographic: bool, degrees_too: bool = True) -> str:
+    """Where a zone lies: a point inside it, in the DEM's CRS and (``degrees_too``) in
+    latitude and longitude."""
+    lat, lon = float(zone.get("lat", math.nan)), float(zone.get("lon", math.nan))  # type: ignore[arg-type]
+    if not (math.isfinite(lat) and math.isfinite(lon)):
+        return EMPTY
+    ns, ew = ("N" if lat >= 0 else "S"), ("E" if lon >= 0 else "W")
+    degrees = f"{abs(lat):.5f} {ns}, {abs(lon):.5f} {ew}"
+    if geographic:
+        return degrees
+    xy = f"x {float(zone['x']):,.0f}, y {float(zone['y']):,.0f}"  # type: ignore[arg-type]
+    return f"{xy} ({degrees})" if degrees_too else xy
+
+
+def _glance(
+    cfg: Config,
+    grid: Grid,
+    soils: SoilUnits,
+    class_names: list[str],
+    scenarios: list[ScenarioSummary],
+) -> str:
+    """The first screen: per scenario one row with the area failing and with a narrow
+    margin, the change from the baseline, the largest zone and where it lies, and how often
+    rain starts failure where that was computed."""
+    names = [s.name for s in scenarios]
+    base_name = cfg.comparison.baseline or (names[0] if names else "")
+    baseline = next((s for s in scenarios if s.name == base_name), None)
+    narrow = class_names[1] if len(class_names) > 1 else ""
+    hazard = any(s.hazard_areas_ha is not None for s in scenarios)
+    geographic = bool(getattr(grid, "geographic", False))
+    rows = []
+    for s in scenarios:
+        mapped = sum(s.class_areas_ha)
+        low = s.class_areas_ha[0] + (s.class_areas_ha[1] if narrow else 0.0)
+        if baseline is None or s is baseline:
+            change = "baseline" if s is baseline else EMPTY
+        else:
+            d = low - (baseline.class_areas_ha[0] + (baseline.class_areas_ha[1] if narrow else 0.0))
+            mark = "up" if d > 0 else "down"
+            change = f"<span class='{mark}'>{d:+,.1f} ha</span>" if d else "no change"
+        zone = EMPTY
+        if s.zones:
+            z = s.zones[0]
+            zone = (
+                f"{float(z['area_ha']):,.2f} ha, {esc(z['class_name'])}, "  # type: ignore[arg-type]
+                f"{esc(soils.label(str(z['soil_unit'])))}; at {esc(_where(z, geographic, False))}"
+            )
+        row = [
+            f"<a href='#sc-{esc(s.name)}'>{esc(s.name)}</a>",
+            _ha(s.class_areas_ha[0], mapped),
+            *([_ha(s.class_areas_ha[1], mapped)] if narrow else []),
+            change,
+            zone,
+        ]
+        if hazard:
+            often = EMPTY
+            if s.hazard_areas_ha is not None:
+                often = "; ".join(
+                    f"{esc(n)}: {a:,.1f} ha"
+                    for n, a in list(zip(s.hazard_names, s.hazard_areas_ha, strict=True))[:2]
+                )
+            row.append(often)
+        rows.append(row)
+    head = ["scenario", class_names[0], *([narrow] if narrow else []),
+            f"change from {base_name} (both classes)" if narrow else f"change from {base_name}",
+            "largest low-margin zone: area, class, soil unit, a point inside"]  # fmt: skip
+    if hazard:
+        head.append("how often rain starts failure (most frequent classes)")
+    zone_column = head.index("largest low-margin zone: area, class, soil unit, a point inside")
+    wrap = (zone_column, len(head) - 1)
+    table = boxed_table(head, rows, wrap=wrap).replace("<table>", "<table class='glance'>", 1)
+    return (
+        "<h2 id='glance'>At a glance</h2><p>Ground area of each scenario with FS below 1 and "
+        "with a narrow margin, its change from the baseline, and the largest zone of the two "
+        "least stable classes with a point inside it. Sections below open on a click.</p>" + table
+    )
+
+
+def _contents(scenarios: list[ScenarioSummary], extra: list[tuple[str, str]]) -> str:
+    """The table of contents: the first screen, each scenario, then what follows."""
+    links = [("glance", "At a glance"), ("comparison", "Scenario comparison")]
+    links += [(f"sc-{s.name}", f"Scenario {s.name}") for s in scenarios]
+    links += extra
+    items = "".join(f"<a href='#{esc(a)}'>{esc(t)}</a>" for a, t in links)
+    return f"<nav class='toc' aria-label='contents'><strong>Contents</strong>{items}</nav>"
 
 
 def _runout_section(s: ScenarioSummary) -> str:
@@ -529,7 +653,11 @@ def _methods(cfg: Config, scenarios: list[ScenarioSummary], soils: SoilUnits) ->
             "&amp; Whitman 1969) or the direct-shear points, standard errors from the "
             "residuals (Draper &amp; Smith 1998)."
         )
-    return "<h2>Methods</h2><ul>" + "".join(f"<li>{i}</li>" for i in items) + "</ul>"
+    return (
+        "<details class='part' id='methods'><summary><h2>Methods</h2></summary><ul>"
+        + "".join(f"<li>{i}</li>" for i in items)
+        + "</ul></details>"
+    )
 
 
 def write_report(
@@ -544,12 +672,19 @@ def write_report(
     changes: Sequence[ClassChange] = (),
     extras: Extras | None = None,
     validation: str = "",
+    scores: str = "",
 ) -> Path:
-    """The report; ``validation`` is the known-landslides section (HTML), kept between
-    markers so the inventory commands can rewrite it in place."""
+    """The report; ``validation`` is the known-landslides section (HTML) and ``scores`` its
+    line on the first screen, each kept between markers so the inventory commands can
+    rewrite them in place."""
     import tempfile
 
-    from slopescreen.maps.outputs.validation_report import SECTION_END, SECTION_START
+    from slopescreen.maps.outputs.validation_report import (
+        GLANCE_END,
+        GLANCE_START,
+        SECTION_END,
+        SECTION_START,
+    )
 
     extras = extras or Extras()
     ran = ", ".join(s.name for s in scenarios)
@@ -560,10 +695,18 @@ def write_report(
         f"<h1>Shallow-landslide susceptibility screening: {esc(cfg.region.name)}</h1>",
         f"<p class='meta'>Run {esc(facts.started_utc)} to {esc(facts.finished_utc)} (UTC) with "
         f"slopescreen {esc(facts.version)}; scenario file <code>{esc(cfg.path.name)}</code>; "
-        f"{len(scenarios)} scenario(s): {esc(ran)}.</p>",
+        f"{len(scenarios)} scenario(s): {esc(ran)}. The maps to pan, zoom and click: "
+        f"<a href='{MAP_PAGE}'>{MAP_PAGE}</a> beside this page.</p>",
+        _cautions(),
+        _glance(cfg, grid, soils, class_names, scenarios),
+        GLANCE_START + scores + GLANCE_END,
+        _contents(
+            scenarios,
+            ([("inventory", "Known landslides")] if validation else [])
+            + [("inputs", "Inputs"), ("methods", "Methods"), ("warnings", "Coverage and warnings")],
+        ),
         "<p>Factor-of-safety classes are a <em>susceptibility</em> map: where failure is more "
         "or less likely under each scenario, with no annual frequency attached.</p>",
-        _cautions(),
     ]
     parts += _comparison(cfg, class_names, scenarios, small_multiples, list(changes))
     with_pf = [s for s in scenarios if s.probability_areas_ha]
@@ -578,11 +721,12 @@ def write_report(
             + boxed_table(["chance that FS < 1", *(s.name for s in with_pf)], rows)
         )
     depths: dict[str, str] = {}
-    parts += [_scenario_section(s, class_names, soils.keys, depths) for s in scenarios]
+    geographic = bool(getattr(grid, "geographic", False))
+    parts += [_scenario_section(s, class_names, soils, depths, geographic) for s in scenarios]
     parts.append(SECTION_START + validation + SECTION_END)
 
     t = grid.transform
-    parts.append("<h2>Inputs</h2>")
+    parts.append("<details class='part' id='inputs'><summary><h2>Inputs</h2></summary>")
     rows = [
         [
             "DEM",
@@ -616,17 +760,21 @@ def write_report(
         parts += _lab_fits(cfg, soils, extras, Path(work))
         if extras.hillside is not None:
             parts.append(_hillside(extras.hillside))
-        parts.append(_methods(cfg, scenarios, soils))
         hashes = [[esc(k), f"<code>{esc(v)}</code>"] for k, v in facts.hashes.items()]
         parts.append(
             "<h3>Input hashes (SHA-256)</h3>" + boxed_table(["input", "SHA-256"], hashes, 2)
         )
+        parts.append("</details>")
+        parts.append(_methods(cfg, scenarios, soils))
         warnings = soils.warnings + [w for s in scenarios for w in s.warnings]
-        parts.append("<h2>Coverage and warnings</h2>")
+        parts.append(
+            "<details class='part' id='warnings' open><summary><h2>Coverage and warnings</h2>"
+            "</summary>"
+        )
         parts.append(
             "<ul>" + "".join(f"<li class='warn'>{esc(w)}</li>" for w in warnings) + "</ul>"
             if warnings
             else "<p>All DEM data cells lie in a soil unit; no warnings.</p>"
         )
-        parts.append(_cautions() + "</body></html>\n")
+        parts.append("</details>" + _cautions() + _PRINT_SCRIPT + "</body></html>\n")
         return write_text(target, "\n".join(parts))

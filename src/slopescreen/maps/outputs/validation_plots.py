@@ -158,12 +158,22 @@ def threshold_figure(
     plt = _pyplot()
     fig, ax = plt.subplots(figsize=(7.0, 5.4))
     d = np.asarray(durations_h, float)
-    for j, t in enumerate(return_periods_yr):
+    for j, t in enumerate(return_periods_yr):  # every curve drawn has its legend entry
         shade = 0.35 + 0.5 * j / max(len(return_periods_yr) - 1, 1)
-        ax.plot(d, intensity_mm_h[:, j], color=str(shade), lw=0.9, ls="--")
-        ax.annotate(f"{t:g} yr", (d[-1], intensity_mm_h[-1, j]), fontsize=6, color="0.3",
-                    xytext=(3, 0), textcoords="offset points", va="center")  # fmt: skip
+        ax.plot(d, intensity_mm_h[:, j], color=str(shade), lw=0.9, ls="--",
+                label=f"{design_label}, {t:g} yr")  # fmt: skip
+        ax.annotate(
+            f"{t:g} yr",
+            (d[-1], intensity_mm_h[-1, j]),
+            fontsize=6,
+            color="0.3",
+            xytext=(-3, 3),
+            textcoords="offset points",
+            ha="right",
+            va="bottom",
+        )  # inside the frame: fmt: skip
     colours = [VIOLET, RUST, "#8a6d1f", "#1f4e79", "#4d4d4d", "#7b3f61", "#2f6b3f", "#6b5a2f"]
+    not_drawn = []
     for i, (label, values) in enumerate(thresholds.items()):
         ok = values > 0
         colour = colours[(i // 2) % len(colours)]  # a unit's median and steep curves alike
@@ -173,7 +183,7 @@ def threshold_figure(
                     label=label)  # fmt: skip
         else:
             why = "fails before rain" if (values == -1).any() else "no rain up to K_z fails it"
-            ax.plot([], [], color=colour, ls=style, label=f"{label}: {why}")
+            not_drawn.append(f"{label}: {why}")
     ax.set_xscale("log")
     ax.set_yscale("log")
     ax.set_xlabel("storm duration (h)")
@@ -182,8 +192,10 @@ def threshold_figure(
 
     ax.set_title(textwrap.fill(title, 90), fontsize=9)
     ax.grid(alpha=0.3, which="both")
-    ax.legend(fontsize=6, loc="center left", bbox_to_anchor=(1.08, 0.5),
-              title=f"grey dashed: {design_label}", title_fontsize=7)  # fmt: skip
+    ax.legend(fontsize=6, loc="center left", bbox_to_anchor=(1.08, 0.5))
+    if not_drawn:  # curves that do not exist are said, not drawn
+        fig.text(0.01, 0.01, textwrap.fill("Not drawn: " + "; ".join(not_drawn), 160),
+                 fontsize=6, color="0.3", va="bottom")  # fmt: skip
     fig.set_size_inches(10.5, 5.6)
     return _save(fig, target, 0.08)
 

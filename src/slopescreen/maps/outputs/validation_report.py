@@ -13,6 +13,26 @@ from slopescreen.maps.outputs.output_names import SUCCESS_RATE
 # where the section stands in report.html, so a later command can rewrite it in place
 SECTION_START = "<!-- slopescreen:validation -->"
 SECTION_END = "<!-- /slopescreen:validation -->"
+GLANCE_START = "<!-- slopescreen:scores -->"  # the scores' line on the first screen
+GLANCE_END = "<!-- /slopescreen:scores -->"
+
+
+def glance_scores(manifest: dict[str, Any]) -> str:
+    """One line for the first screen: how well each scored map ranks the known landslides
+    (success AUC, and the held-out slides' prediction AUC); "" when none were scored."""
+    inv = manifest.get("inventory")
+    if not inv or not inv.get("scenarios"):
+        return ""
+    items = "; ".join(
+        f"{esc(r['scenario'])} {num(r['success_auc'], '.2f')} "
+        f"(held out {num(r['prediction_auc'], '.2f')})"
+        for r in inv["scenarios"]
+    )
+    return (
+        f"<p><strong>Against {inv['landslides']} known landslides</strong> (success AUC: 0.5 "
+        f"is chance, 1 puts every slide on the least stable ground): {items}. "
+        "<a href='#inventory'>Scores</a>.</p>"
+    )
 
 
 def validation_section(manifest: dict[str, Any], out: Path) -> str:
@@ -29,8 +49,8 @@ def validation_section(manifest: dict[str, Any], out: Path) -> str:
     if not parts:
         return ""
     return (
-        "<h2 id='inventory'>Known landslides: scores, back-analysis, sensitivity</h2>"
-        + "\n".join(parts)
+        "<details class='part' id='inventory'><summary><h2>Known landslides: scores, "
+        "back-analysis, sensitivity</h2></summary>" + "\n".join(parts) + "</details>"
     )
 
 

@@ -64,6 +64,7 @@ from slopescreen.maps.outputs.output_names import (
     HILLSHADE,
     INVENTORY_SCORES,
     MANIFEST,
+    MAP_PAGE,
     PAIR_HAZARD_SUFFIX,
     PAIR_RATIO_SUFFIX,
     REPORT,
@@ -75,7 +76,8 @@ from slopescreen.maps.outputs.output_names import (
     TERRAIN_COPIED,
     TERRAIN_FOLDER,
 )
-from slopescreen.maps.outputs.validation_report import validation_section
+from slopescreen.maps.outputs.validation_report import glance_scores, validation_section
+from slopescreen.maps.outputs.viewer import write_map_page
 from slopescreen.maps.region.terrain_cache import cache_key, terrain_products
 from slopescreen.stability_classes import class_names as stability_class_names
 
@@ -268,7 +270,7 @@ def _check_elevations(
         )
 
 
-RUN_FILES = (MANIFEST, REPORT)  # rewritten by every run
+RUN_FILES = (MANIFEST, REPORT, MAP_PAGE)  # rewritten by every run
 
 
 @contextlib.contextmanager
@@ -432,10 +434,23 @@ def _run_locked(
                     changes,
                     extras,
                     validation_section(state.validation, out),
+                    glance_scores(state.validation),
                 )
                 state.outputs.append(REPORT)
+                write_map_page(
+                    out / MAP_PAGE,
+                    cfg.region.name,
+                    inputs.grid,
+                    out,
+                    out / TERRAIN_FOLDER,
+                    state.summaries,
+                    stability_class_names(cfg.fs_breaks),
+                    [inputs.soils.label(k) for k in inputs.soils.keys],
+                )
+                state.outputs.append(MAP_PAGE)
             else:
                 (out / REPORT).unlink(missing_ok=True)
+                (out / MAP_PAGE).unlink(missing_ok=True)
                 shutil.rmtree(out / COMPARISON_FOLDER, ignore_errors=True)
             timings.add("report", started)
             state.complete = True

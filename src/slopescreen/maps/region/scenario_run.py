@@ -785,16 +785,23 @@ def run_scenario(
 
 
 def largest_zones(zones: object, count: int = 10) -> list[dict[str, object]]:
-    """The ``count`` largest zones: class, soil unit, ground area and mean slope."""
+    """The ``count`` largest zones: class, soil unit, ground area, mean slope and where it
+    lies: a point inside it (x, y in the DEM's CRS; longitude and latitude)."""
     frame = zones.sort_values("area_m2", ascending=False, kind="stable").head(count)  # type: ignore[attr-defined]
+    inside = frame.geometry.representative_point()
+    lonlat = inside.to_crs("EPSG:4326") if len(frame) else inside
     return [
         {
             "class_name": str(r.class_name),
             "soil_unit": str(r.soil_unit),
             "area_ha": float(r.area_m2) / 10_000.0,
             "mean_slope_deg": float(r.mean_slope_deg),
+            "x": float(p.x),
+            "y": float(p.y),
+            "lon": float(q.x),
+            "lat": float(q.y),
         }
-        for r in frame.itertuples()
+        for r, p, q in zip(frame.itertuples(), inside, lonlat, strict=True)
     ]
 
 

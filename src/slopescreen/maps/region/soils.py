@@ -55,6 +55,12 @@ class SoilUnits:
     spread_cov: dict[int, dict[str, float]] = field(default_factory=dict)  # code -> cov given
     # code -> field -> distribution of a spread whose sd or cov is a raster
     cell_spreads: dict[int, dict[str, str]] = field(default_factory=dict)
+    names: dict[str, str] = field(default_factory=dict)  # unit -> its name in the soil table
+
+    def label(self, key: str) -> str:
+        """A unit as people read it: its code and, where the soil table names it, the name."""
+        name = self.names.get(key, "")
+        return f"{key} ({name})" if name and name != key else key
 
     def raster(self, name: str, code: int) -> Path | None:
         """The raster giving ``name`` for unit ``code``, or None (a number)."""
@@ -520,6 +526,11 @@ def load_soils(region: Region, grid: Grid) -> SoilUnits:
         rasters=rasters,
         spread_cov=covs,
         cell_spreads=cell_spreads,
+        names={
+            k: str(records[k]["name"]).strip()
+            for k in keys
+            if isinstance(records[k].get("name"), str) and str(records[k]["name"]).strip()
+        },
         lab_tests={
             k: (Path(source).parent / str(records[k]["strength_lab_tests"]).strip()).resolve()
             for k in keys
