@@ -31,7 +31,7 @@ def _browse(page, tmp_path, *args):
     )  # fmt: skip
 
 
-INSTALL = "Debian's chromium is not installed (apt-get install chromium; .ci/run does it)"
+INSTALL = "Debian's chromium is not installed: sudo apt-get install chromium (.ci/run does)"
 
 
 @pytest.mark.skipif(_chromium() is None, reason=INSTALL)

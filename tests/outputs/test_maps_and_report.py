@@ -259,7 +259,10 @@ def _chromium():
     return None
 
 
-@pytest.mark.skipif(_chromium() is None, reason="Debian's chromium is not installed")
+@pytest.mark.skipif(
+    _chromium() is None,
+    reason="Debian's chromium is not installed: sudo apt-get install chromium (.ci/run does)",
+)
 def test_report_renders_in_a_real_browser(demo_out, tmp_path):
     """Headless Chromium renders the report: no console error, a screenshot that is not
     blank. The screenshot stays in the test's temporary folder; with SLOPESCREEN_REFRESH_DOCS=1

@@ -23,7 +23,7 @@ def _rough_dem():
 
 @pytest.mark.skipif(
     shutil.which("gdaldem") is None,
-    reason="gdaldem (Debian package gdal-bin) is not installed; .ci/run installs it",
+    reason="gdaldem is not installed: sudo apt-get install gdal-bin (.ci/run installs it)",
 )
 def test_slope_matches_gdaldem(tmp_path):
     # Outside reference: GDAL's own `gdaldem slope` (Horn 1981 is its default algorithm).

@@ -65,7 +65,7 @@ def parse_csv(text: str) -> tuple[list[tuple[int, list[str]]], bool]:
     write ``;`` between cells and a decimal comma: a header with more ``;`` than ``,`` is
     read that way, and a cell that is a number with a decimal comma ("1,5") becomes "1.5".
 
-    >>> parse_csv("unit;depth_m\nA;1,5\n")
+    >>> parse_csv("unit;depth_m\\nA;1,5\\n")
     ([(1, ['unit', 'depth_m']), (2, ['A', '1.5'])], True)
     """
     lines = [

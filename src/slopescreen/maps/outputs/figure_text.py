@@ -16,7 +16,9 @@ def fit_text(fig: Any, x: float, y: float, text: str, **kwargs: Any) -> Any:
     artist = fig.text(x, y, text, **kwargs)
     width = artist.get_window_extent(fig.canvas.get_renderer()).width
     room = fig.bbox.width * (1.0 - x)
-    if text and width > room:
-        per_char = width / len(text)
-        artist.set_text(textwrap.fill(text, max(10, int(FILL * room / per_char))))
+    if text and width > room:  # the widest line sets the mean width of a character
+        lines = text.split("\n")
+        per_char = width / max(len(line) for line in lines)
+        chars = max(10, int(FILL * room / per_char))
+        artist.set_text("\n".join(textwrap.fill(line, chars) for line in lines))
     return artist
