@@ -5,7 +5,7 @@ from __future__ import annotations
 import textwrap
 from typing import Any
 
-FILL = 0.95  # lines filled to this share of the room: characters differ in width
+FILL = 0.9  # lines filled to this share of the room: characters differ in width
 
 
 def fit_text(fig: Any, x: float, y: float, text: str, **kwargs: Any) -> Any:

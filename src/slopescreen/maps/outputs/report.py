@@ -56,8 +56,9 @@ details.part>summary .gist{display:block;color:#555;font-size:0.9em;margin-left:
 @media (max-width:600px){body{padding:0 0.5em;margin:0.5em auto}h1{font-size:1.25em}
 td,th{font-size:0.8em;padding:2px 4px}nav.toc{columns:1}}
 @media print{@page{size:A4;margin:12mm}body{max-width:none;margin:0;font-size:10pt}
-nav.toc{display:none}.tbl{overflow:visible}td,th{white-space:normal;font-size:8pt}
-td.w,th.w{min-width:0}table{width:100%}img,tr,.caution{break-inside:avoid}
+nav.toc{display:none}.tbl{overflow:visible}td,th{white-space:normal;font-size:7.5pt;
+overflow-wrap:anywhere;padding:2px 3px}td.w,th.w,.glance th{min-width:0}
+table{width:100%;table-layout:fixed}img,tr,.caution{break-inside:avoid}
 details.part>summary{list-style:none}h2,h3{break-after:avoid}}
 """
 # opens every section before printing (reading needs no script: sections open on a click)

@@ -192,10 +192,10 @@ def threshold_figure(
 
     ax.set_title(textwrap.fill(title, 90), fontsize=9)
     ax.grid(alpha=0.3, which="both")
-    ax.legend(fontsize=6, loc="center left", bbox_to_anchor=(1.08, 0.5))
-    if not_drawn:  # curves that do not exist are said, not drawn
-        fig.text(0.01, 0.01, textwrap.fill("Not drawn: " + "; ".join(not_drawn), 160),
-                 fontsize=6, color="0.3", va="bottom")  # fmt: skip
+    ax.legend(fontsize=6, loc="upper left", bbox_to_anchor=(1.08, 1.0))
+    if not_drawn:  # curves that do not exist are said beside the legend, not drawn
+        ax.text(1.08, 0.0, "\n".join(textwrap.fill(x, 48) for x in ["Not drawn:", *not_drawn]),
+                transform=ax.transAxes, fontsize=6, color="0.3", va="bottom")  # fmt: skip
     fig.set_size_inches(10.5, 5.6)
     return _save(fig, target, 0.08)
 
