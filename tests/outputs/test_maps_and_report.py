@@ -398,3 +398,37 @@ def test_scenario_file_reference_is_current():
     assert docs.read_text() == markdown(), "run: python -m slopescreen.maps.region.scenario_schema"
     for key in ("soil_layer", "soil_unit_field", "did you mean friction_deg?", "[comparison]"):
         assert key in docs.read_text()
+
+
+def test_threshold_plot_has_a_legend_entry_per_drawn_curve(tmp_path, monkeypatch):
+    # every curve drawn (each design-rainfall curve, each unit's threshold) has one legend
+    # entry, a unit whose threshold does not exist has none, and the return-period labels
+    # sit inside the frame
+    from slopescreen.maps.outputs import validation_plots
+
+    kept = {}
+
+    def keep(fig, target, bottom=0.1):
+        kept["fig"] = fig
+        return target
+
+    monkeypatch.setattr(validation_plots, "_save", keep)
+    validation_plots.threshold_figure(
+        tmp_path / "t.png", (1.0, 6.0, 24.0),
+        {"A (median)": np.array([30.0, 12.0, 6.0]), "A (steep)": np.array([-1.0, -1.0, -1.0])},
+        (2.0, 10.0, 100.0), np.array([[20.0, 28.0, 40.0], [8.0, 11.0, 16.0], [3.0, 4.0, 6.0]]),
+        "thresholds",
+    )  # fmt: skip
+    fig = kept["fig"]
+    ax = fig.axes[0]
+    drawn = [line for line in ax.get_lines() if len(line.get_xdata())]
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert len(labels) == len(drawn) == 4 and "A (steep)" not in labels
+    renderer = fig.canvas.get_renderer()
+    frame = ax.get_window_extent(renderer)
+    periods = [t for t in ax.texts if t.get_text().endswith(" yr")]
+    assert len(periods) == 3
+    for text in periods:
+        box = text.get_window_extent(renderer)
+        assert frame.x0 <= box.x0 and box.x1 <= frame.x1 and frame.y0 <= box.y0 <= frame.y1
+    assert any("A (steep): fails before rain" in t.get_text() for t in ax.texts)

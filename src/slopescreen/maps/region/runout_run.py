@@ -155,27 +155,44 @@ def runout_outputs(
 
 @dataclass
 class Stitched:
-    """Windows of the swept tiles' results, stitched across tile edges."""
+    """Windows of the swept tiles' results, stitched across tile edges, read from the cells
+    each tile reached (kept once read: they are as many as the reach, not the tile)."""
 
     folder: Path
     layout: Layout
     swept: set[int]
+    reached: dict[int, dict[str, np.ndarray]] = field(default_factory=dict)
+
+    def _tile(self, t: Tile) -> dict[str, np.ndarray] | None:
+        if t.index not in self.swept:
+            return None
+        if t.index not in self.reached:
+            with np.load(self.folder / f"t{t.index}-reach.npz") as saved:
+                self.reached[t.index] = {k: saved[k] for k in saved.files}
+        return self.reached[t.index]
 
     def window(self, name: str, rows: slice, cols: slice) -> np.ndarray:
-        first = None
+        """``name`` (share or worst) over a window: 0 and +inf where nothing reached."""
+        out = np.full((rows.stop - rows.start, cols.stop - cols.start),
+                      0.0 if name == "share" else np.inf)  # fmt: skip
         for t in self.layout.tiles():
             r0, r1 = max(rows.start, t.r0), min(rows.stop, t.r1)
             c0, c1 = max(cols.start, t.c0), min(cols.stop, t.c1)
-            if r0 >= r1 or c0 >= c1:
+            got = self._tile(t) if r0 < r1 and c0 < c1 else None
+            if got is None or not got["cells"].size:
                 continue
-            part = tile_outputs(self.folder, t, self.swept)[name]
-            if first is None:
-                first = np.empty((rows.stop - rows.start, cols.stop - cols.start), part.dtype)
-            first[r0 - rows.start : r1 - rows.start, c0 - cols.start : c1 - cols.start] = part[
-                r0 - t.r0 : r1 - t.r0, c0 - t.c0 : c1 - t.c0
-            ]
-        assert first is not None
-        return first
+            rr, cc = np.mgrid[r0:r1, c0:c1]
+            flat = ((rr - t.r0) * (t.c1 - t.c0) + cc - t.c0).ravel()
+            at = np.minimum(np.searchsorted(got["cells"], flat), got["cells"].size - 1)
+            hit = got["cells"][at] == flat
+            place = (
+                slice(r0 - rows.start, r1 - rows.start),
+                slice(c0 - cols.start, c1 - cols.start),
+            )
+            block = out[place].ravel()  # a copy: the window is not contiguous
+            block[hit] = got[name][at[hit]]
+            out[place] = block.reshape(r1 - r0, c1 - c0)
+        return out
 
 
 @dataclass
