@@ -292,9 +292,10 @@ def test_report_renders_in_a_real_browser(demo_out, tmp_path):
         timeout=180,
     )
     assert result.returncode == 0, result.stderr[-2000:]
-    console = [line for line in result.stderr.splitlines() if ":CONSOLE(" in line]
-    errors = [line for line in console if "ERROR" in line.upper() or "Uncaught" in line]
-    assert not errors, errors
+    # Chromium logs every console message as "...:CONSOLE:<line>] ..." (console.error and
+    # uncaught exceptions at INFO level too): the page writes none
+    console = [line for line in result.stderr.splitlines() if ":CONSOLE" in line]
+    assert not console, console
     image = imread(shot)[..., :3]
     assert image.shape[0] >= 2000
     distinct = np.unique((image.reshape(-1, 3) * 255).astype(np.uint8), axis=0)

@@ -241,9 +241,10 @@
   }
 
   function pixelsDigest() {
-    const px = ctx.getImageData(0, 0, canvas.width, canvas.height).data;
+    // the canvas as a PNG, hashed (FNV-1a): what the picture shows, compared across layers
+    const png = canvas.toDataURL("image/png");
     let h = 2166136261;
-    for (let k = 0; k < px.length; k += 7) h = Math.imul(h ^ px[k], 16777619) >>> 0;
+    for (let k = 0; k < png.length; k++) h = Math.imul(h ^ png.charCodeAt(k), 16777619) >>> 0;
     return h;
   }
 
