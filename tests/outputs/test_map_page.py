@@ -103,9 +103,12 @@ def test_the_page_size_is_bounded_by_its_resolution_not_the_region(demo_out, tmp
     from pathlib import Path
 
     from slopescreen.maps.io.grid import read_grid
+    from slopescreen.maps.region.config import load_config
 
     out, _ = demo_out
-    grid = read_grid(Path(__file__).resolve().parents[2] / "demo_region" / "quillbrook_dem.tif")
+    region = Path(__file__).resolve().parents[2] / "demo_region"
+    cfg = load_config(region / "quillbrook_scenarios.toml")
+    grid = read_grid(region / "quillbrook_dem.tif")
     manifest = json.loads((out / "manifest.json").read_text())
 
     class Ran:  # what the page reads of a scenario's summary
@@ -118,7 +121,7 @@ def test_the_page_size_is_bounded_by_its_resolution_not_the_region(demo_out, tmp
         monkeypatch.setattr(viewer, "VIEW_PIXELS", pixels)
         monkeypatch.setattr(viewer, "VALUE_PIXELS", pixels // 2)
         target = tmp_path / f"map{pixels}.html"
-        viewer.write_map_page(target, "demo", grid, out, out / "terrain", scenarios,
+        viewer.write_map_page(target, cfg, grid, out, out / "terrain", scenarios,
                               ["a", "b", "c", "d"], ["u"] * 5)  # fmt: skip
         sizes[pixels] = target.stat().st_size
     assert sizes[200] < 0.6 * sizes[400]

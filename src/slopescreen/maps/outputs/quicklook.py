@@ -485,3 +485,28 @@ CRITICAL_RECHARGE_SPECIALS = (
         f"holds even when saturated (code {HOLDS_WHEN_SATURATED:g})",
     ),
 )
+
+
+def storm_specials(later_h: float) -> tuple[Special, ...]:
+    """The codes of a storm's time-to-failure raster, in their own colours."""
+    from slopescreen.maps.outputs.palette import FAILS_BEFORE_HEX
+    from slopescreen.storm import FAILS_BEFORE_STORM, NOT_BY_LATER
+
+    return (
+        Special(NOT_BY_LATER, HOLDS_HEX, f"holds to {later_h:g} h (code -1)"),
+        Special(FAILS_BEFORE_STORM, FAILS_BEFORE_HEX, "fails before the storm (code -2)"),
+    )
+
+
+def return_period_specials(first_yr: float, last_yr: float) -> tuple[Special, ...]:
+    """The codes of the triggering return period raster (the design-rainfall table runs
+    from ``first_yr`` to ``last_yr``), in their own colours."""
+    from slopescreen import rainfall_frequency as rf
+    from slopescreen.maps.outputs.palette import CLASS_HEX, NO_RAIN_HEX
+
+    return (
+        Special(rf.FAILS_WITHOUT_RAIN, FAILS_DRY_HEX, "fails before any rain (code -3)"),
+        Special(rf.MORE_FREQUENT, CLASS_HEX[0], f"more often than 1 in {first_yr:g} yr (code -1)"),
+        Special(rf.RARER, HOLDS_HEX, f"rarer than 1 in {last_yr:g} yr (code -2)"),
+        Special(rf.NO_INTENSITY_FAILS, NO_RAIN_HEX, "no rain starts failure (code -4)"),
+    )

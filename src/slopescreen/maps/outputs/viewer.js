@@ -93,7 +93,7 @@
       const ends = document.createElement("div");
       ends.className = "ends";
       ends.textContent = `${layer.ramp.low.toPrecision(3)} to ${layer.ramp.high.toPrecision(3)}` +
-        (layer.ramp.log ? " (log scale)" : "") + "; codes (below 0) are not drawn here";
+        (layer.ramp.log ? " (log scale), dark to pale" : ", dark to pale");
       box.appendChild(ends);
     }
     return box;
@@ -206,7 +206,9 @@
     box.appendChild(table);
     const note = document.createElement("p");
     note.className = "meta";
-    note.textContent = `Values of every ${step}th cell (the one read is named above).`;
+    note.textContent = step > 1
+      ? `Values are kept for one cell in ${step} each way: the one read is named above.`
+      : "Values of the cell clicked.";
     box.appendChild(note);
   }
 

@@ -142,9 +142,16 @@ def _zone_outline(zones_path: Path, grid: Grid, shape: tuple[int, int]) -> np.nd
 
 
 def _scenario_layers(
-    out: Path, grid: Grid, shape: tuple[int, int], s: Any, class_names: list[str]
+    out: Path,
+    grid: Grid,
+    shape: tuple[int, int],
+    s: Any,
+    class_names: list[str],
+    ramps: list[tuple[Any, ...]],
 ) -> list[Layer]:
-    """The overlays of one scenario that its folder holds."""
+    """The overlays of one scenario that its folder holds; ``ramps``: the continuous
+    layers (file, key, title, log scale, the raster's codes as ``Special``, the value range
+    or None), as the scenario's own maps draw them."""
     from slopescreen.maps.outputs.quicklook import coloured_values
     from slopescreen.stability_classes import PF_CLASS_NAMES, classify_probability
 
@@ -178,22 +185,18 @@ def _scenario_layers(
                 [(_hex(c), n) for c, n in zip(hz, s.hazard_names, strict=True)],
             )
         )  # fmt: skip
-    ramps = (
-        (names.STORM_TIME_TO_FAILURE, "storm", "storm: hours until FS falls below 1", False),
-        (names.RECHARGE, "recharge", "critical steady recharge (mm/day)", True),
-    )
-    for file, key, title, log in ramps:
+    for file, key, title, log, specials, span in ramps:
         if not (folder / file).exists():
             continue
         values = _decimated(folder / file, shape).astype(np.float64)
-        values[values < 0.0] = np.nan  # codes: shown in the raster's own map
-        rgb, nodata, (lo, hi) = coloured_values(values, log=log)
+        rgb, nodata, (lo, hi) = coloured_values(values, log, specials, span)
         rgba = np.zeros((*shape, 4), np.uint8)
         rgba[..., :3] = np.round(rgb * 255).astype(np.uint8)
         rgba[..., 3] = np.where(nodata, 0, 235)
         layers.append(
             Layer(
                 f"{s.name}/{key}", s.name, title, rgba,
+                [(x.hex_colour, x.label) for x in specials],
                 ramp={"from": _hex(rgb_at(0.0)), "to": _hex(rgb_at(1.0)), "low": lo,
                       "high": hi, "log": log},
             )
@@ -228,9 +231,32 @@ def rgb_at(x: float) -> np.ndarray:
     return colours[min(int(x * 256), 255)]
 
 
+def _ramps(cfg: Any, name: str) -> list[tuple[Any, ...]]:
+    """The continuous layers of scenario ``name`` with the codes its rasters hold."""
+    from slopescreen.maps.outputs.quicklook import (
+        CRITICAL_RECHARGE_SPECIALS,
+        return_period_specials,
+        storm_specials,
+    )
+
+    sc = next(x for x in cfg.scenarios if x.name == name)
+    out: list[tuple[Any, ...]] = []
+    if sc.storm is not None:
+        out.append((names.STORM_TIME_TO_FAILURE, "storm", "storm: hours until FS falls below 1",
+                    False, storm_specials(sc.storm.later_h), (0.0, sc.storm.later_h)))  # fmt: skip
+    out.append((names.RECHARGE, "recharge", "critical steady recharge (mm/day)", True,
+                CRITICAL_RECHARGE_SPECIALS, None))  # fmt: skip
+    table = cfg.rainfall_frequency
+    if sc.rainfall is not None and table is not None:
+        t0, t1 = table.return_periods_yr[0], table.return_periods_yr[-1]
+        out.append((names.RETURN_PERIOD, "return", "return period of the rain that starts "
+                    "failure (yr)", True, return_period_specials(t0, t1), (t0, t1)))  # fmt: skip
+    return out
+
+
 def write_map_page(
     target: Path,
-    region_name: str,
+    cfg: Any,
     grid: Grid,
     out: Path,
     terrain_dir: Path,
@@ -239,7 +265,7 @@ def write_map_page(
     unit_labels: list[str],
 ) -> Path:
     """Write ``map.html``: every scenario's layers over the hillshade, soil units and
-    zones, values on a click (see the module docstring)."""
+    zones, values on a click (see the module docstring); ``cfg`` the run's Config."""
     from importlib import resources
 
     view_step = max(1, math.ceil(max(grid.height, grid.width) / VIEW_PIXELS))
@@ -264,7 +290,7 @@ def write_map_page(
     }
     per: dict[str, Any] = {}
     for s in scenarios:
-        layers += _scenario_layers(out, grid, shape, s, class_names)
+        layers += _scenario_layers(out, grid, shape, s, class_names, _ramps(cfg, s.name))
         folder = out / s.name
         grids = {
             "fs": _float_grid(folder / names.FS, grid, value_step),
@@ -286,7 +312,7 @@ def write_map_page(
               "legend": a.legend, "ramp": a.ramp, "overlay": a.overlay}
              for a in layers]  # fmt: skip
     data = {
-        "region": region_name,
+        "region": cfg.region.name,
         "cautions": list(CAUTIONS),
         "grid": where,
         "view": {"step": view_step, "rows": shape[0], "cols": shape[1]},
@@ -304,9 +330,9 @@ def write_map_page(
     page = (
         "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
         "<meta name='viewport' content='width=device-width, initial-scale=1'>"
-        f"<title>slopescreen map: {_esc(region_name)}</title><style>{style}</style></head>"
+        f"<title>slopescreen map: {_esc(cfg.region.name)}</title><style>{style}</style></head>"
         "<body><div id='app'><aside id='panel'>"
-        f"<h1>{_esc(region_name)}</h1><p class='caution'>{_esc(' '.join(CAUTIONS))}</p>"
+        f"<h1>{_esc(cfg.region.name)}</h1><p class='caution'>{_esc(' '.join(CAUTIONS))}</p>"
         "<div id='legend'></div><div id='readout'>Click the map to read a cell's values."
         "</div><div id='layers'></div><p class='meta'>Offline page written by slopescreen; "
         f"drag to pan, wheel or +/- to zoom. <a href='{names.REPORT}'>The report</a>.</p>"

@@ -439,7 +439,7 @@ def _run_locked(
                 state.outputs.append(REPORT)
                 write_map_page(
                     out / MAP_PAGE,
-                    cfg.region.name,
+                    cfg,
                     inputs.grid,
                     out,
                     out / TERRAIN_FOLDER,

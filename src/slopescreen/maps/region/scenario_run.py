@@ -816,14 +816,13 @@ def draw_scenario_maps(
     unit_areas: np.ndarray,
 ) -> dict[str, Path]:
     """Every map of one scenario in the house style; returns {what it shows: PNG path}."""
-    from slopescreen.maps.outputs.palette import FAILS_BEFORE_HEX, HOLDS_HEX
     from slopescreen.maps.outputs.quicklook import (
         CRITICAL_RECHARGE_SPECIALS,
         MapFrame,
-        Special,
         draw_classes,
         draw_values,
         read_for_map,
+        storm_specials,
     )
     from slopescreen.stability_classes import classify_probability
 
@@ -882,10 +881,7 @@ def draw_scenario_maps(
             f,
             out / STORM_TIME_TO_FAILURE,
             "hours after the storm began",
-            specials=(
-                Special(NOT_BY_LATER, HOLDS_HEX, f"holds to {sc.storm.later_h:g} h (code -1)"),
-                Special(FAILS_BEFORE_STORM, FAILS_BEFORE_HEX, "fails before the storm (code -2)"),
-            ),
+            specials=storm_specials(sc.storm.later_h),
             value_range=(0.0, sc.storm.later_h),
         )
     return maps
@@ -901,14 +897,12 @@ def draw_rainfall_maps(
     hazard_areas: np.ndarray,
 ) -> dict[str, Path]:
     """The hazard-class and return-period maps of a rainfall scenario."""
-    from slopescreen import rainfall_frequency as rf
-    from slopescreen.maps.outputs.palette import CLASS_HEX, FAILS_DRY_HEX, HOLDS_HEX, NO_RAIN_HEX
     from slopescreen.maps.outputs.quicklook import (
         MapFrame,
-        Special,
         draw_classes,
         draw_values,
         read_for_map,
+        return_period_specials,
     )
 
     table = cfg.rainfall_frequency
@@ -942,12 +936,7 @@ def draw_rainfall_maps(
         out / RETURN_PERIOD,
         "return period of the triggering storm (years, log scale)",
         log=True,
-        specials=(
-            Special(rf.FAILS_WITHOUT_RAIN, FAILS_DRY_HEX, "fails before any rain (code -3)"),
-            Special(rf.MORE_FREQUENT, CLASS_HEX[0], f"more often than 1 in {t0:g} yr (code -1)"),
-            Special(rf.RARER, HOLDS_HEX, f"rarer than 1 in {t1:g} yr (code -2)"),
-            Special(rf.NO_INTENSITY_FAILS, NO_RAIN_HEX, "no rain starts failure (code -4)"),
-        ),
+        specials=return_period_specials(t0, t1),
         value_range=(t0, t1),
     )
     return maps
