@@ -63,11 +63,18 @@ def test_the_map_page_in_a_real_browser(demo_out, tmp_path):
     assert found, "the page did not finish loading"
     probe = json.loads(found[1].replace("&lt;", "<").replace("&gt;", ">").replace("&amp;", "&"))
     assert probe["first"] != probe["second"]  # another layer, another picture
-    assert probe["layers"] >= 2 * len(data["scenarios"])
+    assert probe["second"] != probe["third"]  # another scenario, another picture
+    assert probe["scenarios"] == len(data["scenarios"]) and probe["layers"] >= 3
     shown = probe["shown"]
     assert shown["scenario"] == first
     assert shown["cell"].startswith(f"row {r}, column {c} ")
     assert shown["FS"] == f"{float(fs[r, c]):.3f}"
+    # another scenario chosen: the same cell's values in it
+    last = data["scenarios"][-1]
+    with rasterio.open(out / last / "fs.tif") as src:
+        fs_last = float(src.read(1)[r, c])
+    assert probe["after"]["scenario"] == last
+    assert probe["after"]["FS"] == f"{fs_last:.3f}"
     shot = tmp_path / "map.png"
     done = _browse(page.as_uri(), tmp_path, f"--screenshot={shot}")
     assert done.returncode == 0 and shot.exists()

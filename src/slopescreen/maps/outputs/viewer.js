@@ -64,10 +64,8 @@
   }
 
   function activeOverlays() {
-    const chosen = byId[state.layer];
-    const scenario = chosen ? chosen.scenario : "";
-    return data.layers.filter((l) => l.overlay && l.scenario === scenario &&
-      state.overlays.has(l.id.split("/").pop()));
+    return data.layers.filter((l) => l.overlay && l.scenario === state.scenario &&
+      state.overlays.has(kindOf(l.id)));
   }
 
   function legendFor(layer) {
@@ -113,30 +111,59 @@
     draw();
   }
 
+  function kindOf(id) {
+    return id.split("/").pop();
+  }
+
+  function radio(l, group) {
+    const label = document.createElement("label");
+    const input = document.createElement("input");
+    input.type = "radio";
+    input.name = "layer";
+    input.value = l.id;
+    input.id = "layer-" + l.id;
+    input.checked = l.id === state.layer;
+    input.addEventListener("change", () => choose(l.id));
+    label.appendChild(input);
+    label.appendChild(document.createTextNode(" " + l.title));
+    group.appendChild(label);
+  }
+
+  function showLayers() {
+    // the chosen scenario's layers, then the region's own
+    const group = document.getElementById("layer-list");
+    group.replaceChildren();
+    const main = data.layers.filter((l) => !l.overlay);
+    for (const l of main.filter((x) => x.scenario === state.scenario)) radio(l, group);
+    for (const l of main.filter((x) => !x.scenario)) radio(l, group);
+  }
+
   function buildPanel() {
     const panel = document.getElementById("layers");
-    const main = data.layers.filter((l) => !l.overlay);
-    let group = null, current = null;
-    for (const l of main) {
-      if (l.scenario !== current) {
-        current = l.scenario;
-        group = document.createElement("fieldset");
-        const legend = document.createElement("legend");
-        legend.textContent = l.scenario ? "scenario " + l.scenario : "region";
-        group.appendChild(legend);
-        panel.appendChild(group);
-      }
-      const label = document.createElement("label");
-      const input = document.createElement("input");
-      input.type = "radio";
-      input.name = "layer";
-      input.value = l.id;
-      input.id = "layer-" + l.id;
-      input.addEventListener("change", () => choose(l.id));
-      label.appendChild(input);
-      label.appendChild(document.createTextNode(" " + l.title));
-      group.appendChild(label);
-    }
+    const which = document.createElement("label");
+    which.className = "scenario";
+    which.textContent = "scenario ";
+    const select = document.createElement("select");
+    select.id = "scenario";
+    for (const name of data.scenarios) select.add(new Option(name, name));
+    which.appendChild(select);
+    panel.appendChild(which);
+    const group = document.createElement("fieldset");
+    group.id = "layer-list";
+    panel.appendChild(group);
+    state.scenario = data.scenarios[0];
+    state.layer = state.scenario + "/classes";
+    select.addEventListener("change", () => {
+      // the same kind of layer in the other scenario where it has one
+      const kind = state.layer.includes("/") ? kindOf(state.layer) : null;
+      state.scenario = select.value;
+      const same = kind && byId[state.scenario + "/" + kind];
+      if (kind) state.layer = same ? same.id : state.scenario + "/classes";
+      showLayers();
+      showLegend();
+      draw();
+      if (state.cell) showCell(...state.cell);
+    });
     const extra = document.createElement("fieldset");
     const legend = document.createElement("legend");
     legend.textContent = "on top (the chosen scenario's)";
@@ -157,9 +184,7 @@
       extra.appendChild(label);
     }
     panel.appendChild(extra);
-    const first = main.find((l) => l.scenario) || main[0];
-    document.getElementById("layer-" + first.id).checked = true;
-    state.layer = first.id;
+    showLayers();
   }
 
   function fmt(v, digits) {
@@ -173,11 +198,16 @@
     if (vx < 0 || vy < 0 || vx >= data.view.cols || vy >= data.view.rows) return;
     const row = Math.min(Math.floor(vy * data.grid.rows / data.view.rows), data.grid.rows - 1);
     const col = Math.min(Math.floor(vx * data.grid.cols / data.view.cols), data.grid.cols - 1);
+    state.cell = [row, col];
+    showCell(row, col);
+  }
+
+  function showCell(row, col) {
+    // the values of the cell, in the chosen scenario (shown again when it changes)
     const v = data.values, step = v.step;
     const i = Math.floor(row / step) * v.cols + Math.floor(col / step);
     const r = Math.floor(row / step) * step, c = Math.floor(col / step) * step;
-    const chosen = byId[state.layer];
-    const name = chosen && chosen.scenario ? chosen.scenario : data.scenarios[0];
+    const name = state.scenario;
     const s = state.values.scenarios[name] || {};
     const unit = state.values.region.unit[i];
     const cls = s.class ? s.class[i] : 0;
@@ -268,13 +298,17 @@
     canvas.dispatchEvent(new MouseEvent("mousedown", at));
     canvas.dispatchEvent(new MouseEvent("mouseup", at));
     canvas.dispatchEvent(new MouseEvent("click", at));
-    const shown = {};
-    for (const td of document.querySelectorAll("#readout td[data-key]")) {
-      shown[td.dataset.key] = td.textContent;
-    }
+    const read = () => Object.fromEntries([...document.querySelectorAll("#readout td[data-key]")]
+      .map((td) => [td.dataset.key, td.textContent]));
+    const shown = read();
+    const select = document.getElementById("scenario");
+    select.value = data.scenarios[data.scenarios.length - 1];
+    select.dispatchEvent(new Event("change"));
+    const third = pixelsDigest();
     const out = document.getElementById("probe");
-    out.textContent = JSON.stringify({ first, second, layers: radios.length,
-                                       switched: other.value, shown });
+    out.textContent = JSON.stringify({ first, second, third, layers: radios.length,
+                                       scenarios: select.options.length,
+                                       switched: other.value, shown, after: read() });
     out.hidden = false;
   }
 
