@@ -189,3 +189,23 @@ def test_tiles_do_not_change_the_runout(tmp_path, monkeypatch, source):
     zones = [gpd.read_file(o / "runout_zones.gpkg") for o in (one, many)]
     assert len(zones[0]) == len(zones[1])
     assert zones[0]["area_m2"].sum() == pytest.approx(zones[1]["area_m2"].sum(), rel=1e-12)
+
+
+def test_the_runout_map_is_read_once_at_the_maps_step(tmp_path, monkeypatch):
+    # a grid wider than a map's pixels: the map shows every step-th cell, as every other
+    # map does (read once at that step, not thinned again)
+    from slopescreen.maps.outputs import quicklook
+
+    monkeypatch.setattr(quicklook, "MAX_PIXELS", 20)  # 80 columns: a step of 4
+    drawn = []
+    real = quicklook.draw_classes
+
+    def spy(target, frame, classes, *args, **kwargs):
+        if target.name == "runout_reach.png":
+            drawn.append((classes.shape, frame.step))
+        return real(target, frame, classes, *args, **kwargs)
+
+    monkeypatch.setattr(quicklook, "draw_classes", spy)
+    toml, _ = _region(tmp_path, '[runout]\nscenarios = ["wet"]\ntravel_angle_deg = 20.0\n')
+    run(toml, tmp_path / "out", progress=False, echo=lambda s: None)
+    assert drawn == [((ROWS // 4, COLS // 4), 4)]

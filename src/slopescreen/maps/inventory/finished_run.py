@@ -131,8 +131,18 @@ def record_results(
     return write_text(run.out / MANIFEST, json.dumps(manifest, indent=2, allow_nan=False) + "\n")
 
 
+def _spliced(text: str, start: str, end: str, content: str) -> str | None:
+    """``text`` with what lies between the markers ``start`` and ``end`` replaced by
+    ``content``; None if the markers are not there."""
+    a, b = text.find(start), text.find(end)
+    if a < 0 or b < a:
+        return None
+    return text[: a + len(start)] + content + text[b:]
+
+
 def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
-    """Rewrite the validation section of report.html from the manifest (no report: none)."""
+    """Rewrite the validation section of report.html and the first screen's line of scores
+    from the manifest (no report: none)."""
     from slopescreen.maps.outputs.validation_report import (
         GLANCE_END,
         GLANCE_START,
@@ -146,17 +156,14 @@ def refresh_report(out: Path, manifest: dict[str, Any]) -> None:
     if not report.exists():
         return
     text = report.read_text(encoding="utf-8")
-    start, end = text.find(SECTION_START), text.find(SECTION_END)
-    if start < 0 or end < start:
+    section = _spliced(text, SECTION_START, SECTION_END, validation_section(manifest, out))
+    if section is None:
         raise InputError(
             f"{report}: no validation section (written by an older version); run again"
         )
-    section = validation_section(manifest, out)
-    text = text[: start + len(SECTION_START)] + section + text[end:]
-    start, end = text.find(GLANCE_START), text.find(GLANCE_END)
-    if start >= 0 and end > start:  # the first screen's line of scores
-        text = text[: start + len(GLANCE_START)] + glance_scores(manifest) + text[end:]
-    write_text(report, text)
+    # a report from before the first screen had scores keeps its other sections rewritten
+    scores = _spliced(section, GLANCE_START, GLANCE_END, glance_scores(manifest))
+    write_text(report, scores if scores is not None else section)
 
 
 @contextmanager

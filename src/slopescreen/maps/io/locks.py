@@ -2,8 +2,9 @@
 
 POSIX ``fcntl.flock`` (``msvcrt.locking`` on Windows) on a lock file; the lock goes with
 the process, so a killed run never leaves a folder locked. A folder's lock file stays once
-a run has written there; a run that stops on an error removes the lock file it created, so
-a refused run leaves the folder as it was.
+a run has written there; a run that stops on an error removes the lock file it created,
+and the folder too if it made it and left it empty, so a refused run leaves the disk as it
+was.
 """
 
 from __future__ import annotations
@@ -50,11 +51,12 @@ def _try_lock(fd: int, wait: bool) -> bool:
 
 
 @contextlib.contextmanager
-def folder_lock(folder: Path, holder: str) -> Iterator[None]:
+def folder_lock(folder: Path, holder: str, new_folder: bool = False) -> Iterator[None]:
     """Hold the output folder's lock, or raise InputError at once naming the holder.
 
     ``holder`` (for example "PID 123, started 2026-01-01T00:00:00Z") is written into the
-    lock file for the next run to quote.
+    lock file for the next run to quote. ``new_folder``: the caller made ``folder`` for this
+    run (removed on an error if nothing else is in it).
     """
     path = folder / FOLDER_LOCK
     created = not path.exists()
@@ -82,6 +84,9 @@ def folder_lock(folder: Path, holder: str) -> Iterator[None]:
             if created:  # still held: no other run is using this file
                 with contextlib.suppress(OSError):
                     path.unlink()
+                if new_folder:
+                    with contextlib.suppress(OSError):
+                        folder.rmdir()  # only an empty folder
             raise
         finally:
             os.ftruncate(fd, 0)  # at rest the file names nobody (no stale holder quoted)

@@ -84,13 +84,24 @@ def axis_labels(crs: object) -> tuple[str, str]:
     return f"Easting ({unit})", f"Northing ({unit})"
 
 
-def _decimated(path: Path, step: int) -> np.ndarray:
-    """The raster read at 1/step resolution (nearest; from its overviews where present)."""
+def map_step(grid: Grid) -> int:
+    """A map's step through the grid: at most MAX_PIXELS cells a side."""
+    return max(1, math.ceil(max(grid.height, grid.width) / MAX_PIXELS))
+
+
+def decimated_shape(height: int, width: int, step: int) -> tuple[int, int]:
+    """The shape of a grid of ``height`` x ``width`` cells read at 1/step resolution."""
+    return max(1, height // step), max(1, width // step)
+
+
+def decimated(path: Path, step: int) -> np.ndarray:
+    """The raster read at 1/step resolution (nearest; from its overviews where present):
+    for maps and the map page."""
     import rasterio
     from rasterio.enums import Resampling
 
     with rasterio.open(path) as src:
-        shape = (max(1, src.height // step), max(1, src.width // step))
+        shape = decimated_shape(src.height, src.width, step)
         return src.read(1, out_shape=shape, resampling=Resampling.nearest)
 
 
@@ -111,7 +122,7 @@ class MapFrame:
 
     @property
     def step(self) -> int:
-        return max(1, math.ceil(max(self.grid.height, self.grid.width) / MAX_PIXELS))
+        return map_step(self.grid)
 
 
 @dataclass
@@ -137,7 +148,7 @@ def relief_image(rgb: np.ndarray, hillshade: np.ndarray) -> np.ndarray:
 
 def read_for_map(path: Path, frame: MapFrame) -> np.ndarray:
     """A raster as a map of ``frame`` shows it (decimated to at most MAX_PIXELS a side)."""
-    return _decimated(path, frame.step)
+    return decimated(path, frame.step)
 
 
 def draw_classes(
@@ -233,7 +244,7 @@ def draw_values(
     from matplotlib.colors import ListedColormap, LogNorm, Normalize
     from matplotlib.patches import Patch
 
-    values = _decimated(value_path, frame.step).astype(np.float64)
+    values = decimated(value_path, frame.step).astype(np.float64)
     rgb, _, value_range = coloured_values(values, log, specials, value_range)
     norm = (LogNorm if log else Normalize)(*value_range, clip=True)
     cmap = ListedColormap(ramp(256))
@@ -267,7 +278,7 @@ def _map_panel(
     ax.imshow(image, extent=extent, interpolation="nearest")
     ax.set_aspect(aspect, anchor="NW")  # equal ground metres both ways at the map's centre
     if frame.soil_codes is not None:
-        codes = _decimated(frame.soil_codes, frame.step)[:h, :w]
+        codes = decimated(frame.soil_codes, frame.step)[:h, :w]
         for code in np.unique(codes[codes > 0]):
             ax.contour(
                 (codes == code).astype(float),
@@ -438,7 +449,7 @@ def _draw(
 
     grid = frame.grid
     notes = list(frame.notes)  # the frame itself is left as given
-    image = relief_image(rgb, _decimated(frame.hillshade, frame.step))
+    image = relief_image(rgb, decimated(frame.hillshade, frame.step))
     t = grid.transform
     mx, my, variation = ground_per_map_unit(grid)
     height_over_width = (grid.height * my * abs(t.e)) / (grid.width * mx * abs(t.a))  # type: ignore[attr-defined]

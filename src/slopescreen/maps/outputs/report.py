@@ -103,6 +103,13 @@ def _ha(value: float, total: float) -> str:
     return f"{value:,.2f} ha{share}"
 
 
+def _baseline(cfg: Config, scenarios: list[ScenarioSummary]) -> tuple[str, ScenarioSummary | None]:
+    """The baseline's name (``[comparison] baseline``, else the first scenario run) and its
+    summary (None when it did not run)."""
+    name = cfg.comparison.baseline or (scenarios[0].name if scenarios else "")
+    return name, next((s for s in scenarios if s.name == name), None)
+
+
 def _comparison(
     cfg: Config,
     class_names: list[str],
@@ -111,11 +118,10 @@ def _comparison(
     changes: list[ClassChange],
 ) -> list[str]:
     names = [s.name for s in scenarios]
-    base_name = cfg.comparison.baseline or names[0]
+    base_name, baseline = _baseline(cfg, scenarios)
     parts = ["<h2 id='comparison'>Scenario comparison</h2>"]
     if small_multiples is not None:
         parts.append(embedded_image(small_multiples, "factor-of-safety classes of every scenario"))
-    baseline = next((s for s in scenarios if s.name == base_name), None)
     if baseline is None:
         parts.append(f"<p>Baseline {esc(base_name)} was not run (--only): no changes shown.</p>")
     else:
@@ -294,9 +300,7 @@ def _glance(
     """The first screen: per scenario one row with the area failing and with a narrow
     margin, the change from the baseline, the largest zone and where it lies, and how often
     rain starts failure where that was computed."""
-    names = [s.name for s in scenarios]
-    base_name = cfg.comparison.baseline or (names[0] if names else "")
-    baseline = next((s for s in scenarios if s.name == base_name), None)
+    base_name, baseline = _baseline(cfg, scenarios)
     narrow = class_names[1] if len(class_names) > 1 else ""
     hazard = any(s.hazard_areas_ha is not None for s in scenarios)
     geographic = bool(getattr(grid, "geographic", False))

@@ -33,6 +33,7 @@ from slopescreen.maps.io.rasters import read_block, windows
 from slopescreen.maps.io.safe_writes import write_text
 from slopescreen.maps.outputs import output_names as names
 from slopescreen.maps.outputs.palette import class_rgb, hex_rgb, unit_rgb
+from slopescreen.maps.outputs.quicklook import decimated, decimated_shape
 
 VIEW_PIXELS = 1000  # overlays: at most this many cells a side
 VALUE_PIXELS = 256  # click values: at most this many cells a side
@@ -58,15 +59,6 @@ class Layer:
 def _hex(rgb: np.ndarray) -> str:
     r, g, b = (round(float(v) * 255) for v in rgb[:3])
     return f"#{r:02x}{g:02x}{b:02x}"
-
-
-def _decimated(path: Path, shape: tuple[int, int]) -> np.ndarray:
-    """The raster read at ``shape`` (nearest cell; from its overviews where present)."""
-    import rasterio
-    from rasterio.enums import Resampling
-
-    with rasterio.open(path) as src:
-        return src.read(1, out_shape=shape, resampling=Resampling.nearest)
 
 
 def _classes(codes: np.ndarray, colours: np.ndarray, alpha: int = 235) -> np.ndarray:
@@ -146,7 +138,7 @@ def _zone_outline(zones_path: Path, grid: Grid, shape: tuple[int, int]) -> np.nd
 def _scenario_layers(
     out: Path,
     grid: Grid,
-    shape: tuple[int, int],
+    step: int,
     s: Any,
     class_names: list[str],
     ramps: list[tuple[Any, ...]],
@@ -158,17 +150,18 @@ def _scenario_layers(
     from slopescreen.stability_classes import PF_CLASS_NAMES, classify_probability
 
     folder = out / s.name
+    shape = decimated_shape(grid.height, grid.width, step)
     layers = []
     colours = class_rgb(len(class_names))
     layers.append(
         Layer(
             f"{s.name}/classes", s.name, "stability classes (FS)",
-            _classes(_decimated(folder / names.STABILITY_CLASS, shape), colours),
+            _classes(decimated(folder / names.STABILITY_CLASS, step), colours),
             [(_hex(c), n) for c, n in zip(colours, class_names, strict=True)],
         )
     )  # fmt: skip
     if (folder / names.PROBABILITY).exists():
-        p = _decimated(folder / names.PROBABILITY, shape).astype(np.float64)
+        p = decimated(folder / names.PROBABILITY, step).astype(np.float64)
         p[p < 0.0] = np.nan
         pf_colours = class_rgb(len(PF_CLASS_NAMES))
         layers.append(
@@ -183,14 +176,14 @@ def _scenario_layers(
         layers.append(
             Layer(
                 f"{s.name}/hazard", s.name, "how often rain starts failure",
-                _classes(_decimated(folder / names.HAZARD_CLASS, shape), hz),
+                _classes(decimated(folder / names.HAZARD_CLASS, step), hz),
                 [(_hex(c), n) for c, n in zip(hz, s.hazard_names, strict=True)],
             )
         )  # fmt: skip
     for file, key, title, log, specials, span in ramps:
         if not (folder / file).exists():
             continue
-        values = _decimated(folder / file, shape).astype(np.float64)
+        values = decimated(folder / file, step).astype(np.float64)
         rgb, nodata, (lo, hi) = coloured_values(values, log, specials, span)
         rgba = np.zeros((*shape, 4), np.uint8)
         rgba[..., :3] = np.round(rgb * 255).astype(np.uint8)
@@ -204,7 +197,7 @@ def _scenario_layers(
             )
         )  # fmt: skip
     if (folder / names.RUNOUT_REACH).exists():
-        reach = _decimated(folder / names.RUNOUT_REACH, shape)
+        reach = decimated(folder / names.RUNOUT_REACH, step)
         rgba = np.zeros((*shape, 4), np.uint8)
         rgba[reach == 1, :3] = np.round(hex_rgb(RUNOUT_HEX) * 255).astype(np.uint8)
         rgba[reach == 1, 3] = 170
@@ -271,14 +264,14 @@ def write_map_page(
     from importlib import resources
 
     view_step = max(1, math.ceil(max(grid.height, grid.width) / VIEW_PIXELS))
-    shape = (max(1, grid.height // view_step), max(1, grid.width // view_step))
+    shape = decimated_shape(grid.height, grid.width, view_step)
     value_step = max(1, math.ceil(max(grid.height, grid.width) / VALUE_PIXELS))
-    shade = _decimated(terrain_dir / names.HILLSHADE, shape).astype(np.float64)
+    shade = decimated(terrain_dir / names.HILLSHADE, view_step).astype(np.float64)
     base = np.zeros((*shape, 4), np.uint8)
     grey = np.clip(np.nan_to_num(shade, nan=0.0), 0, 255).astype(np.uint8)
     base[..., 0] = base[..., 1] = base[..., 2] = grey
     base[..., 3] = np.where(np.isfinite(shade) & (shade > 0), 255, 0)
-    codes = _decimated(terrain_dir / names.SOIL_UNIT, shape)
+    codes = decimated(terrain_dir / names.SOIL_UNIT, view_step)
     ucol = unit_rgb(len(unit_labels))
     layers = [
         Layer("units", "", "soil units", _classes(codes, ucol, 200),
@@ -292,7 +285,7 @@ def write_map_page(
     }
     per: dict[str, Any] = {}
     for s in scenarios:
-        layers += _scenario_layers(out, grid, shape, s, class_names, _ramps(cfg, s.name))
+        layers += _scenario_layers(out, grid, view_step, s, class_names, _ramps(cfg, s.name))
         folder = out / s.name
         grids = {
             "fs": _float_grid(folder / names.FS, grid, value_step),

@@ -354,42 +354,9 @@ def run(
         raise InputError(f"{cache}: the cache must be a folder, found a file")
     new_folder = not out.exists()
     real_folder(out)
-    with _removed_if_refused(out, new_folder):
-        return _run_locked(cfg, chosen, out, cache, cache_dir, state, timings, started, progress,
-                           echo, workers, scheduler, extras)  # fmt: skip
-
-
-@contextlib.contextmanager
-def _removed_if_refused(out: Path, new_folder: bool) -> Iterator[None]:
-    """A run that stops on an error in a folder it created leaves no folder behind if
-    nothing else is in it (a refused run leaves the disk as it was)."""
-    try:
-        yield
-    except BaseException:
-        if new_folder:
-            with contextlib.suppress(OSError):
-                out.rmdir()  # only an empty folder
-        raise
-
-
-def _run_locked(
-    cfg: Config,
-    chosen: list,
-    out: Path,
-    cache: Path,
-    cache_dir: Path | None,
-    state: RunState,
-    timings: Timings,
-    started: float,
-    progress: bool,
-    echo: Echo,
-    workers: int,
-    scheduler: str | None,
-    extras: Extras | None,
-) -> Path:
     subfolders = [TERRAIN_FOLDER, COMPARISON_FOLDER, *(s.name for s in chosen)]
     _check_subfolders(out, subfolders if cache_dir is not None else [*subfolders, ".cache"])
-    with folder_lock(out, f"PID {os.getpid()}, started {state.started_utc}"):
+    with folder_lock(out, f"PID {os.getpid()}, started {state.started_utc}", new_folder):
         remove_stale_work(out, skip=cache.resolve())
         with (
             private_folder(out) as staging,

@@ -33,7 +33,7 @@ from slopescreen.maps.region.runners import Runner, serial_runner, side_by_side
 from slopescreen.maps.region.runout_config import RunoutSpec
 from slopescreen.maps.region.runout_tiles import SourceRule
 from slopescreen.maps.region.terrain_cache import NODATA_F32, ElevationSource
-from slopescreen.maps.terrain.tiled_reach import tile_outputs
+from slopescreen.maps.terrain.tiled_reach import UNREACHED, elevations, tile_outputs
 from slopescreen.maps.terrain.tiled_routing import Layout, Tile
 
 
@@ -172,9 +172,8 @@ class Stitched:
         return self.reached[t.index]
 
     def window(self, name: str, rows: slice, cols: slice) -> np.ndarray:
-        """``name`` (share or worst) over a window: 0 and +inf where nothing reached."""
-        out = np.full((rows.stop - rows.start, cols.stop - cols.start),
-                      0.0 if name == "share" else np.inf)  # fmt: skip
+        """``name`` (share or worst) over a window (``UNREACHED`` where nothing reached)."""
+        out = np.full((rows.stop - rows.start, cols.stop - cols.start), UNREACHED[name])
         for t in self.layout.tiles():
             r0, r1 = max(rows.start, t.r0), min(rows.stop, t.r1)
             c0, c1 = max(cols.start, t.c0), min(cols.stop, t.c1)
@@ -199,13 +198,10 @@ class Stitched:
 class Written:
     """What the raster pass gathers: reach area, cut-off cells and the map's cells."""
 
-    step: int
-    shown: tuple[int, int]
+    step: int  # the map's (quicklook.map_step)
+    shown: tuple[int, int]  # the map's cells (quicklook.decimated_shape)
     reach_m2: float = 0.0
     cut_off_cells: int = 0
-    share: np.ndarray = field(default_factory=lambda: np.zeros(0))
-    source: np.ndarray = field(default_factory=lambda: np.zeros(0, bool))
-    data: np.ndarray = field(default_factory=lambda: np.zeros(0, bool))
     travelled: list[np.ndarray] = field(default_factory=list)  # shares of reached non-sources
 
     def __post_init__(self) -> None:
@@ -246,7 +242,7 @@ def _write_rasters(
     stitched: Stitched,
 ) -> tuple[list[str], Written]:
     """The reach rasters, tile by tile, and what the zones, map and result need."""
-    from slopescreen.maps.outputs.quicklook import MAX_PIXELS
+    from slopescreen.maps.outputs.quicklook import decimated_shape, map_step
 
     tags = {
         "scenario": sc.name,
@@ -267,13 +263,15 @@ def _write_rasters(
                          resampling="nearest" if dtype == "uint8" else "average")
         for name, (dtype, nodata, what) in layers.items()
     }  # fmt: skip
-    step = max(1, math.ceil(max(grid.height, grid.width) / MAX_PIXELS))
-    written = Written(step, (max(1, grid.height // step), max(1, grid.width // step)))
+    step = map_step(grid)
+    written = Written(step, decimated_shape(grid.height, grid.width, step))
     with all_or_nothing(*sinks.values()):
         for t in stitched.layout.tiles():
             rows, cols = slice(t.r0, t.r1), slice(t.c0, t.c1)
             got = tile_outputs(stitched.folder, t, stitched.swept)
-            data = np.isfinite(dem(rows, cols))
+            data = np.isfinite(
+                elevations(dem, stitched.folder, t, grid.height, grid.width)[1:-1, 1:-1]
+            )
             share = np.where(data, got["share"], 0.0)
             reached = share > 0.0
             angle = np.degrees(np.arctan(np.minimum(got["tan_alpha"], 1e9)))
@@ -413,6 +411,7 @@ MAP_CLASSES = (  # the run-out map's classes, in blues apart from the stability 
 def _draw(
     cfg: Config, sc: Scenario, grid: Grid, out: Path, terrain_dir: Path, classes: np.ndarray
 ) -> Path:
+    """The run-out map of ``classes`` (:data:`MAP_CLASSES`, read at the map's step)."""
     from slopescreen.maps.outputs.output_names import HILLSHADE, SOIL_UNIT
     from slopescreen.maps.outputs.palette import hex_rgb
     from slopescreen.maps.outputs.quicklook import MapFrame, draw_classes
@@ -426,12 +425,10 @@ def _draw(
         zones=out / RUNOUT_ZONES,
         zones_label="run-out reach outline",
     )
-    step = frame.step
-    shown = classes[::step, ::step][: max(1, grid.height // step), : max(1, grid.width // step)]
     return draw_classes(
         out / RUNOUT_MAP,
         frame,
-        shown,
+        classes,  # at the frame's step already (Written.take)
         [name for name, _ in MAP_CLASSES],
         "run-out below failing ground",
         no_data_label="no data",

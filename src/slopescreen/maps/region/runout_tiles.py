@@ -19,7 +19,7 @@ from slopescreen.maps.region.runners import Runner
 from slopescreen.maps.region.runout_config import RunoutSpec
 from slopescreen.maps.region.terrain_cache import NODATA_F32, ElevationSource
 from slopescreen.maps.terrain import reach
-from slopescreen.maps.terrain.tiled_reach import SweepRules, sweep_tiles
+from slopescreen.maps.terrain.tiled_reach import SweepRules, elevations, sweep_tiles
 from slopescreen.maps.terrain.tiled_routing import Layout, Tile
 from slopescreen.runout import reach_ratio
 
@@ -65,7 +65,7 @@ def source_task(
     the labels and each cell's source value; returns per label its ground area, volume
     (area x soil depth), source weight and cells, and the labels on the tile's edges."""
     values = _read(rule.values, t)
-    z = dem(slice(t.r0, t.r1), slice(t.c0, t.c1))
+    z = elevations(dem, folder, t, grid.height, grid.width)[1:-1, 1:-1]
     if rule.kind == "probability":
         mask = np.isfinite(values) & (values > rule.threshold)
     elif rule.kind == "fs":

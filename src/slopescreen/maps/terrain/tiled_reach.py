@@ -94,9 +94,10 @@ def _framed_steps(steps: Callable, t: Tile) -> tuple[np.ndarray, np.ndarray]:
     return out[0], out[1]
 
 
-def _elevations(z_source: Callable, folder: Path, t: Tile, height: int, width: int) -> np.ndarray:
-    """The tile's elevations framed by one ring (NaN beyond the grid): read once, then
-    memory-mapped from the tile's work file (a round reads the pages its flow touches)."""
+def elevations(z_source: Callable, folder: Path, t: Tile, height: int, width: int) -> np.ndarray:
+    """The tile's elevations framed by one ring (NaN beyond the grid): read from the DEM
+    once (by whichever step of the run-out needs them first), then memory-mapped from the
+    tile's work file (a round reads the pages its flow touches)."""
     path = folder / f"t{t.index}-reach-z.npy"
     if not path.exists():
         z = framed_read(z_source, slice(t.r0, t.r1), slice(t.c0, t.c1), height, width)
@@ -119,7 +120,7 @@ def sweep_task(
     """One tile's sweep from its sources and what enters it (``entry``: inner flat
     indices and the merged state of each, or None); saves the cells it reached and
     returns what reached its ring: the ring cells' grid flat indices and states."""
-    z = _elevations(z_source, folder, t, height, width)
+    z = elevations(z_source, folder, t, height, width)
     col_step, row_step = _framed_steps(steps, t)
     h, w = t.shape
     state = {
@@ -249,12 +250,14 @@ def sweep_tiles(
     return swept, rounds
 
 
+# each output where no flow reached: no share, no angle, no source, not cut off
+UNREACHED = {"share": 0.0, "tan_alpha": np.inf, "worst": np.inf, "cut": 0}
+
+
 def _nothing(shape: tuple[int, int]) -> dict[str, np.ndarray]:
     return {
-        "share": np.zeros(shape),
-        "tan_alpha": np.full(shape, np.inf),
-        "worst": np.full(shape, np.inf),
-        "cut": np.zeros(shape, np.uint8),
+        name: np.full(shape, value, np.uint8 if name == "cut" else np.float64)
+        for name, value in UNREACHED.items()
     }
 
 
