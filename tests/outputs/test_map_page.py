@@ -88,7 +88,7 @@ def test_the_map_page_in_a_real_browser(demo_out, tmp_path):
 
 def test_value_grids_are_every_step_th_cell(tmp_path, monkeypatch):
     # the page's values are the raster's own cells, row 0 and column 0 first, whatever
-    # the tiles they are read in
+    # the tiles they are read in (reference: numpy's own strided slicing, z[::step, ::step])
     from region_files import write_raster
 
     from slopescreen.maps.io import rasters
